@@ -1,0 +1,26 @@
+"""peatburn: carbon and greenhouse gases released by smouldering tropical peat fires.
+
+Public API::
+
+    import peatburn
+    cfg = peatburn.load_config("config.toml")
+    result = peatburn.run(cfg, "out/")
+    result.total["carbon_smouldering_t"]
+"""
+
+__version__ = "0.1.0"
+
+from .config import RunConfig, load_config  # noqa: E402
+from .errors import PeatburnError  # noqa: E402
+
+
+def run(cfg, out_dir, **kwargs):
+    """Run a configuration (a :class:`RunConfig` or a path to a TOML file); see :func:`peatburn.runner.run`."""
+    from .runner import run as _run
+
+    if not isinstance(cfg, RunConfig):
+        cfg = load_config(cfg)
+    return _run(cfg, out_dir, **kwargs)
+
+
+__all__ = ["__version__", "load_config", "run", "RunConfig", "PeatburnError"]

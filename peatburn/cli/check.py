@@ -1,0 +1,47 @@
+from __future__ import annotations
+
+import json
+
+import click
+
+from .options import config_argument, handle_errors
+
+
+@click.command("check")
+@config_argument
+@click.option("--against", "against", type=click.Path(dir_okay=False, exists=True), default=None,
+              help="A provenance.json: tell whether the inputs still match it.")
+@handle_errors
+def check_cmd(config, against):
+    """Validate CONFIG and its inputs and print what a run would do, without running it."""
+    from ..config import load_config
+    from ..factors import load_factor_set, load_gwp_set
+    from ..outputs.provenance import check_against
+    from ..pipeline import open_inputs
+
+    cfg = load_config(config)
+    sm = load_factor_set(cfg.factors.smouldering, "smouldering")
+    gwp = load_gwp_set(cfg.factors.gwp)
+    inputs = open_inputs(cfg)
+    g = inputs.grid
+    click.echo(f"run: {cfg.name}")
+    click.echo(f"grid: {g.width} x {g.height} px of {g.res[0]:g} x {g.res[1]:g} in {g.crs.to_string()}; "
+               f"{len(g.windows(cfg.block_size))} blocks of {cfg.block_size} px")
+    for key, info in inputs.rasters.items():
+        aligned = "on grid" if (info.crs == g.crs and info.transform == g.transform) else "warped onto grid"
+        click.echo(f"raster {key}: {info.path} ({info.width} x {info.height}, nodata {info.nodata}, {aligned})")
+    click.echo(f"burn scars: {len(inputs.scars.frame)} polygons from {cfg.burned_area}")
+    for z, layer, ids in inputs.zones:
+        click.echo(f"zones {z.name}: {len(ids)} polygons, id field {z.id!r}")
+    click.echo(f"depth: two surveys {cfg.survey.interval_years:g} yr apart; subsidence "
+               f"{'raster' if hasattr(cfg.survey.subsidence_rate, 'path') else cfg.survey.subsidence_rate}; "
+               f"co-registration on stable ground ({'polygons' if cfg.survey.stable else 'outside scars buffered by %g m' % cfg.survey.stable_buffer_m})")
+    click.echo(f"smouldering factors: {sm.name} ({sm.citation}); GWP: {gwp.name}")
+    for n in inputs.notes:
+        click.echo(f"note: {n}")
+    if against:
+        with open(against, encoding="utf-8") as fh:
+            record = json.load(fh)
+        check_against(record)
+        click.echo(f"inputs match {against}")
+    click.echo("ok: the configuration is valid")

@@ -1,0 +1,35 @@
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from .options import handle_errors, overwrite_option, quiet_option, workers_option
+
+
+@click.command("demo")
+@click.option("--out", "out_dir", type=click.Path(file_okay=False), default="demo_output", show_default=True,
+              help="Folder for the demo's results.")
+@click.option("--inputs", "inputs_dir", type=click.Path(file_okay=False), default=None,
+              help="Folder for the generated demo inputs [default: OUT/inputs].")
+@overwrite_option
+@workers_option
+@quiet_option
+@handle_errors
+def demo_cmd(out_dir, inputs_dir, overwrite, workers, quiet):
+    """Generate the invented demo region and run the whole pipeline on it.
+
+    Every name and number of the demo is invented; no real place, company or person is shown.
+    """
+    from ..config import load_config
+    from ..demo import make_demo_region
+    from ..runner import prepare_out_dir, run
+    from .summary import print_summary
+
+    out = Path(out_dir)
+    prepare_out_dir(out, overwrite)
+    region = make_demo_region(Path(inputs_dir) if inputs_dir else out / "inputs")
+    result = run(load_config(region.config_path), out / "results", overwrite=True, workers=workers)
+    if not quiet:
+        print_summary(result)
+        click.echo(f"report: {result.files['report']}")

@@ -1,0 +1,25 @@
+"""The peatburn command line: one verb per module of this package."""
+
+from __future__ import annotations
+
+import click
+
+from .. import __version__
+from .check import check_cmd
+from .demo import demo_cmd
+from .factors import factors_cmd
+from .run import run_cmd
+
+
+@click.group()
+@click.version_option(__version__, prog_name="peatburn")
+@click.option("--debug", is_flag=True, default=False, help="Show tracebacks of errors.")
+def cli(debug):
+    """peatburn: carbon and greenhouse gases released by smouldering tropical peat fires,
+    reported apart from flaming emissions."""
+
+
+cli.add_command(run_cmd)
+cli.add_command(check_cmd)
+cli.add_command(demo_cmd)
+cli.add_command(factors_cmd)

@@ -1,0 +1,238 @@
+"""Open and check rasters, and read them aligned onto the run grid, one window at a time.
+
+A :class:`RasterSource` is a small picklable description (path, unit scale, optional corrected
+georeferencing); :func:`open_reader` turns it into a :class:`GridReader` inside whichever process
+reads. Reads return float64 arrays with NaN for nodata (the one in-memory nodata convention).
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from dataclasses import dataclass, field
+
+import numpy as np
+import rasterio
+from affine import Affine
+from rasterio.enums import Resampling
+from rasterio.errors import RasterioIOError
+from rasterio.vrt import WarpedVRT
+from rasterio.windows import Window, from_bounds
+
+from ..errors import CRSError, GridError, InputFileError, MissingInputError
+from ..grid import RunGrid, normalise_crs
+
+
+@dataclass(frozen=True)
+class RasterInfo:
+    """What :func:`inspect_raster` found in a raster file."""
+
+    path: str
+    crs: object
+    transform: Affine
+    width: int
+    height: int
+    count: int
+    dtype: str
+    nodata: float | None
+    block_shapes: tuple
+    units: str | None
+
+    @property
+    def res(self):
+        return (abs(self.transform.a), abs(self.transform.e))
+
+
+def inspect_raster(path, what: str = "raster") -> RasterInfo:
+    """Open ``path`` and check it can serve as a peatburn input.
+
+    Raises
+    ------
+    MissingInputError
+        The file does not exist.
+    InputFileError
+        The file cannot be read as a raster (truncated, corrupt, not a raster).
+    CRSError
+        The raster has no CRS.
+    """
+    path = os.fspath(path)
+    if not os.path.exists(path):
+        raise MissingInputError(f"{what}: file not found: {path}; check the path (paths are relative to the config file)")
+    try:
+        with rasterio.open(path) as ds:
+            if ds.crs is None:
+                raise CRSError(
+                    f"{what}: {path} has no CRS; set it (e.g. `gdal_edit.py -a_srs EPSG:32749 {path}`) and re-run"
+                )
+            if ds.transform.b != 0 or ds.transform.d != 0:
+                pass  # rotated grids are warped like any other
+            info = RasterInfo(
+                path=path,
+                crs=normalise_crs(ds.crs, f"{what} ({path})"),
+                transform=ds.transform,
+                width=ds.width,
+                height=ds.height,
+                count=ds.count,
+                dtype=ds.dtypes[0],
+                nodata=ds.nodata,
+                block_shapes=tuple(ds.block_shapes),
+                units=(ds.units[0] or None) if ds.units else None,
+            )
+            # touch one pixel so that a truncated file fails here, not half-way through a run
+            ds.read(1, window=Window(0, 0, 1, 1))
+            ds.read(1, window=Window(ds.width - 1, ds.height - 1, 1, 1))
+    except (CRSError, MissingInputError):
+        raise
+    except (RasterioIOError, rasterio.errors.RasterioError, OSError) as exc:
+        raise InputFileError(f"{what}: cannot read {path} as a raster ({str(exc).splitlines()[0]}); "
+                             f"check the file is a complete GeoTIFF (re-export or re-download it)") from None
+    if info.nodata is None and np.dtype(info.dtype).kind != "f":
+        # integer rasters without nodata: every value is data; that is allowed but noted by callers
+        pass
+    return info
+
+
+def grid_from_raster(info: RasterInfo, crs=None) -> RunGrid:
+    """The run grid of a raster: its own grid, or the same extent and resolution in ``crs``."""
+    if crs is None or normalise_crs(crs, "run crs") == info.crs:
+        return RunGrid(info.crs, info.transform, info.width, info.height)
+    from rasterio.warp import calculate_default_transform
+
+    dst = normalise_crs(crs, "run crs")
+    left = info.transform.c
+    top = info.transform.f
+    right = left + info.transform.a * info.width
+    bottom = top + info.transform.e * info.height
+    t, w, h = calculate_default_transform(info.crs, dst, info.width, info.height, left, bottom, right, top)
+    return RunGrid(dst, t, w, h)
+
+
+@dataclass(frozen=True)
+class RasterSource:
+    """A picklable description of one raster input as the run reads it.
+
+    Attributes
+    ----------
+    path : str
+    what : str
+        The config key, used in messages.
+    scale : float
+        Multiplier from the file's unit to the documented unit.
+    src_transform : Affine or None
+        Corrected georeferencing (co-registration); None keeps the file's own.
+    resampling : str or None
+        Rasterio resampling name; None chooses bilinear, or average when the source is finer than
+        the grid.
+    """
+
+    path: str
+    what: str
+    scale: float = 1.0
+    src_transform: Affine | None = None
+    resampling: str | None = None
+    band: int = 1
+
+
+def _same_grid_offset(ds, grid: RunGrid, src_transform) -> tuple[int, int] | None:
+    """Integer pixel offset of the grid in ``ds`` when both share CRS and pixel lattice, else None."""
+    t = src_transform or ds.transform
+    g = grid.transform
+    if ds.crs != grid.crs or t.b != 0 or t.d != 0 or g.b != 0 or g.d != 0:
+        return None
+    if not (math.isclose(t.a, g.a, rel_tol=1e-9) and math.isclose(t.e, g.e, rel_tol=1e-9)):
+        return None
+    col = (g.c - t.c) / t.a
+    row = (g.f - t.f) / t.e
+    if abs(col - round(col)) > 1e-6 or abs(row - round(row)) > 1e-6:
+        return None
+    return int(round(row)), int(round(col))
+
+
+class GridReader:
+    """Read one band of a raster onto the run grid, window by window.
+
+    Aligned inputs (same CRS and pixel lattice) are read directly; others through a
+    :class:`rasterio.vrt.WarpedVRT` (GDAL's warper, windowed), so no read needs the whole raster.
+    """
+
+    def __init__(self, source: RasterSource, grid: RunGrid):
+        self.source = source
+        self.grid = grid
+        try:
+            self._ds = rasterio.open(source.path)
+        except RasterioIOError as exc:
+            raise InputFileError(f"{source.what}: cannot read {source.path} ({exc})") from None
+        self._nodata = self._ds.nodata
+        self._offset = _same_grid_offset(self._ds, grid, source.src_transform)
+        self._vrt = None
+        if self._offset is None:
+            res_src = abs((source.src_transform or self._ds.transform).a)
+            if source.resampling:
+                resampling = Resampling[source.resampling]
+            elif self._ds.crs == grid.crs and res_src < 0.75 * grid.res[0]:
+                resampling = Resampling.average
+            else:
+                resampling = Resampling.bilinear
+            kwargs = dict(crs=grid.crs, transform=grid.transform, width=grid.width, height=grid.height,
+                          resampling=resampling, dtype="float64", nodata=np.nan)
+            if source.src_transform is not None:
+                kwargs["src_transform"] = source.src_transform
+            if self._nodata is not None:
+                kwargs["src_nodata"] = self._nodata
+            self._vrt = WarpedVRT(self._ds, **kwargs)
+
+    def read(self, window: Window) -> np.ndarray:
+        """Values of ``window`` of the run grid [documented unit], NaN where no data."""
+        b = self.source.band
+        if self._vrt is None:
+            r0, c0 = self._offset
+            src_win = Window(window.col_off + c0, window.row_off + r0, window.width, window.height)
+            arr = self._ds.read(b, window=src_win, boundless=True, masked=True,
+                                fill_value=self._nodata if self._nodata is not None else 0)
+            if self._nodata is None:
+                # boundless areas are outside the file: mark them missing
+                arr = np.ma.masked_array(arr, mask=_outside_mask(src_win, self._ds.width, self._ds.height))
+        else:
+            arr = self._vrt.read(b, window=window, masked=True)
+        out = np.ma.filled(arr.astype("float64"), np.nan)
+        if self.source.scale != 1.0:
+            out *= self.source.scale
+        return out
+
+    def close(self):
+        if self._vrt is not None:
+            self._vrt.close()
+        self._ds.close()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()
+
+
+def _outside_mask(win: Window, width: int, height: int) -> np.ndarray:
+    rows = np.arange(int(win.row_off), int(win.row_off + win.height))
+    cols = np.arange(int(win.col_off), int(win.col_off + win.width))
+    return ((rows < 0) | (rows >= height))[:, None] | ((cols < 0) | (cols >= width))[None, :]
+
+
+def read_on_grid(source: RasterSource, grid: RunGrid) -> np.ndarray:
+    """Read a whole (small, e.g. decimated) grid at once. For sampling passes only."""
+    with GridReader(source, grid) as r:
+        return r.read(Window(0, 0, grid.width, grid.height))
+
+
+def check_overlap(info: RasterInfo, grid: RunGrid, what: str) -> None:
+    """Raise GridError when the raster's footprint does not meet the run grid."""
+    from rasterio.warp import transform_bounds
+
+    left = info.transform.c
+    top = info.transform.f
+    right = left + info.transform.a * info.width
+    bottom = top + info.transform.e * info.height
+    b = transform_bounds(info.crs, grid.crs, min(left, right), min(top, bottom), max(left, right), max(top, bottom))
+    g = grid.bounds
+    if b[0] >= g[2] or b[2] <= g[0] or b[1] >= g[3] or b[3] <= g[1]:
+        raise GridError(f"{what}: {info.path} does not overlap the run grid (bounds {tuple(round(v) for v in b)} "
+                        f"vs grid {tuple(round(v) for v in g)}); check its CRS and extent")

@@ -1,0 +1,154 @@
+"""Atomic writers: every output is written under a temporary name and renamed when complete.
+
+Rasters are written block by block into a tiled GeoTIFF, then copied to a Cloud Optimized
+GeoTIFF with GDAL's COG driver reading that tiled file (the copy streams by blocks; the COG
+driver's direct-create path would buffer the whole raster, which we avoid).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import csv
+import hashlib
+import json
+import math
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+import rasterio
+import rasterio.shutil
+
+from ..grid import RunGrid
+
+RASTER_NODATA = -9999.0  # on-disk nodata of float outputs (in memory: NaN)
+
+
+@contextlib.contextmanager
+def atomic_path(final: Path | str, suffix: str = ""):
+    """Yield a temporary path beside ``final``; rename it onto ``final`` only if the block succeeds."""
+    final = Path(final)
+    final.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{final.name}.", suffix=suffix + ".part", dir=final.parent)
+    os.close(fd)
+    tmp = Path(tmp)
+    try:
+        yield tmp
+        os.replace(tmp, final)
+    except BaseException:
+        with contextlib.suppress(FileNotFoundError):
+            tmp.unlink()
+        raise
+
+
+def write_text(final, text: str) -> Path:
+    with atomic_path(final) as tmp:
+        tmp.write_text(text, encoding="utf-8")
+    return Path(final)
+
+
+def write_json(final, obj) -> Path:
+    return write_text(final, json.dumps(_jsonable(obj), indent=2, sort_keys=False, allow_nan=False) + "\n")
+
+
+def write_csv(final, rows: list[dict], columns: list[str]) -> Path:
+    with atomic_path(final) as tmp:
+        with open(tmp, "w", newline="", encoding="utf-8") as fh:
+            w = csv.DictWriter(fh, fieldnames=columns, extrasaction="ignore", lineterminator="\n")
+            w.writeheader()
+            for row in rows:
+                w.writerow({k: _fmt(row.get(k)) for k in columns})
+    return Path(final)
+
+
+def _fmt(v):
+    if isinstance(v, (float, np.floating)):
+        if not math.isfinite(v):
+            return ""
+        return repr(float(round(float(v), 9)))
+    return "" if v is None else v
+
+
+def _jsonable(obj):
+    if isinstance(obj, dict):
+        return {str(k): _jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_jsonable(v) for v in obj]
+    if isinstance(obj, (np.floating, float)):
+        f = float(obj)
+        return f if math.isfinite(f) else None
+    if isinstance(obj, np.integer):
+        return int(obj)
+    if isinstance(obj, np.bool_):
+        return bool(obj)
+    if isinstance(obj, Path):
+        return str(obj)
+    return obj
+
+
+class BlockRasterWriter:
+    """Write a float32 raster of the run grid block by block; finish into a COG atomically.
+
+    Use as a context manager; :meth:`write` takes a window and an array with NaN for nodata.
+    On error the temporary files are removed and nothing appears under the final name.
+    """
+
+    def __init__(self, final: Path | str, grid: RunGrid, *, description: str = "", units: str = "",
+                 block_size: int = 512):
+        self.final = Path(final)
+        self.grid = grid
+        self.final.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(prefix=f".{self.final.name}.", suffix=".tiled.tif", dir=self.final.parent)
+        os.close(fd)
+        self._tiled = Path(tmp)
+        bs = 256 if block_size % 256 else min(block_size, 512)
+        profile = dict(driver="GTiff", width=grid.width, height=grid.height, count=1, dtype="float32",
+                       crs=grid.crs, transform=grid.transform, nodata=RASTER_NODATA, tiled=True,
+                       blockxsize=bs, blockysize=bs, compress="deflate", predictor=3,
+                       BIGTIFF="IF_SAFER")
+        self._ds = rasterio.open(self._tiled, "w", **profile)
+        if description:
+            self._ds.set_band_description(1, description)
+        if units:
+            self._ds.update_tags(1, units=units)
+            self._ds.units = (units,)
+
+    def write(self, window, array: np.ndarray):
+        a = np.where(np.isfinite(array), array, RASTER_NODATA).astype("float32")
+        self._ds.write(a, 1, window=window)
+
+    def close(self, ok: bool = True):
+        self._ds.close()
+        try:
+            if ok:
+                with atomic_path(self.final, suffix=".tif") as tmp:
+                    rasterio.shutil.copy(self._tiled, tmp, driver="COG", COMPRESS="DEFLATE", PREDICTOR="YES",
+                                         BLOCKSIZE="512", BIGTIFF="IF_SAFER", OVERVIEWS="AUTO", NUM_THREADS="1")
+        finally:
+            with contextlib.suppress(FileNotFoundError):
+                self._tiled.unlink()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, exc_type, exc, tb):
+        self.close(ok=exc_type is None)
+
+
+def sha256_of(path, chunk: int = 1 << 20) -> str:
+    """SHA-256 of a file, read in chunks (constant memory)."""
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        while True:
+            b = fh.read(chunk)
+            if not b:
+                break
+            h.update(b)
+    return h.hexdigest()
+
+
+def file_record(path) -> dict:
+    """Path, size and SHA-256 of one input file (a GeoPackage's or shapefile's sidecars are not followed)."""
+    p = Path(path)
+    return {"path": str(p), "size_bytes": p.stat().st_size, "sha256": sha256_of(p)}

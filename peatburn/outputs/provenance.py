@@ -1,0 +1,107 @@
+"""The provenance record: what was run, on which inputs (with SHA-256), with which parameters,
+factor sets and citations, so that an auditor can re-run it and check the inputs still match.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import platform
+import sys
+from importlib import metadata
+from pathlib import Path
+
+from ..errors import ProvenanceMismatch
+from ..io.writers import file_record
+
+DEPENDENCIES = ("numpy", "scipy", "rasterio", "geopandas", "shapely", "pyproj", "pint", "xdem", "click")
+
+
+def versions() -> dict:
+    out = {"python": sys.version.split()[0], "platform": platform.platform()}
+    for name in ("peatburn",) + DEPENDENCIES:
+        try:
+            out[name] = metadata.version(name)
+        except metadata.PackageNotFoundError:
+            out[name] = None
+    try:
+        import rasterio
+
+        out["gdal"] = rasterio.__gdal_version__
+    except Exception:  # pragma: no cover
+        pass
+    return out
+
+
+def _sidecars(path: Path) -> list[Path]:
+    if path.suffix.lower() == ".shp":
+        return [p for p in path.parent.glob(path.stem + ".*") if p != path]
+    return []
+
+
+def input_records(paths: dict) -> dict:
+    """key -> path, size and SHA-256 of each input (and a shapefile's sidecar files)."""
+    out = {}
+    for key, p in paths.items():
+        p = Path(p)
+        rec = file_record(p)
+        side = _sidecars(p)
+        if side:
+            rec["sidecars"] = [file_record(s) for s in sorted(side)]
+        out[key] = rec
+    return out
+
+
+def build(cfg, grid, alignment, smouldering, flaming, gwp, extra: dict | None = None) -> dict:
+    """The provenance.json content of a run."""
+    return {
+        "tool": "peatburn",
+        "created_utc": dt.datetime.now(dt.timezone.utc).replace(microsecond=0).isoformat(),
+        "versions": versions(),
+        "config_file": str(cfg.source) if cfg.source else None,
+        "config": cfg.raw,
+        "inputs": input_records(cfg.input_paths()),
+        "grid": grid.to_dict(),
+        "parameters": {
+            "survey_interval_years": {"value": cfg.survey.interval_years, "unit": "yr"},
+            "stable_buffer_m": {"value": cfg.survey.stable_buffer_m, "unit": "m"},
+            "level_of_detection_t": {"value": cfg.survey.lod_t, "unit": "1"},
+            "block_size": {"value": cfg.block_size, "unit": "px"},
+            "coregistration": alignment.to_dict(),
+        },
+        "emission_factors": {"smouldering": _set(smouldering), "flaming": _set(flaming)},
+        "gwp": {"name": gwp.name, "citation": gwp.citation, "values": gwp.gwp, "status": gwp.status},
+        "seed": cfg.uncertainty.seed,
+        "draws": cfg.uncertainty.draws,
+        **(extra or {}),
+    }
+
+
+def _set(fs) -> dict:
+    return {"name": fs.name, "phase": fs.phase, "citation": fs.citation, "doi": fs.doi,
+            "factors_g_per_kg": fs.ef, "sd_g_per_kg": fs.sd, "status": fs.status,
+            "source_path": fs.source_path}
+
+
+def compare_inputs(record: dict, base: Path | None = None) -> list[str]:
+    """Differences between the inputs named in a provenance record and the files on disk now.
+
+    Returns a list of one-line findings (empty when everything matches).
+    """
+    problems = []
+    for key, rec in record.get("inputs", {}).items():
+        p = Path(rec["path"])
+        if not p.is_absolute() and base is not None:
+            p = base / p
+        if not p.exists():
+            problems.append(f"{key}: {p} is missing")
+            continue
+        now = file_record(p)
+        if now["sha256"] != rec["sha256"]:
+            problems.append(f"{key}: {p} has changed (SHA-256 {now['sha256'][:12]}… != recorded {rec['sha256'][:12]}…)")
+    return problems
+
+
+def check_against(record: dict) -> None:
+    problems = compare_inputs(record)
+    if problems:
+        raise ProvenanceMismatch("inputs do not match the provenance record: " + "; ".join(problems))

@@ -1,0 +1,96 @@
+"""Reading rasters onto the run grid by window, checked against rasterio.warp.reproject (whole array)."""
+
+import numpy as np
+import pytest
+import rasterio
+from rasterio.crs import CRS
+from rasterio.enums import Resampling
+from rasterio.transform import from_origin
+from rasterio.warp import reproject
+from rasterio.windows import Window
+
+from peatburn.errors import CRSError, InputFileError, MissingInputError
+from peatburn.grid import RunGrid
+from peatburn.io.rasters import GridReader, RasterSource, inspect_raster
+
+
+def _write(path, arr, transform, crs="EPSG:32749", nodata=-9999.0):
+    with rasterio.open(path, "w", driver="GTiff", width=arr.shape[1], height=arr.shape[0], count=1,
+                       dtype="float32", crs=crs, transform=transform, nodata=nodata) as ds:
+        ds.write(arr.astype("float32"), 1)
+
+
+def _blocks(reader, grid, block):
+    out = np.full(grid.shape, np.nan)
+    for w in grid.windows(block):
+        out[int(w.row_off):int(w.row_off + w.height), int(w.col_off):int(w.col_off + w.width)] = reader.read(w)
+    return out
+
+
+def test_aligned_read_equals_file(tmp_path):
+    arr = np.arange(37 * 53, dtype="float32").reshape(37, 53)
+    arr[3, 4] = -9999
+    t = from_origin(1000, 2000, 2, 2)
+    _write(tmp_path / "a.tif", arr, t)
+    grid = RunGrid(CRS.from_epsg(32749), t, 53, 37)
+    with GridReader(RasterSource(str(tmp_path / "a.tif"), "a", scale=2.0), grid) as r:
+        got = _blocks(r, grid, 16)
+    exp = np.where(arr == -9999, np.nan, arr * 2.0)
+    np.testing.assert_array_equal(got, exp)
+
+
+def test_offset_and_partial_cover_read(tmp_path):
+    arr = np.ones((10, 10), "float32")
+    _write(tmp_path / "small.tif", arr, from_origin(1010, 1990, 2, 2))  # 5 px right, 5 px down of grid origin
+    grid = RunGrid(CRS.from_epsg(32749), from_origin(1000, 2000, 2, 2), 30, 30)
+    with GridReader(RasterSource(str(tmp_path / "small.tif"), "s"), grid) as r:
+        got = _blocks(r, grid, 7)
+    assert np.isnan(got[:5]).all() and np.isnan(got[:, :5]).all()
+    assert (got[5:15, 5:15] == 1).all() and np.isnan(got[15:]).all()
+
+
+def test_windowed_warp_matches_whole_array_reproject(tmp_path):
+    """Blocks read through the windowed warper equal rasterio.warp.reproject of the whole array
+    (the reference: GDAL's warper run once on everything)."""
+    yy, xx = np.mgrid[0:60, 0:70]
+    arr = (np.sin(xx / 5.0) + np.cos(yy / 7.0)).astype("float32")
+    src_t = from_origin(500_000, 9_800_000, 3, 3)
+    _write(tmp_path / "s.tif", arr, src_t)
+    grid = RunGrid(CRS.from_epsg(32749), from_origin(500_010.5, 9_799_990.5, 2, 2), 80, 70)
+    with GridReader(RasterSource(str(tmp_path / "s.tif"), "s", resampling="bilinear"), grid) as r:
+        got = _blocks(r, grid, 32)
+    ref = np.full(grid.shape, np.nan, "float64")
+    reproject(arr.astype("float64"), ref, src_transform=src_t, src_crs="EPSG:32749", src_nodata=-9999.0,
+              dst_transform=grid.transform, dst_crs=grid.crs, dst_nodata=np.nan, resampling=Resampling.bilinear)
+    ok = np.isfinite(ref) & np.isfinite(got)
+    assert ok.mean() > 0.9
+    np.testing.assert_allclose(got[ok], ref[ok], atol=1e-5)
+
+
+def test_reprojected_read_from_geographic(tmp_path):
+    arr = np.full((50, 50), 7.0, "float32")
+    _write(tmp_path / "g.tif", arr, from_origin(113.0, -2.0, 0.001, 0.001), crs="EPSG:4326")
+    from pyproj import Transformer
+
+    x, y = Transformer.from_crs(4326, 32749, always_xy=True).transform(113.02, -2.02)  # inside the lon/lat box
+    grid = RunGrid(CRS.from_epsg(32749), from_origin(x, y, 10, 10), 4, 4)
+    with GridReader(RasterSource(str(tmp_path / "g.tif"), "g"), grid) as r:
+        got = r.read(Window(0, 0, 4, 4))
+    assert np.isfinite(got).all() and np.allclose(got, 7.0)
+
+
+def test_inspect_errors(tmp_path):
+    with pytest.raises(MissingInputError, match="file not found"):
+        inspect_raster(tmp_path / "nope.tif", "depth.survey.pre")
+    _write(tmp_path / "nocrs.tif", np.ones((4, 4)), from_origin(0, 4, 1, 1), crs=None)
+    with pytest.raises(CRSError, match="has no CRS"):
+        inspect_raster(tmp_path / "nocrs.tif", "peat.thickness")
+    good = tmp_path / "good.tif"
+    _write(good, np.ones((300, 300)), from_origin(0, 300, 1, 1))
+    data = good.read_bytes()
+    (tmp_path / "cut.tif").write_bytes(data[: len(data) // 3])
+    with pytest.raises(InputFileError, match="cannot read"):
+        inspect_raster(tmp_path / "cut.tif", "depth.survey.post")
+    (tmp_path / "text.tif").write_text("not a raster")
+    with pytest.raises(InputFileError):
+        inspect_raster(tmp_path / "text.tif", "x")

@@ -1,0 +1,64 @@
+"""Peat mass and carbon against published figures (hand arithmetic from the papers)."""
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from peatburn.science import peat
+from peatburn.units import Q_
+
+
+def test_unit_constant_against_pint():
+    # 1 g/cm^3 in kg/m^3 from pint, the reference unit library
+    assert peat.KG_M3_PER_G_CM3 == pytest.approx(Q_(1, "g/cm^3").to("kg/m^3").magnitude)
+
+
+def test_page_2002_carbon_per_hectare():
+    """Page et al. 2002 (Nature 420:61): 0.19-0.23 Gt C from 0.73 Mha of burned peat, i.e. 260-315 t C/ha.
+    Their inputs (recalled, unchecked against the paper): mean burn depth 0.51 +/- 0.05 m, bulk density
+    0.1 g/cm^3, carbon content 57 %. One hectare at those values must fall in the published range."""
+    ha = 1e4  # m2
+    c_t = peat.carbon_mass(peat.peat_dry_mass(0.51, 0.1, ha), 0.57) / 1000
+    assert 260 <= c_t <= 315
+    lo = peat.carbon_mass(peat.peat_dry_mass(0.46, 0.1, ha), 0.57) / 1000
+    hi = peat.carbon_mass(peat.peat_dry_mass(0.56, 0.1, ha), 0.57) / 1000
+    # the depth range 0.46-0.56 m spans the published 0.19-0.23 Gt over 0.73 Mha (260-315 t/ha) within 2 %
+    assert lo == pytest.approx(0.19e9 / 0.73e6, rel=0.02)
+    assert hi == pytest.approx(0.23e9 / 0.73e6, rel=0.02)
+
+
+def test_ballhorn_2009_uncertainty_is_proportional_to_depth():
+    """Ballhorn et al. 2009 (PNAS 106:21213): mean depth 0.33 +/- 0.18 m gave 49.15 +/- 26.81 Mt C; carbon
+    is linear in depth, so its relative uncertainty equals that of the depth (0.545)."""
+    bd, cf, area = 0.1, 0.55, 1e6
+    c = peat.carbon_mass(peat.peat_dry_mass(np.array([0.33, 0.33 + 0.18]), bd, area), cf)
+    rel = (c[1] - c[0]) / c[0]
+    assert rel == pytest.approx(26.81 / 49.15, rel=1e-3)
+
+
+def test_carbon_density_hand_arithmetic():
+    # 0.1 g/cm^3 * 1000 * 0.55 = 55 kg C/m^3; over 0.3 m: 16.5 kg C/m^2
+    assert peat.carbon_density(0.1, 0.55) == pytest.approx(55.0)
+    assert peat.carbon_per_area(0.3, 0.1, 0.55) == pytest.approx(16.5)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.floats(0.0, 2.0), st.floats(0.02, 0.5), st.floats(0.3, 0.65), st.floats(0.1, 3.0))
+def test_linear_in_bulk_density_and_carbon_fraction(depth, bd, cf, k):
+    base = peat.carbon_mass(peat.peat_dry_mass(depth, bd, 4.0), cf)
+    assert peat.carbon_mass(peat.peat_dry_mass(depth, bd * k, 4.0), cf) == pytest.approx(base * k, rel=1e-9, abs=1e-12)
+    assert peat.carbon_mass(peat.peat_dry_mass(depth, bd, 4.0), cf * min(k, 1.0)) == pytest.approx(
+        base * min(k, 1.0), rel=1e-9, abs=1e-12)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.floats(0.0, 3.0), st.floats(0.02, 0.5), st.floats(0.3, 0.65))
+def test_no_carbon_created(depth, bd, cf):
+    # carbon released never exceeds the carbon stock of the burned peat volume (depth * area * density)
+    mass = peat.peat_dry_mass(depth, bd, 1.0)
+    assert peat.carbon_mass(mass, cf) <= mass + 1e-12
+
+
+def test_cap_depth_nan_thickness_means_unknown():
+    np.testing.assert_allclose(peat.cap_depth(np.array([0.5, 0.5]), np.array([np.nan, 0.2])), [0.5, 0.2])
