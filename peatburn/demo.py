@@ -18,7 +18,9 @@ What is deliberately in the data (see ``demo_region/README.md``):
 * peat subsidence of 2-5 cm/yr over the 3-year survey interval, larger near canals;
 * unburned islands and thin-burn margins inside the scars (below a survey's level of detection);
 * scars on thin peat, where the burn is capped by the peat thickness;
-* one scar without post-fire survey coverage (the survey gap), for the water-table method.
+* one scar without post-fire survey coverage (the survey gap), for the water-table method;
+* hummock-and-hollow micro-relief (the same in both surveys), so that co-registration has slopes
+  to work with on an otherwise very flat dome.
 
 The generator is deterministic: a :class:`numpy.random.Generator` seeded with ``seed`` draws
 every random quantity, in a fixed order.
@@ -84,6 +86,7 @@ MARGIN_PX = 3                         # [px] width of the thin-burn margin along
 MARGIN_DEPTH_RANGE = (0.02, 0.06)     # [m] burn depth in the margin
 GAP_X_FRACTION = 0.78                 # the post survey has no data east of this fraction of the width
 
+SMOULDERING_SET = "smouldering_akagi2011"   # built-in set: Akagi et al. 2011, Table 1, peatland
 REGION_NAME = "Vexarin"
 SCAR_ID_PREFIX = "VX-"
 
@@ -108,7 +111,7 @@ _CANALS = (
 #: Concessions (id field ``name``): invented names built on made-up place words.
 _CONCESSIONS = (
     ("Rimba Xelora Timber", ((0.02, 0.40), (0.36, 0.44), (0.33, 0.75), (0.30, 0.97), (0.04, 0.93))),
-    ("Telaga Quenti Plantation", ((0.37, 0.18), (0.60, 0.08), (0.63, 0.45), (0.45, 0.56), (0.33, 0.58))),
+    ("Telaga Quenti Plantation", ((0.37, 0.18), (0.60, 0.08), (0.63, 0.45), (0.45, 0.56), (0.31, 0.62))),
     ("Padang Zorava Estate", ((0.81, 0.30), (0.99, 0.26), (0.99, 0.95), (0.86, 0.90), (0.91, 0.55))),
 )
 
@@ -284,7 +287,7 @@ bulk_density = {{ raster = "bulk_density.tif", units = "g/cm^3" }}
 carbon_fraction = {CARBON_FRACTION}        # the demo generator's own invented value (not a published constant)
 
 [emission_factors]
-smouldering = "akagi2011_peatland"
+smouldering = "{SMOULDERING_SET}"   # Akagi et al. (2011) peatland factors, a built-in set
 gwp = "AR6"
 
 [[zones]]
@@ -409,12 +412,9 @@ def make_demo_region(folder: str | Path, *, shape: tuple[int, int] = (1200, 1500
     canal_dep = np.zeros((rows, cols))
     half_w = 0.5 * CANAL_WIDTH_PX * ps
     for (f0, f1) in _CANALS:
-        p0 = (f0[0] * width_m + rng.uniform(-0.02, 0.02) * width_m, f0[1] * height_m)
-        p1 = (f1[0] * width_m + rng.uniform(-0.02, 0.02) * width_m, f1[1] * height_m)
-        if f0[0] == 0.0:  # starts on the west edge: jitter along the edge instead
-            p0 = (0.0, f0[1] * height_m + rng.uniform(-0.02, 0.02) * height_m)
-        if f1[1] == 0.0:
-            p1 = (p1[0], 0.0)
+        j = rng.uniform(-0.02, 0.02, 4)             # jitter of the end points (fractions of the region)
+        p0 = (min(max(f0[0] + j[0], 0.0), 1.0) * width_m, min(max(f0[1] + j[1], 0.0), 1.0) * height_m)
+        p1 = (min(max(f1[0] + j[2], 0.0), 1.0) * width_m, min(max(f1[1] + j[3], 0.0), 1.0) * height_m)
         depth_c = rng.uniform(*CANAL_DEPTH_RANGE)
         d = _distance_to_segment(xr, yr, p0, p1)
         canal_dep = np.where(d <= half_w, np.maximum(canal_dep, depth_c), canal_dep)

@@ -69,7 +69,9 @@ def gas_emissions(dry_mass_kg, ef_g_per_kg):
     Parameters
     ----------
     dry_mass_kg : float or array_like
-        Dry matter burned [kg]. NaN (nodata) propagates.
+        Dry matter burned [kg]. NaN (nodata) propagates. A slightly negative value is allowed: it is
+        what the unbiased survey estimator gives for a zone that did not burn measurably (see
+        :mod:`peatburn.science.survey`), and gases scale linearly with it.
     ef_g_per_kg : float or array_like
         Emission factor of the gas [g gas / kg dry matter]; broadcast against ``dry_mass_kg``.
 
@@ -81,7 +83,7 @@ def gas_emissions(dry_mass_kg, ef_g_per_kg):
     Raises
     ------
     PhysicalRangeError
-        If a mass or an emission factor is negative.
+        If an emission factor is negative.
 
     References
     ----------
@@ -90,7 +92,6 @@ def gas_emissions(dry_mass_kg, ef_g_per_kg):
     """
     mass = _as_float_array(dry_mass_kg, "dry_mass_kg")
     ef = _as_float_array(ef_g_per_kg, "ef_g_per_kg")
-    _check_non_negative(mass, "dry_mass_kg", "kg")
     _check_non_negative(ef, "ef_g_per_kg", "g/kg")
     return mass * ef * 1e-3
 
