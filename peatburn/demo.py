@@ -364,8 +364,8 @@ def make_demo_region(folder: str | Path, *, shape: tuple[int, int] = (1200, 1500
     import geopandas as gpd
     import pandas as pd
     import rasterio.features
+    from affine import Affine
     from rasterio.crs import CRS
-    from rasterio.transform import from_origin
     from scipy.ndimage import distance_transform_edt
     from scipy.ndimage import shift as nd_shift
     from shapely.geometry import LineString, Polygon, box
@@ -384,7 +384,7 @@ def make_demo_region(folder: str | Path, *, shape: tuple[int, int] = (1200, 1500
 
     crs = CRS.from_epsg(CRS_EPSG)
     x_left, y_top = ORIGIN_XY
-    transform = from_origin(x_left, y_top, ps, ps)
+    transform = Affine(ps, 0.0, x_left, 0.0, -ps, y_top)   # north-up grid, origin at the upper-left corner
     width_m, height_m = cols * ps, rows * ps
     y_bottom = y_top - height_m
     scale = math.sqrt(width_m * height_m)          # length scale of the scenario [m]

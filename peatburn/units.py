@@ -57,6 +57,8 @@ def parse_quantity(value, unit: str, name: str = "value") -> pint.Quantity:
         return Q_(float(value), unit)
     if isinstance(value, pint.Quantity):
         q = value
+    elif isinstance(value, str) and _is_plain_number(value):
+        return Q_(float(value), unit)
     elif isinstance(value, str):
         try:
             q = ureg.Quantity(value.strip())
@@ -78,6 +80,14 @@ def parse_quantity(value, unit: str, name: str = "value") -> pint.Quantity:
             f"convertible to {unit} (for example '1 {unit}')"
         )
     return q.to(target)
+
+
+def _is_plain_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
 
 
 def to_magnitude(value, unit: str, name: str = "value") -> float:

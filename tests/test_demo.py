@@ -43,7 +43,7 @@ def read(folder: Path, name: str) -> np.ndarray:
         return ds.read(1, masked=True).astype("float64").filled(np.nan)
 
 
-def scar_mask(folder: Path) -> np.ndarray:
+def scar_mask(folder: Path) -> tuple[np.ndarray, gpd.GeoDataFrame]:
     """Scar labels (1..n, 0 outside) by the pixel-centre rule, rasterized here from the GeoPackage."""
     scars = gpd.read_file(folder / "scars.gpkg", layer="scars")
     with rasterio.open(folder / "survey_pre.tif") as ds:

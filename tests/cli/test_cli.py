@@ -1,0 +1,84 @@
+"""The command line end to end with click's runner."""
+
+import json
+
+import pytest
+from click.testing import CliRunner
+
+from peatburn.cli.main import cli
+
+
+@pytest.fixture()
+def runner():
+    return CliRunner()
+
+
+def test_run_writes_outputs_and_prints_cautions(runner, scene, tmp_path):
+    out = tmp_path / "out"
+    res = runner.invoke(cli, ["run", str(scene.config), "--out", str(out)])
+    assert res.exit_code == 0, res.output
+    assert "West Block" in res.output and "caution:" in res.output
+    assert "not legal findings" in res.output and "dangerous ground" in res.output
+    assert (out / "zones.csv").exists() and (out / "report.html").exists()
+    # refuse to overwrite without --overwrite: one line, exit status 2
+    res2 = runner.invoke(cli, ["run", str(scene.config), "--out", str(out)])
+    assert res2.exit_code == 2
+    assert "--overwrite" in res2.output and "Traceback" not in res2.output
+    res3 = runner.invoke(cli, ["run", str(scene.config), "--out", str(out), "--overwrite", "--quiet"])
+    assert res3.exit_code == 0 and res3.output == ""
+
+
+def test_check_validates_without_running(runner, scene, tmp_path):
+    res = runner.invoke(cli, ["check", str(scene.config)])
+    assert res.exit_code == 0, res.output
+    assert "grid: 300 x 240 px" in res.output and "ok: the configuration is valid" in res.output
+
+
+def test_check_against_provenance(runner, scene, scene_run, tmp_path):
+    prov = scene_run.out_dir / "provenance.json"
+    res = runner.invoke(cli, ["check", str(scene.config), "--against", str(prov)])
+    assert res.exit_code == 0 and "inputs match" in res.output
+    # a changed input is reported
+    rec = json.loads(prov.read_text())
+    rec["inputs"]["depth.survey.pre"]["sha256"] = "0" * 64
+    bad = tmp_path / "prov.json"
+    bad.write_text(json.dumps(rec))
+    res = runner.invoke(cli, ["check", str(scene.config), "--against", str(bad)])
+    assert res.exit_code == 2 and "has changed" in res.output
+
+
+def test_factors_lists_sets_with_citations(runner):
+    res = runner.invoke(cli, ["factors"])
+    assert res.exit_code == 0
+    assert "smouldering_akagi2011" in res.output and "Akagi" in res.output
+    assert "AR6" in res.output and "AR5" in res.output
+
+
+def test_bad_input_is_one_line(runner, tmp_path):
+    cfg = tmp_path / "c.toml"
+    cfg.write_text('[burned_area]\npath = "nope.gpkg"\n[depth.survey]\npre = "a.tif"\npost = "b.tif"\n'
+                   'interval_years = 2\n[peat]\nbulk_density = 0.1\ncarbon_fraction = 0.55\n')
+    res = runner.invoke(cli, ["run", str(cfg), "--out", str(tmp_path / "o")])
+    assert res.exit_code == 2
+    lines = [line for line in res.output.splitlines() if line.strip()]
+    assert len(lines) == 1 and "file not found" in lines[0] and "a.tif" in lines[0]
+    res = runner.invoke(cli, ["--debug", "run", str(cfg), "--out", str(tmp_path / "o")])
+    assert res.exit_code == 2 and "Traceback" in res.output
+
+
+@pytest.mark.slow
+def test_demo_end_to_end(runner, tmp_path):
+    res = runner.invoke(cli, ["demo", "--out", str(tmp_path / "demo")])
+    assert res.exit_code == 0, res.output
+    assert "caution:" in res.output
+    results = tmp_path / "demo" / "results"
+    truth = json.loads((tmp_path / "demo" / "inputs" / "truth.json").read_text())
+    import csv
+
+    rows = list(csv.DictReader(open(results / "zones.csv")))
+    # the demo's surveyed concessions are recovered within 2 % of the generator's truth
+    for name, t in truth["zones"]["concessions"].items():
+        row = next(r for r in rows if r["zone"] == name)
+        if float(row["estimated_area_ha"]) < 0.99 * t["burned_area_ha"]:
+            continue  # partly in the survey gap: no survey estimate there (water-table issue)
+        assert float(row["carbon_smouldering_t"]) == pytest.approx(t["carbon_smouldering_t"], rel=0.02)

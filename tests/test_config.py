@@ -1,0 +1,95 @@
+"""Configuration: contract keys, units, ranges and one-line errors."""
+
+import pytest
+
+from peatburn.config import RasterRef, load_config
+from peatburn.errors import ConfigError, MissingInputError, PhysicalRangeError, UnitError
+
+BASE = """
+[run]
+name = "t"
+[burned_area]
+path = "scars.gpkg"
+[depth.survey]
+pre = "pre.tif"
+post = "post.tif"
+interval_years = 3.0
+subsidence_rate = "{sub}"
+[peat]
+thickness = "thick.tif"
+bulk_density = {bd}
+carbon_fraction = {cf}
+"""
+
+
+def _cfg(tmp_path, sub="3 cm/yr", bd='"0.1 g/cm^3"', cf="0.55", extra=""):
+    p = tmp_path / "c.toml"
+    p.write_text(BASE.format(sub=sub, bd=bd, cf=cf) + extra)
+    return p
+
+
+def test_quantities_and_paths(tmp_path):
+    cfg = load_config(_cfg(tmp_path, bd='{ raster = "bd.tif", units = "kg/m^3" }'))
+    assert cfg.survey.subsidence_rate == pytest.approx(0.03)  # 3 cm/yr in m/yr (hand conversion)
+    assert isinstance(cfg.peat.bulk_density, RasterRef)
+    assert cfg.peat.bulk_density.scale == pytest.approx(1e-3)  # kg/m^3 -> g/cm^3
+    assert cfg.peat.bulk_density.path == tmp_path / "bd.tif"
+    assert cfg.survey.pre == tmp_path / "pre.tif"
+
+
+def test_survey_dates_give_interval(tmp_path):
+    p = tmp_path / "c.toml"
+    p.write_text(BASE.format(sub="0.03", bd="0.1", cf="0.55").replace(
+        "interval_years = 3.0", "pre_date = 2028-07-01\npost_date = 2031-07-01"))
+    # 1 Jul 2028 -> 1 Jul 2031 is 3 x 365 = 1095 days (29 Feb 2028 falls before the start);
+    # / 365.25 days per Julian year = 2.998 yr
+    assert load_config(p).survey.interval_years == pytest.approx(1095 / 365.25)
+
+
+def test_unknown_key_suggests(tmp_path):
+    with pytest.raises(ConfigError, match="unknown key 'peat.bulk_densty'; did you mean 'bulk_density'"):
+        p = _cfg(tmp_path)
+        p.write_text(p.read_text().replace("bulk_density", "bulk_densty"))
+        load_config(p)
+
+
+def test_toml_syntax_error_names_line(tmp_path):
+    p = tmp_path / "c.toml"
+    p.write_text("[run]\nname = \"a\nyear = 2030\n")
+    with pytest.raises(ConfigError, match="line 2"):
+        load_config(p)
+
+
+def test_wrong_dimension(tmp_path):
+    with pytest.raises(UnitError, match="subsidence_rate.*convertible to m/yr"):
+        load_config(_cfg(tmp_path, sub="3 kg/yr"))
+
+
+@pytest.mark.parametrize("bd, hint", [("100", "kg/m\\^3"), ("0.001", "outside the plausible range")])
+def test_absurd_bulk_density(tmp_path, bd, hint):
+    with pytest.raises(PhysicalRangeError, match=hint):
+        load_config(_cfg(tmp_path, bd=bd))
+
+
+def test_carbon_fraction_percent_hint(tmp_path):
+    with pytest.raises(PhysicalRangeError, match="percent"):
+        load_config(_cfg(tmp_path, cf="55"))
+
+
+def test_negative_interval(tmp_path):
+    p = _cfg(tmp_path)
+    p.write_text(p.read_text().replace("interval_years = 3.0", "interval_years = -1"))
+    with pytest.raises(PhysicalRangeError, match="positive"):
+        load_config(p)
+
+
+def test_wrong_type(tmp_path):
+    p = _cfg(tmp_path)
+    p.write_text(p.read_text().replace('name = "t"', 'name = "t"\nyear = "last year"'))
+    with pytest.raises(ConfigError, match="run.year"):
+        load_config(p)
+
+
+def test_missing_config():
+    with pytest.raises(MissingInputError):
+        load_config("/nonexistent/c.toml")
