@@ -82,6 +82,12 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
     rows = tables.zone_rows(sums, smouldering, gwp)
     total = rows[-1]
     qa = qa_summary(sums.total, alignment)
+    notes = list(inputs.notes)
+    checks = factor_checks(smouldering, sums.total)
+    if checks["carbon_closure"] is not None and checks["carbon_closure"] > 1.0:
+        notes.append(f"emission factors: the set {smouldering.name} puts {checks['carbon_closure']:.3f} times the "
+                     f"fuel's carbon into CO2+CO+CH4 at this run's carbon fraction "
+                     f"({checks['effective_carbon_fraction']:.3f}); its gases overstate the carbon burned")
     totals = {
         "run": cfg.name, "year": cfg.year, "tool_version": __version__,
         "quantities": {k: {"value": total[k], "unit": tables.UNITS[k]} for k in tables.ZONE_COLUMNS[2:]},
@@ -91,12 +97,13 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
                                  "tier": "Tier 3 (measured burn depth, IPCC 2013 Wetlands Supplement Ch. 2 terms)"},
                       "unestimated_area_ha": total["unestimated_area_ha"]},
             "smouldering_factors": smouldering.name,
+            "smouldering_factor_checks": checks,
             "flaming": "not estimated by this version (columns are zero)",
             "gwp": gwp.name,
             "uncertainty": "no Monte Carlo intervals in this version",
         },
         "qa": qa,
-        "notes": inputs.notes,
+        "notes": notes,
         "cautions": CAUTIONS,
     }
     files = {}
@@ -117,6 +124,18 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
     files["burn_depth"] = out_dir / "burn_depth.tif"
     files["carbon_smouldering"] = out_dir / "carbon_smouldering.tif"
     return result
+
+
+def factor_checks(factor_set, total: dict) -> dict:
+    """MCE of the set and its carbon closure at the run's effective carbon fraction (carbon / dry mass)."""
+    from .science import gases
+
+    ef = factor_set.ef
+    mce = float(gases.modified_combustion_efficiency(ef["co2"], ef["co"])) if "co" in ef else None
+    f = total["carbon_kg"] / total["peat_kg"] if total["peat_kg"] > 0 else None
+    closure = float(gases.carbon_closure(ef, f)) if f and 0 < f <= 1 else None
+    return {"mce": mce, "effective_carbon_fraction": f, "carbon_closure": closure,
+            "carbon_in_gases_g_per_kg": float(gases.carbon_in_emissions(ef))}
 
 
 def qa_summary(total: dict, alignment) -> dict:

@@ -171,6 +171,57 @@ def _event_ids(event, n: int) -> np.ndarray:
 # ----------------------------------------------------------------------------- events
 
 
+#: Detections handled per k-d tree query in :func:`assign_events` (bounds the memory of the
+#: candidate pairs; the result does not depend on it).
+_CHUNK = 50_000
+
+
+def _linked_components(x, y, t, distance_m, gap_s) -> np.ndarray:
+    """Connected components of the space-time link graph (see :func:`assign_events`)."""
+    n = x.shape[0]
+    # Candidates: Chebyshev distance <= 1 in scaled space, i.e. |dx|, |dy| <= D and |dt| <= G.
+    # Coordinates are shifted to their minimum first, so large values lose no precision when
+    # scaled. With gap_s = 0 only equal times link: time is then scaled by half the smallest
+    # non-zero time step, so that any two different times are more than 1 apart.
+    t_rel = t - t.min()
+    if gap_s > 0:
+        t_scale = gap_s
+    else:
+        steps = np.diff(np.unique(t_rel))
+        t_scale = steps.min() / 2.0 if steps.size else 1.0
+    pts = np.column_stack([(x - x.min()) / distance_m, (y - y.min()) / distance_m, t_rel / t_scale])
+    tree = cKDTree(pts)
+    by_time = np.argsort(t, kind="stable")  # chunks compact in time: small sub-trees
+    rows: list[np.ndarray] = []
+    cols: list[np.ndarray] = []
+    held = 0
+
+    def components(rows, cols):
+        i = np.concatenate(rows) if rows else np.zeros(0, dtype=np.int64)
+        j = np.concatenate(cols) if cols else np.zeros(0, dtype=np.int64)
+        graph = coo_matrix((np.ones(i.shape[0], dtype=np.int8), (i, j)), shape=(n, n))
+        return connected_components(graph, directed=False)[1]
+
+    for start in range(0, n, _CHUNK):
+        idx = by_time[start:start + _CHUNK]
+        # A relative margin so that pairs exactly at the bounds are kept; the exact tests follow.
+        found = cKDTree(pts[idx]).sparse_distance_matrix(tree, 1.0 + 1e-9, p=np.inf, output_type="ndarray")
+        i = idx[found["i"]]
+        j = found["j"].astype(np.int64)
+        keep = (i < j) & (np.hypot(x[i] - x[j], y[i] - y[j]) <= distance_m) & (np.abs(t[i] - t[j]) <= gap_s)
+        rows.append(i[keep])
+        cols.append(j[keep])
+        held += int(keep.sum())
+        if held > 4 * n:  # compress the edges found so far into one star per component
+            labels = components(rows, cols)
+            first = np.unique(labels, return_index=True)[1]  # lowest node of each component
+            rep = first[labels]
+            star = rep != np.arange(n)
+            rows, cols = [np.flatnonzero(star)], [rep[star]]
+            held = int(star.sum())
+    return components(rows, cols)
+
+
 def assign_events(x_m, y_m, t_s, *, distance_m=DEFAULT_EVENT_DISTANCE_M, gap_s=DEFAULT_EVENT_GAP_S):
     """Group active-fire detections into fire events (space-time single linkage).
 
@@ -184,9 +235,11 @@ def assign_events(x_m, y_m, t_s, *, distance_m=DEFAULT_EVENT_DISTANCE_M, gap_s=D
     assumption chosen for this tool (common practice in spirit: fire-event clustering of active-fire
     detections by space-time proximity); it has no single published source.
 
-    Linked pairs are found with a k-d tree (``scipy.spatial.cKDTree.query_pairs`` on coordinates
-    scaled by ``distance_m`` and ``gap_s``, then filtered by the true distance) and events with
-    ``scipy.sparse.csgraph.connected_components``: O(n log n) plus the number of candidate pairs.
+    Candidate pairs are found with k-d trees (``scipy.spatial.cKDTree``, Chebyshev distance on
+    coordinates scaled by ``distance_m`` and ``gap_s``, queried in time-ordered chunks so memory
+    stays bounded), then filtered by the exact rule; events are the connected components
+    (``scipy.sparse.csgraph.connected_components``). Cost: O(n log n) plus the number of
+    candidate pairs.
 
     Parameters
     ----------
@@ -230,27 +283,8 @@ def assign_events(x_m, y_m, t_s, *, distance_m=DEFAULT_EVENT_DISTANCE_M, gap_s=D
     if n == 0:
         return np.zeros(0, dtype=np.int64)
 
-    # Candidates: Chebyshev distance <= 1 in scaled space, i.e. |dx|, |dy| <= D and |dt| <= G.
-    # Coordinates are shifted to their minimum first, so large values lose no precision when
-    # scaled. With gap_s = 0 only equal times link: time is then scaled by half the smallest
-    # non-zero time step, so that any two different times are more than 1 apart.
-    t_rel = t - t.min()
-    if gap_s > 0:
-        t_scale = gap_s
-    else:
-        steps = np.diff(np.unique(t_rel))
-        t_scale = steps.min() / 2.0 if steps.size else 1.0
-    pts = np.column_stack([(x - x.min()) / distance_m, (y - y.min()) / distance_m, t_rel / t_scale])
-    # A relative margin so that pairs exactly at the bounds are kept; the exact tests follow.
-    pairs = cKDTree(pts).query_pairs(r=1.0 + 1e-9, p=np.inf, output_type="ndarray")
-    if pairs.size:
-        i, j = pairs[:, 0], pairs[:, 1]
-        keep = (np.hypot(x[i] - x[j], y[i] - y[j]) <= distance_m) & (np.abs(t[i] - t[j]) <= gap_s)
-        i, j = i[keep], j[keep]
-    else:
-        i = j = np.zeros(0, dtype=np.int64)
-    graph = coo_matrix((np.ones(i.shape[0], dtype=np.int8), (i, j)), shape=(n, n))
-    n_comp, labels = connected_components(graph, directed=False)
+    labels = _linked_components(x, y, t, distance_m, gap_s)
+    n_comp = int(labels.max()) + 1
     # Renumber by first detection time, ties by input order.
     order = np.lexsort((np.arange(n), t))
     comp, first_pos = np.unique(labels[order], return_index=True)  # first position of each component
