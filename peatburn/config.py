@@ -112,7 +112,7 @@ class RunConfig:
 # schema helpers
 
 _SCHEMA = {
-    "run": {"name", "year", "crs", "block_size"},
+    "run": {"name", "year", "crs", "block_size", "force_ranges"},
     "burned_area": {"path", "layer"},
     "depth": {"survey", "water_table"},
     "depth.survey": {"pre", "post", "interval_years", "pre_date", "post_date", "subsidence_rate", "stable",
@@ -163,16 +163,17 @@ def _path(value, base: Path, key: str, where: str) -> Path:
     return p if p.is_absolute() else (base / p)
 
 
-def _range(name: str, value: float, where: str, key: str, force: bool = False):
-    if name not in RANGES or force:
+def _range(name: str, value: float, where: str, key: str):
+    if name not in RANGES:
         return
     lo, hi, unit, hint = RANGES[name]
     if not (lo <= value <= hi):
         raise PhysicalRangeError(f"{where}: `{key}` = {value:g} {unit} is outside the plausible range "
-                                 f"{lo:g}-{hi:g} {unit}; {hint}")
+                                 f"{lo:g}-{hi:g} {unit}; {hint} (or set run.force_ranges = true if the value is right)")
 
 
-def _value(value, base: Path, key: str, quantity: str, where: str, range_name: str | None = None) -> Value:
+def _value(value, base: Path, key: str, quantity: str, where: str, range_name: str | None = None,
+           force: bool = False) -> Value:
     unit = DOCUMENTED_UNITS[quantity]
     if isinstance(value, dict):
         extra = set(value) - {"raster", "units"}
@@ -187,7 +188,8 @@ def _value(value, base: Path, key: str, quantity: str, where: str, range_name: s
         mag = to_magnitude(value, unit, key)
     except UnitError as exc:
         raise UnitError(f"{where}: {exc}") from None
-    _range(range_name or quantity, mag, where, key)
+    if not force:
+        _range(range_name or quantity, mag, where, key)
     return mag
 
 
@@ -229,6 +231,9 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
     year = run.get("year")
     if year is not None and (not isinstance(year, int) or isinstance(year, bool)):
         raise ConfigError(f"{where}: `run.year` must be an integer year, got {year!r}")
+    force = run.get("force_ranges", False)
+    if not isinstance(force, bool):
+        raise ConfigError(f"{where}: `run.force_ranges` must be true or false, got {force!r}")
     block_size = run.get("block_size", 512)
     if not isinstance(block_size, int) or block_size < 16:
         raise ConfigError(f"{where}: `run.block_size` must be an integer >= 16, got {block_size!r}")
@@ -243,18 +248,22 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
     _check_keys(depth, "depth", where)
     sv = _require(depth, "survey", "depth", where)
     _check_keys(sv, "depth.survey", where)
-    survey = _survey(sv, base, where)
+    survey = _survey(sv, base, where, force)
 
     peat_raw = _require(raw, "peat", "", where)
     _check_keys(peat_raw, "peat", where)
     peat = PeatConfig(
         bulk_density=_value(_require(peat_raw, "bulk_density", "peat", where), base, "peat.bulk_density",
-                            "bulk_density", where),
+                            "bulk_density", where, force=force),
         carbon_fraction=_value(_require(peat_raw, "carbon_fraction", "peat", where), base, "peat.carbon_fraction",
-                               "carbon_fraction", where),
-        thickness=_value(peat_raw["thickness"], base, "peat.thickness", "peat_thickness", where, "thickness")
+                               "carbon_fraction", where, force=force),
+        thickness=_value(peat_raw["thickness"], base, "peat.thickness", "peat_thickness", where, "thickness", force=force)
         if "thickness" in peat_raw else None,
     )
+
+    if isinstance(peat.carbon_fraction, float) and not (0.0 < peat.carbon_fraction <= 1.0):
+        raise PhysicalRangeError(f"{where}: `peat.carbon_fraction` = {peat.carbon_fraction:g} is not a mass fraction "
+                                 f"in (0, 1]; {RANGES['carbon_fraction'][3]}")
 
     from .factors import DEFAULT_FLAMING, DEFAULT_GWP, DEFAULT_SMOULDERING
 
@@ -308,7 +317,7 @@ def _factor_ref(value, base: Path) -> str:
     return value
 
 
-def _survey(sv: dict, base: Path, where: str) -> SurveyConfig:
+def _survey(sv: dict, base: Path, where: str, force: bool = False) -> SurveyConfig:
     pre = _path(_require(sv, "pre", "depth.survey", where), base, "depth.survey.pre", where)
     post = _path(_require(sv, "post", "depth.survey", where), base, "depth.survey.post", where)
     if "interval_years" in sv:
@@ -323,9 +332,11 @@ def _survey(sv: dict, base: Path, where: str) -> SurveyConfig:
         raise ConfigError(f"{where}: [depth.survey] needs `interval_years` or both `pre_date` and `post_date`")
     if interval <= 0:
         raise PhysicalRangeError(f"{where}: the survey interval must be positive (post after pre), got {interval:g} yr")
-    _range("interval_years", interval, where, "depth.survey.interval_years")
+    if not force:
+        _range("interval_years", interval, where, "depth.survey.interval_years")
     sub = sv.get("subsidence_rate")
-    subsidence = _value(sub, base, "depth.survey.subsidence_rate", "subsidence_rate", where) if sub is not None else None
+    subsidence = _value(sub, base, "depth.survey.subsidence_rate", "subsidence_rate", where,
+                        force=force) if sub is not None else None
     stable = _path(sv["stable"], base, "depth.survey.stable", where) if "stable" in sv else None
     buf = sv.get("stable_buffer_m", 30.0)
     if not isinstance(buf, (int, float)) or isinstance(buf, bool) or buf < 0:

@@ -93,3 +93,12 @@ def test_wrong_type(tmp_path):
 def test_missing_config():
     with pytest.raises(MissingInputError):
         load_config("/nonexistent/c.toml")
+
+
+def test_force_ranges_allows_unusual_but_not_impossible(tmp_path):
+    p = _cfg(tmp_path, bd="0.6", extra="")
+    p.write_text(p.read_text().replace('name = "t"', 'name = "t"\nforce_ranges = true'))
+    assert load_config(p).peat.bulk_density == pytest.approx(0.6)
+    p.write_text(p.read_text().replace("carbon_fraction = 0.55", "carbon_fraction = 1.5"))
+    with pytest.raises(PhysicalRangeError, match="mass fraction"):
+        load_config(p)

@@ -173,7 +173,7 @@ def _event_ids(event, n: int) -> np.ndarray:
 
 #: Detections handled per k-d tree query in :func:`assign_events` (bounds the memory of the
 #: candidate pairs; the result does not depend on it).
-_CHUNK = 50_000
+_CHUNK = 10_000
 
 
 def _linked_components(x, y, t, distance_m, gap_s) -> np.ndarray:
