@@ -54,10 +54,16 @@ def open_inputs(cfg: RunConfig) -> Inputs:
                "depth.survey.post": inspect_raster(cfg.survey.post, "depth.survey.post")}
     for key, val in _raster_params(cfg).items():
         rasters[key] = inspect_raster(val.path, key)
-    grid = grid_from_raster(rasters["depth.survey.pre"], cfg.crs)
+    notes = []
+    run_crs = cfg.crs
+    pre = rasters["depth.survey.pre"]
+    if run_crs is None and pre.crs.is_geographic:
+        run_crs = _utm_for(pre)
+        notes.append(f"run grid: the pre-fire survey is in a geographic CRS; differencing and co-registration need "
+                     f"metres, so the run uses {run_crs} (set run.crs to choose another projected CRS)")
+    grid = grid_from_raster(pre, run_crs)
     for key, info in rasters.items():
         check_overlap(info, grid, key)
-    notes = []
     scars = read_polygons(cfg.burned_area, grid.crs, "burned_area.path", cfg.burned_area_layer)
     notes += [f"burned_area: {n}" for n in scars.notes]
     if len(scars.frame) == 0:
@@ -67,11 +73,29 @@ def open_inputs(cfg: RunConfig) -> Inputs:
         layer = read_polygons(z.path, grid.crs, f"zones[{i}] ({z.name})", z.layer)
         ids = zone_ids(layer, z.id)
         notes += [f"zones {z.name}: {n}" for n in layer.notes]
+        outside = ~shapely.intersects(layer.geometries, shapely.box(*grid.bounds))
+        if outside.any():
+            names = [ids[i] for i in np.flatnonzero(outside)]
+            notes.append(f"zones {z.name}: {len(names)} zone(s) lie outside the run grid and get zero: "
+                         f"{', '.join(names[:5])}{' ...' if len(names) > 5 else ''}")
         zones.append((z, layer, ids))
     stable = None
     if cfg.survey.stable is not None:
         stable = read_polygons(cfg.survey.stable, grid.crs, "depth.survey.stable")
     return Inputs(cfg, grid, rasters, scars, zones, stable, notes)
+
+
+def _utm_for(info) -> str:
+    """The UTM CRS of the centre of a lon/lat raster (pyproj's estimate_utm_crs)."""
+    from pyproj import CRS as PCRS
+    from pyproj.aoi import AreaOfInterest
+    from pyproj.database import query_utm_crs_info
+
+    t = info.transform
+    lon = t.c + t.a * info.width / 2
+    lat = t.f + t.e * info.height / 2
+    found = query_utm_crs_info(datum_name="WGS 84", area_of_interest=AreaOfInterest(lon, lat, lon, lat))
+    return f"EPSG:{found[0].code}" if found else PCRS.from_epsg(3395).to_string()
 
 
 def _raster_params(cfg: RunConfig) -> dict[str, RasterRef]:
@@ -173,7 +197,7 @@ def coregister(inputs: Inputs, random_state: int = 0) -> SurveyAlignment:
         raise GridError(f"depth.survey: co-registration impossible: {exc}; give a larger area of unburned ground "
                         f"(depth.survey.stable) or reduce depth.survey.stable_buffer_m") from None
     post_info = inputs.rasters["depth.survey.post"]
-    post_t = Affine.translation(est.shift_x, est.shift_y) @ post_info.transform
+    post_t = Affine.translation(*_shift_in_crs(est.shift_x, est.shift_y, grid, post_info.crs)) @ post_info.transform
 
     # stable-ground statistics at full resolution on sample windows
     before, after, xs, ys = [], [], [], []
@@ -209,6 +233,20 @@ def coregister(inputs: Inputs, random_state: int = 0) -> SurveyAlignment:
         n_stable_sample=int(after.size), lod=float(survey.level_of_detection(s_after, cfg.survey.lod_t)),
         sample_decimation=factor,
     )
+
+
+def _shift_in_crs(dx: float, dy: float, grid: RunGrid, crs) -> tuple[float, float]:
+    """A translation (dx, dy) in the run CRS expressed in ``crs`` at the grid centre (the same
+    numbers when both CRSs agree; a local linearisation otherwise, exact enough for the sub-metre
+    to metre shifts of co-registration)."""
+    if crs == grid.crs:
+        return dx, dy
+    from rasterio.warp import transform as warp_transform
+
+    left, bottom, right, top = grid.bounds
+    cx, cy = (left + right) / 2, (bottom + top) / 2
+    xs, ys = warp_transform(grid.crs, crs, [cx, cx + dx], [cy, cy + dy])
+    return xs[1] - xs[0], ys[1] - ys[0]
 
 
 def sample_windows(grid: RunGrid, block: int, max_pixels: int = SAMPLE_PIXELS) -> list[Window]:
