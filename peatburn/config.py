@@ -67,6 +67,60 @@ class ZoneLayerConfig:
 class UncertaintyConfig:
     draws: int = 0
     seed: int = 1
+    bulk_density_cv: float | None = None
+    carbon_fraction_sd: float | None = None
+    subsidence_rate_sd: float | None = None
+    correlation_range_m: float | None = None
+
+
+@dataclass(frozen=True)
+class WaterTableConfig:
+    """Water-table depth at fire time [m below the surface, positive down]: a raster or station points."""
+
+    raster: RasterRef | None = None
+    stations: Path | None = None
+    value_column: str = "water_table_m"
+    crs: str | None = None
+    date_column: str | None = None
+    model: str = "fit"  # "fit" | "default" | "user" | "file"
+    intercept: float | None = None
+    slope: float | None = None
+    model_file: Path | None = None
+    fit_method: str = "theil-sen"
+    idw_power: float = 2.0
+    idw_neighbours: int = 12
+    idw_max_distance_m: float | None = None
+
+
+@dataclass(frozen=True)
+class PlotsConfig:
+    """Field plots: points with a measured burn depth [m]."""
+
+    path: Path
+    value_column: str = "burn_depth_m"
+    crs: str | None = None
+    date_column: str | None = None
+
+
+@dataclass(frozen=True)
+class Tier1Config:
+    fuel_consumption_t_ha: float | None = None  # None: the IPCC 2013 Wetlands Supplement default
+
+
+@dataclass(frozen=True)
+class FlamingConfig:
+    """Above-ground (flaming) emissions: from active-fire detections (FRE) or burned area x biomass."""
+
+    method: str = "frp"  # "frp" | "biomass"
+    detections: Path | None = None
+    crs: str | None = None
+    columns: dict = field(default_factory=dict)
+    event_distance_m: float | None = None
+    event_gap_hours: float | None = None
+    coefficient_kg_per_mj: float | None = None
+    biomass: Value | None = None  # t d.m./ha
+    combustion_factor: float | None = None
+    vegetation_carbon_fraction: float | None = None
 
 
 @dataclass(frozen=True)
@@ -79,22 +133,45 @@ class RunConfig:
     crs: str | None
     burned_area: Path
     burned_area_layer: str | None
-    survey: SurveyConfig
+    survey: SurveyConfig | None
     peat: PeatConfig
     factors: FactorsConfig
     zones: tuple[ZoneLayerConfig, ...]
     uncertainty: UncertaintyConfig
     block_size: int = 512
+    water_table: WaterTableConfig | None = None
+    plots: PlotsConfig | None = None
+    tier1: Tier1Config = field(default_factory=Tier1Config)
+    flaming: FlamingConfig | None = None
+    fire_count_field: str | None = None
+    resolution: float | None = None
     raw: dict = field(default_factory=dict, compare=False, repr=False)
 
     def input_paths(self) -> dict[str, Path]:
         """Every input file of the run, by config key."""
-        out = {"burned_area.path": self.burned_area, "depth.survey.pre": self.survey.pre,
-               "depth.survey.post": self.survey.post}
-        if isinstance(self.survey.subsidence_rate, RasterRef):
-            out["depth.survey.subsidence_rate"] = self.survey.subsidence_rate.path
-        if self.survey.stable is not None:
-            out["depth.survey.stable"] = self.survey.stable
+        out = {"burned_area.path": self.burned_area}
+        if self.survey is not None:
+            out["depth.survey.pre"] = self.survey.pre
+            out["depth.survey.post"] = self.survey.post
+            if isinstance(self.survey.subsidence_rate, RasterRef):
+                out["depth.survey.subsidence_rate"] = self.survey.subsidence_rate.path
+            if self.survey.stable is not None:
+                out["depth.survey.stable"] = self.survey.stable
+        wt = self.water_table
+        if wt is not None:
+            if wt.raster is not None:
+                out["depth.water_table.depth"] = wt.raster.path
+            if wt.stations is not None:
+                out["depth.water_table.depth"] = wt.stations
+            if wt.model_file is not None:
+                out["depth.water_table.model"] = wt.model_file
+        if self.plots is not None:
+            out["depth.plots.path"] = self.plots.path
+        if self.flaming is not None:
+            if self.flaming.detections is not None:
+                out["flaming.detections"] = self.flaming.detections
+            if isinstance(self.flaming.biomass, RasterRef):
+                out["flaming.biomass"] = self.flaming.biomass.path
         for key in ("thickness", "bulk_density", "carbon_fraction"):
             v = getattr(self.peat, key)
             if isinstance(v, RasterRef):
@@ -112,19 +189,26 @@ class RunConfig:
 # schema helpers
 
 _SCHEMA = {
-    "run": {"name", "year", "crs", "block_size", "force_ranges"},
-    "burned_area": {"path", "layer"},
-    "depth": {"survey", "water_table"},
+    "run": {"name", "year", "crs", "block_size", "force_ranges", "resolution"},
+    "burned_area": {"path", "layer", "fire_count_field"},
+    "depth": {"survey", "water_table", "plots", "tier1"},
+    "depth.water_table": {"depth", "value_column", "crs", "date_column", "model", "intercept", "slope",
+                          "fit_method", "idw_power", "idw_neighbours", "idw_max_distance_m", "units"},
+    "depth.plots": {"path", "value_column", "crs", "date_column"},
+    "depth.tier1": {"fuel_consumption"},
+    "flaming": {"method", "detections", "crs", "columns", "event_distance_m", "event_gap_hours", "coefficient",
+                "biomass", "combustion_factor", "vegetation_carbon_fraction"},
     "depth.survey": {"pre", "post", "interval_years", "pre_date", "post_date", "subsidence_rate", "stable",
                      "stable_buffer_m", "tilt", "lod_t"},
     "peat": {"thickness", "bulk_density", "carbon_fraction"},
     "emission_factors": {"smouldering", "flaming", "gwp"},
     "zones": {"path", "id", "name", "layer"},
-    "uncertainty": {"draws", "seed"},
+    "uncertainty": {"draws", "seed", "bulk_density_cv", "carbon_fraction_sd", "subsidence_rate_sd",
+                    "correlation_range_m"},
 }
-_TOP = {"run", "burned_area", "depth", "peat", "emission_factors", "zones", "uncertainty"}
+_TOP = {"run", "burned_area", "depth", "peat", "emission_factors", "zones", "uncertainty", "flaming"}
 #: Sections of the contract that later work fills in; refused until then so no input is silently ignored.
-_NOT_YET = {"depth.water_table": "burn depth from the water table", "flaming": "flaming emissions"}
+_NOT_YET: dict = {}
 
 #: Plausible ranges (documented units). Bulk density of tropical peat is about 0.05-0.2 g cm-3
 #: (Warren et al. 2012, recalled, unchecked); 0.02-0.5 bounds any peat (common practice).
@@ -134,6 +218,9 @@ RANGES = {
     "thickness": (0.0, 30.0, "m", "peat thickness is in metres"),
     "subsidence_rate": (-0.05, 0.3, "m/yr", "a value above 0.3 suggests cm/yr: write e.g. '4 cm/yr'"),
     "interval_years": (0.0, 50.0, "yr", "the interval is in years between the two surveys"),
+    "fuel_consumption": (1.0, 3000.0, "t/ha", "fuel consumption is dry matter per hectare"),
+    "biomass": (0.0, 1500.0, "t/ha", "above-ground biomass is dry matter per hectare"),
+    "combustion_coefficient": (0.05, 2.0, "kg/MJ", "the FRE combustion coefficient is in kg per MJ"),
 }
 
 
@@ -246,9 +333,31 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
 
     depth = _require(raw, "depth", "", where)
     _check_keys(depth, "depth", where)
-    sv = _require(depth, "survey", "depth", where)
-    _check_keys(sv, "depth.survey", where)
-    survey = _survey(sv, base, where, force)
+    survey = None
+    if "survey" in depth:
+        sv = depth["survey"]
+        _check_keys(sv, "depth.survey", where)
+        survey = _survey(sv, base, where, force)
+    water_table = _water_table(depth["water_table"], base, where) if "water_table" in depth else None
+    plots = None
+    if "plots" in depth:
+        pr = depth["plots"]
+        _check_keys(pr, "depth.plots", where)
+        plots = PlotsConfig(_path(_require(pr, "path", "depth.plots", where), base, "depth.plots.path", where),
+                            str(pr.get("value_column", "burn_depth_m")), pr.get("crs"), pr.get("date_column"))
+    tier1 = Tier1Config()
+    if "tier1" in depth:
+        _check_keys(depth["tier1"], "depth.tier1", where)
+        if "fuel_consumption" in depth["tier1"]:
+            tier1 = Tier1Config(_value(depth["tier1"]["fuel_consumption"], base, "depth.tier1.fuel_consumption",
+                                       "biomass", where, "fuel_consumption", force=force))
+    if survey is None and water_table is None:
+        raise ConfigError(f"{where}: [depth] needs a [depth.survey] (two elevation surveys) or a "
+                          f"[depth.water_table]; without either only the Tier 1 default applies: give one of them")
+    fire_count_field = ba.get("fire_count_field")
+    resolution = run.get("resolution")
+    if resolution is not None:
+        resolution = to_magnitude(resolution, "m", "run.resolution")
 
     peat_raw = _require(raw, "peat", "", where)
     _check_keys(peat_raw, "peat", where)
@@ -296,15 +405,110 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         raise ConfigError(f"{where}: `uncertainty.draws` must be a whole number >= 0, got {draws!r}")
     if not isinstance(seed, int) or isinstance(seed, bool):
         raise ConfigError(f"{where}: `uncertainty.seed` must be an integer, got {seed!r}")
-    if draws > 0:
-        raise ConfigError(f"{where}: `uncertainty.draws` > 0 (Monte Carlo intervals) is not supported by this "
-                          f"version of peatburn; set draws = 0")
+    unc = UncertaintyConfig(
+        draws, seed,
+        bulk_density_cv=_opt_number(un, "bulk_density_cv", "uncertainty", where, 0, 2),
+        carbon_fraction_sd=_opt_number(un, "carbon_fraction_sd", "uncertainty", where, 0, 0.5),
+        subsidence_rate_sd=to_magnitude(un["subsidence_rate_sd"], "m/yr", "uncertainty.subsidence_rate_sd")
+        if "subsidence_rate_sd" in un else None,
+        correlation_range_m=to_magnitude(un["correlation_range_m"], "m", "uncertainty.correlation_range_m")
+        if "correlation_range_m" in un else None,
+    )
+    flaming = _flaming(raw["flaming"], base, where, force) if "flaming" in raw else None
 
     return RunConfig(
         source=source, name=str(run.get("name", source.stem if source else "peatburn run")), year=year,
         crs=run.get("crs"), burned_area=burned, burned_area_layer=ba.get("layer"), survey=survey, peat=peat,
-        factors=factors, zones=tuple(zones), uncertainty=UncertaintyConfig(draws, seed), block_size=block_size,
-        raw=raw,
+        factors=factors, zones=tuple(zones), uncertainty=unc, block_size=block_size,
+        water_table=water_table, plots=plots, tier1=tier1, flaming=flaming, fire_count_field=fire_count_field,
+        resolution=resolution, raw=raw,
+    )
+
+
+def _opt_number(table: dict, key: str, section: str, where: str, lo=None, hi=None):
+    if key not in table:
+        return None
+    v = table[key]
+    if not isinstance(v, (int, float)) or isinstance(v, bool):
+        raise ConfigError(f"{where}: `{section}.{key}` must be a number, got {v!r}")
+    if (lo is not None and v < lo) or (hi is not None and v > hi):
+        raise PhysicalRangeError(f"{where}: `{section}.{key}` = {v!r} is outside {lo}-{hi}")
+    return float(v)
+
+
+_STATION_SUFFIXES = (".csv", ".txt", ".gpkg", ".geojson", ".json", ".shp", ".fgb")
+
+
+def _water_table(wt: dict, base: Path, where: str) -> WaterTableConfig:
+    _check_keys(wt, "depth.water_table", where)
+    src = _require(wt, "depth", "depth.water_table", where)
+    raster = stations = None
+    units = wt.get("units")
+    if isinstance(src, dict):
+        raster = _value(src, base, "depth.water_table.depth", "water_table_depth", where)
+    elif isinstance(src, str) and src.lower().endswith(_STATION_SUFFIXES):
+        stations = _path(src, base, "depth.water_table.depth", where)
+    elif isinstance(src, str):
+        raster = RasterRef(_path(src, base, "depth.water_table.depth", where), units,
+                           conversion_factor(units, "m", "depth.water_table.units") if units else 1.0)
+    else:
+        raise ConfigError(f"{where}: `depth.water_table.depth` must be a raster or a station file path, got {src!r}")
+    model = wt.get("model", "fit")
+    model_file = None
+    intercept = slope = None
+    if "intercept" in wt or "slope" in wt:
+        if "intercept" not in wt or "slope" not in wt:
+            raise ConfigError(f"{where}: give both `depth.water_table.intercept` (m) and `slope` (m/m)")
+        intercept = to_magnitude(wt["intercept"], "m", "depth.water_table.intercept")
+        slope = to_magnitude(wt["slope"], "dimensionless", "depth.water_table.slope")
+        model = "user"
+    elif isinstance(model, str) and model.lower().endswith(".json"):
+        model_file = _path(model, base, "depth.water_table.model", where)
+        model = "file"
+    elif model not in ("fit", "default"):
+        raise ConfigError(f"{where}: `depth.water_table.model` must be \"fit\", \"default\" or a fit JSON from "
+                          f"`peatburn calibrate`, got {model!r}")
+    fit_method = wt.get("fit_method", "theil-sen")
+    if fit_method not in ("theil-sen", "huber"):
+        raise ConfigError(f"{where}: `depth.water_table.fit_method` must be \"theil-sen\" or \"huber\"")
+    return WaterTableConfig(
+        raster=raster, stations=stations, value_column=str(wt.get("value_column", "water_table_m")),
+        crs=wt.get("crs"), date_column=wt.get("date_column"), model=model, intercept=intercept, slope=slope,
+        model_file=model_file, fit_method=fit_method,
+        idw_power=_opt_number(wt, "idw_power", "depth.water_table", where, 0.5, 6) or 2.0,
+        idw_neighbours=int(_opt_number(wt, "idw_neighbours", "depth.water_table", where, 1, 100) or 12),
+        idw_max_distance_m=_opt_number(wt, "idw_max_distance_m", "depth.water_table", where, 0, None),
+    )
+
+
+def _flaming(fl: dict, base: Path, where: str, force: bool) -> FlamingConfig:
+    _check_keys(fl, "flaming", where)
+    method = fl.get("method", "frp" if "detections" in fl else "biomass")
+    if method not in ("frp", "biomass"):
+        raise ConfigError(f"{where}: `flaming.method` must be \"frp\" (active-fire detections) or \"biomass\"")
+    detections = _path(fl["detections"], base, "flaming.detections", where) if "detections" in fl else None
+    if method == "frp" and detections is None:
+        raise ConfigError(f"{where}: `flaming.method = \"frp\"` needs `flaming.detections` (a CSV or vector file)")
+    biomass = None
+    if "biomass" in fl:
+        biomass = _value(fl["biomass"], base, "flaming.biomass", "biomass", where, force=force)
+    cf = _opt_number(fl, "combustion_factor", "flaming", where, 0, 1)
+    if method == "biomass" and (biomass is None or cf is None):
+        raise ConfigError(f"{where}: `flaming.method = \"biomass\"` needs `flaming.biomass` (t d.m./ha, number or "
+                          f"raster) and `flaming.combustion_factor` (0-1, IPCC 2006 Table 2.6)")
+    columns = fl.get("columns", {})
+    if not isinstance(columns, dict):
+        raise ConfigError(f"{where}: `flaming.columns` must be a table such as {{ time = \"obs_time\" }}")
+    coef = None
+    if "coefficient" in fl:
+        coef = _value(fl["coefficient"], base, "flaming.coefficient", "combustion_coefficient", where, force=force)
+    gap = fl.get("event_gap_hours")
+    return FlamingConfig(
+        method=method, detections=detections, crs=fl.get("crs"), columns=dict(columns),
+        event_distance_m=_opt_number(fl, "event_distance_m", "flaming", where, 0, None),
+        event_gap_hours=float(gap) if gap is not None else None, coefficient_kg_per_mj=coef,
+        biomass=biomass, combustion_factor=cf,
+        vegetation_carbon_fraction=_opt_number(fl, "vegetation_carbon_fraction", "flaming", where, 0, 1),
     )
 
 

@@ -1,36 +1,220 @@
-"""Executors run :func:`peatburn.pipeline.process_block` over the block windows.
+"""Executors run a per-block function (:func:`peatburn.pipeline.process_block`) over block windows.
 
-``serial`` runs in this process; ``processes`` in N local worker processes (each opens the
-input files itself; GDAL's block cache is kept small per worker and GDAL threads at one, so N
-workers do not oversubscribe the machine). Results come back in window order, so sums are
-added in the same order whatever the executor, and results equal the serial run's.
+Three ways, one contract (:func:`map_blocks`): results come back **in window order**, so the caller
+adds sums in the same order whatever the executor and the totals equal the serial run's.
+
+``serial``
+    in this process.
+``processes`` (``workers=N``)
+    N local worker processes. The plan is sent once to each worker (pool initializer), each task
+    carries only its window; each worker opens the input files itself.
+``dask.distributed`` (``scheduler="tcp://host:8786"``)
+    blocks are submitted to an existing cluster; the plan is scattered once to every worker
+    (broadcast) and each result is gathered back to this process, which writes the outputs. The
+    input paths must be readable on every worker (a shared file system or object store).
+
+Memory stays bounded whatever the raster size: at most :data:`PREFETCH` results per worker are
+in flight, and results are handed to the caller one at a time.
+
+GDAL settings (common practice, not a published rule): each worker process gets a block cache of
+:data:`WORKER_GDAL_CACHE` bytes and one GDAL thread, and BLAS/OpenMP pools of one thread, so N
+workers on N cores do not oversubscribe the machine or multiply GDAL's default cache (5 % of the
+RAM per process). :func:`gdal_env` gives the matching settings for the main process.
 """
 
 from __future__ import annotations
 
+import collections
+import multiprocessing
 import os
+import sys
+import threading
 from concurrent.futures import ProcessPoolExecutor
 from typing import Callable, Iterable, Iterator
 
+from .errors import PeatburnError
 
-def _init_worker():
-    os.environ.setdefault("GDAL_CACHEMAX", "128")
-    os.environ["GDAL_NUM_THREADS"] = "1"
-    os.environ.setdefault("OMP_NUM_THREADS", "1")
-    os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+#: GDAL block cache of one worker process [bytes]. A block touches at most 4 input tiles of each of
+#: up to 6 input rasters (24 MiB with 512 x 512 float32 tiles); 128 MiB leaves room for a row of tiles.
+WORKER_GDAL_CACHE = 128 * 2**20
+#: GDAL block cache of the main process during a run [bytes]: bounds the memory of the readers,
+#: of the block writers and of the COG conversion, which otherwise grows with the raster up to
+#: GDAL's default cache of 5 % of the RAM.
+MAIN_GDAL_CACHE = 256 * 2**20
+#: Seconds to wait for a dask scheduler to answer.
+CONNECT_TIMEOUT = 10
+#: Results in flight per worker (submitted, not yet handed to the caller).
+PREFETCH = 2
+
+_THREAD_VARS = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
 
 
-def _call(args):
-    fn, plan, window = args
-    return fn(plan, window)
+def gdal_settings(cache_bytes: int = MAIN_GDAL_CACHE) -> dict:
+    """GDAL configuration options of a peatburn process (``rasterio.Env(**gdal_settings())``).
+
+    Parameters
+    ----------
+    cache_bytes : int
+        GDAL block-cache size [bytes].
+    """
+    return {"GDAL_CACHEMAX": int(cache_bytes), "GDAL_NUM_THREADS": "1"}
 
 
-def map_blocks(fn: Callable, plan, windows: Iterable, workers: int = 1) -> Iterator:
-    """Yield ``fn(plan, window)`` for each window, in order."""
+def gdal_env(cache_bytes: int = MAIN_GDAL_CACHE):
+    """A :class:`rasterio.Env` with :func:`gdal_settings`: wrap a whole run in it to bound GDAL's cache."""
+    import rasterio
+
+    return rasterio.Env(**gdal_settings(cache_bytes))
+
+
+def configure_worker(cache_bytes: int = WORKER_GDAL_CACHE) -> None:
+    """Set this process's GDAL cache and thread options (process-wide, for worker processes)."""
+    for var in _THREAD_VARS:
+        os.environ.setdefault(var, "1")
+    from rasterio.env import set_gdal_config
+
+    for key, value in gdal_settings(cache_bytes).items():
+        set_gdal_config(key, value)
+
+
+# --------------------------------------------------------------------------------------------
+# ordered, bounded submission
+
+
+def _ordered(submit: Callable, windows: list, depth: int) -> Iterator:
+    """Submit ``windows`` keeping at most ``depth`` futures in flight; yield results in order."""
+    pending: collections.deque = collections.deque()
+    try:
+        for w in windows:
+            pending.append(submit(w))
+            if len(pending) >= depth:
+                yield pending.popleft().result()
+        while pending:
+            yield pending.popleft().result()
+    finally:
+        for f in pending:
+            f.cancel()
+
+
+# --------------------------------------------------------------------------------------------
+# local processes
+
+_WORKER: dict = {}
+
+
+def _init_process(fn, plan, cache_bytes):
+    configure_worker(cache_bytes)
+    _WORKER["fn"] = fn
+    _WORKER["plan"] = plan
+
+
+def _process_task(window):
+    return _WORKER["fn"](_WORKER["plan"], window)
+
+
+def _mp_context():
+    """``forkserver`` where the platform has it (no GDAL handles or threads inherited from this
+    process; workers fork from a clean server with peatburn imported), else ``spawn``."""
+    methods = multiprocessing.get_all_start_methods()
+    if "forkserver" in methods and sys.platform != "darwin":
+        ctx = multiprocessing.get_context("forkserver")
+        ctx.set_forkserver_preload(["peatburn.pipeline"])
+        return ctx
+    return multiprocessing.get_context("spawn")
+
+
+def _process_map(fn, plan, windows, workers, cache_bytes):
+    with ProcessPoolExecutor(max_workers=workers, mp_context=_mp_context(), initializer=_init_process,
+                             initargs=(fn, plan, cache_bytes)) as pool:
+        try:
+            yield from _ordered(lambda w: pool.submit(_process_task, w), windows, PREFETCH * workers)
+        except BaseException:
+            pool.shutdown(wait=True, cancel_futures=True)
+            raise
+
+
+# --------------------------------------------------------------------------------------------
+# dask.distributed
+
+_DASK_LOCK = threading.Lock()
+_DASK_CONFIGURED: dict = {}
+
+
+def _dask_task(fn, plan, window, cache_bytes):
+    """Run one block on a dask worker.
+
+    The GDAL settings are applied once per worker process. Blocks run one at a time per process
+    (a lock): the per-process reader cache of the pipeline holds GDAL datasets, which are not
+    thread-safe; start workers with ``--nthreads 1`` and one process per core.
+    """
+    with _DASK_LOCK:
+        if _DASK_CONFIGURED.get("cache") != cache_bytes:
+            configure_worker(cache_bytes)
+            _DASK_CONFIGURED["cache"] = cache_bytes
+        return fn(plan, window)
+
+
+def _dask_map(fn, plan, windows, scheduler, cache_bytes):
+    try:
+        from distributed import Client
+    except ImportError:  # pragma: no cover - depends on the installed extras
+        raise PeatburnError("--scheduler needs dask.distributed, which is not installed: "
+                            "pip install 'peatburn[scale]'") from None
+    own = not isinstance(scheduler, Client)
+    if own:
+        try:
+            client = Client(scheduler, set_as_default=False, timeout=CONNECT_TIMEOUT)
+        except (OSError, TimeoutError, ValueError) as exc:
+            raise PeatburnError(f"--scheduler: cannot connect to a dask scheduler at {scheduler!r} "
+                                f"({str(exc).splitlines()[0] if str(exc) else type(exc).__name__}); check the "
+                                f"address (e.g. tcp://10.0.0.5:8786) and that the scheduler is running") from None
+    else:
+        client = scheduler
+    try:
+        [plan_f] = client.scatter([plan], broadcast=True, hash=False)
+        threads = sum(client.nthreads().values()) or 1
+        yield from _ordered(lambda w: client.submit(_dask_task, fn, plan_f, w, cache_bytes, pure=False),
+                            windows, PREFETCH * threads)
+        del plan_f
+    finally:
+        if own:
+            client.close()
+
+
+# --------------------------------------------------------------------------------------------
+
+
+def map_blocks(fn: Callable, plan, windows: Iterable, workers: int = 1, scheduler=None, *,
+               worker_cache: int = WORKER_GDAL_CACHE) -> Iterator:
+    """Yield ``fn(plan, window)`` for each window, in window order.
+
+    Parameters
+    ----------
+    fn : callable
+        A module-level function ``fn(plan, window) -> result`` (picklable by reference).
+    plan : object
+        Picklable; sent once per worker process.
+    windows : iterable of rasterio.windows.Window
+    workers : int
+        Local worker processes; 1 runs serially in this process. Ignored when ``scheduler`` is given.
+    scheduler : str or distributed.Client, optional
+        Address of a dask.distributed scheduler (e.g. ``"tcp://10.0.0.5:8786"``), or a client.
+        A client made from an address is closed at the end; a client passed in is left open.
+    worker_cache : int
+        GDAL block cache of each worker process [bytes].
+
+    Notes
+    -----
+    Results are produced lazily and at most ``PREFETCH`` per worker are held in flight, so the
+    memory used does not depend on the number of windows. Closing the generator early cancels
+    the blocks not yet run.
+    """
     windows = list(windows)
+    if scheduler is not None:
+        yield from _dask_map(fn, plan, windows, scheduler, worker_cache)
+        return
     if workers <= 1 or len(windows) <= 1:
         for w in windows:
             yield fn(plan, w)
         return
-    with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker) as pool:
-        yield from pool.map(_call, ((fn, plan, w) for w in windows), chunksize=1)
+    yield from _process_map(fn, plan, windows, min(workers, len(windows)), worker_cache)

@@ -11,6 +11,7 @@ import math
 import uuid
 import warnings
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 import shapely
@@ -27,10 +28,8 @@ from .zones import ZoneLayerIndex, accumulate
 
 #: Pixel budget of the co-registration sample (a decimated view of the whole grid).
 SAMPLE_PIXELS = 4_000_000
-#: Quantities summed per zone and for the run [m2, m3, kg].
-SUM_KEYS = ("burned_area_m2", "estimated_area_m2", "volume_m3", "peat_kg", "carbon_kg",
-            "unestimated_area_m2", "below_lod_area_m2", "capped_area_m2")
-
+#: Stable-ground residuals kept for the variogram of the survey error.
+STABLE_SAMPLE_MAX = 50_000
 
 # --------------------------------------------------------------------------------------------
 # inputs
@@ -45,29 +44,41 @@ class Inputs:
     scars: object  # PolygonLayer
     zones: list  # (ZoneLayerConfig, PolygonLayer, ids)
     stable: object | None
+    stations: object | None = None  # io.points.Points (water-table stations)
+    plots: object | None = None  # io.points.Points (field plots)
     notes: list[str] = field(default_factory=list)
+
+    @property
+    def has_survey(self) -> bool:
+        return self.config.survey is not None
 
 
 def open_inputs(cfg: RunConfig) -> Inputs:
-    """Open and check every input; build the run grid (the pre-fire survey's grid by default)."""
-    rasters = {"depth.survey.pre": inspect_raster(cfg.survey.pre, "depth.survey.pre"),
-               "depth.survey.post": inspect_raster(cfg.survey.post, "depth.survey.post")}
+    """Open and check every input; build the run grid.
+
+    The grid is the pre-fire survey's by default; without a survey, the water-table raster's, then
+    the peat rasters'; else ``run.crs`` and ``run.resolution`` over the burn scars.
+    """
+    rasters = {}
+    if cfg.survey is not None:
+        rasters["depth.survey.pre"] = inspect_raster(cfg.survey.pre, "depth.survey.pre")
+        rasters["depth.survey.post"] = inspect_raster(cfg.survey.post, "depth.survey.post")
     for key, val in _raster_params(cfg).items():
         rasters[key] = inspect_raster(val.path, key)
     notes = []
-    run_crs = cfg.crs
-    pre = rasters["depth.survey.pre"]
-    if run_crs is None and pre.crs.is_geographic:
-        run_crs = _utm_for(pre)
-        notes.append(f"run grid: the pre-fire survey is in a geographic CRS; differencing and co-registration need "
-                     f"metres, so the run uses {run_crs} (set run.crs to choose another projected CRS)")
-    grid = grid_from_raster(pre, run_crs)
+    grid = _run_grid(cfg, rasters, notes)
     for key, info in rasters.items():
         check_overlap(info, grid, key)
     scars = read_polygons(cfg.burned_area, grid.crs, "burned_area.path", cfg.burned_area_layer)
     notes += [f"burned_area: {n}" for n in scars.notes]
     if len(scars.frame) == 0:
         raise GridError(f"burned_area.path: {cfg.burned_area} holds no polygon; nothing burned to estimate")
+    if cfg.fire_count_field and cfg.fire_count_field not in scars.frame.columns:
+        from .errors import ZoneError
+
+        fields = [c for c in scars.frame.columns if c != scars.frame.geometry.name]
+        raise ZoneError(f"burned_area.fire_count_field: {cfg.burned_area} has no field {cfg.fire_count_field!r}; "
+                        f"fields are: {', '.join(fields)}")
     zones = []
     for i, z in enumerate(cfg.zones):
         layer = read_polygons(z.path, grid.crs, f"zones[{i}] ({z.name})", z.layer)
@@ -80,9 +91,70 @@ def open_inputs(cfg: RunConfig) -> Inputs:
                          f"{', '.join(names[:5])}{' ...' if len(names) > 5 else ''}")
         zones.append((z, layer, ids))
     stable = None
-    if cfg.survey.stable is not None:
+    if cfg.survey is not None and cfg.survey.stable is not None:
         stable = read_polygons(cfg.survey.stable, grid.crs, "depth.survey.stable")
-    return Inputs(cfg, grid, rasters, scars, zones, stable, notes)
+    stations = plots = None
+    wt = cfg.water_table
+    if wt is not None and wt.stations is not None:
+        from .io.points import read_points
+
+        stations = read_points(wt.stations, grid.crs, value_column=wt.value_column, crs=wt.crs,
+                               date_column=wt.date_column, bounds=None, what="depth.water_table.depth")
+        _note_rejected(notes, "water-table stations", stations)
+        from .science.water_table import check_water_table
+
+        notes += [f"water table: {w}" for w in check_water_table(stations.frame["value"].to_numpy(),
+                                                                  "depth.water_table.depth")]
+    if cfg.plots is not None:
+        from .io.points import read_points
+
+        plots = read_points(cfg.plots.path, grid.crs, value_column=cfg.plots.value_column, crs=cfg.plots.crs,
+                            date_column=cfg.plots.date_column, bounds=grid.bounds, what="depth.plots.path")
+        _note_rejected(notes, "field plots", plots)
+    return Inputs(cfg, grid, rasters, scars, zones, stable, stations, plots, notes)
+
+
+def _note_rejected(notes: list, what: str, points) -> None:
+    for reason, n in (points.rejected or {}).items():
+        if n:
+            notes.append(f"{what}: {n} row(s) not used ({reason}) from {points.path}")
+
+
+def _run_grid(cfg: RunConfig, rasters: dict, notes: list) -> RunGrid:
+    for key in ("depth.survey.pre", "depth.water_table.depth", "peat.thickness", "peat.bulk_density",
+                "peat.carbon_fraction"):
+        if key in rasters:
+            info = rasters[key]
+            run_crs = cfg.crs
+            if run_crs is None and info.crs.is_geographic:
+                run_crs = _utm_for(info)
+                notes.append(f"run grid: {key} is in a geographic CRS; differencing, co-registration and buffers "
+                             f"need metres, so the run uses {run_crs} (set run.crs to choose another projected CRS)")
+            grid = grid_from_raster(info, run_crs)
+            if cfg.resolution:
+                grid = _regrid(grid, cfg.resolution)
+            return grid
+    if cfg.crs and cfg.resolution:
+        scars = read_polygons(cfg.burned_area, cfg.crs, "burned_area.path", cfg.burned_area_layer)
+        minx, miny, maxx, maxy = scars.frame.total_bounds
+        r = cfg.resolution
+        minx, miny = math.floor(minx / r) * r, math.floor(miny / r) * r
+        maxx, maxy = math.ceil(maxx / r) * r, math.ceil(maxy / r) * r
+        from affine import Affine as _A
+
+        from .grid import normalise_crs
+
+        return RunGrid(normalise_crs(cfg.crs, "run.crs"), _A(r, 0, minx, 0, -r, maxy),
+                       max(1, int(round((maxx - minx) / r))), max(1, int(round((maxy - miny) / r))))
+    raise GridError("no raster defines the run grid (no survey, water-table raster or peat raster); "
+                    "set run.crs and run.resolution")
+
+
+def _regrid(grid: RunGrid, res: float) -> RunGrid:
+    left, bottom, right, top = grid.bounds
+    w = max(1, int(round((right - left) / res)))
+    h = max(1, int(round((top - bottom) / res)))
+    return RunGrid(grid.crs, Affine(res, 0, left, 0, -res, top), w, h)
 
 
 def _utm_for(info) -> str:
@@ -100,8 +172,12 @@ def _utm_for(info) -> str:
 
 def _raster_params(cfg: RunConfig) -> dict[str, RasterRef]:
     out = {}
-    if isinstance(cfg.survey.subsidence_rate, RasterRef):
+    if cfg.survey is not None and isinstance(cfg.survey.subsidence_rate, RasterRef):
         out["depth.survey.subsidence_rate"] = cfg.survey.subsidence_rate
+    if cfg.water_table is not None and cfg.water_table.raster is not None:
+        out["depth.water_table.depth"] = cfg.water_table.raster
+    if cfg.flaming is not None and isinstance(cfg.flaming.biomass, RasterRef):
+        out["flaming.biomass"] = cfg.flaming.biomass
     for key in ("thickness", "bulk_density", "carbon_fraction"):
         v = getattr(cfg.peat, key)
         if isinstance(v, RasterRef):
@@ -122,7 +198,7 @@ def _param_source(value, key: str):
 # co-registration
 
 @dataclass(frozen=True)
-class SurveyAlignment:
+class SurveyAlignment:  # noqa: D101
     """How the post survey is aligned to the pre survey, and the stable-ground QA."""
 
     shift_x: float
@@ -137,6 +213,7 @@ class SurveyAlignment:
     n_stable_sample: int
     lod: float
     sample_decimation: int
+    stable_sample: tuple = field(default=(), repr=False, compare=False)  # (x, y, residual) after alignment [m]
 
     def to_dict(self) -> dict:
         return {
@@ -225,13 +302,15 @@ def coregister(inputs: Inputs, random_state: int = 0) -> SurveyAlignment:
         tilt = coregistration.fit_plane(np.concatenate(xs), np.concatenate(ys), after)
         after = after - coregistration.plane(np.concatenate(xs), np.concatenate(ys), tilt)
     s_after = float(survey.nmad(after))
+    xs_all, ys_all = np.concatenate(xs), np.concatenate(ys)
+    keep = np.random.default_rng(random_state).permutation(after.size)[:STABLE_SAMPLE_MAX]
     return SurveyAlignment(
         shift_x=est.shift_x, shift_y=est.shift_y, shift_z=est.shift_z, tilt=tilt, post_transform=post_t,
         nmad_before=float(survey.nmad(before)), nmad_after=s_after,
         median_before=float(np.median(before)) if before.size else float("nan"),
         median_after=float(np.median(after)) if after.size else float("nan"),
         n_stable_sample=int(after.size), lod=float(survey.level_of_detection(s_after, cfg.survey.lod_t)),
-        sample_decimation=factor,
+        sample_decimation=factor, stable_sample=(xs_all[keep], ys_all[keep], after[keep]),
     )
 
 
@@ -260,13 +339,48 @@ def sample_windows(grid: RunGrid, block: int, max_pixels: int = SAMPLE_PIXELS) -
 # --------------------------------------------------------------------------------------------
 # the plan and one block
 
+METHOD_CODES = {"survey": 1, "water_table": 2, "tier1": 3}
+METHODS = tuple(METHOD_CODES)
+
+#: Quantities summed per zone and for the run [m2, m3, kg, kg/m ...].
+SUM_KEYS = (
+    "burned_area_m2", "estimated_area_m2", "depth_area_m2", "volume_m3", "peat_kg", "carbon_kg",
+    "unestimated_area_m2", "below_lod_area_m2", "capped_area_m2",
+    *(f"{k}_{m}" for m in METHODS for k in ("area_m2", "peat_kg", "carbon_kg")),
+    # for zone-level Monte Carlo: mass per metre of depth over survey / water-table pixels
+    "rho_area_survey", "rho_f_area_survey", "rho_area_water_table", "rho_f_area_water_table",
+    "rho_area_wt_water_table", "rho_f_area_wt_water_table",
+    # Tier 1 applied to every burned pixel (side-by-side columns) [kg dry matter, kg C]
+    "tier1_all_peat_kg", "tier1_all_carbon_kg",
+    # flaming by burned area x biomass [t dry matter available above ground]
+    "biomass_t",
+)
+
+
+@dataclass
+class DepthModels:
+    """Water-table depth models: one for all scars, or one for first and one for repeat fires."""
+
+    all: object  # science.water_table.DepthModel
+    first: object | None = None
+    repeat: object | None = None
+
+    def to_dict(self) -> dict:
+        out = {"all": self.all.to_dict()}
+        if self.first is not None:
+            out["first_fire"] = self.first.to_dict()
+        if self.repeat is not None:
+            out["repeat_fire"] = self.repeat.to_dict()
+        return out
+
+
 @dataclass
 class RunPlan:
     """Everything one block needs; picklable so worker processes can run blocks."""
 
     grid: RunGrid
-    pre: RasterSource
-    post: RasterSource
+    pre: RasterSource | None
+    post: RasterSource | None
     shift_z: float
     tilt: tuple | None
     subsidence_rate: object
@@ -275,35 +389,66 @@ class RunPlan:
     bulk_density: object
     carbon_fraction: object
     scars: np.ndarray
+    scar_fire_counts: np.ndarray | None
     zone_layers: list  # (name, ids, geometries)
     lod: float
     block_size: int
+    water_table: object = None  # RasterSource | float | None
+    stations: tuple | None = None  # (x, y, value) for IDW
+    idw: tuple = (2.0, 12, None)  # power, neighbours, max distance [m]
+    models: DepthModels | None = None
+    tier1_fuel_t_ha: float = 0.0
+    biomass: object = None  # RasterSource | float | None [t/ha]
     token: str = field(default_factory=lambda: uuid.uuid4().hex)
 
 
-def build_plan(inputs: Inputs, alignment: SurveyAlignment) -> RunPlan:
+def tier1_default_fuel() -> float:
+    """IPCC 2013 Wetlands Supplement default fuel consumption for wildfire on tropical organic soil
+    [t d.m./ha] (see :mod:`peatburn.science.tier1`)."""
+    from .science import tier1
+
+    return float(tier1.DEFAULT_FUEL_CONSUMPTION_T_HA)
+
+
+def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthModels | None = None) -> RunPlan:
     cfg = inputs.config
+    sv = cfg.survey
+    fc = None
+    if cfg.fire_count_field:
+        fc = inputs.scars.frame[cfg.fire_count_field].fillna(1).astype(float).to_numpy()
+    wt = cfg.water_table
+    stations = None
+    if inputs.stations is not None and len(inputs.stations.frame):
+        f = inputs.stations.frame
+        stations = (f.geometry.x.to_numpy(), f.geometry.y.to_numpy(), f["value"].to_numpy(dtype=float))
     return RunPlan(
         grid=inputs.grid,
-        pre=RasterSource(str(cfg.survey.pre), "depth.survey.pre"),
-        post=RasterSource(str(cfg.survey.post), "depth.survey.post", src_transform=alignment.post_transform),
-        shift_z=alignment.shift_z, tilt=alignment.tilt,
-        subsidence_rate=_param_source(cfg.survey.subsidence_rate, "depth.survey.subsidence_rate"),
-        interval_years=cfg.survey.interval_years,
+        pre=RasterSource(str(sv.pre), "depth.survey.pre") if sv else None,
+        post=RasterSource(str(sv.post), "depth.survey.post", src_transform=alignment.post_transform) if sv else None,
+        shift_z=alignment.shift_z if alignment else 0.0, tilt=alignment.tilt if alignment else None,
+        subsidence_rate=_param_source(sv.subsidence_rate, "depth.survey.subsidence_rate") if sv else None,
+        interval_years=sv.interval_years if sv else 0.0,
         thickness=_param_source(cfg.peat.thickness, "peat.thickness"),
         bulk_density=_param_source(cfg.peat.bulk_density, "peat.bulk_density"),
         carbon_fraction=_param_source(cfg.peat.carbon_fraction, "peat.carbon_fraction"),
-        scars=np.asarray(inputs.scars.geometries, dtype=object),
+        scars=np.asarray(inputs.scars.geometries, dtype=object), scar_fire_counts=fc,
         zone_layers=[(z.name, ids, np.asarray(layer.geometries, dtype=object)) for z, layer, ids in inputs.zones],
-        lod=alignment.lod, block_size=cfg.block_size,
+        lod=alignment.lod if alignment else float("nan"), block_size=cfg.block_size,
+        water_table=_param_source(wt.raster, "depth.water_table.depth") if wt is not None and wt.raster else None,
+        stations=stations,
+        idw=(wt.idw_power, wt.idw_neighbours, wt.idw_max_distance_m) if wt is not None else (2.0, 12, None),
+        models=models,
+        tier1_fuel_t_ha=cfg.tier1.fuel_consumption_t_ha or tier1_default_fuel(),
+        biomass=_param_source(cfg.flaming.biomass, "flaming.biomass") if cfg.flaming else None,
     )
 
 
 @dataclass
 class BlockResult:
     window: Window
-    depth: np.ndarray  # m, NaN outside estimated pixels
+    depth: np.ndarray  # m, NaN where no depth
     carbon_density: np.ndarray  # kg C m-2
+    method: np.ndarray  # uint8 METHOD_CODES, 0 outside the burned area
     total: dict  # key -> float
     zones: list  # per layer: key -> array(n_bins)
 
@@ -315,15 +460,21 @@ def _state(plan: RunPlan):
     """Readers and rasterizers of a plan, opened once per process."""
     st = _CACHE.get(plan.token)
     if st is None:
+        for old in _CACHE.values():
+            for r in old["readers"].values():
+                r.close()
         _CACHE.clear()
         readers = {}
-        for name in ("pre", "post", "subsidence_rate", "thickness", "bulk_density", "carbon_fraction"):
+        for name in ("pre", "post", "subsidence_rate", "thickness", "bulk_density", "carbon_fraction",
+                     "water_table", "biomass"):
             src = getattr(plan, name)
             if isinstance(src, RasterSource):
                 readers[name] = GridReader(src, plan.grid)
         st = {
             "readers": readers,
             "scars": WindowRasterizer(plan.scars),
+            "fire_count": WindowRasterizer(plan.scars, values=plan.scar_fire_counts)
+            if plan.scar_fire_counts is not None else None,
             "zones": [ZoneLayerIndex.from_geometries(n, ids, g) for n, ids, g in plan.zone_layers],
         }
         _CACHE[plan.token] = st
@@ -339,9 +490,59 @@ def _param(st, plan, name, window):
     return st["readers"][name].read(window)
 
 
+def survey_depth(st, plan: RunPlan, window: Window):
+    """Raw and capped survey burn depth of a window [m] (NaN where a survey is missing)."""
+    shape = (int(window.height), int(window.width))
+    if plan.pre is None:
+        nan = np.full(shape, np.nan)
+        return nan, nan
+    pre = st["readers"]["pre"].read(window)
+    post = st["readers"]["post"].read(window) + plan.shift_z
+    if plan.tilt is not None:
+        x, y = plan.grid.pixel_centres(window)
+        post = post + coregistration.plane(x, y, plan.tilt)
+    rate = _param(st, plan, "subsidence_rate", window)
+    sub = 0.0 if rate is None else survey.subsidence_lowering(rate, plan.interval_years)
+    raw = survey.burn_depth(pre, post, sub)
+    thick = _param(st, plan, "thickness", window)
+    return raw, (raw if thick is None else peat.cap_depth(raw, thick))
+
+
+def water_table_depth(st, plan: RunPlan, window: Window, where: np.ndarray) -> np.ndarray:
+    """Water-table depth at fire time on a window [m below surface]: raster, or IDW of stations at
+    the pixels of ``where`` only (NaN elsewhere)."""
+    shape = (int(window.height), int(window.width))
+    if plan.water_table is not None:
+        v = _param(st, plan, "water_table", window)
+        return np.broadcast_to(v, shape).astype("float64") if np.ndim(v) == 0 else v
+    out = np.full(shape, np.nan)
+    if plan.stations is None or not where.any():
+        return out
+    from .science.water_table import idw
+
+    x, y = plan.grid.pixel_centres(window)
+    xx = np.broadcast_to(x, shape)[where]
+    yy = np.broadcast_to(y, shape)[where]
+    power, k, dmax = plan.idw
+    sx, sy, sv = plan.stations
+    out[where] = idw(sx, sy, sv, xx, yy, power=power, k=k, max_distance=dmax)
+    return out
+
+
+def _model_depth(st, plan: RunPlan, window: Window, wt: np.ndarray, thick) -> np.ndarray:
+    from .science.water_table import predict_depth
+
+    m = plan.models
+    d = predict_depth(m.all, wt, thick)
+    if m.first is not None and m.repeat is not None and st["fire_count"] is not None:
+        count = st["fire_count"].rasterize(plan.grid, window, dtype="float64")
+        d = np.where(count >= 2, predict_depth(m.repeat, wt, thick), predict_depth(m.first, wt, thick))
+    return d
+
+
 def process_block(plan: RunPlan, window: Window) -> BlockResult:
-    """Burn depth, peat mass and carbon of one window, with zone sums (pure of side effects
-    except reading the inputs)."""
+    """Burn depth (survey, else water-table model, else Tier 1), peat mass and carbon of one window,
+    with zone sums."""
     st = _state(plan)
     grid = plan.grid
     shape = (int(window.height), int(window.width))
@@ -349,43 +550,208 @@ def process_block(plan: RunPlan, window: Window) -> BlockResult:
     zone_bins = [(z, z.bin_rasters(grid, window)) for z in st["zones"]]
     if not burned.any():
         nan = np.full(shape, np.nan, dtype="float32")
-        return BlockResult(window, nan, nan, {k: 0.0 for k in SUM_KEYS},
+        return BlockResult(window, nan, nan, np.zeros(shape, "uint8"), {k: 0.0 for k in SUM_KEYS},
                            [{k: np.zeros(z.n_bins) for k in SUM_KEYS} for z, _ in zone_bins])
-    pre = st["readers"]["pre"].read(window)
-    post = st["readers"]["post"].read(window) + plan.shift_z
-    if plan.tilt is not None:
-        x, y = grid.pixel_centres(window)
-        post = post + coregistration.plane(x, y, plan.tilt)
-    rate = _param(st, plan, "subsidence_rate", window)
-    sub = 0.0 if rate is None else survey.subsidence_lowering(rate, plan.interval_years)
-    thick = _param(st, plan, "thickness", window)
-    raw = survey.burn_depth(pre, post, sub)
-    depth = raw if thick is None else peat.cap_depth(raw, thick)
-    rho = _param(st, plan, "bulk_density", window)
-    cf = _param(st, plan, "carbon_fraction", window)
     area = np.broadcast_to(grid.pixel_area(window), shape)
-    valid = burned & np.isfinite(depth) & np.isfinite(np.broadcast_to(rho, shape)) & \
-        np.isfinite(np.broadcast_to(cf, shape))
-    depth = np.where(valid, depth, np.nan)
-    mass = peat.peat_dry_mass(depth, rho, area)
-    carbon = peat.carbon_mass(mass, cf)
-    zero = np.zeros(shape)
-    lod_mask = survey.below_detection(depth, plan.lod) & valid
-    capped = valid & np.isfinite(raw) & (raw > depth)
+    rho = np.broadcast_to(_param(st, plan, "bulk_density", window), shape)
+    cf = np.broadcast_to(_param(st, plan, "carbon_fraction", window), shape)
+    peat_ok = np.isfinite(rho) & np.isfinite(cf)
+    raw, depth_s = survey_depth(st, plan, window)
+    m_survey = burned & np.isfinite(depth_s) & peat_ok
+    depth = np.where(m_survey, depth_s, np.nan)
+    m_wt = np.zeros(shape, bool)
+    wt = None
+    if plan.models is not None:
+        need = burned & ~m_survey & peat_ok
+        wt = water_table_depth(st, plan, window, need)
+        m_wt = need & np.isfinite(wt)
+        if m_wt.any():
+            depth = np.where(m_wt, _model_depth(st, plan, window, wt, _param(st, plan, "thickness", window)), depth)
+    m_t1 = burned & ~m_survey & ~m_wt & np.isfinite(cf)
+    valid_depth = m_survey | m_wt
+    mass = np.where(valid_depth, peat.peat_dry_mass(depth, rho, area), 0.0)
+    t1_mass_all = np.where(burned, plan.tier1_fuel_t_ha * 1000.0 * area * 1e-4, 0.0)  # t/ha -> kg per pixel
+    mass = np.where(m_t1, t1_mass_all, mass)
+    carbon = np.where(m_survey | m_wt | m_t1, peat.carbon_mass(mass, cf), 0.0)
+    estimated = m_survey | m_wt | m_t1
+    method = np.zeros(shape, "uint8")
+    method[m_survey] = METHOD_CODES["survey"]
+    method[m_wt] = METHOD_CODES["water_table"]
+    method[m_t1] = METHOD_CODES["tier1"]
+    lod_mask = survey.below_detection(depth, plan.lod) & m_survey if np.isfinite(plan.lod) else np.zeros(shape, bool)
+    capped = m_survey & np.isfinite(raw) & (raw > depth_s)
+    rho_a = np.where(peat_ok, rho * peat.KG_M3_PER_G_CM3 * area, 0.0)
+    rho_f_a = np.where(peat_ok, rho_a * cf, 0.0)
+    wt_f = np.where(m_wt, wt, 0.0) if wt is not None else 0.0
     values = {
         "burned_area_m2": np.where(burned, area, 0.0),
-        "estimated_area_m2": np.where(valid, area, 0.0),
-        "volume_m3": np.where(valid, depth * area, 0.0),
-        "peat_kg": np.where(valid, mass, 0.0),
-        "carbon_kg": np.where(valid, carbon, 0.0),
-        "unestimated_area_m2": np.where(burned & ~valid, area, zero),
+        "estimated_area_m2": np.where(estimated, area, 0.0),
+        "depth_area_m2": np.where(valid_depth, area, 0.0),
+        "volume_m3": np.where(valid_depth, depth * area, 0.0),
+        "peat_kg": np.where(estimated, mass, 0.0),
+        "carbon_kg": carbon,
+        "unestimated_area_m2": np.where(burned & ~estimated, area, 0.0),
         "below_lod_area_m2": np.where(lod_mask, area, 0.0),
         "capped_area_m2": np.where(capped, area, 0.0),
+        "rho_area_survey": np.where(m_survey, rho_a, 0.0),
+        "rho_f_area_survey": np.where(m_survey, rho_f_a, 0.0),
+        "rho_area_water_table": np.where(m_wt, rho_a, 0.0),
+        "rho_f_area_water_table": np.where(m_wt, rho_f_a, 0.0),
+        "rho_area_wt_water_table": np.where(m_wt, rho_a * wt_f, 0.0),
+        "rho_f_area_wt_water_table": np.where(m_wt, rho_f_a * wt_f, 0.0),
+        "tier1_all_peat_kg": t1_mass_all,
+        "tier1_all_carbon_kg": np.where(burned & np.isfinite(cf), t1_mass_all * np.where(np.isfinite(cf), cf, 0), 0.0),
     }
+    for name, m in (("survey", m_survey), ("water_table", m_wt), ("tier1", m_t1)):
+        values[f"area_m2_{name}"] = np.where(m, area, 0.0)
+        values[f"peat_kg_{name}"] = np.where(m, mass, 0.0)
+        values[f"carbon_kg_{name}"] = np.where(m, carbon, 0.0)
+    bio = _param(st, plan, "biomass", window)
+    if bio is not None:
+        b = np.broadcast_to(bio, shape)
+        values["biomass_t"] = np.where(burned & np.isfinite(b), b * area * 1e-4, 0.0)  # t/ha x ha
+    else:
+        values["biomass_t"] = np.zeros(shape)
     total = {k: float(v.sum()) for k, v in values.items()}
     zsums = [accumulate(bins, values, z.n_bins) for z, bins in zone_bins]
-    cdens = np.where(valid, carbon / area, np.nan)
-    return BlockResult(window, depth.astype("float32"), cdens.astype("float32"), total, zsums)
+    cdens = np.where(estimated, carbon / area, np.nan)
+    return BlockResult(window, depth.astype("float32"), cdens.astype("float32"), method, total, zsums)
+
+
+# --------------------------------------------------------------------------------------------
+# water-table model: samples, fit, plots
+
+def depth_samples(inputs: Inputs, plan: RunPlan, max_samples: int = 200_000, seed: int = 0):
+    """Pairs of (water-table depth, survey burn depth, fire count) on surveyed burned pixels, from
+    evenly spread sample windows [m, m, -]."""
+    st = _state(plan)
+    wts, ds, fcs = [], [], []
+    grid = plan.grid
+    for w in sample_windows(grid, plan.block_size):
+        burned = st["scars"].mask(grid, w)
+        if not burned.any():
+            continue
+        _, d = survey_depth(st, plan, w)
+        ok = burned & np.isfinite(d)
+        wt = water_table_depth(st, plan, w, ok)
+        ok &= np.isfinite(wt)
+        if not ok.any():
+            continue
+        wts.append(wt[ok])
+        ds.append(d[ok])
+        if st["fire_count"] is not None:
+            fcs.append(st["fire_count"].rasterize(grid, w, dtype="float64")[ok])
+    if not wts:
+        return np.array([]), np.array([]), None
+    wt, d = np.concatenate(wts), np.concatenate(ds)
+    fc = np.concatenate(fcs) if fcs else None
+    if wt.size > max_samples:
+        keep = np.random.default_rng(seed).choice(wt.size, max_samples, replace=False)
+        wt, d = wt[keep], d[keep]
+        fc = fc[keep] if fc is not None else None
+    return wt, d, fc
+
+
+MIN_FIT_SAMPLES = 30
+
+
+def plot_samples(inputs: Inputs, plan: RunPlan):
+    """Water-table depth at each field plot (raster value, or IDW of stations) and the measured depth."""
+    if inputs.plots is None or not len(inputs.plots.frame):
+        return np.array([]), np.array([])
+    f = inputs.plots.frame
+    x, y = f.geometry.x.to_numpy(), f.geometry.y.to_numpy()
+    obs = f["value"].to_numpy(dtype=float)
+    wt = sample_points(plan, "water_table", x, y) if plan.water_table is not None else None
+    if wt is None and plan.stations is not None:
+        from .science.water_table import idw
+
+        power, k, dmax = plan.idw
+        sx, sy, sv = plan.stations
+        wt = idw(sx, sy, sv, x, y, power=power, k=k, max_distance=dmax)
+    if wt is None:
+        return np.array([]), np.array([])
+    return wt, obs
+
+
+def sample_points(plan: RunPlan, name: str, x, y) -> np.ndarray | None:
+    """Values of a plan raster at points (nearest pixel of the run grid), NaN outside."""
+    src = getattr(plan, name)
+    if src is None:
+        return None
+    if isinstance(src, float):
+        return np.full(len(x), src)
+    grid = plan.grid
+    inv = ~grid.transform
+    out = np.full(len(x), np.nan)
+    with GridReader(src, grid) as r:
+        for i, (xx, yy) in enumerate(zip(x, y)):
+            c, rr = inv * (xx, yy)
+            c, rr = int(math.floor(c)), int(math.floor(rr))
+            if 0 <= c < grid.width and 0 <= rr < grid.height:
+                out[i] = r.read(Window(c, rr, 1, 1))[0, 0]
+    return out
+
+
+def fit_models(inputs: Inputs, plan: RunPlan, notes: list) -> DepthModels:
+    """The water-table depth models of a run: fitted on surveyed scars (separately for first and repeat
+    fires when both have enough samples), else on field plots, else user or default coefficients."""
+    from .science import water_table as wtm
+
+    cfg = inputs.config.water_table
+    if cfg.model == "user":
+        m = wtm.DepthModel(cfg.intercept, cfg.slope, float("nan"), float("nan"), float("nan"), 0, float("nan"),
+                           float("nan"), "user-given coefficients", "user")
+        return DepthModels(m)
+    if cfg.model == "file":
+        return load_models(cfg.model_file)
+    if cfg.model == "default":
+        notes.append("water table: default depth-model coefficients used (low confidence)")
+        return DepthModels(wtm.DEFAULT_MODEL)
+    wt, d, fc = depth_samples(inputs, plan) if plan.pre is not None else (np.array([]), np.array([]), None)
+    source = "surveyed scars"
+    if wt.size < MIN_FIT_SAMPLES:
+        wt, d = plot_samples(inputs, plan)
+        ok = np.isfinite(wt) & np.isfinite(d)
+        wt, d, fc = wt[ok], d[ok], None
+        source = "field plots"
+    if wt.size < MIN_FIT_SAMPLES:
+        notes.append(f"water table: too few calibration pairs ({wt.size} < {MIN_FIT_SAMPLES}) on surveyed scars or "
+                     f"field plots; default coefficients used (low confidence)")
+        return DepthModels(wtm.DEFAULT_MODEL)
+    models = DepthModels(wtm.fit_depth_model(wt, d, method=cfg.fit_method))
+    notes.append(f"water table: depth model fitted on {wt.size} pairs from {source}")
+    if fc is not None:
+        first, rep = fc < 2, fc >= 2
+        if first.sum() >= MIN_FIT_SAMPLES and rep.sum() >= MIN_FIT_SAMPLES:
+            models.first = wtm.fit_depth_model(wt[first], d[first], method=cfg.fit_method)
+            models.repeat = wtm.fit_depth_model(wt[rep], d[rep], method=cfg.fit_method)
+            notes.append(f"water table: separate models for first ({int(first.sum())} pairs) and repeat fires "
+                         f"({int(rep.sum())} pairs)")
+        else:
+            notes.append("water table: too few repeat-fire (or first-fire) pairs for separate models; one model used")
+    return models
+
+
+def load_models(path) -> DepthModels:
+    """Depth models from a JSON written by ``peatburn calibrate``."""
+    import json
+
+    from .errors import ConfigError
+    from .science import water_table as wtm
+
+    try:
+        data = json.loads(Path(path).read_text(encoding="utf-8"))
+        models = data["models"]
+
+        def mk(d):
+            return wtm.DepthModel(**{k: d[k] for k in wtm.DepthModel.__dataclass_fields__})
+
+        return DepthModels(mk(models["all"]), mk(models["first_fire"]) if "first_fire" in models else None,
+                           mk(models["repeat_fire"]) if "repeat_fire" in models else None)
+    except (OSError, ValueError, KeyError, TypeError) as exc:
+        raise ConfigError(f"depth.water_table.model: cannot read a depth model from {path} ({exc}); "
+                          f"write it with `peatburn calibrate CONFIG --out FILE`") from None
 
 
 # --------------------------------------------------------------------------------------------

@@ -1,13 +1,13 @@
 """Run a configuration end to end and write the outputs of the run contract.
 
-open inputs -> co-register the surveys -> plan -> blocks (any executor) -> sums -> tables,
-rasters, provenance, report. Every file is written atomically.
+open inputs -> co-register the surveys -> fit the water-table model -> plan -> blocks (any
+executor) -> sums -> flaming -> tables -> intervals -> rasters, provenance, report. Every file is
+written atomically.
 """
 
 from __future__ import annotations
 
 import math
-import shutil
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -18,7 +18,7 @@ from .executors import map_blocks
 from .factors import load_factor_set, load_gwp_set
 from .io.writers import BlockRasterWriter, write_csv, write_json
 from .outputs import provenance, tables
-from .pipeline import Sums, build_plan, coregister, open_inputs, process_block
+from .pipeline import METHOD_CODES, Sums, build_plan, coregister, fit_models, open_inputs, process_block
 
 CAUTIONS = [
     "These are estimates with uncertainty, not measurements and not legal findings.",
@@ -26,6 +26,21 @@ CAUTIONS = [
     "Burnt and smouldering peat is dangerous ground (hidden burning below a crust, collapse, smoke): "
     "field checks follow local safety practice.",
 ]
+
+TIER1_FACTOR_SET = "smouldering_ipcc2013_wetlands"
+
+
+@dataclass
+class Factors:
+    """The factor sets and constants a run's tables use."""
+
+    smouldering: object
+    flaming: object
+    tier1: object
+    gwp: object
+    vegetation_carbon_fraction: float
+    coefficient: float
+    frp_route: bool
 
 
 @dataclass
@@ -52,78 +67,145 @@ def prepare_out_dir(out_dir: Path, overwrite: bool) -> None:
     out_dir.mkdir(parents=True, exist_ok=True)
 
 
-def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, progress=None) -> RunResult:
+def load_factors(cfg: RunConfig) -> Factors:
+    from .science import flaming
+
+    fl = cfg.flaming
+    return Factors(
+        smouldering=load_factor_set(cfg.factors.smouldering, "smouldering"),
+        flaming=load_factor_set(cfg.factors.flaming, "flaming"),
+        tier1=load_factor_set(TIER1_FACTOR_SET, "smouldering"),
+        gwp=load_gwp_set(cfg.factors.gwp),
+        vegetation_carbon_fraction=(fl.vegetation_carbon_fraction if fl and fl.vegetation_carbon_fraction
+                                    else flaming.IPCC2006_CARBON_FRACTION_FOREST),
+        coefficient=(fl.coefficient_kg_per_mj if fl and fl.coefficient_kg_per_mj
+                     else flaming.WOOSTER_2005_COEFFICIENT),
+        frp_route=bool(fl and fl.method == "frp"),
+    )
+
+
+def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, progress=None,
+        scheduler: str | None = None) -> RunResult:
     """Run ``cfg`` and write zones.csv, totals.json, inventory.csv, burn_depth.tif,
-    carbon_smouldering.tif, provenance.json and report.html into ``out_dir``.
+    carbon_smouldering.tif, depth_method.tif, provenance.json and report.html into ``out_dir``.
     """
     out_dir = Path(out_dir)
     prepare_out_dir(out_dir, overwrite)
-    smouldering = load_factor_set(cfg.factors.smouldering, "smouldering")
-    flaming = load_factor_set(cfg.factors.flaming, "flaming")
-    gwp = load_gwp_set(cfg.factors.gwp)
+    factors = load_factors(cfg)
 
     inputs = open_inputs(cfg)
-    alignment = coregister(inputs)
+    notes = list(inputs.notes)
+    alignment = coregister(inputs) if inputs.has_survey else None
     plan = build_plan(inputs, alignment)
+    models = None
+    if cfg.water_table is not None:
+        models = fit_models(inputs, plan, notes)
+        plan = build_plan(inputs, alignment, models)
     grid = plan.grid
     windows = grid.windows(cfg.block_size)
     sums = Sums.empty(plan)
     with BlockRasterWriter(out_dir / "burn_depth.tif", grid, description="burn depth", units="m",
                            block_size=cfg.block_size) as wd, \
             BlockRasterWriter(out_dir / "carbon_smouldering.tif", grid, description="carbon burned below ground",
-                              units="kg C m-2", block_size=cfg.block_size) as wc:
-        for i, r in enumerate(map_blocks(process_block, plan, windows, workers)):
+                              units="kg C m-2", block_size=cfg.block_size) as wc, \
+            BlockRasterWriter(out_dir / "depth_method.tif", grid, description="depth method: 1 survey, "
+                              "2 water-table model, 3 IPCC Tier 1 default", units="code", dtype="uint8",
+                              nodata=0, block_size=cfg.block_size) as wm:
+        for i, r in enumerate(map_blocks(process_block, plan, windows, workers, scheduler=scheduler)):
             sums.add(r)
             wd.write(r.window, r.depth)
             wc.write(r.window, r.carbon_density)
+            wm.write(r.window, r.method)
             if progress:
                 progress(i + 1, len(windows))
 
-    rows = tables.zone_rows(sums, smouldering, gwp)
+    from .above_ground import flaming_sums
+
+    flame = flaming_sums(cfg, inputs, sums)
+    if flame is not None:
+        notes += flame.notes
+    rows = tables.zone_rows(sums, factors, flame)
     total = rows[-1]
     qa = qa_summary(sums.total, alignment)
-    notes = list(inputs.notes)
-    checks = factor_checks(smouldering, sums.total)
+    checks = factor_checks(factors.smouldering, sums.total)
     if checks["carbon_closure"] is not None and checks["carbon_closure"] > 1.0:
-        notes.append(f"emission factors: the set {smouldering.name} puts {checks['carbon_closure']:.3f} times the "
-                     f"fuel's carbon into CO2+CO+CH4 at this run's carbon fraction "
+        notes.append(f"emission factors: the set {factors.smouldering.name} puts {checks['carbon_closure']:.3f} times "
+                     f"the fuel's carbon into CO2+CO+CH4 at this run's carbon fraction "
                      f"({checks['effective_carbon_fraction']:.3f}); its gases overstate the carbon burned")
+    plots = None
+    if inputs.plots is not None:
+        from .plots import validate_plots
+
+        plots = validate_plots(inputs, plan, out_dir)
+    uncertainty = None
+    if cfg.uncertainty.draws > 0:
+        from .intervals import add_intervals
+
+        uncertainty = add_intervals(rows, sums, flame, factors, cfg, alignment, models)
+
     totals = {
         "run": cfg.name, "year": cfg.year, "tool_version": __version__,
-        "quantities": {k: {"value": total[k], "unit": tables.UNITS[k]} for k in tables.ZONE_COLUMNS[2:]},
-        "method": {
-            "depth": {"survey": {"share_of_carbon": 1.0 if total["carbon_smouldering_t"] else 0.0,
-                                 "area_ha": total["estimated_area_ha"],
-                                 "tier": "Tier 3 (measured burn depth, IPCC 2013 Wetlands Supplement Ch. 2 terms)"},
-                      "unestimated_area_ha": total["unestimated_area_ha"]},
-            "smouldering_factors": smouldering.name,
-            "smouldering_factor_checks": checks,
-            "flaming": "not estimated by this version (columns are zero)",
-            "gwp": gwp.name,
-            "uncertainty": "no Monte Carlo intervals in this version",
-        },
+        "quantities": {k: {"value": total[k], "unit": tables.UNITS.get(k, ""),
+                           **({"lo": total.get(f"{k}_lo"), "hi": total.get(f"{k}_hi")}
+                              if f"{k}_lo" in total else {})}
+                       for k in tables.ZONE_COLUMNS[2:]},
+        "method": method_summary(cfg, total, factors, alignment, models, flame),
         "qa": qa,
+        "water_table_model": models.to_dict() if models else None,
+        "field_plots": plots,
+        "uncertainty": uncertainty,
         "notes": notes,
         "cautions": CAUTIONS,
     }
+    columns = list(tables.ZONE_COLUMNS)
+    if uncertainty:
+        for c in tables.INTERVAL_COLUMNS:
+            columns += [f"{c}_lo", f"{c}_hi"]
     files = {}
-    files["zones"] = write_csv(out_dir / "zones.csv", rows, tables.ZONE_COLUMNS)
+    files["zones"] = write_csv(out_dir / "zones.csv", rows, columns)
     files["totals"] = write_json(out_dir / "totals.json", totals)
-    files["inventory"] = write_csv(out_dir / "inventory.csv",
-                                   tables.inventory_rows(total, cfg.year, smouldering, gwp),
-                                   ["year", "phase", "gas", "emissions_gg"])
-    prov = provenance.build(cfg, grid, alignment, smouldering, flaming, gwp,
-                            extra={"qa": qa, "outputs": sorted(["zones.csv", "totals.json", "inventory.csv",
-                                                                "burn_depth.tif", "carbon_smouldering.tif",
-                                                                "report.html"])})
+    inv = tables.inventory_rows(total, cfg.year, factors.gwp.name)
+    files["inventory"] = write_csv(out_dir / "inventory.csv", inv, tables.INVENTORY_COLUMNS)
+    files["inventory_json"] = write_json(out_dir / "inventory.json", {"unit": "Gg", "rows": inv})
+    prov = provenance.build(cfg, grid, alignment, factors, models,
+                            extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
+                                   "outputs": sorted(["zones.csv", "totals.json", "inventory.csv", "inventory.json",
+                                                      "burn_depth.tif", "carbon_smouldering.tif",
+                                                      "depth_method.tif", "report.html"])})
     files["provenance"] = write_json(out_dir / "provenance.json", prov)
     result = RunResult(out_dir, rows, totals, qa, files)
     from .outputs import report
 
-    files["report"] = report.write_report(out_dir / "report.html", result, cfg, prov, smouldering, gwp)
-    files["burn_depth"] = out_dir / "burn_depth.tif"
-    files["carbon_smouldering"] = out_dir / "carbon_smouldering.tif"
+    files["report"] = report.write_report(out_dir / "report.html", result, cfg, prov, factors)
+    for name in ("burn_depth", "carbon_smouldering", "depth_method"):
+        files[name] = out_dir / f"{name}.tif"
     return result
+
+
+def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
+    depth = {}
+    tiers = {
+        "survey": "Tier 3: burn depth measured by differencing two bare-earth surveys",
+        "water_table": "Tier 3 (modelled): burn depth from the water-table depth, model calibrated on surveys or plots",
+        "tier1": "Tier 1: IPCC 2013 Wetlands Supplement default fuel consumption",
+    }
+    for m in METHOD_CODES:
+        depth[m] = {"area_ha": total[f"area_{m}_ha"], "share_of_carbon": total[f"carbon_share_{m}"],
+                    "tier": tiers[m]}
+    return {
+        "depth": depth,
+        "unestimated_area_ha": total["unestimated_area_ha"],
+        "smouldering_factors": factors.smouldering.name,
+        "smouldering_factor_checks": None,
+        "tier1_factors": factors.tier1.name,
+        "flaming": flame.route if flame else "not estimated (no [flaming] section): flaming columns are zero",
+        "flaming_factors": factors.flaming.name if flame else None,
+        "flaming_parameters": flame.parameters if flame else None,
+        "vegetation_carbon_fraction": factors.vegetation_carbon_fraction,
+        "gwp": factors.gwp.name,
+        "uncertainty": (f"Monte Carlo, {cfg.uncertainty.draws} draws at zone level, seed {cfg.uncertainty.seed}"
+                        if cfg.uncertainty.draws else "no Monte Carlo draws (uncertainty.draws = 0)"),
+    }
 
 
 def factor_checks(factor_set, total: dict) -> dict:
@@ -139,11 +221,12 @@ def factor_checks(factor_set, total: dict) -> dict:
 
 
 def qa_summary(total: dict, alignment) -> dict:
-    est = total["estimated_area_m2"]
+    est = total["area_m2_survey"]
     burned = total["burned_area_m2"]
-    return {
-        **alignment.to_dict(),
-        "share_of_estimated_area_below_lod": total["below_lod_area_m2"] / est if est else math.nan,
+    out = alignment.to_dict() if alignment else {"method": "no survey pair"}
+    out.update({
+        "share_of_surveyed_area_below_lod": total["below_lod_area_m2"] / est if est else math.nan,
         "share_of_burned_area_unestimated": total["unestimated_area_m2"] / burned if burned else math.nan,
-        "share_of_estimated_area_capped_by_thickness": total["capped_area_m2"] / est if est else math.nan,
-    }
+        "share_of_surveyed_area_capped_by_thickness": total["capped_area_m2"] / est if est else math.nan,
+    })
+    return out

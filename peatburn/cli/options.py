@@ -16,6 +16,9 @@ overwrite_option = click.option("--overwrite", is_flag=True, default=False,
                                 help="Replace the outputs in an existing, non-empty output folder.")
 workers_option = click.option("--workers", type=click.IntRange(1, 256), default=1, show_default=True,
                               help="Run blocks in this many local processes.")
+scheduler_option = click.option("--scheduler", metavar="ADDRESS", default=None,
+                                help="Run blocks on an existing dask.distributed cluster (e.g. tcp://10.0.0.5:8786); "
+                                     "every worker must be able to read the input paths. Needs peatburn[scale].")
 quiet_option = click.option("--quiet", "-q", is_flag=True, default=False, help="Print only errors.")
 config_argument = click.argument("config", type=click.Path(dir_okay=False))
 

@@ -2,7 +2,8 @@ from __future__ import annotations
 
 import click
 
-from .options import config_argument, handle_errors, out_option, overwrite_option, quiet_option, workers_option
+from .options import config_argument, handle_errors, out_option, overwrite_option, quiet_option, scheduler_option, \
+    workers_option
 
 
 @click.command("run")
@@ -10,9 +11,10 @@ from .options import config_argument, handle_errors, out_option, overwrite_optio
 @out_option
 @overwrite_option
 @workers_option
+@scheduler_option
 @quiet_option
 @handle_errors
-def run_cmd(config, out_dir, overwrite, workers, quiet):
+def run_cmd(config, out_dir, overwrite, workers, scheduler, quiet):
     """Estimate smouldering (below-ground) peat-fire emissions for CONFIG and write the outputs.
 
     Writes zones.csv, totals.json, inventory.csv, burn_depth.tif, carbon_smouldering.tif,
@@ -24,6 +26,6 @@ def run_cmd(config, out_dir, overwrite, workers, quiet):
     from .summary import print_summary
 
     cfg = load_config(config)
-    result = run(cfg, out_dir, overwrite=overwrite, workers=workers)
+    result = run(cfg, out_dir, overwrite=overwrite, workers=workers, scheduler=scheduler)
     if not quiet:
         print_summary(result)

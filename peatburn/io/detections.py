@@ -69,7 +69,7 @@ class Detections:
     Attributes
     ----------
     frame : geopandas.GeoDataFrame
-        One row per accepted detection, columns ``time`` (datetime64, UTC), ``frp_mw`` (float,
+        One row per accepted detection, columns ``time`` (datetime64[ns, UTC]), ``frp_mw`` (float,
         MW), ``t_s`` (float, seconds since 1970-01-01T00:00:00Z), ``source_row`` (0-based row
         of the detection in the file, header not counted) and ``geometry`` (Point, run CRS).
     rejected : dict of str to int
@@ -356,7 +356,7 @@ def read_detections(path, run_crs, *, crs=None, columns: dict | None = None, bou
         taken |= hit
     keep = ~taken
 
-    t_kept = pd.Series(times).iloc[np.flatnonzero(keep)].reset_index(drop=True)
+    t_kept = pd.Series(times).iloc[np.flatnonzero(keep)].reset_index(drop=True).dt.as_unit("ns")
     clean = gpd.GeoDataFrame(
         {
             "time": t_kept,

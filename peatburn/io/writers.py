@@ -95,7 +95,7 @@ class BlockRasterWriter:
     """
 
     def __init__(self, final: Path | str, grid: RunGrid, *, description: str = "", units: str = "",
-                 block_size: int = 512):
+                 block_size: int = 512, dtype: str = "float32", nodata: float = RASTER_NODATA):
         self.final = Path(final)
         self.grid = grid
         self.final.parent.mkdir(parents=True, exist_ok=True)
@@ -103,9 +103,11 @@ class BlockRasterWriter:
         os.close(fd)
         self._tiled = Path(tmp)
         bs = 256 if block_size % 256 else min(block_size, 512)
-        profile = dict(driver="GTiff", width=grid.width, height=grid.height, count=1, dtype="float32",
-                       crs=grid.crs, transform=grid.transform, nodata=RASTER_NODATA, tiled=True,
-                       blockxsize=bs, blockysize=bs, compress="deflate", predictor=3,
+        self.dtype, self.nodata = dtype, nodata
+        floating = np.dtype(dtype).kind == "f"
+        profile = dict(driver="GTiff", width=grid.width, height=grid.height, count=1, dtype=dtype,
+                       crs=grid.crs, transform=grid.transform, nodata=nodata, tiled=True,
+                       blockxsize=bs, blockysize=bs, compress="deflate", predictor=3 if floating else 2,
                        BIGTIFF="IF_SAFER")
         self._ds = rasterio.open(self._tiled, "w", **profile)
         if description:
@@ -115,7 +117,10 @@ class BlockRasterWriter:
             self._ds.units = (units,)
 
     def write(self, window, array: np.ndarray):
-        a = np.where(np.isfinite(array), array, RASTER_NODATA).astype("float32")
+        if np.dtype(self.dtype).kind == "f":
+            a = np.where(np.isfinite(array), array, self.nodata).astype(self.dtype)
+        else:
+            a = np.asarray(array).astype(self.dtype)
         self._ds.write(a, 1, window=window)
 
     def close(self, ok: bool = True):
@@ -124,7 +129,8 @@ class BlockRasterWriter:
             if ok:
                 with atomic_path(self.final, suffix=".tif") as tmp:
                     rasterio.shutil.copy(self._tiled, tmp, driver="COG", COMPRESS="DEFLATE", PREDICTOR="YES",
-                                         BLOCKSIZE="512", BIGTIFF="IF_SAFER", OVERVIEWS="AUTO", NUM_THREADS="1")
+                                         BLOCKSIZE="512", BIGTIFF="IF_SAFER", OVERVIEWS="AUTO", NUM_THREADS="1",
+                                         RESAMPLING="NEAREST" if np.dtype(self.dtype).kind != "f" else "AVERAGE")
         finally:
             with contextlib.suppress(FileNotFoundError):
                 self._tiled.unlink()

@@ -51,8 +51,23 @@ def input_records(paths: dict) -> dict:
     return out
 
 
-def build(cfg, grid, alignment, smouldering, flaming, gwp, extra: dict | None = None) -> dict:
+def build(cfg, grid, alignment, factors, models=None, extra: dict | None = None) -> dict:
     """The provenance.json content of a run."""
+    params = {"block_size": {"value": cfg.block_size, "unit": "px"}}
+    if cfg.survey is not None:
+        params.update({
+            "survey_interval_years": {"value": cfg.survey.interval_years, "unit": "yr"},
+            "stable_buffer_m": {"value": cfg.survey.stable_buffer_m, "unit": "m"},
+            "level_of_detection_t": {"value": cfg.survey.lod_t, "unit": "1"},
+        })
+    if alignment is not None:
+        params["coregistration"] = alignment.to_dict()
+    if models is not None:
+        params["water_table_model"] = models.to_dict()
+    params["tier1_fuel_consumption"] = {"value": cfg.tier1.fuel_consumption_t_ha, "unit": "t/ha",
+                                        "note": "null: the IPCC 2013 Wetlands Supplement default"}
+    params["vegetation_carbon_fraction"] = {"value": factors.vegetation_carbon_fraction, "unit": "1"}
+    params["fre_combustion_coefficient"] = {"value": factors.coefficient, "unit": "kg/MJ"}
     return {
         "tool": "peatburn",
         "created_utc": dt.datetime.now(dt.timezone.utc).replace(microsecond=0).isoformat(),
@@ -61,15 +76,11 @@ def build(cfg, grid, alignment, smouldering, flaming, gwp, extra: dict | None = 
         "config": cfg.raw,
         "inputs": input_records(cfg.input_paths()),
         "grid": grid.to_dict(),
-        "parameters": {
-            "survey_interval_years": {"value": cfg.survey.interval_years, "unit": "yr"},
-            "stable_buffer_m": {"value": cfg.survey.stable_buffer_m, "unit": "m"},
-            "level_of_detection_t": {"value": cfg.survey.lod_t, "unit": "1"},
-            "block_size": {"value": cfg.block_size, "unit": "px"},
-            "coregistration": alignment.to_dict(),
-        },
-        "emission_factors": {"smouldering": _set(smouldering), "flaming": _set(flaming)},
-        "gwp": {"name": gwp.name, "citation": gwp.citation, "values": gwp.gwp, "status": gwp.status},
+        "parameters": params,
+        "emission_factors": {"smouldering": _set(factors.smouldering), "flaming": _set(factors.flaming),
+                             "tier1": _set(factors.tier1)},
+        "gwp": {"name": factors.gwp.name, "citation": factors.gwp.citation, "values": factors.gwp.gwp,
+                "status": factors.gwp.status},
         "seed": cfg.uncertainty.seed,
         "draws": cfg.uncertainty.draws,
         **(extra or {}),

@@ -91,7 +91,7 @@ def zone_chart(rows: list[dict]) -> str | None:
     return _png(fig)
 
 
-def write_report(final: Path, result, cfg, prov: dict, smouldering, gwp) -> Path:
+def write_report(final: Path, result, cfg, prov: dict, factors) -> Path:
     """Render report.html for a finished run."""
     from jinja2 import Environment, select_autoescape
 
@@ -118,7 +118,7 @@ def write_report(final: Path, result, cfg, prov: dict, smouldering, gwp) -> Path
     html = template.render(
         run_name=cfg.name, created=prov["created_utc"], date=dt.date.today().isoformat(), total=result.total,
         rows=result.zones, columns=ZONE_COLUMNS, units=UNITS, qa=result.qa, totals=result.totals,
-        figures=figures, smouldering=smouldering, gwp=gwp, prov=prov, cautions=result.totals["cautions"],
+        figures=figures, smouldering=factors.smouldering, gwp=factors.gwp, prov=prov, cautions=result.totals["cautions"],
     )
     return write_text(final, html)
 

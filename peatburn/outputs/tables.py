@@ -1,11 +1,13 @@
 """Result tables: zones.csv rows, the run totals and the inventory rows.
 
 Gas masses follow IPCC 2006 Vol. 4 Ch. 2 Eq. 2.27 in the form mass of gas = dry matter burned x
-emission factor (applied to sums of dry peat mass: the factors are constants of the set, so
-applying them to the sum equals summing per pixel). CO2-equivalent uses the chosen GWP-100 set.
+emission factor (applied to sums of dry mass: the factors are constants of a set, so applying them
+to the sum equals summing per pixel). CO2-equivalent uses the chosen GWP-100 set.
 """
 
 from __future__ import annotations
+
+import math
 
 import numpy as np
 
@@ -13,6 +15,7 @@ from ..science import gases
 
 GASES = ("co2", "ch4", "co")
 PHASES = ("smouldering", "flaming")
+METHODS = ("survey", "water_table", "tier1")
 
 ZONE_COLUMNS = [
     "layer", "zone", "burned_area_ha", "estimated_area_ha", "unestimated_area_ha", "below_lod_area_ha",
@@ -20,52 +23,96 @@ ZONE_COLUMNS = [
     "co2_smouldering_t", "ch4_smouldering_t", "co_smouldering_t",
     "carbon_flaming_t", "co2_flaming_t", "ch4_flaming_t", "co_flaming_t",
     "co2e_smouldering_t", "co2e_flaming_t",
+    "area_survey_ha", "area_water_table_ha", "area_tier1_ha",
+    "carbon_share_survey", "carbon_share_water_table", "carbon_share_tier1",
+    "carbon_tier1_t", "co2_tier1_t", "ch4_tier1_t", "co_tier1_t", "co2e_tier1_t",
+    "fre_mj", "n_detections", "carbon_frp_only_t", "smouldering_to_frp_ratio",
+]
+
+#: Columns that get _lo and _hi when Monte Carlo draws are made.
+INTERVAL_COLUMNS = [
+    "peat_burned_t", "carbon_smouldering_t", "co2_smouldering_t", "ch4_smouldering_t", "co_smouldering_t",
+    "co2e_smouldering_t", "carbon_flaming_t", "co2_flaming_t", "ch4_flaming_t", "co_flaming_t", "co2e_flaming_t",
 ]
 
 OUTSIDE = "(outside every zone)"
 TOTAL_LAYER, TOTAL_ZONE = "total", "all"
 
+HA_PER_M2 = 1e-4  # exact
+T_PER_KG = 1e-3  # exact
 
-def quantities(sums: dict, smouldering, gwp) -> dict:
-    """Zone quantities from summed areas [m2], volume [m3], masses [kg].
 
-    Returns a dict of the zones.csv numeric columns (areas in ha, masses in t). Flaming columns are
-    zero: flaming emissions are not estimated by this version.
+def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
+    """Zone quantities from summed areas [m2], volume [m3], masses [kg] (see pipeline.SUM_KEYS).
+
+    ``factors`` holds the smouldering, flaming and Tier 1 factor sets, the GWP set and the
+    vegetation carbon fraction; ``flame`` the flaming sums of the zone (dry matter [kg], FRE [MJ],
+    detections) or None.
     """
-    ha = 1e-4  # ha per m2 (exact)
-    t = 1e-3  # t per kg (exact)
-    area = sums["estimated_area_m2"]
+    ha, t = HA_PER_M2, T_PER_KG
+    depth_area = sums["depth_area_m2"]
     peat_kg = sums["peat_kg"]
+    carbon = sums["carbon_kg"]
     out = {
         "burned_area_ha": sums["burned_area_m2"] * ha,
-        "estimated_area_ha": area * ha,
+        "estimated_area_ha": sums["estimated_area_m2"] * ha,
         "unestimated_area_ha": sums["unestimated_area_m2"] * ha,
         "below_lod_area_ha": sums["below_lod_area_m2"] * ha,
-        "mean_burn_depth_m": sums["volume_m3"] / area if area > 0 else float("nan"),
+        "mean_burn_depth_m": sums["volume_m3"] / depth_area if depth_area > 0 else math.nan,
         "peat_burned_t": peat_kg * t,
-        "carbon_smouldering_t": sums["carbon_kg"] * t,
+        "carbon_smouldering_t": carbon * t,
     }
-    masses = {g: float(gases.gas_emissions(peat_kg, smouldering.ef[g])) * t for g in GASES}
+    sm = {g: float(gases.gas_emissions(peat_kg, factors.smouldering.ef[g])) * t for g in GASES}
     for g in GASES:
-        out[f"{g}_smouldering_t"] = masses[g]
-        out[f"{g}_flaming_t"] = 0.0
-    out["carbon_flaming_t"] = 0.0
-    out["co2e_smouldering_t"] = float(gases.co2_equivalent(masses, gwp.gwp))
-    out["co2e_flaming_t"] = 0.0
+        out[f"{g}_smouldering_t"] = sm[g]
+    out["co2e_smouldering_t"] = float(gases.co2_equivalent(sm, factors.gwp.gwp))
+    for m in METHODS:
+        out[f"area_{m}_ha"] = sums[f"area_m2_{m}"] * ha
+        out[f"carbon_share_{m}"] = sums[f"carbon_kg_{m}"] / carbon if carbon else math.nan
+    t1_dm = sums["tier1_all_peat_kg"]
+    out["carbon_tier1_t"] = sums["tier1_all_carbon_kg"] * t
+    t1 = {g: float(gases.gas_emissions(t1_dm, factors.tier1.ef[g])) * t for g in GASES}
+    for g in GASES:
+        out[f"{g}_tier1_t"] = t1[g]
+    out["co2e_tier1_t"] = float(gases.co2_equivalent(t1, factors.gwp.gwp))
+    # flaming, apart
+    dm = flame["dry_matter_kg"] if flame else 0.0
+    fl = {g: float(gases.gas_emissions(dm, factors.flaming.ef[g])) * t for g in GASES}
+    out["carbon_flaming_t"] = dm * factors.vegetation_carbon_fraction * t
+    for g in GASES:
+        out[f"{g}_flaming_t"] = fl[g]
+    out["co2e_flaming_t"] = float(gases.co2_equivalent(fl, factors.gwp.gwp))
+    fre = flame["fre_mj"] if flame else math.nan
+    has_fre = flame is not None and factors.frp_route
+    out["fre_mj"] = fre if has_fre else math.nan
+    out["n_detections"] = flame["n_detections"] if has_fre else math.nan
+    if has_fre:
+        from ..science import flaming
+
+        frp_c = float(flaming.frp_only_carbon(fre, factors.coefficient, factors.vegetation_carbon_fraction)) * t
+        out["carbon_frp_only_t"] = frp_c
+        out["smouldering_to_frp_ratio"] = out["carbon_smouldering_t"] / frp_c if frp_c > 0 else math.nan
+    else:
+        out["carbon_frp_only_t"] = math.nan
+        out["smouldering_to_frp_ratio"] = math.nan
     return out
 
 
-def zone_rows(result_sums, smouldering, gwp) -> list[dict]:
+def zone_rows(result_sums, factors, flame_sums=None) -> list[dict]:
     """One row per zone of each layer, one "outside" row per layer, then the run total."""
     rows = []
-    for name, ids, acc in result_sums.layers:
+    for li, (name, ids, acc) in enumerate(result_sums.layers):
+        fl = flame_sums.layers[li][1] if flame_sums else None
         for k, zid in enumerate(ids, start=1):
             rows.append({"layer": name, "zone": zid,
-                         **quantities({key: float(v[k]) for key, v in acc.items()}, smouldering, gwp)})
+                         **quantities({key: float(v[k]) for key, v in acc.items()}, factors,
+                                      {key: float(v[k]) for key, v in fl.items()} if fl else None)})
         n = len(ids) + 1
         rows.append({"layer": name, "zone": OUTSIDE,
-                     **quantities({key: float(v[n]) for key, v in acc.items()}, smouldering, gwp)})
-    rows.append({"layer": TOTAL_LAYER, "zone": TOTAL_ZONE, **quantities(result_sums.total, smouldering, gwp)})
+                     **quantities({key: float(v[n]) for key, v in acc.items()}, factors,
+                                  {key: float(v[n]) for key, v in fl.items()} if fl else None)})
+    rows.append({"layer": TOTAL_LAYER, "zone": TOTAL_ZONE,
+                 **quantities(result_sums.total, factors, flame_sums.total if flame_sums else None)})
     return rows
 
 
@@ -73,19 +120,41 @@ UNITS = {
     "burned_area_ha": "ha", "estimated_area_ha": "ha", "unestimated_area_ha": "ha", "below_lod_area_ha": "ha",
     "mean_burn_depth_m": "m", "peat_burned_t": "t dry matter", "carbon_smouldering_t": "t C",
     "carbon_flaming_t": "t C", "co2e_smouldering_t": "t CO2e", "co2e_flaming_t": "t CO2e",
+    "area_survey_ha": "ha", "area_water_table_ha": "ha", "area_tier1_ha": "ha",
+    "carbon_share_survey": "1", "carbon_share_water_table": "1", "carbon_share_tier1": "1",
+    "carbon_tier1_t": "t C", "co2e_tier1_t": "t CO2e", "fre_mj": "MJ", "n_detections": "1",
+    "carbon_frp_only_t": "t C", "smouldering_to_frp_ratio": "1",
 }
 for _g in GASES:
-    for _p in PHASES:
+    for _p in PHASES + ("tier1",):
         UNITS[f"{_g}_{_p}_t"] = f"t {_g.upper()}"
+for _c in INTERVAL_COLUMNS:
+    UNITS[f"{_c}_lo"] = UNITS[_c]
+    UNITS[f"{_c}_hi"] = UNITS[_c]
 
 
-def inventory_rows(total: dict, year, smouldering, gwp) -> list[dict]:
-    """Emissions by year, phase and gas in Gg (1 Gg = 1000 t), the line an inventory adds."""
+def inventory_rows(total: dict, year, gwp_name: str) -> list[dict]:
+    """Emissions by year, phase and gas in Gg (1 Gg = 1000 t), the lines an inventory adds.
+
+    CO2 is also given as CO2-C (x 12.011/44.009) and the CO2e line names its GWP set. ``_lo`` and
+    ``_hi`` are filled when the totals carry intervals.
+    """
     rows = []
+    yr = year if year is not None else ""
     for phase in PHASES:
         for g in GASES:
-            rows.append({"year": year if year is not None else "", "phase": phase, "gas": g.upper(),
-                         "emissions_gg": total[f"{g}_{phase}_t"] * 1e-3})
-        rows.append({"year": year if year is not None else "", "phase": phase, "gas": f"CO2e ({gwp.name})",
-                     "emissions_gg": total[f"co2e_{phase}_t"] * 1e-3})
+            rows.append(_inv(yr, phase, g.upper(), total, f"{g}_{phase}_t", 1.0))
+        rows.append(_inv(yr, phase, "CO2-C", total, f"co2_{phase}_t", float(gases.co2_to_carbon(1.0))))
+        rows.append(_inv(yr, phase, f"CO2e ({gwp_name})", total, f"co2e_{phase}_t", 1.0))
     return rows
+
+
+def _inv(year, phase, gas, total, key, scale):
+    row = {"year": year, "phase": phase, "gas": gas, "emissions_gg": total[key] * scale * 1e-3}
+    for s in ("lo", "hi"):
+        v = total.get(f"{key}_{s}")
+        row[f"emissions_gg_{s}"] = v * scale * 1e-3 if v is not None else math.nan
+    return row
+
+
+INVENTORY_COLUMNS = ["year", "phase", "gas", "emissions_gg", "emissions_gg_lo", "emissions_gg_hi"]

@@ -613,9 +613,10 @@ def missed_ratio(below_ground_carbon, frp_only_carbon):
 def blackbody_exitance(temperature_k, emissivity=1.0):
     """Radiant power per unit area of a grey body: ``M = eps x sigma x T^4`` [W m-2].
 
-    Stefan-Boltzmann law; used to show why smouldering (about 600-800 K) radiates far less per
-    unit area than flaming (above 1000 K): at 600 K a black body radiates (600/1200)^4 = 1/16 of
-    what it radiates at 1200 K.
+    Stefan-Boltzmann law; used to show why smouldering peat (about 620-820 K, i.e. 350-550 degC,
+    in a laboratory deep-peat column: Qin et al. 2023, abstract, checked) radiates far less per
+    unit area than flaming vegetation (around 1000 K and above, common practice): at 600 K a
+    black body radiates (600/1200)^4 = 1/16 of what it radiates at 1200 K.
 
     Parameters
     ----------
@@ -631,7 +632,9 @@ def blackbody_exitance(temperature_k, emissivity=1.0):
 
     References
     ----------
-    .. [1] Tiesinga, E. et al. (2021). CODATA recommended values of the fundamental physical
+    .. [1] Qin, Y., Musa, D. N. S., Lin, S. and Huang, X. (2023). Deep peat fire persistently
+       smouldering for weeks: a laboratory demonstration. Int. J. Wildland Fire 32, 86-98.
+    .. [2] Tiesinga, E. et al. (2021). CODATA recommended values of the fundamental physical
        constants: 2018. Rev. Mod. Phys. 93, 025010 (sigma = 5.670374419e-8 W m-2 K-4, exact;
        recalled, checked against scipy.constants).
     """

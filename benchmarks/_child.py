@@ -1,0 +1,154 @@
+"""One measured task in a fresh interpreter (started by _common.child); prints one JSON line.
+
+Tasks
+-----
+run      peatburn.run on a config, with the time of each phase (instrumented from outside).
+floor    the I/O floor of a survey-only run: read both surveys by blocks, write two float32
+         rasters block by block and copy them to COG (the same writer as a run).
+blocks   the CPU-bound part alone: map_blocks(process_block) over every window, results summed
+         and dropped (no writing), after the plan is built.
+write    one float32 raster written by BlockRasterWriter (memory of the writer alone).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import functools
+import json
+import sys
+import time
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+PHASES: dict = {}
+
+
+def _timed(owner, name, phase):
+    fn = getattr(owner, name)
+
+    @functools.wraps(fn)
+    def wrapper(*a, **k):
+        t = time.perf_counter()
+        try:
+            return fn(*a, **k)
+        finally:
+            PHASES[phase] = PHASES.get(phase, 0.0) + time.perf_counter() - t
+
+    setattr(owner, name, wrapper)
+
+
+def _timed_generator(owner, name, phase):
+    """Time spent inside the generator's next() (producing blocks), apart from the consumer's."""
+    fn = getattr(owner, name)
+
+    @functools.wraps(fn)
+    def wrapper(*a, **k):
+        gen = fn(*a, **k)
+        while True:
+            t = time.perf_counter()
+            try:
+                item = next(gen)
+            except StopIteration:
+                PHASES[phase] = PHASES.get(phase, 0.0) + time.perf_counter() - t
+                return
+            PHASES[phase] = PHASES.get(phase, 0.0) + time.perf_counter() - t
+            yield item
+
+    setattr(owner, name, wrapper)
+
+
+def task_run(config, out, workers=1, gdal_env=False, scheduler=None):
+    import peatburn
+    import peatburn.io.writers as writers
+    import peatburn.outputs.provenance as provenance
+    import peatburn.outputs.report as report
+    import peatburn.runner as runner
+    from peatburn.executors import gdal_env as _env
+
+    _timed(runner, "open_inputs", "open inputs")
+    _timed(runner, "coregister", "co-registration")
+    _timed(runner, "build_plan", "plan")
+    _timed_generator(runner, "map_blocks", "blocks (compute, or wait for workers)")
+    _timed(writers.BlockRasterWriter, "write", "block writes")
+    _timed(writers.BlockRasterWriter, "close", "COG conversion")
+    _timed(provenance, "build", "provenance (hashes)")
+    _timed(report, "write_report", "report")
+    cfg = peatburn.load_config(config)
+    t = time.perf_counter()
+    with (_env() if gdal_env else contextlib.nullcontext()):
+        r = peatburn.run(cfg, out, overwrite=True, workers=workers, scheduler=scheduler)
+    total = time.perf_counter() - t
+    PHASES["other (sums, tables, rest)"] = total - sum(PHASES.values())
+    return {"wall_s": total, "phases": PHASES, "carbon_t": r.total["carbon_smouldering_t"],
+            "zones": len(r.zones)}
+
+
+def task_floor(config, out, gdal_env=False):
+    import numpy as np
+    import rasterio
+
+    import _common
+    from peatburn.config import load_config
+    from peatburn.executors import gdal_env as _env
+    from peatburn.grid import RunGrid
+    from peatburn.io.writers import BlockRasterWriter
+
+    cfg = load_config(config)
+    out = Path(out)
+    out.mkdir(parents=True, exist_ok=True)
+    t = time.perf_counter()
+    with (_env() if gdal_env else contextlib.nullcontext()):
+        with rasterio.open(cfg.survey.pre) as dpre, rasterio.open(cfg.survey.post) as dpost:
+            grid = RunGrid(dpre.crs, dpre.transform, dpre.width, dpre.height)
+            with BlockRasterWriter(out / "a.tif", grid, block_size=cfg.block_size) as wa, \
+                    BlockRasterWriter(out / "b.tif", grid, block_size=cfg.block_size) as wb:
+                for w in grid.windows(cfg.block_size):
+                    pre = dpre.read(1, window=w)
+                    post = dpost.read(1, window=w)
+                    x, y = grid.pixel_centres(w)
+                    # the same footprint as a run's outputs (NaN outside the scars), no science
+                    d = np.where(_common.scar_mask(x, y), pre - post, np.nan)
+                    wa.write(w, d)
+                    wb.write(w, d * 0.055)
+    return {"wall_s": time.perf_counter() - t}
+
+
+def task_blocks(config, workers=1):
+    import peatburn
+    from peatburn.executors import map_blocks
+    from peatburn.pipeline import Sums, build_plan, coregister, open_inputs, process_block
+
+    cfg = peatburn.load_config(config)
+    plan = build_plan(inputs := open_inputs(cfg), coregister(inputs))
+    windows = plan.grid.windows(cfg.block_size)
+    sums = Sums.empty(plan)
+    t = time.perf_counter()
+    for r in map_blocks(process_block, plan, windows, workers):
+        sums.add(r)
+    return {"wall_s": time.perf_counter() - t, "blocks": len(windows), "carbon_kg": sums.total["carbon_kg"]}
+
+
+def task_write(n, out, gdal_env=False):
+    import numpy as np
+    from affine import Affine
+    from rasterio.crs import CRS
+
+    from peatburn.executors import gdal_env as _env
+    from peatburn.grid import RunGrid
+    from peatburn.io.writers import BlockRasterWriter
+
+    grid = RunGrid(CRS.from_epsg(32749), Affine(1, 0, 500000, 0, -1, 9800000), n, n)
+    base = np.random.default_rng(0).normal(0, 0.1, (512, 512)).astype("float32")
+    t = time.perf_counter()
+    with (_env() if gdal_env else contextlib.nullcontext()):
+        with BlockRasterWriter(out, grid, block_size=512) as w:
+            for win in grid.windows(512):
+                w.write(win, base[:int(win.height), :int(win.width)] + float(win.row_off))
+    return {"wall_s": time.perf_counter() - t}
+
+
+if __name__ == "__main__":
+    task, kwargs = sys.argv[1], json.loads(sys.argv[2])
+    res = {"run": task_run, "floor": task_floor, "blocks": task_blocks, "write": task_write}[task](**kwargs)
+    print(json.dumps(res))
