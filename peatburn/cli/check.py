@@ -33,9 +33,19 @@ def check_cmd(config, against):
     click.echo(f"burn scars: {len(inputs.scars.frame)} polygons from {cfg.burned_area}")
     for z, layer, ids in inputs.zones:
         click.echo(f"zones {z.name}: {len(ids)} polygons, id field {z.id!r}")
-    click.echo(f"depth: two surveys {cfg.survey.interval_years:g} yr apart; subsidence "
-               f"{'raster' if hasattr(cfg.survey.subsidence_rate, 'path') else cfg.survey.subsidence_rate}; "
-               f"co-registration on stable ground ({'polygons' if cfg.survey.stable else 'outside scars buffered by %g m' % cfg.survey.stable_buffer_m})")
+    if cfg.survey is not None:
+        sv = cfg.survey
+        sub = "raster" if hasattr(sv.subsidence_rate, "path") else sv.subsidence_rate
+        stable = "polygons" if sv.stable else f"outside scars buffered by {sv.stable_buffer_m:g} m"
+        click.echo(f"depth 1: two surveys {sv.interval_years:g} yr apart; subsidence {sub}; co-registration on "
+                   f"stable ground ({stable})")
+    if cfg.water_table is not None:
+        wt = cfg.water_table
+        src = f"raster {wt.raster.path}" if wt.raster else f"stations {wt.stations} (IDW, power {wt.idw_power:g})"
+        click.echo(f"depth 2: water-table model ({wt.model}) from {src}")
+    click.echo("depth 3: IPCC 2013 Wetlands Supplement Tier 1 default where neither gives a depth")
+    if cfg.flaming is not None:
+        click.echo(f"flaming: {cfg.flaming.method} route")
     click.echo(f"smouldering factors: {sm.name} ({sm.citation}); GWP: {gwp.name}")
     for n in inputs.notes:
         click.echo(f"note: {n}")

@@ -5,6 +5,7 @@ from __future__ import annotations
 import click
 
 from .. import __version__
+from .calibrate import calibrate_cmd
 from .check import check_cmd
 from .demo import demo_cmd
 from .factors import factors_cmd
@@ -23,3 +24,4 @@ cli.add_command(run_cmd)
 cli.add_command(check_cmd)
 cli.add_command(demo_cmd)
 cli.add_command(factors_cmd)
+cli.add_command(calibrate_cmd)

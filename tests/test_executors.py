@@ -1,0 +1,209 @@
+"""Executors (serial, local processes, dask.distributed) and the progress bar.
+
+The contract checked here (DESIGN.md, "pipeline"): every executor yields the block results in
+window order, so sums are added in the same order and a parallel run equals the serial run.
+"""
+
+from __future__ import annotations
+
+import io
+import os
+import pickle
+import time
+
+import numpy as np
+import pytest
+import rasterio
+from rasterio.windows import Window
+
+import peatburn
+from peatburn import executors
+from peatburn.errors import GridError, PeatburnError
+from peatburn.executors import map_blocks
+from peatburn.progress import Progress, progress_bar
+
+WINDOWS = [Window(c, r, 10, 10) for r in range(0, 40, 10) for c in range(0, 30, 10)]  # 12 windows
+
+
+class CountingPlan:
+    """A plan that counts how often it is pickled in this process (i.e. sent to a worker)."""
+
+    pickled = 0
+
+    def __init__(self, k):
+        self.k = k
+
+    def __getstate__(self):
+        CountingPlan.pickled += 1
+        return {"k": self.k}
+
+
+def _slow_block(plan, window):
+    # later windows finish first, so results complete out of order in a pool
+    time.sleep(0.002 * (120 - window.row_off - window.col_off))
+    return (int(window.col_off), int(window.row_off), plan.k * int(window.col_off + window.row_off), os.getpid())
+
+
+def _failing_block(plan, window):
+    if window.row_off == 20 and window.col_off == 10:
+        raise GridError("block (10, 20) holds no data")
+    return 1
+
+
+def _gdal_cache(plan, window):
+    from rasterio.env import get_gdal_config
+
+    return get_gdal_config("GDAL_CACHEMAX"), get_gdal_config("GDAL_NUM_THREADS")
+
+
+def _expected(k=3):
+    # hand arithmetic of _slow_block without the pid: (col, row, k * (col + row)) in window order
+    return [(int(w.col_off), int(w.row_off), k * int(w.col_off + w.row_off)) for w in WINDOWS]
+
+
+def test_serial_in_order_in_this_process():
+    out = list(map_blocks(_slow_block, CountingPlan(3), WINDOWS))
+    assert [o[:3] for o in out] == _expected()
+    assert {o[3] for o in out} == {os.getpid()}
+
+
+def test_processes_keep_window_order_and_send_plan_once_per_worker():
+    CountingPlan.pickled = 0
+    out = list(map_blocks(_slow_block, CountingPlan(3), WINDOWS, workers=2))
+    assert [o[:3] for o in out] == _expected()
+    pids = {o[3] for o in out}
+    assert os.getpid() not in pids and 1 <= len(pids) <= 2
+    # the plan travels with the pool initializer (once per worker process), not with every block
+    assert 1 <= CountingPlan.pickled <= 2
+
+
+def test_worker_error_keeps_its_type():
+    with pytest.raises(GridError, match=r"block \(10, 20\)"):
+        list(map_blocks(_failing_block, CountingPlan(1), WINDOWS, workers=2))
+    with pytest.raises(GridError):
+        list(map_blocks(_failing_block, CountingPlan(1), WINDOWS))
+
+
+def test_closing_early_stops_the_pool():
+    gen = map_blocks(_slow_block, CountingPlan(1), WINDOWS, workers=2)
+    first = next(gen)
+    gen.close()  # must return promptly, cancelling blocks not yet started
+    assert first[:2] == (0, 0)
+
+
+def test_workers_get_bounded_gdal_cache_and_one_thread():
+    out = list(map_blocks(_gdal_cache, CountingPlan(1), WINDOWS[:4], workers=2))
+    assert {o for o in out} == {(executors.WORKER_GDAL_CACHE, "1")}
+
+
+def test_gdal_env_caps_the_cache():
+    from rasterio.env import get_gdal_config
+
+    with executors.gdal_env(64 * 2**20):
+        assert get_gdal_config("GDAL_CACHEMAX") == 64 * 2**20
+
+
+# --------------------------------------------------------------------------------------------
+# dask.distributed
+
+
+@pytest.fixture(scope="module")
+def cluster():
+    import distributed  # the scale extra; part of the test extra so that CI runs these tests
+
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None,
+                                  silence_logs=40) as c:
+        yield c
+
+
+def test_dask_keeps_window_order(cluster):
+    out = list(map_blocks(_slow_block, CountingPlan(3), WINDOWS, scheduler=cluster.scheduler_address))
+    assert [o[:3] for o in out] == _expected()
+    assert os.getpid() not in {o[3] for o in out}  # ran on the cluster's worker processes
+
+
+def test_dask_error_keeps_its_type(cluster):
+    with pytest.raises(GridError):
+        list(map_blocks(_failing_block, CountingPlan(1), WINDOWS, scheduler=cluster.scheduler_address))
+
+
+def test_local_cluster_run_equals_serial_run(scene, scene_run, cluster, tmp_path):
+    """A run on a LocalCluster of two worker processes gives the serial result. Blocks are combined
+    in window order by both, so the additions happen in the same order and the sums are equal
+    exactly (not only to rounding)."""
+    r = peatburn.run(scene.config, tmp_path / "dask", scheduler=cluster.scheduler_address)
+    assert len(r.zones) == len(scene_run.zones)
+    for a, b in zip(scene_run.zones, r.zones):
+        assert (a["layer"], a["zone"]) == (b["layer"], b["zone"])
+        for k in ("burned_area_ha", "peat_burned_t", "carbon_smouldering_t", "co2_smouldering_t"):
+            assert a[k] == b[k], (a["zone"], k)
+    for name in ("burn_depth.tif", "carbon_smouldering.tif"):
+        with rasterio.open(scene_run.out_dir / name) as d1, rasterio.open(tmp_path / "dask" / name) as d2:
+            assert np.array_equal(d1.read(1), d2.read(1))
+
+
+def test_unreachable_scheduler_is_one_line_error(monkeypatch):
+    monkeypatch.setattr(executors, "CONNECT_TIMEOUT", 1)
+    with pytest.raises(PeatburnError, match="cannot connect to a dask scheduler"):
+        list(map_blocks(_slow_block, CountingPlan(1), WINDOWS, scheduler="tcp://127.0.0.1:9"))
+
+
+# --------------------------------------------------------------------------------------------
+# progress
+
+
+class FakeTTY(io.StringIO):
+    def isatty(self):
+        return True
+
+
+class Clock:
+    def __init__(self):
+        self.t = 0.0
+
+    def __call__(self):
+        return self.t
+
+
+def test_progress_draws_on_a_terminal_after_the_delay():
+    s, clock = FakeTTY(), Clock()
+    p = Progress(s, delay=1.0, interval=0.0, clock=clock)
+    p(1, 10)  # t = 0: within the delay, nothing drawn
+    assert s.getvalue() == ""
+    clock.t = 4.0
+    p(5, 10)
+    # 4 blocks finished in 4 s since the first call -> 5 remaining take 5 s (hand arithmetic)
+    assert s.getvalue() == "\r[###############...............] 5/10 blocks  50%  00:04  ETA 00:05"
+    clock.t = 8.0
+    p(10, 10)
+    assert s.getvalue().endswith("10/10 blocks 100%  00:08  done\n")
+
+
+def test_progress_silent_off_a_terminal_and_when_quiet():
+    s = io.StringIO()  # not a TTY (e.g. a log file or a pipe)
+    p = Progress(s, delay=0.0)
+    for i in range(1, 4):
+        p(i, 3)
+    assert s.getvalue() == ""
+    q = progress_bar(quiet=True, stream=FakeTTY())
+    q(1, 1)  # a no-op
+    t = FakeTTY()
+    progress_bar(quiet=True, stream=t)(3, 3)
+    assert t.getvalue() == ""
+
+
+def test_progress_throttles_redraws():
+    s, clock = FakeTTY(), Clock()
+    p = Progress(s, delay=0.0, interval=1.0, clock=clock)
+    for i in range(1, 100):
+        clock.t = i * 0.01  # 99 blocks within 1 s
+        p(i, 100)
+    assert s.getvalue().count("\r") == 1  # only the first draw; the next waits 1 s
+    clock.t = 1.0
+    p(100, 100)  # the last block always draws
+    assert s.getvalue().count("\r") == 2 and s.getvalue().endswith("\n")
+
+
+def test_counting_plan_pickles():
+    # the counting plan used above is a faithful plan: it survives a round trip
+    assert pickle.loads(pickle.dumps(CountingPlan(7))).k == 7
