@@ -22,6 +22,20 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 PHASES: dict = {}
+HWM: dict = {}  # phase -> peak resident memory of this process when the phase ended [MiB]
+
+
+def _hwm() -> float:
+    """Peak resident memory so far [MiB] (VmHWM, Linux; ru_maxrss elsewhere)."""
+    try:
+        for line in open("/proc/self/status"):
+            if line.startswith("VmHWM"):
+                return int(line.split()[1]) / 1024
+    except OSError:
+        pass
+    import resource
+
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / (1024 if sys.platform != "darwin" else 2**20)
 
 
 def _timed(owner, name, phase):
@@ -34,6 +48,7 @@ def _timed(owner, name, phase):
             return fn(*a, **k)
         finally:
             PHASES[phase] = PHASES.get(phase, 0.0) + time.perf_counter() - t
+            HWM[phase] = _hwm()
 
     setattr(owner, name, wrapper)
 
@@ -51,11 +66,23 @@ def _timed_generator(owner, name, phase):
                 item = next(gen)
             except StopIteration:
                 PHASES[phase] = PHASES.get(phase, 0.0) + time.perf_counter() - t
+                HWM[phase] = _hwm()
                 return
             PHASES[phase] = PHASES.get(phase, 0.0) + time.perf_counter() - t
             yield item
 
     setattr(owner, name, wrapper)
+
+
+def _env_for(gdal_env):
+    """``gdal_env``: False (GDAL defaults), True (peatburn.executors.gdal_env()) or a cache size [MiB]."""
+    from peatburn.executors import gdal_env as _env
+
+    if gdal_env is False or gdal_env is None:
+        return contextlib.nullcontext()
+    if gdal_env is True:
+        return _env()
+    return _env(int(gdal_env) * 2**20)
 
 
 def task_run(config, out, workers=1, gdal_env=False, scheduler=None):
@@ -64,8 +91,6 @@ def task_run(config, out, workers=1, gdal_env=False, scheduler=None):
     import peatburn.outputs.provenance as provenance
     import peatburn.outputs.report as report
     import peatburn.runner as runner
-    from peatburn.executors import gdal_env as _env
-
     _timed(runner, "open_inputs", "open inputs")
     _timed(runner, "coregister", "co-registration")
     _timed(runner, "build_plan", "plan")
@@ -76,11 +101,11 @@ def task_run(config, out, workers=1, gdal_env=False, scheduler=None):
     _timed(report, "write_report", "report")
     cfg = peatburn.load_config(config)
     t = time.perf_counter()
-    with (_env() if gdal_env else contextlib.nullcontext()):
+    with _env_for(gdal_env):
         r = peatburn.run(cfg, out, overwrite=True, workers=workers, scheduler=scheduler)
     total = time.perf_counter() - t
     PHASES["other (sums, tables, rest)"] = total - sum(PHASES.values())
-    return {"wall_s": total, "phases": PHASES, "carbon_t": r.total["carbon_smouldering_t"],
+    return {"wall_s": total, "phases": PHASES, "hwm_mib": HWM, "carbon_t": r.total["carbon_smouldering_t"],
             "zones": len(r.zones)}
 
 
@@ -98,7 +123,7 @@ def task_floor(config, out, gdal_env=False):
     out = Path(out)
     out.mkdir(parents=True, exist_ok=True)
     t = time.perf_counter()
-    with (_env() if gdal_env else contextlib.nullcontext()):
+    with _env_for(gdal_env):
         with rasterio.open(cfg.survey.pre) as dpre, rasterio.open(cfg.survey.post) as dpost:
             grid = RunGrid(dpre.crs, dpre.transform, dpre.width, dpre.height)
             with BlockRasterWriter(out / "a.tif", grid, block_size=cfg.block_size) as wa, \
@@ -141,7 +166,7 @@ def task_write(n, out, gdal_env=False):
     grid = RunGrid(CRS.from_epsg(32749), Affine(1, 0, 500000, 0, -1, 9800000), n, n)
     base = np.random.default_rng(0).normal(0, 0.1, (512, 512)).astype("float32")
     t = time.perf_counter()
-    with (_env() if gdal_env else contextlib.nullcontext()):
+    with _env_for(gdal_env):
         with BlockRasterWriter(out, grid, block_size=512) as w:
             for win in grid.windows(512):
                 w.write(win, base[:int(win.height), :int(win.width)] + float(win.row_off))

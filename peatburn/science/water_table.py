@@ -1,0 +1,954 @@
+"""Burn depth where no survey exists: a linear water-table model capped by the peat thickness.
+
+The model
+---------
+Peat below the water table is saturated and does not smoulder; the layer above it dries out and
+can burn, and that combustible layer deepens as the water table falls (Usup et al. 2004;
+Wösten et al. 2008; Hayasaka et al. 2016, whose chapter abstract states that "the depth of
+combustible peat layer increased linearly with lowering of groundwater level"). peatburn
+writes that relation as
+
+    d = clip(a + b * w, 0, T)
+
+with ``w`` the depth of the water table below the surface at fire time [m, positive down],
+``a`` the intercept [m], ``b`` the slope [m of burn per m of water-table depth], ``T`` the peat
+thickness [m] (fire cannot remove more peat than is there) and ``d`` the burn depth [m]. The
+lower clip at 0 says a water table at or above the point where the line crosses zero burns no peat.
+
+Sign convention: ``w`` is **positive downwards** (0.6 means 60 cm below the surface). Dipwell
+records and many papers write the groundwater level the other way round (negative below the
+surface, e.g. "GWL -30 cm"); :func:`check_water_table` refuses data that look like that.
+
+Fitting
+-------
+Where both a survey burn depth and a water table exist (the surveyed scars), ``a`` and ``b`` are
+fitted robustly, because survey differences contain artefacts such as canal edges, spoil banks
+and unmasked water, that ordinary least squares would follow:
+
+* ``"theil-sen"`` (default): the slope is the median of the slopes between all pairs of points
+  (Theil 1950; Sen 1968), the intercept the median of ``d - b w``. Breakdown point about 29 %
+  (recalled, unchecked). Above 2000 points the median is taken over 2,000,000 randomly drawn pairs
+  (a randomized Theil-Sen estimator); its Monte Carlo error is far below the standard error.
+* ``"huber"``: Huber's M-estimator (Huber 1964) by iteratively reweighted least squares, tuning
+  constant 1.345 times a robust scale (the normalized median absolute deviation of the
+  residuals, re-estimated each iteration); 1.345 gives about 95 % efficiency for normal errors
+  (Holland & Welsch 1977; recalled, unchecked).
+
+Standard errors and the intercept-slope covariance come from a case-resampling bootstrap
+(Efron & Tibshirani 1993): resampling pixels (which assumes independent pixels and is therefore
+overconfident for spatially autocorrelated scars), or, when scar labels are given, resampling
+whole scars (a cluster bootstrap; Field & Welsh 2007), which is the honest choice. Bootstrap
+replicates use at most ``boot_size`` points; with pixel resampling the standard error of ``m``
+points is scaled to ``n`` by ``sqrt(m / n)`` (the m-out-of-n bootstrap, Bickel, Götze & van Zwet
+1997, valid for root-n estimators such as these).
+
+Defaults
+--------
+:data:`DEFAULT_MODEL` (``a = -0.40 m``, ``b = 1.0``) is a construction of this project from two
+published statements, not a published fit; its confidence is ``"default (low confidence)"``.
+See its docstring.
+
+Interpolating stations
+----------------------
+:func:`idw` interpolates water-table readings at stations onto pixels by inverse distance
+weighting (Shepard 1968). It has no error model, draws "bull's-eyes" around stations, and cannot
+extrapolate beyond the range of the readings (see its docstring); :func:`idw_cross_validation`
+gives its leave-one-out error, the only honest measure of how far to trust it.
+
+All functions are pure: arrays and numbers in, arrays and numbers out; no files, no printing.
+
+References
+----------
+Usup, A., Hashimoto, Y., Takahashi, H. & Hayasaka, H. (2004). Combustion and thermal
+characteristics of peat fire in tropical peatland in Central Kalimantan, Indonesia. Tropics
+14(1):1-19.
+Wösten, J. H. M., Clymans, E., Page, S. E., Rieley, J. O. & Limin, S. H. (2008). Peat-water
+interrelationships in a tropical peatland ecosystem in Southeast Asia. Catena 73:212-224
+(journal, volume and pages recalled, unchecked; the same authors' 2008 International Peat Congress
+paper of the same title was checked: keep the water table between 40 cm below and 100 cm above
+the peat surface to prevent subsidence and fire).
+Hayasaka, H., Takahashi, H., Limin, S. H., Yulianti, N. & Usup, A. (2016). Peat fire occurrence.
+In Osaki, M. & Tsuji, N. (eds), Tropical Peatland Ecosystems, Springer, Ch. 25 (editors and
+publisher recalled, unchecked; chapter authors and abstract checked).
+Theil, H. (1950). A rank-invariant method of linear and polynomial regression analysis.
+Proc. K. Ned. Akad. Wet. 53. Sen, P. K. (1968). Estimates of the regression coefficient based on
+Kendall's tau. J. Am. Stat. Assoc. 63:1379-1389.
+Huber, P. J. (1964). Robust estimation of a location parameter. Ann. Math. Stat. 35:73-101.
+Holland, P. W. & Welsch, R. E. (1977). Robust regression using iteratively reweighted
+least-squares. Commun. Stat. Theory Methods 6:813-827.
+Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall.
+Field, C. A. & Welsh, A. H. (2007). Bootstrapping clustered data. J. R. Stat. Soc. B 69:369-390.
+Bickel, P. J., Götze, F. & van Zwet, W. R. (1997). Resampling fewer than n observations.
+Stat. Sin. 7:1-31.
+Shepard, D. (1968). A two-dimensional interpolation function for irregularly-spaced data.
+Proc. 23rd ACM National Conference, 517-524.
+(Bibliographic details of the statistics references are recalled, unchecked.)
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import asdict, dataclass, field, replace
+
+import numpy as np
+from scipy.spatial import cKDTree
+
+from ..errors import GridError, PhysicalRangeError
+from .survey import NMAD_CONSTANT
+
+__all__ = [
+    "DepthModel",
+    "DEFAULT_MODEL",
+    "METHODS",
+    "predict_depth",
+    "predict_depth_grouped",
+    "fit_depth_model",
+    "fit_depth_models_by_group",
+    "user_model",
+    "check_water_table",
+    "idw",
+    "idw_cross_validation",
+    "readings_near_date",
+    "validate_against_plots",
+]
+
+#: Robust fitting methods of :func:`fit_depth_model`.
+METHODS = ("theil-sen", "huber")
+
+#: Huber tuning constant in units of the residual scale: about 95 % efficiency under normal errors
+#: (Holland & Welsch 1977; recalled, unchecked).
+HUBER_C = 1.345
+
+#: |water-table depth| above this [m] is refused as a unit error (cm or mm read as m) or an
+#: undeclared nodata value. Tropical peat water tables lie within about 1 m above and a few m
+#: below the surface (Wösten et al. 2008 report flooding above 100 cm and dry-season levels below
+#: the 40 cm threshold); 10 m is far outside that: common practice.
+MAX_ABS_WATER_TABLE_M = 10.0
+#: Deeper than this [m] below the surface draws a warning (common practice).
+DEEP_WATER_TABLE_WARN_M = 3.0
+#: More than this share of negative values (water above the surface) is refused as a sign error.
+NEGATIVE_SHARE_ERROR = 0.5
+#: More than this share of negative values draws a warning.
+NEGATIVE_SHARE_WARN = 0.05
+
+#: Fewest valid pairs :func:`fit_depth_model` accepts.
+MIN_FIT_SAMPLES = 5
+#: Fewer pairs than this, or fewer scars than :data:`MIN_CLUSTERS`, add a caution to the notes.
+FEW_SAMPLES = 30
+MIN_CLUSTERS = 5
+#: A water-table range narrower than this [m] leaves the slope poorly constrained.
+NARROW_RANGE_M = 0.2
+
+_EXACT_PAIRS_MAX = 2_000_000
+_SAMPLED_PAIRS = 2_000_000
+_DEFAULT_BOOT_SIZE = {"theil-sen": 600, "huber": 5000}
+
+
+# ----------------------------------------------------------------------------- the model
+
+_FLOAT_FIELDS = ("intercept", "slope", "intercept_se", "slope_se", "covariance", "r2", "rmse", "residual_nmad")
+
+
+@dataclass(frozen=True)
+class DepthModel:
+    """Coefficients of ``d = clip(a + b w, 0, T)`` with their uncertainty and provenance.
+
+    Attributes
+    ----------
+    intercept : float
+        ``a`` [m].
+    slope : float
+        ``b`` [m burn depth per m water-table depth].
+    intercept_se, slope_se : float
+        Standard errors of ``a`` [m] and ``b`` [m/m]; NaN when unknown.
+    covariance : float
+        Covariance of ``a`` and ``b`` [m]; with the SEs it gives the 2 x 2 covariance matrix of
+        :meth:`covariance_matrix` for Monte Carlo draws.
+    n : int
+        Pairs the fit used (0 for user and default coefficients).
+    r2 : float
+        Coefficient of determination of the (unclipped) line on the fitted pairs,
+        ``1 - SS_res / SS_tot``; NaN when not fitted. A robust line is not the least-squares
+        line, so with outliers its R² is lower than the least-squares R² would be.
+    rmse : float
+        Root mean square residual of the line on the fitted pairs [m]; outliers inflate it,
+        see ``residual_nmad``.
+    method : str
+        ``"theil-sen"``, ``"huber"``, ``"user"``, ``"default"`` or ``"pooled"`` (a group that
+        fell back on the pooled fit).
+    confidence : str
+        ``"fitted"``, ``"user"`` or ``"default (low confidence)"``.
+    se_method : str
+        How the standard errors were obtained.
+    water_table_range : tuple of float
+        (min, max) water-table depth of the fitted pairs [m]; predictions outside it extrapolate.
+    n_clusters : int
+        Scars in the fit (0 when no labels were given).
+    residual_nmad : float
+        Normalized median absolute deviation of the residuals [m] (robust spread).
+    notes : tuple of str
+        Cautions found while fitting (few samples, narrow range, negative slope...).
+    basis : str
+        Where the coefficients come from (citation for defaults).
+    """
+
+    intercept: float
+    slope: float
+    intercept_se: float
+    slope_se: float
+    covariance: float
+    n: int
+    r2: float
+    rmse: float
+    method: str
+    confidence: str
+    se_method: str = ""
+    water_table_range: tuple[float, float] = (math.nan, math.nan)
+    n_clusters: int = 0
+    residual_nmad: float = math.nan
+    notes: tuple[str, ...] = field(default_factory=tuple)
+    basis: str = ""
+
+    def __post_init__(self):
+        # Accept what a JSON round trip gives back (None for NaN, lists for tuples), so
+        # ``DepthModel(**json.load(...))`` rebuilds the model that :meth:`to_dict` wrote.
+        for name in _FLOAT_FIELDS:
+            value = getattr(self, name)
+            object.__setattr__(self, name, math.nan if value is None else float(value))
+        rng = self.water_table_range
+        if rng is None:
+            rng = (math.nan, math.nan)
+        object.__setattr__(self, "water_table_range",
+                           tuple(math.nan if v is None else float(v) for v in rng))
+        object.__setattr__(self, "notes", tuple(self.notes or ()))
+        object.__setattr__(self, "n", int(self.n or 0))
+        object.__setattr__(self, "n_clusters", int(self.n_clusters or 0))
+
+    @classmethod
+    def from_dict(cls, data: Mapping) -> "DepthModel":
+        """Rebuild a model from :meth:`to_dict` output (unknown keys ignored, missing optional
+        fields take their defaults)."""
+        names = cls.__dataclass_fields__
+        return cls(**{k: v for k, v in data.items() if k in names})
+
+    def to_dict(self) -> dict:
+        """Plain dict (floats, ints, strings, lists) for JSON and provenance; NaN stays NaN."""
+        out = asdict(self)
+        out["water_table_range"] = [float(v) for v in self.water_table_range]
+        out["notes"] = list(self.notes)
+        return out
+
+    def covariance_matrix(self) -> np.ndarray:
+        """2 x 2 covariance of (a, b) [m², m, m, (m/m)²]; zeros where the SEs are NaN."""
+        sa = 0.0 if math.isnan(self.intercept_se) else self.intercept_se
+        sb = 0.0 if math.isnan(self.slope_se) else self.slope_se
+        c = 0.0 if math.isnan(self.covariance) else self.covariance
+        return np.array([[sa * sa, c], [c, sb * sb]])
+
+    def predict(self, water_table_m, thickness_m=None) -> np.ndarray:
+        """Burn depth [m]; see :func:`predict_depth`."""
+        return predict_depth(self, water_table_m, thickness_m)
+
+
+#: Default coefficients, used only when neither surveyed scars nor field plots allow a fit and
+#: the user gives none: ``d = clip(w - 0.40, 0, T)``. **Low confidence.**
+#:
+#: Basis (a construction of this project, not a published fit):
+#:
+#: * slope 1.0: the combustible layer is the peat above the water table and deepens linearly as
+#:   the water table falls (Hayasaka et al. 2016, chapter abstract, checked; Usup et al. 2004
+#:   describe fire fronts and fuel losses in the peat above the water table: recalled, unchecked).
+#:   A slope of 1 is the largest the physics allows (no peat burns below the water table), so it
+#:   is an upper value, not a central one;
+#: * intercept -0.40 m: the water table should be kept within 40 cm of the surface to prevent
+#:   fire (Wösten et al. 2008, International Peat Congress abstract, checked); so no peat burns
+#:   while the water table is within 0.40 m of the surface;
+#: * consistency check (not a calibration): the mean LiDAR burn depth of 0.33 ± 0.18 m of the
+#:   2006 fires (Ballhorn et al. 2009, abstract, checked) would need a mean fire-time water table
+#:   of 0.73 m, and the 0.51 m mean burn depth of 1997 (Page et al. 2002: recalled, unchecked)
+#:   one of 0.91 m; plausible for drought years in drained peat, not checked against records.
+#:
+#: Standard errors (0.20 m, 0.30) are judgement, chosen wide; no covariance.
+DEFAULT_MODEL = DepthModel(
+    intercept=-0.40,
+    slope=1.0,
+    intercept_se=0.20,
+    slope_se=0.30,
+    covariance=0.0,
+    n=0,
+    r2=math.nan,
+    rmse=math.nan,
+    method="default",
+    confidence="default (low confidence)",
+    se_method="judgement (no published uncertainty)",
+    basis=(
+        "project construction, not a published fit: slope 1 m/m (combustible layer above the water "
+        "table deepens linearly as it falls: Hayasaka et al. 2016, abstract; Usup et al. 2004) and "
+        "no burn while the water table is within 0.40 m of the surface (Wösten et al. 2008 fire "
+        "threshold of 40 cm). Standard errors are judgement."
+    ),
+)
+
+
+def user_model(intercept, slope, intercept_se=math.nan, slope_se=math.nan, covariance=0.0,
+               basis: str = "user-supplied coefficients") -> DepthModel:
+    """A :class:`DepthModel` from user coefficients ``a`` [m] and ``b`` [m/m], confidence ``"user"``."""
+    values = {"intercept": intercept, "slope": slope, "intercept_se": intercept_se,
+              "slope_se": slope_se, "covariance": covariance}
+    clean = {}
+    for name, value in values.items():
+        try:
+            v = float(value)
+        except (TypeError, ValueError):
+            raise PhysicalRangeError(f"water-table depth model: {name} must be a number, got {value!r}") from None
+        if name in ("intercept", "slope") and not math.isfinite(v):
+            raise PhysicalRangeError(f"water-table depth model: {name} must be a finite number, got {value!r}")
+        if name.endswith("_se") and v < 0:
+            raise PhysicalRangeError(f"water-table depth model: {name} must not be negative, got {value!r}")
+        clean[name] = v
+    notes = []
+    if clean["slope"] < 0:
+        notes.append("slope is negative: burn depth would shrink as the water table falls, against the "
+                     "published relation (Hayasaka et al. 2016); check the sign convention")
+    return DepthModel(n=0, r2=math.nan, rmse=math.nan, method="user", confidence="user",
+                      se_method="user-supplied" if math.isfinite(clean["slope_se"]) else "none",
+                      notes=tuple(notes), basis=basis, **clean)
+
+
+def _coefficients(model_or_a_b):
+    if isinstance(model_or_a_b, DepthModel):
+        return model_or_a_b.intercept, model_or_a_b.slope
+    try:
+        a, b = model_or_a_b
+    except (TypeError, ValueError):
+        raise PhysicalRangeError(
+            f"depth model: expected a DepthModel or a pair (intercept, slope), got {model_or_a_b!r}"
+        ) from None
+    return np.asarray(a, dtype="float64"), np.asarray(b, dtype="float64")
+
+
+def predict_depth(model_or_a_b, water_table_m, thickness_m=None) -> np.ndarray:
+    """Burn depth from the water-table depth: ``d = clip(a + b w, 0, T)``.
+
+    Parameters
+    ----------
+    model_or_a_b : DepthModel or (float or array_like, float or array_like)
+        The coefficients: intercept ``a`` [m] and slope ``b`` [m/m]. Arrays broadcast against
+        ``water_table_m`` (per-pixel coefficient sets, e.g. first and repeat fires).
+    water_table_m : array_like
+        Depth of the water table below the surface at fire time [m, positive down]. NaN is nodata.
+    thickness_m : array_like, optional
+        Peat thickness [m]; the depth never exceeds it. NaN thickness means unknown (no cap), as in
+        :func:`peatburn.science.peat.cap_depth`; a negative thickness is read as 0.
+
+    Returns
+    -------
+    numpy.ndarray
+        Burn depth [m], >= 0; NaN where the water table is NaN.
+
+    References
+    ----------
+    Linear relation with the water table: Usup et al. (2004); Wösten et al. (2008); Hayasaka et
+    al. (2016). Cap at the peat thickness: Page et al. (2002) and Ballhorn et al. (2009) (burn
+    depth times area is a volume of peat that existed).
+    """
+    a, b = _coefficients(model_or_a_b)
+    w = np.asarray(water_table_m, dtype="float64")
+    with np.errstate(invalid="ignore"):
+        d = np.maximum(a + b * w, 0.0)  # NaN propagates through np.maximum
+        if thickness_m is not None:
+            t = np.maximum(np.asarray(thickness_m, dtype="float64"), 0.0)
+            d = np.where(np.isnan(t), d, np.minimum(d, t))
+    return np.asarray(d, dtype="float64")
+
+
+def predict_depth_grouped(models: Mapping, group, water_table_m, thickness_m=None, default=None) -> np.ndarray:
+    """Burn depth with a coefficient set chosen per pixel by a group label (e.g. fire count).
+
+    Parameters
+    ----------
+    models : mapping of label to DepthModel
+        For example ``{1: first_fire_model, 2: repeat_fire_model}`` from
+        :func:`fit_depth_models_by_group`.
+    group : array_like
+        Label per pixel, broadcast against ``water_table_m``.
+    water_table_m, thickness_m : array_like
+        As in :func:`predict_depth` [m].
+    default : DepthModel, optional
+        For labels not in ``models``; without it those pixels are NaN.
+
+    Returns
+    -------
+    numpy.ndarray
+        Burn depth [m].
+    """
+    w = np.asarray(water_table_m, dtype="float64")
+    g = np.broadcast_to(np.asarray(group), w.shape)
+    a = np.full(w.shape, np.nan if default is None else default.intercept)
+    b = np.full(w.shape, np.nan if default is None else default.slope)
+    for label, model in models.items():
+        hit = g == label
+        a[hit] = model.intercept
+        b[hit] = model.slope
+    return predict_depth((a, b), w, thickness_m)
+
+
+# ----------------------------------------------------------------------------- checks
+
+
+def check_water_table(values, what: str) -> list[str]:
+    """Check water-table depths for the sign convention and the unit before they are used.
+
+    Parameters
+    ----------
+    values : array_like
+        Water-table depth below the surface [m, positive down]; NaN is nodata and ignored.
+    what : str
+        The input's name (config key, file), used in every message.
+
+    Returns
+    -------
+    list of str
+        Warnings (empty when nothing looks odd): some values above the surface, water tables
+        deeper than :data:`DEEP_WATER_TABLE_WARN_M`, no valid value.
+
+    Raises
+    ------
+    PhysicalRangeError
+        * any |value| > :data:`MAX_ABS_WATER_TABLE_M` (10 m): probably centimetres or millimetres
+          read as metres, or an undeclared nodata value such as -9999;
+        * more than half of the values negative: the data are probably a water-table *level*
+          (negative below the surface, as dipwell records and papers often give it), not a depth.
+
+    Notes
+    -----
+    Thresholds are common practice. Tropical peat water tables range from about 1 m above the
+    surface in floods to below 40 cm under it in dry seasons (Wösten et al. 2008, checked
+    abstract); at fire time water above the surface should be rare.
+    """
+    v = np.asarray(values, dtype="float64").ravel()
+    f = v[np.isfinite(v)]
+    if f.size == 0:
+        return [f"{what}: no valid water-table value (all nodata)"]
+    warnings: list[str] = []
+    big = np.abs(f) > MAX_ABS_WATER_TABLE_M
+    if big.any():
+        worst = f[np.argmax(np.abs(f))]
+        raise PhysicalRangeError(
+            f"{what}: {int(big.sum())} of {f.size} water-table values are more than "
+            f"{MAX_ABS_WATER_TABLE_M:g} m from the surface (largest {worst:g}); the water-table depth is "
+            f"read in metres, and peat water tables lie within a few metres of the surface. If the data "
+            f"are in centimetres or millimetres, give their units (e.g. \"cm\") or divide by 100 or 1000; "
+            f"if {worst:g} is a nodata value, declare it as the file's nodata"
+        )
+    neg = f < 0
+    share = float(neg.mean())
+    if share > NEGATIVE_SHARE_ERROR:
+        raise PhysicalRangeError(
+            f"{what}: {share:.0%} of the water-table values are negative (median {np.median(f):g} m). "
+            f"peatburn reads the water table as a depth below the surface, positive down (0.6 = 60 cm "
+            f"below the surface); a negative value means water standing above the surface, which "
+            f"should be rare at fire time. These look like a water-table level with the opposite sign "
+            f"(negative below the surface, as dipwell records often give it): multiply the values by -1"
+        )
+    if share > NEGATIVE_SHARE_WARN:
+        warnings.append(
+            f"{what}: {share:.0%} of the water-table values are negative (water above the surface, down "
+            f"to {f.min():g} m); they give zero burn depth. Check the sign convention (positive down)"
+        )
+    deep = f > DEEP_WATER_TABLE_WARN_M
+    if deep.any():
+        warnings.append(
+            f"{what}: {int(deep.sum())} of {f.size} water-table values are deeper than "
+            f"{DEEP_WATER_TABLE_WARN_M:g} m below the surface (deepest {f.max():g} m); unusual for peat. "
+            f"Check the units (m) and whether these are canal or open-water pixels"
+        )
+    return warnings
+
+
+# ----------------------------------------------------------------------------- fitting
+
+
+def _theil_sen(w, d, rng, *, pairs=None):
+    """Theil-Sen slope (median of pairwise slopes) and intercept median(d - b w).
+
+    ``pairs``: (i, j) index arrays to use; default all pairs up to _EXACT_PAIRS_MAX, else
+    _SAMPLED_PAIRS random pairs.
+    """
+    n = w.size
+    if pairs is None:
+        if n * (n - 1) // 2 <= _EXACT_PAIRS_MAX:
+            i, j = np.triu_indices(n, 1)
+        else:
+            i = rng.integers(0, n, _SAMPLED_PAIRS)
+            j = rng.integers(0, n, _SAMPLED_PAIRS)
+    else:
+        i, j = pairs
+    dx = w[j] - w[i]
+    keep = dx != 0
+    if not keep.any():
+        return math.nan, math.nan
+    slopes = (d[j][keep] - d[i][keep]) / dx[keep]
+    b = float(np.median(slopes))
+    a = float(np.median(d - b * w))
+    return a, b
+
+
+def _huber(w, d, *, c=HUBER_C, max_iter=100, tol=1e-10, start=None):
+    """Huber M-estimate of (a, b) by IRLS with the residual scale re-estimated by the NMAD."""
+    X = np.column_stack([np.ones_like(w), w])
+    if start is None:
+        beta = np.linalg.lstsq(X, d, rcond=None)[0]
+    else:
+        beta = np.asarray(start, dtype="float64")
+    for _ in range(max_iter):
+        r = d - X @ beta
+        s = NMAD_CONSTANT * float(np.median(np.abs(r - np.median(r))))
+        if not s > 0:
+            break  # more than half the points on the line: it is the fit
+        u = np.abs(r) / s
+        wt = np.where(u <= c, 1.0, c / np.maximum(u, 1e-300))
+        Xw = X * wt[:, None]
+        new = np.linalg.solve(X.T @ Xw, Xw.T @ d)
+        done = np.max(np.abs(new - beta)) <= tol * (1.0 + np.max(np.abs(beta)))
+        beta = new
+        if done:
+            break
+    return float(beta[0]), float(beta[1])
+
+
+def _estimate(method, w, d, rng, start=None):
+    if method == "theil-sen":
+        return _theil_sen(w, d, rng)
+    return _huber(w, d, start=start)
+
+
+def _as_pairs(water_table_m, depth_m, cluster):
+    w = np.asarray(water_table_m, dtype="float64").ravel()
+    d = np.asarray(depth_m, dtype="float64").ravel()
+    if w.size != d.size:
+        raise GridError(f"water-table depth fit: {w.size} water-table values but {d.size} burn depths; "
+                        f"sample both on the same pixels")
+    ok = np.isfinite(w) & np.isfinite(d)
+    c = None
+    if cluster is not None:
+        c = np.asarray(cluster).ravel()
+        if c.size != w.size:
+            raise GridError(f"water-table depth fit: {c.size} scar labels for {w.size} pixels; give one per pixel")
+        if c.dtype.kind == "f":
+            ok &= np.isfinite(c)
+        c = c[ok]
+    return w[ok], d[ok], c
+
+
+def _bootstrap(method, w, d, c, rng, *, n_boot, boot_size, start):
+    """Bootstrap replicates of (a, b); returns (reps, scale, description, n_clusters)."""
+    n = w.size
+    reps = []
+    if c is not None:
+        labels, inverse = np.unique(c, return_inverse=True)
+        k = labels.size
+    else:
+        k = 0
+    if k >= 2:
+        # cluster bootstrap: resample scars; thin each scar's pixels so a replicate has about boot_size
+        members = [np.flatnonzero(inverse == g) for g in range(k)]
+        keep_share = min(1.0, boot_size / n)
+        thinned = []
+        for m in members:
+            take = max(1, int(round(m.size * keep_share)))
+            thinned.append(m if take >= m.size else rng.choice(m, take, replace=False))
+        for _ in range(n_boot):
+            pick = rng.integers(0, k, k)
+            idx = np.concatenate([thinned[g] for g in pick])
+            a, b = _estimate(method, w[idx], d[idx], rng, start)
+            reps.append((a, b))
+        scale = 1.0
+        desc = (f"cluster bootstrap over {k} scars ({n_boot} replicates"
+                + (f", pixels thinned to {keep_share:.3g} of each scar" if keep_share < 1 else "") + ")")
+    else:
+        m = min(n, boot_size)
+        pairs = np.triu_indices(m, 1) if method == "theil-sen" and m * (m - 1) // 2 <= _EXACT_PAIRS_MAX else None
+        for _ in range(n_boot):
+            idx = rng.integers(0, n, m)
+            if method == "theil-sen":
+                a, b = _theil_sen(w[idx], d[idx], rng, pairs=pairs)
+            else:
+                a, b = _huber(w[idx], d[idx], start=start)
+            reps.append((a, b))
+        scale = math.sqrt(m / n)
+        desc = (f"pixel bootstrap ({n_boot} replicates"
+                + (f" of {m} of {n} pixels, SE scaled by sqrt(m/n)" if m < n else "")
+                + "; assumes independent pixels, overconfident for spatially autocorrelated scars)")
+    reps = np.asarray(reps, dtype="float64")
+    reps = reps[np.all(np.isfinite(reps), axis=1)]
+    return reps, scale, desc, k
+
+
+def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_samples: int = 200_000,
+                    seed: int = 0, n_boot: int = 200, cluster=None, boot_size: int | None = None) -> DepthModel:
+    """Fit ``d = a + b w`` robustly on pixels (or plots) where both burn depth and water table exist.
+
+    Parameters
+    ----------
+    water_table_m : array_like
+        Water-table depth at fire time [m, positive down].
+    depth_m : array_like
+        Measured burn depth (survey difference or field plot) [m], same size. Non-finite pairs
+        are dropped. Do not pre-clip the depths at zero: that biases the fit (see
+        :mod:`peatburn.science.survey`).
+    method : {"theil-sen", "huber"}
+        Robust estimator (module docstring).
+    max_samples : int
+        Pairs used at most; above it a seeded random sample is drawn.
+    seed : int
+        Seed of the sample and the bootstrap; the same inputs and seed give the same result.
+    n_boot : int
+        Bootstrap replicates for the standard errors (0: no SEs).
+    cluster : array_like, optional
+        Scar (or plot cluster) label per pair, same size: the bootstrap then resamples whole
+        scars, which respects the spatial correlation of pixels within a scar.
+    boot_size : int, optional
+        Points per bootstrap replicate at most (default 600 for Theil-Sen, 5000 for Huber).
+
+    Returns
+    -------
+    DepthModel
+        ``confidence="fitted"``; cautions in ``notes``.
+
+    Raises
+    ------
+    GridError
+        Fewer than :data:`MIN_FIT_SAMPLES` valid pairs, or no spread in the water table.
+    PhysicalRangeError
+        Unknown ``method``.
+
+    References
+    ----------
+    Theil (1950); Sen (1968); Huber (1964); Holland & Welsch (1977); Efron & Tibshirani (1993);
+    Field & Welsh (2007); Bickel et al. (1997). See the module docstring.
+    """
+    if method not in METHODS:
+        raise PhysicalRangeError(f"water-table depth fit: unknown method {method!r}; choose one of {', '.join(METHODS)}")
+    w, d, c = _as_pairs(water_table_m, depth_m, cluster)
+    n_valid = w.size
+    if n_valid < MIN_FIT_SAMPLES:
+        raise GridError(
+            f"water-table depth fit: only {n_valid} pixel(s) or plot(s) have both a burn depth and a "
+            f"water table (at least {MIN_FIT_SAMPLES} needed); give user coefficients or rely on the defaults"
+        )
+    rng = np.random.default_rng(seed)
+    notes: list[str] = []
+    if n_valid > max_samples:
+        idx = np.sort(rng.choice(n_valid, int(max_samples), replace=False))
+        w, d = w[idx], d[idx]
+        c = None if c is None else c[idx]
+        notes.append(f"fitted on a random sample of {int(max_samples)} of {n_valid} pairs (seed {seed})")
+    lo, hi = float(w.min()), float(w.max())
+    if not hi > lo:
+        raise GridError(
+            f"water-table depth fit: every pair has the same water table ({lo:g} m); the slope cannot be "
+            f"fitted. Give user coefficients or rely on the defaults"
+        )
+    start = _theil_sen(w, d, rng) if method == "huber" else None
+    a, b = _estimate(method, w, d, rng, start)
+    resid = d - (a + b * w)
+    ss_tot = float(np.sum((d - d.mean()) ** 2))
+    r2 = 1.0 - float(np.sum(resid**2)) / ss_tot if ss_tot > 0 else math.nan
+    rmse = float(np.sqrt(np.mean(resid**2)))
+    nmad = NMAD_CONSTANT * float(np.median(np.abs(resid - np.median(resid))))
+
+    se_a = se_b = cov = math.nan
+    se_method = "none (n_boot = 0)"
+    k = 0
+    if n_boot > 0:
+        size = int(boot_size or _DEFAULT_BOOT_SIZE[method])
+        reps, scale, se_method, k = _bootstrap(method, w, d, c, rng, n_boot=int(n_boot), boot_size=size,
+                                               start=(a, b) if method == "huber" else None)
+        if reps.shape[0] >= 2:
+            cm = np.cov(reps.T, ddof=1) * scale**2
+            se_a, se_b, cov = float(np.sqrt(cm[0, 0])), float(np.sqrt(cm[1, 1])), float(cm[0, 1])
+    if c is not None and 0 < k < MIN_CLUSTERS:
+        notes.append(f"only {k} scar(s): the cluster bootstrap standard errors are unreliable")
+    if c is None and n_boot > 0:
+        notes.append("standard errors assume independent pixels; give scar labels for a cluster bootstrap")
+    if n_valid < FEW_SAMPLES:
+        notes.append(f"few samples ({n_valid}): coefficients are uncertain")
+    if hi - lo < NARROW_RANGE_M:
+        notes.append(f"water table spans only {hi - lo:.2f} m ({lo:g} to {hi:g} m): slope poorly constrained")
+    if b < 0:
+        notes.append("fitted slope is negative: burn depth shrinks as the water table falls, against the "
+                     "published relation (Hayasaka et al. 2016); check the sign convention of the water table")
+    notes.append(f"fitted for water tables from {lo:.3g} to {hi:.3g} m; outside that range the model extrapolates")
+    return DepthModel(
+        intercept=a, slope=b, intercept_se=se_a, slope_se=se_b, covariance=cov, n=int(w.size), r2=r2,
+        rmse=rmse, method=method, confidence="fitted", se_method=se_method, water_table_range=(lo, hi),
+        n_clusters=int(k), residual_nmad=nmad, notes=tuple(notes),
+        basis=f"{method} fit on {w.size} pairs of burn depth and water-table depth",
+    )
+
+
+def fit_depth_models_by_group(water_table_m, depth_m, group, *, min_n: int = 200,
+                              min_range_m: float = NARROW_RANGE_M, cluster=None, **fit_kwargs) -> dict:
+    """Separate coefficient sets per group (e.g. first fire vs repeat fire) where the data allow.
+
+    A group gets its own fit when it has at least ``min_n`` valid pairs spanning at least
+    ``min_range_m`` of water table; otherwise it takes the pooled fit of all groups, with
+    ``method="pooled"`` and a note. Repeat fires burn peat already thinned, dried and exposed by
+    earlier fires, so their relation may differ (a reason to fit them apart, not a published
+    coefficient).
+
+    Parameters
+    ----------
+    water_table_m, depth_m : array_like
+        As in :func:`fit_depth_model` [m].
+    group : array_like
+        Group label per pair (fire count, or a first/repeat flag); NaN or None labels are dropped.
+    min_n : int
+        Fewest pairs for a group of its own.
+    min_range_m : float
+        Narrowest water-table range [m] for a group of its own.
+    cluster : array_like, optional
+        Scar labels per pair (see :func:`fit_depth_model`).
+    **fit_kwargs
+        Passed to :func:`fit_depth_model` (method, seed, n_boot...).
+
+    Returns
+    -------
+    dict
+        ``{"pooled": DepthModel, label: DepthModel, ...}``.
+    """
+    w = np.asarray(water_table_m, dtype="float64").ravel()
+    d = np.asarray(depth_m, dtype="float64").ravel()
+    g = np.asarray(group, dtype=object).ravel()
+    if g.size != w.size:
+        raise GridError(f"water-table depth fit: {g.size} group labels for {w.size} pixels; give one per pixel")
+    c = None if cluster is None else np.asarray(cluster).ravel()
+    has_label = np.array([x is not None and not (isinstance(x, float) and math.isnan(x)) for x in g], dtype=bool)
+    ok = np.isfinite(w) & np.isfinite(d) & has_label
+    pooled = fit_depth_model(w[ok], d[ok], cluster=None if c is None else c[ok], **fit_kwargs)
+    out = {"pooled": pooled}
+    for label in sorted(set(g[ok].tolist()), key=str):
+        sel = ok & (g == label)
+        n = int(sel.sum())
+        span = float(w[sel].max() - w[sel].min()) if n else 0.0
+        if n >= min_n and span >= min_range_m:
+            out[label] = fit_depth_model(w[sel], d[sel], cluster=None if c is None else c[sel], **fit_kwargs)
+        else:
+            why = f"{n} pairs" if n < min_n else f"a water-table range of {span:.2f} m"
+            out[label] = replace(
+                pooled, method="pooled",
+                notes=pooled.notes + (f"group {label!r} has {why}: it uses the pooled fit",),
+                basis=pooled.basis + f" (pooled; group {label!r} too small for its own fit)",
+            )
+    return out
+
+
+# ----------------------------------------------------------------------------- interpolation
+
+
+def _station_arrays(x_obs, y_obs, v_obs):
+    x = np.asarray(x_obs, dtype="float64").ravel()
+    y = np.asarray(y_obs, dtype="float64").ravel()
+    v = np.asarray(v_obs, dtype="float64").ravel()
+    if not (x.size == y.size == v.size):
+        raise GridError(f"interpolation: {x.size} x, {y.size} y and {v.size} values; give one of each per station")
+    ok = np.isfinite(x) & np.isfinite(y) & np.isfinite(v)
+    return x[ok], y[ok], v[ok]
+
+
+def idw(x_obs, y_obs, v_obs, x, y, *, power: float = 2.0, k: int = 12, max_distance=None) -> np.ndarray:
+    """Inverse distance weighting of station values onto points (Shepard 1968).
+
+    ``v(p) = sum_i w_i v_i / sum_i w_i``, ``w_i = 1 / d(p, s_i)^power`` over the ``k`` stations
+    nearest to ``p`` (found with :class:`scipy.spatial.cKDTree`), within ``max_distance``.
+
+    Parameters
+    ----------
+    x_obs, y_obs : array_like
+        Station positions [m, projected run CRS].
+    v_obs : array_like
+        Station values (e.g. water-table depth [m]). Stations with a NaN position or value are
+        ignored. Several readings at one position are averaged.
+    x, y : array_like
+        Target positions [m], same shape as each other (e.g. pixel centres of a block).
+    power : float
+        Distance exponent (2 is the usual choice: common practice).
+    k : int
+        Nearest stations used per point (at most the number of stations).
+    max_distance : float, optional
+        Stations farther than this [m] are not used; a point with none within it is NaN.
+
+    Returns
+    -------
+    numpy.ndarray
+        Interpolated values, shape of ``x``; at a station's position exactly its value.
+
+    Notes
+    -----
+    Limits, to state wherever the result is used:
+
+    * **No uncertainty.** IDW gives no error estimate; use :func:`idw_cross_validation` for a
+      leave-one-out error, and treat the interpolated water table as uncertain by at least that.
+    * **Bull's-eyes.** Each station pulls the surface towards its own value in a peak or pit
+      around it; between stations the surface flattens towards a weighted mean.
+    * **No extrapolation.** Values always lie between the smallest and largest station values
+      (a convex combination), so a water table deeper than any station's cannot appear, and far
+      from stations the surface tends to the mean of the nearest ``k``.
+    * **Blind to hydrology.** Distance is straight-line: canals, domes and peat boundaries that
+      control the water table are ignored; ordinary kriging has the same blindness but adds a
+      variance. With few stations over a large area, prefer a modelled water-table raster.
+    * **Time.** Readings must be from near the fire date (see :func:`readings_near_date`).
+
+    References
+    ----------
+    Shepard, D. (1968). A two-dimensional interpolation function for irregularly-spaced data.
+    Proc. 23rd ACM National Conference, 517-524 (recalled, unchecked).
+    """
+    xs, ys, vs = _station_arrays(x_obs, y_obs, v_obs)
+    tx = np.asarray(x, dtype="float64")
+    ty = np.asarray(y, dtype="float64")
+    if tx.shape != ty.shape:
+        raise GridError(f"interpolation: target x has shape {tx.shape} but y has {ty.shape}")
+    out = np.full(tx.shape, np.nan)
+    if xs.size == 0:
+        return out
+    # several readings at one position: average them (an exact duplicate would otherwise give 0/0)
+    pos, inverse = np.unique(np.column_stack([xs, ys]), axis=0, return_inverse=True)
+    inverse = inverse.ravel()
+    vs = np.bincount(inverse, weights=vs) / np.bincount(inverse)
+    tree = cKDTree(pos)
+    kk = int(min(max(int(k), 1), pos.shape[0]))
+    flat_x, flat_y = tx.ravel(), ty.ravel()
+    finite = np.isfinite(flat_x) & np.isfinite(flat_y)
+    q = np.column_stack([flat_x[finite], flat_y[finite]])
+    if q.shape[0] == 0:
+        return out
+    bound = np.inf if max_distance is None else float(max_distance)
+    dist, idx = tree.query(q, k=kk, distance_upper_bound=bound)
+    dist = dist.reshape(q.shape[0], kk)
+    idx = idx.reshape(q.shape[0], kk)
+    valid = np.isfinite(dist)  # missing neighbours come back as inf distance and index n
+    safe_idx = np.where(valid, idx, 0)
+    vals = vs[safe_idx]
+    exact = valid & (dist == 0)
+    with np.errstate(divide="ignore"):
+        wts = np.where(valid & ~exact, 1.0 / np.where(valid & ~exact, dist, 1.0) ** power, 0.0)
+    sw = wts.sum(axis=1)
+    res = np.full(q.shape[0], np.nan)
+    has = sw > 0
+    res[has] = (wts[has] * vals[has]).sum(axis=1) / sw[has]
+    on_station = exact.any(axis=1)
+    res[on_station] = vals[on_station, np.argmax(exact[on_station], axis=1)]
+    flat_out = out.ravel()
+    flat_out[np.flatnonzero(finite)] = res
+    return flat_out.reshape(tx.shape)
+
+
+def idw_cross_validation(x_obs, y_obs, v_obs, *, power: float = 2.0, k: int = 12, max_distance=None) -> dict:
+    """Leave-one-out error of :func:`idw` at the stations: each station predicted from the others.
+
+    Parameters
+    ----------
+    x_obs, y_obs, v_obs, power, k, max_distance
+        As in :func:`idw`.
+
+    Returns
+    -------
+    dict
+        ``n`` (stations predicted), ``bias`` (mean predicted - observed), ``rmse``, ``mae``
+        [units of the values], and ``predicted`` (array, NaN where a station has no neighbour).
+    """
+    xs, ys, vs = _station_arrays(x_obs, y_obs, v_obs)
+    pred = np.full(xs.size, np.nan)
+    for i in range(xs.size):
+        others = np.arange(xs.size) != i
+        # readings at the same position are left out too: they would make the prediction exact
+        others &= ~((xs == xs[i]) & (ys == ys[i]))
+        if others.any():
+            pred[i] = idw(xs[others], ys[others], vs[others], xs[i], ys[i], power=power, k=k,
+                          max_distance=max_distance)
+    stats = validate_against_plots(pred, vs)
+    stats["predicted"] = pred
+    return stats
+
+
+def readings_near_date(station, day, target_day, *, max_days: float) -> np.ndarray:
+    """Pick, for each station, the reading nearest in time to the fire, within ``max_days``.
+
+    Parameters
+    ----------
+    station : array_like
+        Station key per reading (an id, or a position turned into a hashable label).
+    day : array_like of float
+        Reading time [days on any common scale, e.g. days since 1970-01-01]; NaN means undated.
+    target_day : float
+        Fire time on the same scale [days].
+    max_days : float
+        Largest allowed |day - target_day| [days].
+
+    Returns
+    -------
+    numpy.ndarray of bool
+        True for the chosen reading of each station (at most one per station; the earlier reading
+        wins a tie). Stations with no reading within ``max_days`` have none chosen.
+    """
+    s = np.asarray(station, dtype=object).ravel()
+    t = np.asarray(day, dtype="float64").ravel()
+    if s.size != t.size:
+        raise GridError(f"water-table readings: {s.size} station keys but {t.size} dates")
+    gap = np.abs(t - float(target_day))
+    ok = np.isfinite(gap) & (gap <= float(max_days))
+    chosen = np.zeros(s.size, dtype=bool)
+    best: dict = {}
+    for i in np.flatnonzero(ok):
+        key = s[i]
+        j = best.get(key)
+        if j is None or gap[i] < gap[j] or (gap[i] == gap[j] and t[i] < t[j]):
+            best[key] = i
+    chosen[list(best.values())] = True
+    return chosen
+
+
+# ----------------------------------------------------------------------------- validation
+
+
+def validate_against_plots(predicted, observed) -> dict:
+    """Agreement of predicted burn depths with field-plot measurements.
+
+    Parameters
+    ----------
+    predicted, observed : array_like
+        Burn depth predicted by a method at the plots, and measured there [m]. Pairs with a NaN
+        are left out.
+
+    Returns
+    -------
+    dict
+        ``n``; ``bias`` = mean(predicted - observed) [m] (positive: the method overestimates);
+        ``rmse`` = sqrt(mean((predicted - observed)²)) [m]; ``mae`` = mean |predicted - observed|
+        [m]; ``mean_observed``, ``mean_predicted`` [m]. NaN statistics when ``n`` is 0.
+
+    References
+    ----------
+    Standard definitions (e.g. Willmott 1982, Bull. Am. Meteorol. Soc. 63:1309; recalled, unchecked).
+    """
+    p = np.asarray(predicted, dtype="float64").ravel()
+    o = np.asarray(observed, dtype="float64").ravel()
+    if p.size != o.size:
+        raise GridError(f"plot validation: {p.size} predictions for {o.size} plots")
+    ok = np.isfinite(p) & np.isfinite(o)
+    n = int(ok.sum())
+    if n == 0:
+        return {"n": 0, "bias": math.nan, "rmse": math.nan, "mae": math.nan,
+                "mean_observed": math.nan, "mean_predicted": math.nan}
+    e = p[ok] - o[ok]
+    return {
+        "n": n,
+        "bias": float(e.mean()),
+        "rmse": float(np.sqrt(np.mean(e**2))),
+        "mae": float(np.mean(np.abs(e))),
+        "mean_observed": float(o[ok].mean()),
+        "mean_predicted": float(p[ok].mean()),
+    }
