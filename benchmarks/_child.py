@@ -85,7 +85,7 @@ def _env_for(gdal_env):
     return _env(int(gdal_env) * 2**20)
 
 
-def task_run(config, out, workers=1, gdal_env=False, scheduler=None):
+def task_run(config, out, workers=1, gdal_env=False, scheduler=None, block_cache_mib=None):
     import peatburn
     import peatburn.io.writers as writers
     import peatburn.outputs.provenance as provenance
@@ -99,6 +99,18 @@ def task_run(config, out, workers=1, gdal_env=False, scheduler=None):
     _timed(writers.BlockRasterWriter, "close", "COG conversion")
     _timed(provenance, "build", "provenance (hashes)")
     _timed(report, "write_report", "report")
+    if block_cache_mib:
+        # a smaller GDAL cache from the end of the co-registration on (a variant the runner may adopt)
+        from rasterio.env import set_gdal_config
+
+        coreg = runner.coregister
+
+        def coregister_then_shrink(*a, **k):
+            out = coreg(*a, **k)
+            set_gdal_config("GDAL_CACHEMAX", int(block_cache_mib) * 2**20)
+            return out
+
+        runner.coregister = coregister_then_shrink
     cfg = peatburn.load_config(config)
     t = time.perf_counter()
     with _env_for(gdal_env):

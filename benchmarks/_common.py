@@ -232,3 +232,36 @@ def print_machine():
 def verdict(value: float, target: float, lower_is_better: bool = True) -> str:
     ok = value <= target if lower_is_better else value >= target
     return "meets" if ok else "MISSES"
+
+
+def warm(config: Path) -> None:
+    """Read the scene's files once so every measured run finds them in the OS page cache."""
+    for p in Path(config).parent.iterdir():
+        if p.is_file():
+            with open(p, "rb") as fh:
+                while fh.read(1 << 24):
+                    pass
+
+
+def truth_carbon_t(name: str) -> float:
+    """True carbon burned in the scene [t C]: sum of the true depth [m] x 1 m2 x 0.1 t/m3 x 0.55."""
+    n = SIZES[name]
+    x = X0 + (np.arange(n) + 0.5)[None, :] * PIXEL
+    total = 0.0
+    for r in range(0, n, 1024):
+        y = Y0 - (r + np.arange(min(1024, n - r)) + 0.5)[:, None] * PIXEL
+        total += float(scar_depth(x, y).sum())
+    return total * PIXEL**2 * 0.1 * 0.55
+
+
+def print_phases(label: str, res: dict) -> None:
+    ph = res.get("phases", {})
+    hwm = res.get("hwm_mib", {})
+    print(f"  {label}: {res['wall_s']:.1f} s, peak {res['peak_mib']:.0f} MiB")
+    for k, v in ph.items():
+        mem = f"   (peak so far {hwm[k]:.0f} MiB)" if k in hwm else ""
+        print(f"      {k:<40s} {v:6.1f} s{mem}")
+
+
+def out_dir(label: str) -> str:
+    return str(CACHE / "out" / label)

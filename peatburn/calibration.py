@@ -36,7 +36,7 @@ def calibrate(cfg) -> Calibration:
     notes = list(inputs.notes)
     alignment = coregister(inputs) if inputs.has_survey else None
     plan = build_plan(inputs, alignment)
-    wt, d, _ = depth_samples(inputs, plan) if inputs.has_survey else (np.array([]), np.array([]), None)
+    wt, d, _, _ = depth_samples(inputs, plan) if inputs.has_survey else (np.array([]), np.array([]), None, None)
     source = "surveyed scars"
     if wt.size < 30:
         wt, d = plot_samples(inputs, plan)

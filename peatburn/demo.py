@@ -269,6 +269,7 @@ year = 2031
 
 [burned_area]
 path = "scars.gpkg"
+fire_count_field = "fire_count"     # 1 first fire, 2 repeat fire: separate depth models when data allow
 
 [depth.survey]
 pre = "survey_pre.tif"
@@ -276,10 +277,17 @@ post = "survey_post.tif"
 interval_years = {INTERVAL_YEARS}
 subsidence_rate = "subsidence_rate.tif"
 
-# Inputs for later work, written by the generator but not used by this configuration yet:
-#   [depth.water_table]  depth = "water_table.tif"   (burn depth where no post-fire survey exists)
-#   [flaming]            detections = "detections.csv", crs = "EPSG:{CRS_EPSG}"
-#   field plots          field_plots.csv (measured burn depth, for calibration and checks)
+[depth.water_table]                 # burn depth where the post-fire survey does not reach
+depth = "water_table.tif"           # m below the surface at fire time
+model = "fit"                       # fitted on the surveyed scars
+
+[depth.plots]                       # field plots: validate every depth method
+path = "field_plots.csv"
+crs = "EPSG:{CRS_EPSG}"
+
+[flaming]                           # above-ground, reported apart from the smouldering peat
+detections = "detections.csv"
+crs = "EPSG:{CRS_EPSG}"
 
 [peat]
 thickness = "peat_thickness.tif"

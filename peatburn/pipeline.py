@@ -99,7 +99,11 @@ def open_inputs(cfg: RunConfig) -> Inputs:
         from .io.points import read_points
 
         stations = read_points(wt.stations, grid.crs, value_column=wt.value_column, crs=wt.crs,
-                               date_column=wt.date_column, bounds=None, what="depth.water_table.depth")
+                               date_column=wt.date_column, bounds=grid.bounds, drop_outside=False,
+                               what="depth.water_table.depth")
+        if stations.n_outside:
+            notes.append(f"water-table stations: {stations.n_outside} station(s) outside the run grid "
+                         f"(kept for interpolation near the edge)")
         _note_rejected(notes, "water-table stations", stations)
         from .science.water_table import check_water_table
 
@@ -625,10 +629,11 @@ def depth_samples(inputs: Inputs, plan: RunPlan, max_samples: int = 200_000, see
     """Pairs of (water-table depth, survey burn depth, fire count) on surveyed burned pixels, from
     evenly spread sample windows [m, m, -]."""
     st = _state(plan)
-    wts, ds, fcs = [], [], []
+    wts, ds, fcs, cls = [], [], [], []
     grid = plan.grid
     for w in sample_windows(grid, plan.block_size):
-        burned = st["scars"].mask(grid, w)
+        scar_id = st["scars"].rasterize(grid, w)  # 1-based scar index, 0 outside (last polygon wins)
+        burned = scar_id > 0
         if not burned.any():
             continue
         _, d = survey_depth(st, plan, w)
@@ -639,17 +644,18 @@ def depth_samples(inputs: Inputs, plan: RunPlan, max_samples: int = 200_000, see
             continue
         wts.append(wt[ok])
         ds.append(d[ok])
+        cls.append(scar_id[ok])
         if st["fire_count"] is not None:
             fcs.append(st["fire_count"].rasterize(grid, w, dtype="float64")[ok])
     if not wts:
-        return np.array([]), np.array([]), None
-    wt, d = np.concatenate(wts), np.concatenate(ds)
+        return np.array([]), np.array([]), None, None
+    wt, d, cl = np.concatenate(wts), np.concatenate(ds), np.concatenate(cls)
     fc = np.concatenate(fcs) if fcs else None
     if wt.size > max_samples:
         keep = np.random.default_rng(seed).choice(wt.size, max_samples, replace=False)
-        wt, d = wt[keep], d[keep]
+        wt, d, cl = wt[keep], d[keep], cl[keep]
         fc = fc[keep] if fc is not None else None
-    return wt, d, fc
+    return wt, d, fc, cl
 
 
 MIN_FIT_SAMPLES = 30
@@ -708,24 +714,29 @@ def fit_models(inputs: Inputs, plan: RunPlan, notes: list) -> DepthModels:
     if cfg.model == "default":
         notes.append("water table: default depth-model coefficients used (low confidence)")
         return DepthModels(wtm.DEFAULT_MODEL)
-    wt, d, fc = depth_samples(inputs, plan) if plan.pre is not None else (np.array([]), np.array([]), None)
+    wt, d, fc, cl = depth_samples(inputs, plan) if plan.pre is not None else (np.array([]), np.array([]), None, None)
     source = "surveyed scars"
     if wt.size < MIN_FIT_SAMPLES:
         wt, d = plot_samples(inputs, plan)
         ok = np.isfinite(wt) & np.isfinite(d)
-        wt, d, fc = wt[ok], d[ok], None
+        wt, d, fc, cl = wt[ok], d[ok], None, None
         source = "field plots"
     if wt.size < MIN_FIT_SAMPLES:
         notes.append(f"water table: too few calibration pairs ({wt.size} < {MIN_FIT_SAMPLES}) on surveyed scars or "
                      f"field plots; default coefficients used (low confidence)")
         return DepthModels(wtm.DEFAULT_MODEL)
-    models = DepthModels(wtm.fit_depth_model(wt, d, method=cfg.fit_method))
+    # standard errors by a bootstrap over whole scars (pixels of one scar are not independent)
+    clusters = cl if cl is not None and len(np.unique(cl)) >= 3 else None
+    models = DepthModels(wtm.fit_depth_model(wt, d, method=cfg.fit_method, cluster=clusters))
     notes.append(f"water table: depth model fitted on {wt.size} pairs from {source}")
     if fc is not None:
         first, rep = fc < 2, fc >= 2
         if first.sum() >= MIN_FIT_SAMPLES and rep.sum() >= MIN_FIT_SAMPLES:
-            models.first = wtm.fit_depth_model(wt[first], d[first], method=cfg.fit_method)
-            models.repeat = wtm.fit_depth_model(wt[rep], d[rep], method=cfg.fit_method)
+            def cl_of(sel):
+                return cl[sel] if clusters is not None and len(np.unique(cl[sel])) >= 3 else None
+
+            models.first = wtm.fit_depth_model(wt[first], d[first], method=cfg.fit_method, cluster=cl_of(first))
+            models.repeat = wtm.fit_depth_model(wt[rep], d[rep], method=cfg.fit_method, cluster=cl_of(rep))
             notes.append(f"water table: separate models for first ({int(first.sum())} pairs) and repeat fires "
                          f"({int(rep.sum())} pairs)")
         else:

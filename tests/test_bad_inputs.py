@@ -114,3 +114,22 @@ def test_geographic_surveys_run_in_utm_with_correct_areas(tmp_path):
     ring_ha = scars.length.sum() * 2.0 / 2 / 1e4
     assert abs(r.total["burned_area_ha"] - ref_ha) <= ring_ha
     assert r.total["carbon_smouldering_t"] == pytest.approx(s.truth["carbon_t"], rel=0.06)
+
+
+def test_water_table_with_wrong_sign_is_refused(tmp_path):
+    """Water-table depths given as elevations of the water (negative below the surface) instead of
+    depths below the surface: a one-line error that names the input."""
+    s = make_scene(tmp_path / "s", zones=False)
+    with rasterio.open(s.folder / "thickness.tif") as ds:
+        prof = ds.profile
+    import csv
+
+    with open(s.folder / "stations.csv", "w", newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(["x", "y", "water_table_m"])
+        for i in range(6):
+            w.writerow([500_100 + 50 * i, 9_799_800 - 40 * i, -0.4 - 0.05 * i])
+    s.config.write_text(s.config.read_text() + '\n[depth.water_table]\ndepth = "stations.csv"\ncrs = "EPSG:32749"\n')
+    res = _run_cli("run", s.config, "--out", tmp_path / "o")
+    assert res.exit_code == 2
+    assert "depth.water_table.depth" in res.output and "Traceback" not in res.output

@@ -103,9 +103,10 @@ def test_config_follows_the_contract_and_points_at_files(demo):
     assert cfg["depth"]["survey"]["interval_years"] == 3.0
     assert cfg["peat"]["bulk_density"] == {"raster": "bulk_density.tif", "units": "g/cm^3"}
     assert [z["id"] for z in cfg["zones"]] == ["name", "district"]
-    assert "water_table" not in cfg["depth"] and "flaming" not in cfg
+    assert cfg["burned_area"]["fire_count_field"] == "fire_count"
     paths = [cfg["burned_area"]["path"], cfg["depth"]["survey"]["pre"], cfg["depth"]["survey"]["post"],
              cfg["depth"]["survey"]["subsidence_rate"], cfg["peat"]["thickness"], cfg["peat"]["bulk_density"]["raster"],
+             cfg["depth"]["water_table"]["depth"], cfg["depth"]["plots"]["path"], cfg["flaming"]["detections"],
              *[z["path"] for z in cfg["zones"]]]
     for p in paths:  # relative to the config file
         assert not Path(p).is_absolute() and (demo.config_path.parent / p).is_file(), p

@@ -217,7 +217,8 @@ def read_points(path, run_crs, *, value_column: str, crs=None, x: str = "x", y: 
     """
     path = os.fspath(path)
     if not os.path.exists(path):
-        raise MissingInputError(f"{what}: file not found: {path}; check the path (paths are relative to the config file)")
+        raise MissingInputError(f"{what}: file not found: {path}; "
+                                f"check the path (paths are relative to the config file)")
     dst = normalise_crs(run_crs, "run grid")
     frame, file_crs = _read_table(path, what)
     is_vector = isinstance(frame, gpd.GeoDataFrame)

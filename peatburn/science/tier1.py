@@ -85,7 +85,8 @@ def _array(value, name: str, unit: str) -> np.ndarray:
     except (TypeError, ValueError):
         raise PhysicalRangeError(f"{name}: expected a number or an array of numbers [{unit}], got {value!r}") from None
     if np.any(arr < 0):
-        raise PhysicalRangeError(f"{name} must not be negative [{unit}]; the smallest value given is {np.nanmin(arr):g}")
+        raise PhysicalRangeError(f"{name} must not be negative [{unit}]; "
+                                 f"the smallest value given is {np.nanmin(arr):g}")
     return arr
 
 

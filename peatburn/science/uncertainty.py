@@ -42,9 +42,10 @@ Wooster, M. J., Roberts, G., Perry, G. L. W. & Kaufman, Y. J. (2005). J. Geophys
 (combustion coefficient 0.368 +/- 0.015 kg/MJ; recalled, unchecked).
 Hu, Y., Fernandez-Anez, N., Smith, T. E. L. & Rein, G. (2018). Review of emissions from smouldering
 peat fires and their contribution to regional haze episodes. Int. J. Wildland Fire 27:293-312
-(mean fuel carbon 56.0 % for tropical peat; abstract checked; author list recalled).
+(mean fuel carbon 56.0 % for tropical peat: abstract checked; title and authors recalled, unchecked).
 Hooijer, A. et al. (2012). Subsidence and carbon loss in drained tropical peatlands.
-Biogeosciences 9:1053-1071 (3-5 cm/yr; checked through a secondary summary, see docs/sources.md).
+Biogeosciences 9:1053-1071 (title and pages recalled, unchecked; 3-5 cm/yr checked through a
+secondary summary, see docs/sources.md).
 IPCC (2006). 2006 IPCC Guidelines for National Greenhouse Gas Inventories, Vol. 4, Ch. 2,
 Table 2.6 (combustion factors with standard deviations; recalled, unchecked).
 JCGM 101:2008. Evaluation of measurement data - Supplement 1 to the "Guide to the expression of
@@ -308,11 +309,24 @@ def residual_bias_sd(sigma, range_m, stable_area_m2, *, nugget_fraction=0.0, pix
                      estimator="median"):
     """Standard deviation of the vertical bias left after co-registration [m].
 
-    Co-registration subtracts the mean (or median) of the stable-ground differences; what is left
-    is the error of that estimate, which is the area-mean of the correlated error over the stable
-    ground: :func:`correlated_sum_sd` over the stable area, times sqrt(pi/2) = 1.2533 when a median
-    is used (:data:`MEDIAN_EFFICIENCY_FACTOR`; exact for independent normal errors, an
-    approximation for correlated ones).
+    Co-registration subtracts the mean or the median of the stable-ground differences; what is
+    left is the error of that statistic over the stable ground.
+
+    * ``"mean"``: :func:`correlated_sum_sd` over the stable area (Rolstad et al. 2009).
+    * ``"median"``: by the Bahadur representation of the sample median (median - m ~
+      (1/2 - F_n(m)) / f(m), also for weakly dependent data; Sen 1972, recalled) and Sheppard's
+      formula for the bivariate normal orthant, P(X <= 0, Y <= 0) = 1/4 + arcsin(rho) / (2 pi)
+      (Sheppard 1899, recalled), the variance of the median of normal errors with correlations
+      rho_ij is ``sigma^2 / n^2 * sum_ij arcsin(rho_ij)`` where the mean has ``sum_ij rho_ij``.
+      The spherical part is averaged like Rolstad et al. (2009) do for the mean, from the centre
+      of a disc of the stable area, radius L = sqrt(A / pi):
+
+          var / sigma^2 = (2 / L^2) * integral_0^min(L, a) arcsin((1 - nu) rho_s(r)) r dr + nu (pi/2) / n
+
+      with rho_s(r) = 1 - 3r/(2a) + r^3/(2a^3), nugget fraction nu and n = A / pixel area. With
+      independent errors (nu = 1) this is the textbook pi sigma^2 / (2 n) (:data:`MEDIAN_EFFICIENCY_FACTOR`);
+      for correlated errors over a large area it is only 1.0556 times the variance of the mean
+      (integral of arcsin(rho_s) r over that of rho_s r), since most pairs are weakly correlated.
 
     Parameters
     ----------
@@ -321,7 +335,7 @@ def residual_bias_sd(sigma, range_m, stable_area_m2, *, nugget_fraction=0.0, pix
     stable_area_m2 : float
         Area of stable ground used for the vertical shift [m2].
     nugget_fraction, pixel_area_m2 : float
-        As :func:`correlated_sum_sd`.
+        As :func:`correlated_sum_sd` (the pixel area is needed with a nugget).
     estimator : {"median", "mean"}
         The statistic co-registration used for the vertical shift.
 
@@ -332,12 +346,38 @@ def residual_bias_sd(sigma, range_m, stable_area_m2, *, nugget_fraction=0.0, pix
 
     References
     ----------
-    Rolstad et al. (2009); Cramér (1946) §28.5 (variance of the sample median; recalled).
+    Rolstad et al. (2009), J. Glaciol. 55:666; Sheppard, W. F. (1899). On the application of the
+    theory of error to cases of normal distribution and normal correlation. Phil. Trans. R. Soc.
+    Lond. A 192:101-167 (recalled, unchecked); Sen, P. K. (1972). On the Bahadur representation
+    of sample quantiles for sequences of phi-mixing random variables. J. Multivar. Anal. 2:77-95
+    (recalled, unchecked).
     """
-    if estimator not in ("median", "mean"):
+    if estimator == "mean":
+        return float(correlated_sum_sd(sigma, range_m, stable_area_m2, nugget_fraction, pixel_area_m2=pixel_area_m2))
+    if estimator != "median":
         raise ConfigError(f"residual_bias_sd: estimator {estimator!r}; use 'median' or 'mean'")
-    s = correlated_sum_sd(sigma, range_m, stable_area_m2, nugget_fraction, pixel_area_m2=pixel_area_m2)
-    return float(s * (MEDIAN_EFFICIENCY_FACTOR if estimator == "median" else 1.0))
+    from scipy.integrate import quad
+
+    sig, a, area, nu = float(sigma), float(range_m), float(stable_area_m2), float(nugget_fraction)
+    if not (sig >= 0 and area >= 0 and 0.0 <= nu <= 1.0 and (a > 0 or nu == 1.0)):
+        raise PhysicalRangeError("residual_bias_sd: sigma, area >= 0, range > 0, nugget_fraction in [0, 1]")
+    big_l = math.sqrt(area / math.pi)
+    if big_l == 0:
+        return sig
+    var = 0.0
+    if nu < 1.0:
+        upper = min(big_l, a)
+
+        def integrand(r):
+            x = r / a
+            return math.asin((1.0 - nu) * (1.0 - 1.5 * x + 0.5 * x**3)) * r
+
+        var += 2.0 / big_l**2 * quad(integrand, 0.0, upper, epsabs=0.0, epsrel=1e-10)[0]
+    if nu > 0.0:
+        if pixel_area_m2 is None or not float(pixel_area_m2) > 0:
+            raise PhysicalRangeError("residual_bias_sd: pixel_area_m2 (> 0) is needed when nugget_fraction > 0")
+        var += nu * (math.pi / 2.0) / max(area / float(pixel_area_m2), 1.0)
+    return sig * math.sqrt(var)
 
 
 def _ef_table(factors) -> dict[str, tuple[float, float]]:
@@ -524,7 +564,8 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
         src.append(Source("fre_coefficient", "lognormal scale, mean 1",
                           {"mean_kg_per_mj": float(fre_coefficient), "sd_kg_per_mj": float(fre_coefficient_sd),
                            "cv": float(fre_coefficient_sd) / float(fre_coefficient)},
-                          "Wooster et al. 2005, J. Geophys. Res. 110, D24311 (0.368 +/- 0.015 kg/MJ; recalled, unchecked)",
+                          "Wooster et al. 2005, J. Geophys. Res. 110, D24311 "
+                          "(0.368 +/- 0.015 kg/MJ; recalled, unchecked)",
                           "Run-wide scale on flaming dry matter from FRE."))
         src.append(Source("biomass", "lognormal scale, mean 1", {"cv": float(biomass_cv)}, "assumption",
                           "Run-wide scale on flaming dry matter from area x biomass x combustion factor."))
@@ -790,7 +831,7 @@ def _check_fixed(fixed) -> set:
 
 
 def _stream(seed: int, *keys) -> np.random.Generator:
-    return np.random.default_rng([int(seed) & 0xFFFFFFFF, *keys])
+    return np.random.default_rng([int(seed), *keys])
 
 
 def _key_id(name: str) -> int:

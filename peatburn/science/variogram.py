@@ -271,7 +271,8 @@ def fit_spherical(lags, gamma, counts):
     sill0 = float(np.mean(tail))
     reach = np.nonzero(g >= 0.95 * sill0)[0]
     a0 = float(h[reach[0]]) if reach.size else hmax
-    nug0 = float(min(max(g[0] - (sill0 - 0.0) * 1.5 * h[0] / max(a0, h[0]), 0.0), 0.9 * sill0))
+    # nugget guess: what is left at the first lag after the spherical rise from 0 to that lag
+    nug0 = float(min(max(g[0] - sill0 * 1.5 * h[0] / max(a0, h[0]), 0.0), 0.9 * sill0))
     p0 = [nug0, max(sill0 - nug0, 1e-12 * gmax), min(max(a0, 1e-6 * hmax), 2.0 * hmax)]
     lower = [0.0, 0.0, 1e-6 * hmax]
     upper = [2.0 * gmax, 2.0 * gmax, 2.0 * hmax]

@@ -61,7 +61,8 @@ References
 ----------
 Usup, A., Hashimoto, Y., Takahashi, H. & Hayasaka, H. (2004). Combustion and thermal
 characteristics of peat fire in tropical peatland in Central Kalimantan, Indonesia. Tropics
-14(1):1-19.
+14(1) (title, authors and issue checked against the first page; pages and findings on the water
+table recalled, unchecked).
 Wösten, J. H. M., Clymans, E., Page, S. E., Rieley, J. O. & Limin, S. H. (2008). Peat-water
 interrelationships in a tropical peatland ecosystem in Southeast Asia. Catena 73:212-224
 (journal, volume and pages recalled, unchecked; the same authors' 2008 International Peat Congress
@@ -630,7 +631,8 @@ def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_sa
     Field & Welsh (2007); Bickel et al. (1997). See the module docstring.
     """
     if method not in METHODS:
-        raise PhysicalRangeError(f"water-table depth fit: unknown method {method!r}; choose one of {', '.join(METHODS)}")
+        raise PhysicalRangeError(f"water-table depth fit: unknown method {method!r}; "
+                                 f"choose one of {', '.join(METHODS)}")
     w, d, c = _as_pairs(water_table_m, depth_m, cluster)
     n_valid = w.size
     if n_valid < MIN_FIT_SAMPLES:

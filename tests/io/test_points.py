@@ -135,7 +135,8 @@ def test_grid_edges_count_as_inside(tmp_path):
 
 
 def test_dates_are_parsed_as_utc(tmp_path):
-    p = _write(tmp_path / "plots.csv", "x,y,d,when\n500000,9700000,0.3,2031-09-14\n500000,9700000,0.4,2031-09-14T12:00+07:00\n")
+    p = _write(tmp_path / "plots.csv",
+               "x,y,d,when\n500000,9700000,0.3,2031-09-14\n500000,9700000,0.4,2031-09-14T12:00+07:00\n")
     pts = read_points(p, RUN, value_column="d", crs=RUN, date_column="when")
     t = pts.frame["date"]
     assert t.iloc[0] == dt.datetime(2031, 9, 14, tzinfo=dt.timezone.utc)

@@ -1,0 +1,47 @@
+"""Benchmark 1: a survey-only run of a ~67 Mpx survey pair against its I/O floor.
+
+The floor is the least a run must do with the disk: read both surveys by blocks, write two
+float32 rasters block by block (NaN outside the scars, like a run's outputs) and copy them to
+COG with the run's own writer. Target: run / floor <= 1.5 (aim 1.2).
+
+    python benchmarks/bench_io.py [--scene 67mpx]
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+import _common as c  # noqa: E402
+
+
+def main(argv=None) -> dict:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--scene", default="67mpx", choices=sorted(c.SIZES))
+    a = ap.parse_args(argv)
+    print(f"[1] survey-only run vs I/O floor, {a.scene}")
+    cfg = c.scene(a.scene)
+    c.warm(cfg)
+    floor = c.child("floor", config=str(cfg), out=c.out_dir("floor"))
+    run = c.child("run", config=str(cfg), out=c.out_dir("run"))
+    run_env = c.child("run", config=str(cfg), out=c.out_dir("run"), gdal_env=True)
+    truth = c.truth_carbon_t(a.scene)
+    print(f"  I/O floor: {floor['wall_s']:.1f} s, peak {floor['peak_mib']:.0f} MiB")
+    c.print_phases("run (GDAL defaults)", run)
+    c.print_phases("run in executors.gdal_env() (256 MiB GDAL cache)", run_env)
+    ratio = run["wall_s"] / floor["wall_s"]
+    ratio_env = run_env["wall_s"] / floor["wall_s"]
+    print(f"  sanity: estimated carbon / true carbon = {run['carbon_t'] / truth:.4f}")
+    print(f"  RATIO run / floor = {ratio:.2f} (GDAL defaults), {ratio_env:.2f} (gdal_env); "
+          f"target <= 1.5: {c.verdict(ratio, 1.5)}; aim 1.2: {c.verdict(ratio, 1.2)}")
+    return {"scene": a.scene, "floor_s": floor["wall_s"], "run_s": run["wall_s"], "run_env_s": run_env["wall_s"],
+            "ratio": ratio, "ratio_env": ratio_env, "run_phases": run["phases"], "floor_peak_mib": floor["peak_mib"],
+            "carbon_over_truth": run["carbon_t"] / truth}
+
+
+if __name__ == "__main__":
+    c.print_machine()
+    main()

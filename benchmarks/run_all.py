@@ -1,0 +1,51 @@
+"""Run every benchmark of the scale work and print the ratios (``make bench``).
+
+    python benchmarks/run_all.py [--only io,memory,workers,zones]
+
+Synthetic scenes are made on first use in $PEATBURN_BENCH_DIR (default /tmp/peatburn-bench,
+about 0.5 GB for the 67 Mpx pair) and reused. Takes about 10 minutes on 2 cores. The results
+are also written to $PEATBURN_BENCH_DIR/results.json. Benchmark 5 (10,000 Monte Carlo draws
+against none) lives in bench_uncertainty.py, written with the uncertainty module, and runs here
+when that file exists.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import json
+import sys
+import time
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+import _common as c  # noqa: E402
+
+BENCHES = {"io": "bench_io", "memory": "bench_memory", "workers": "bench_workers", "zones": "bench_zones",
+           "uncertainty": "bench_uncertainty"}
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--only", default=",".join(BENCHES))
+    a = ap.parse_args(argv)
+    c.print_machine()
+    results = {"machine": c.machine()}
+    t0 = time.perf_counter()
+    for key in a.only.split(","):
+        name = BENCHES[key.strip()]
+        if not (Path(__file__).resolve().parent / f"{name}.py").exists():
+            print(f"[{key}] {name}.py not present: skipped")
+            continue
+        t = time.perf_counter()
+        mod = importlib.import_module(name)
+        results[key] = mod.main([])
+        print(f"  ({key}: {time.perf_counter() - t:.0f} s)\n", flush=True)
+    c.CACHE.mkdir(parents=True, exist_ok=True)
+    (c.CACHE / "results.json").write_text(json.dumps(results, indent=2, default=str))
+    print(f"all benchmarks: {time.perf_counter() - t0:.0f} s; results in {c.CACHE / 'results.json'}")
+
+
+if __name__ == "__main__":
+    main()
