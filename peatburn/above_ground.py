@@ -34,6 +34,7 @@ class FlamingSums:
     layers: list  # (name, {key: array})
     notes: list = field(default_factory=list)
     parameters: dict = field(default_factory=dict)
+    daily_dry_matter_kg: dict = field(default_factory=dict)  # ISO date -> kg (detection route only)
 
 
 KEYS = ("dry_matter_kg", "fre_mj", "n_detections")
@@ -96,8 +97,13 @@ def flaming_sums(cfg, inputs, sums) -> FlamingSums | None:
                 vals = {"dry_matter_kg": dm, "fre_mj": energy, "n_detections": np.ones(len(f))}[k]
                 d[k][n_bins - 1] += vals[out].sum()
         layers.append((name, d))
+    daily = {}
+    if len(f):
+        days = f["time"].dt.strftime("%Y-%m-%d").to_numpy()
+        for day in np.unique(days):
+            daily[str(day)] = float(dm[days == day].sum())
     return FlamingSums("active-fire detections: FRE x combustion coefficient (Wooster et al. 2005)", total, layers,
-                       notes, parameters={"coefficient_kg_per_mj": coef, "event_distance_m": dist,
+                       notes, daily_dry_matter_kg=daily, parameters={"coefficient_kg_per_mj": coef, "event_distance_m": dist,
                                           "event_gap_s": gap, "n_events": int(events.max() + 1) if len(f) else 0,
                                           "rejected": det.rejected})
 

@@ -145,6 +145,8 @@ class RunConfig:
     flaming: FlamingConfig | None = None
     fire_count_field: str | None = None
     resolution: float | None = None
+    start_field: str = "fire_start"
+    end_field: str = "fire_end"
     raw: dict = field(default_factory=dict, compare=False, repr=False)
 
     def input_paths(self) -> dict[str, Path]:
@@ -190,7 +192,7 @@ class RunConfig:
 
 _SCHEMA = {
     "run": {"name", "year", "crs", "block_size", "force_ranges", "resolution"},
-    "burned_area": {"path", "layer", "fire_count_field"},
+    "burned_area": {"path", "layer", "fire_count_field", "start_field", "end_field"},
     "depth": {"survey", "water_table", "plots", "tier1"},
     "depth.water_table": {"depth", "value_column", "crs", "date_column", "model", "intercept", "slope",
                           "fit_method", "idw_power", "idw_neighbours", "idw_max_distance_m", "units"},
@@ -421,7 +423,8 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         crs=run.get("crs"), burned_area=burned, burned_area_layer=ba.get("layer"), survey=survey, peat=peat,
         factors=factors, zones=tuple(zones), uncertainty=unc, block_size=block_size,
         water_table=water_table, plots=plots, tier1=tier1, flaming=flaming, fire_count_field=fire_count_field,
-        resolution=resolution, raw=raw,
+        resolution=resolution, start_field=str(ba.get("start_field", "fire_start")),
+        end_field=str(ba.get("end_field", "fire_end")), raw=raw,
     )
 
 

@@ -344,6 +344,8 @@ def sample_windows(grid: RunGrid, block: int, max_pixels: int = SAMPLE_PIXELS) -
 # the plan and one block
 
 METHOD_CODES = {"survey": 1, "water_table": 2, "tier1": 3}
+#: Internal zone layer of the burn scars themselves (per-scar sums for the daily series and years).
+SCAR_LAYER = "__scars__"
 METHODS = tuple(METHOD_CODES)
 
 #: Quantities summed per zone and for the run [m2, m3, kg, kg/m ...].
@@ -436,7 +438,9 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
         bulk_density=_param_source(cfg.peat.bulk_density, "peat.bulk_density"),
         carbon_fraction=_param_source(cfg.peat.carbon_fraction, "peat.carbon_fraction"),
         scars=np.asarray(inputs.scars.geometries, dtype=object), scar_fire_counts=fc,
-        zone_layers=[(z.name, ids, np.asarray(layer.geometries, dtype=object)) for z, layer, ids in inputs.zones],
+        zone_layers=[(z.name, ids, np.asarray(layer.geometries, dtype=object)) for z, layer, ids in inputs.zones]
+        + [(SCAR_LAYER, [str(i) for i in range(len(inputs.scars.frame))],
+            np.asarray(inputs.scars.geometries, dtype=object))],
         lod=alignment.lod if alignment else float("nan"), block_size=cfg.block_size,
         water_table=_param_source(wt.raster, "depth.water_table.depth") if wt is not None and wt.raster else None,
         stations=stations,

@@ -18,7 +18,7 @@ from .executors import map_blocks
 from .factors import load_factor_set, load_gwp_set
 from .io.writers import BlockRasterWriter, write_csv, write_json
 from .outputs import provenance, tables
-from .pipeline import METHOD_CODES, Sums, build_plan, coregister, fit_models, open_inputs, process_block
+from .pipeline import METHOD_CODES, SCAR_LAYER, Sums, build_plan, coregister, fit_models, open_inputs, process_block
 
 CAUTIONS = [
     "These are estimates with uncertainty, not measurements and not legal findings.",
@@ -52,6 +52,8 @@ class RunResult:
     totals: dict
     qa: dict
     files: dict = field(default_factory=dict)
+    daily: list = field(default_factory=list)
+    inventory: list = field(default_factory=list)
 
     @property
     def total(self) -> dict:
@@ -143,6 +145,25 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
 
         uncertainty = add_intervals(rows, sums, flame, factors, cfg, alignment, models)
 
+    from .outputs import timeline
+
+    scar_acc = next(acc for name, _, acc in sums.layers if name == SCAR_LAYER)
+    n_scars = len(inputs.scars.frame)
+    scar_sums = {k: scar_acc[k][1:n_scars + 1].copy() for k in ("peat_kg", "carbon_kg")}
+    overlap = float(scar_sums["peat_kg"].sum())
+    if overlap and sums.total["peat_kg"]:
+        # overlapping scar polygons count shared pixels twice: rescale to the run total
+        for k in scar_sums:
+            scar_sums[k] *= sums.total[k] / float(scar_sums[k].sum()) if float(scar_sums[k].sum()) else 1.0
+    periods = timeline.scar_periods(inputs.scars.frame, cfg.start_field, cfg.end_field)
+    flame_daily = flame.daily_dry_matter_kg if flame else {}
+    daily = timeline.daily_rows(scar_sums, periods, flame_daily, factors)
+    shares = timeline.year_shares(scar_sums, periods, flame_daily,
+                                  flame.total["dry_matter_kg"] if flame else 0.0, cfg.year)
+    if any(p[0] is None for p in periods):
+        notes.append(f"timeline: {sum(p[0] is None for p in periods)} scar(s) without a fire date "
+                     f"({cfg.start_field}); their emissions count in run.year ({cfg.year}) and are not in daily.csv")
+
     totals = {
         "run": cfg.name, "year": cfg.year, "tool_version": __version__,
         "quantities": {k: {"value": total[k], "unit": tables.UNITS.get(k, ""),
@@ -164,16 +185,17 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
     files = {}
     files["zones"] = write_csv(out_dir / "zones.csv", rows, columns)
     files["totals"] = write_json(out_dir / "totals.json", totals)
-    inv = tables.inventory_rows(total, cfg.year, factors.gwp.name)
+    inv = tables.inventory_rows(total, shares, factors.gwp.name)
+    files["daily"] = write_csv(out_dir / "daily.csv", daily, timeline.DAILY_COLUMNS)
     files["inventory"] = write_csv(out_dir / "inventory.csv", inv, tables.INVENTORY_COLUMNS)
     files["inventory_json"] = write_json(out_dir / "inventory.json", {"unit": "Gg", "rows": inv})
     prov = provenance.build(cfg, grid, alignment, factors, models,
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
-                                   "outputs": sorted(["zones.csv", "totals.json", "inventory.csv", "inventory.json",
+                                   "outputs": sorted(["zones.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
                                                       "burn_depth.tif", "carbon_smouldering.tif",
                                                       "depth_method.tif", "report.html"])})
     files["provenance"] = write_json(out_dir / "provenance.json", prov)
-    result = RunResult(out_dir, rows, totals, qa, files)
+    result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv)
     from .outputs import report
 
     files["report"] = report.write_report(out_dir / "report.html", result, cfg, prov, factors)

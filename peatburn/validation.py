@@ -88,8 +88,8 @@ GROUPS: dict[str, tuple[str, str]] = {
         "(wildfire on tropical organic soil, IPCC 2013 Wetlands Supplement Ch. 2, recalled, "
         "unchecked) and the emission factors of the shipped set `smouldering_ipcc2013_wetlands` "
         "(CO2-C 464, CO 210, CH4 21 g/kg d.m., recalled, unchecked). Tool: "
-        "`peatburn.science.gases.gas_emissions(353 000 kg, EF)`. Published column: the hand formula "
-        "on the same numbers.",
+        "`peatburn.science.tier1.tier1_emissions(1 ha, EF)` with the tool's own default fuel "
+        "consumption. Published column: the hand formula on the published numbers.",
     ),
     "mce": (
         "Modified combustion efficiency of each shipped factor set",
@@ -285,20 +285,21 @@ def _agus2012_rows():
 
 
 def _tier1_rows():
+    from .science import tier1
+
     fs = load_factor_set("smouldering_ipcc2013_wetlands", "smouldering")
-    fuel_kg = IPCC2013_FUEL_T_PER_HA * 1000.0  # 1 ha x 353 t/ha
     src = "IPCC 2006 Vol. 4 Ch. 2 Eq. 2.27; IPCC 2013 Wetlands Supplement Ch. 2"
-    co2_t = float(gases.gas_emissions(fuel_kg, fs.ef["co2"])) / 1000.0
+    # the tool's own Tier 1 default fuel consumption (not this module's constant), 1 ha
+    out = {g: float(v) for g, v in tier1.tier1_emissions(1.0, fs.ef).items()}  # t
     rows = [_row("tier1", "CO2-C from 1 ha of tropical organic soil wildfire", src, TIER1_HAND_T["co2_c"],
-                 "hand formula on recalled defaults", float(gases.co2_to_carbon(co2_t)), 1e-6, "t C",
+                 "hand formula on recalled defaults", float(gases.co2_to_carbon(out["co2"])), 1e-6, "t C",
                  "353 × 464 × 10⁻³; the set stores CO2-C and the loader converts it to CO2 and back")]
     for gas, label in (("co", "CO"), ("ch4", "CH4")):
         rows.append(_row("tier1", f"{label} from 1 ha of tropical organic soil wildfire", src, TIER1_HAND_T[gas],
-                         "hand formula on recalled defaults",
-                         float(gases.gas_emissions(fuel_kg, fs.ef[gas])) / 1000.0, 1e-6, f"t {label}",
+                         "hand formula on recalled defaults", out[gas], 1e-6, f"t {label}",
                          f"353 × {fs.ef[gas]:g} × 10⁻³"))
     rows.append(_row("tier1", "CO2 from 1 ha, against CO2-C × 44/12", src, TIER1_HAND_T["co2_44_12"],
-                     "hand formula on recalled defaults", co2_t, 0.001 * TIER1_HAND_T["co2_44_12"], "t CO2",
+                     "hand formula on recalled defaults", out["co2"], 0.001 * TIER1_HAND_T["co2_44_12"], "t CO2",
                      "peatburn converts with 44.009/12.011 (IUPAC), the IPCC worksheets with 44/12: "
                      "a 0.07 % difference; tolerance 0.1 %"))
     return rows
@@ -438,6 +439,9 @@ carbon_fraction = {cf}
 [emission_factors]
 smouldering = "smouldering_ipcc2013_wetlands"
 gwp = "AR6"
+
+[uncertainty]
+draws = 0
 """, encoding="utf-8")
     return {"config": folder / "config.toml", "carbon_t": carbon_t, "volume_m3": volume, "shift": shift,
             "offset": offset, "noise": noise, "tolerance_rel": tolerance_rel, "n_burned": int(burned.sum()),
@@ -527,8 +531,8 @@ def render_markdown(rows: list[dict]) -> str:
         "",
         f"**{n_ok} of {len(rows)} rows agree.**",
         "",
-        "Not yet here: burn depth from the water table and the IPCC Tier 1 depth method (rows are added "
-        "when those methods land).",
+        "Not yet here: synthetic-truth rows for burn depth from the water table and for the IPCC Tier 1 "
+        "depth method.",
         "",
     ]
     order = list(GROUPS)

@@ -100,8 +100,12 @@ def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
 
 def zone_rows(result_sums, factors, flame_sums=None) -> list[dict]:
     """One row per zone of each layer, one "outside" row per layer, then the run total."""
+    from ..pipeline import SCAR_LAYER
+
     rows = []
     for li, (name, ids, acc) in enumerate(result_sums.layers):
+        if name == SCAR_LAYER:
+            continue
         fl = flame_sums.layers[li][1] if flame_sums else None
         for k, zid in enumerate(ids, start=1):
             rows.append({"layer": name, "zone": zid,
@@ -133,24 +137,27 @@ for _c in INTERVAL_COLUMNS:
     UNITS[f"{_c}_hi"] = UNITS[_c]
 
 
-def inventory_rows(total: dict, year, gwp_name: str) -> list[dict]:
+def inventory_rows(total: dict, year_shares: dict, gwp_name: str) -> list[dict]:
     """Emissions by year, phase and gas in Gg (1 Gg = 1000 t), the lines an inventory adds.
 
-    CO2 is also given as CO2-C (x 12.011/44.009) and the CO2e line names its GWP set. ``_lo`` and
-    ``_hi`` are filled when the totals carry intervals.
+    ``year_shares`` maps phase -> {year: share of the phase's run total}; from the scars' fire dates
+    (smouldering) and the detection times (flaming), or all in ``[run] year``. CO2 is also given as
+    CO2-C (x 12.011/44.009) and the CO2e line names its GWP set. ``_lo`` and ``_hi`` are the run
+    interval scaled by the year's share (the years of one run share their uncertain parameters).
     """
     rows = []
-    yr = year if year is not None else ""
     for phase in PHASES:
-        for g in GASES:
-            rows.append(_inv(yr, phase, g.upper(), total, f"{g}_{phase}_t", 1.0))
-        rows.append(_inv(yr, phase, "CO2-C", total, f"co2_{phase}_t", float(gases.co2_to_carbon(1.0))))
-        rows.append(_inv(yr, phase, f"CO2e ({gwp_name})", total, f"co2e_{phase}_t", 1.0))
+        for yr, share in sorted(year_shares[phase].items(), key=lambda kv: str(kv[0])):
+            for g in GASES:
+                rows.append(_inv(yr, phase, g.upper(), total, f"{g}_{phase}_t", share))
+            rows.append(_inv(yr, phase, "CO2-C", total, f"co2_{phase}_t", share * float(gases.co2_to_carbon(1.0))))
+            rows.append(_inv(yr, phase, f"CO2e ({gwp_name})", total, f"co2e_{phase}_t", share))
     return rows
 
 
 def _inv(year, phase, gas, total, key, scale):
-    row = {"year": year, "phase": phase, "gas": gas, "emissions_gg": total[key] * scale * 1e-3}
+    row = {"year": "" if year is None else year, "phase": phase, "gas": gas,
+           "emissions_gg": total[key] * scale * 1e-3}
     for s in ("lo", "hi"):
         v = total.get(f"{key}_{s}")
         row[f"emissions_gg_{s}"] = v * scale * 1e-3 if v is not None else math.nan
