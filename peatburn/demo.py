@@ -307,7 +307,7 @@ path = "districts.gpkg"
 id = "district"
 
 [uncertainty]
-draws = 0
+draws = 2000
 seed = 1
 '''
 

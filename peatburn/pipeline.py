@@ -354,8 +354,10 @@ SUM_KEYS = (
     "unestimated_area_m2", "below_lod_area_m2", "capped_area_m2",
     *(f"{k}_{m}" for m in METHODS for k in ("area_m2", "peat_kg", "carbon_kg")),
     # for zone-level Monte Carlo: mass per metre of depth over survey / water-table pixels
-    "rho_area_survey", "rho_f_area_survey", "rho_area_water_table", "rho_f_area_water_table",
-    "rho_area_wt_water_table", "rho_f_area_wt_water_table",
+    "rho_area_survey", "rho_f_area_survey",
+    # over water-table pixels where the model is not clipped (0 < a + b wt < thickness): there the
+    # depth responds linearly to the coefficients (peatburn.science.uncertainty)
+    "wt_area", "wt_area_wt", "wt_rho_area", "wt_rho_area_wt", "wt_rho_f_area", "wt_rho_f_area_wt",
     # Tier 1 applied to every burned pixel (side-by-side columns) [kg dry matter, kg C]
     "tier1_all_peat_kg", "tier1_all_carbon_kg",
     # flaming by burned area x biomass [t dry matter available above ground]
@@ -568,13 +570,18 @@ def process_block(plan: RunPlan, window: Window) -> BlockResult:
     m_survey = burned & np.isfinite(depth_s) & peat_ok
     depth = np.where(m_survey, depth_s, np.nan)
     m_wt = np.zeros(shape, bool)
+    m_lin = m_wt
     wt = None
     if plan.models is not None:
         need = burned & ~m_survey & peat_ok
         wt = water_table_depth(st, plan, window, need)
         m_wt = need & np.isfinite(wt)
         if m_wt.any():
-            depth = np.where(m_wt, _model_depth(st, plan, window, wt, _param(st, plan, "thickness", window)), depth)
+            thick = _param(st, plan, "thickness", window)
+            depth = np.where(m_wt, _model_depth(st, plan, window, wt, thick), depth)
+            lin = plan.models.all.intercept + plan.models.all.slope * np.where(m_wt, wt, 0.0)
+            cap = np.inf if thick is None else np.where(np.isfinite(thick), thick, np.inf)
+            m_lin = m_wt & (lin > 0) & (lin < cap)
     m_t1 = burned & ~m_survey & ~m_wt & np.isfinite(cf)
     valid_depth = m_survey | m_wt
     mass = np.where(valid_depth, peat.peat_dry_mass(depth, rho, area), 0.0)
@@ -603,10 +610,12 @@ def process_block(plan: RunPlan, window: Window) -> BlockResult:
         "capped_area_m2": np.where(capped, area, 0.0),
         "rho_area_survey": np.where(m_survey, rho_a, 0.0),
         "rho_f_area_survey": np.where(m_survey, rho_f_a, 0.0),
-        "rho_area_water_table": np.where(m_wt, rho_a, 0.0),
-        "rho_f_area_water_table": np.where(m_wt, rho_f_a, 0.0),
-        "rho_area_wt_water_table": np.where(m_wt, rho_a * wt_f, 0.0),
-        "rho_f_area_wt_water_table": np.where(m_wt, rho_f_a * wt_f, 0.0),
+        "wt_area": np.where(m_lin, area, 0.0),
+        "wt_area_wt": np.where(m_lin, area * wt_f, 0.0),
+        "wt_rho_area": np.where(m_lin, rho_a, 0.0),
+        "wt_rho_area_wt": np.where(m_lin, rho_a * wt_f, 0.0),
+        "wt_rho_f_area": np.where(m_lin, rho_f_a, 0.0),
+        "wt_rho_f_area_wt": np.where(m_lin, rho_f_a * wt_f, 0.0),
         "tier1_all_peat_kg": t1_mass_all,
         "tier1_all_carbon_kg": np.where(burned & np.isfinite(cf), t1_mass_all * np.where(np.isfinite(cf), cf, 0), 0.0),
     }

@@ -143,7 +143,7 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
     if cfg.uncertainty.draws > 0:
         from .intervals import add_intervals
 
-        uncertainty = add_intervals(rows, sums, flame, factors, cfg, alignment, models)
+        uncertainty = add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid)
 
     from .outputs import timeline
 

@@ -94,3 +94,21 @@ def test_serial_and_two_workers_agree(scene, scene_run, tmp_path):
     r2 = peatburn.run(scene.config, tmp_path / "w2", workers=2)
     for a, b in zip(scene_run.zones, r2.zones):
         assert a["carbon_smouldering_t"] == b["carbon_smouldering_t"]
+
+
+def test_intervals_per_zone_and_reproducible(tmp_path):
+    s = make_scene(tmp_path / "s", extra_config="[uncertainty]\ndraws = 500\nseed = 3\n")
+    a = peatburn.run(s.config, tmp_path / "a")
+    b = peatburn.run(s.config, tmp_path / "b")
+    for r in a.zones:
+        if r["carbon_smouldering_t"] > 1:
+            assert r["carbon_smouldering_t_lo"] < r["carbon_smouldering_t"] < r["carbon_smouldering_t_hi"]
+    # the truth lies in the run's interval (one scene; the coverage statistics are in
+    # tests/science/test_uncertainty.py)
+    t = a.total
+    assert t["carbon_smouldering_t_lo"] <= s.truth["carbon_t"] <= t["carbon_smouldering_t_hi"]
+    assert (tmp_path / "a" / "zones.csv").read_bytes() == (tmp_path / "b" / "zones.csv").read_bytes()
+    shares = a.totals["uncertainty"]["contributions"]
+    assert sum(v for v in shares.values() if v is not None) == pytest.approx(1.0, abs=1e-6)
+    inv = (tmp_path / "a" / "inventory.csv").read_text().splitlines()
+    assert inv[0] == "year,phase,gas,emissions_gg,emissions_gg_lo,emissions_gg_hi"

@@ -22,8 +22,9 @@ zones. ``b``, ``dr``, the water-table coefficients and every multiplicative fact
 are drawn once per draw and shared by all zones, so zone totals are correlated through them and
 the run total keeps that correlation. Water-table terms: a depth model ``d = a + b_wt * wt``
 (coefficients with covariance from the fit) adds ``da * wt_rho_f_area + db * wt_rho_f_area_wt``
-to carbon (clipping at zero or at the peat thickness is ignored), and an optional model residual
-adds a correlated zone-mean error like ``E_z`` over the water-table area.
+to carbon, the sums taken over pixels where the model is not clipped (first order: clipped pixels
+do not respond to small coefficient changes; the draws themselves are not clipped), and an optional
+model residual adds a correlated zone-mean error like ``E_z`` over the water-table area.
 
 The cost is O(draws x zones) arithmetic and never touches pixels; chunks of zones keep memory
 below about 50 million floats (:data:`MAX_FLOATS`).
@@ -160,8 +161,11 @@ _RUN_WIDE = {"survey_bias", "subsidence_rate", "water_table_coefficients", "bulk
              "emission_factors_flaming"}
 
 #: Zone sums read by the draws (arrays over zones; absent keys count as zeros). Survey sums
-#: (``area_m2``, ``volume_m3``, ``rho_area``, ``rho_f_area``) cover the pixels whose depth comes
-#: from the surveys; ``peat_kg`` and ``carbon_kg`` cover every estimated pixel.
+#: (``area_m2``, ``rho_area``, ``rho_f_area``) cover the pixels whose depth comes from the
+#: surveys; ``volume_m3``, ``peat_kg`` and ``carbon_kg`` cover every estimated pixel. The ``wt_*``
+#: sums cover the water-table pixels where the depth model is not clipped (0 < a + b wt < peat
+#: thickness): elsewhere the depth does not respond to small changes of the coefficients, so
+#: summing only those pixels is the exact first-order treatment of the clipping.
 SUM_KEYS = {
     "area_m2": "sum A over survey-depth pixels [m2]",
     "volume_m3": "sum d A [m3]",
@@ -169,7 +173,7 @@ SUM_KEYS = {
     "carbon_kg": "sum d rho f A x 1000 [kg C]",
     "rho_area": "sum rho A x 1000 over survey-depth pixels [kg/m]: peat mass per metre of depth",
     "rho_f_area": "sum rho f A x 1000 over survey-depth pixels [kg C/m]",
-    "wt_area": "sum A over water-table-depth pixels [m2]",
+    "wt_area": "sum A over unclipped water-table-depth pixels [m2]",
     "wt_area_wt": "sum A wt over water-table pixels [m3] (optional)",
     "wt_rho_area": "sum rho A x 1000 over water-table pixels [kg/m] (optional)",
     "wt_rho_area_wt": "sum rho A wt x 1000 over water-table pixels [kg] (optional)",
@@ -533,7 +537,8 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
         src.append(Source("water_table_coefficients", "bivariate normal", {"cov": cov.tolist()},
                           "covariance of the least-squares fit of the water-table depth model of this run",
                           "Run-wide; depth = a + b wt; (da, db) change carbon by da * wt_rho_f_area + "
-                          "db * wt_rho_f_area_wt (clipping at zero and at the peat thickness ignored)."))
+                          "db * wt_rho_f_area_wt, sums over pixels where the model is not clipped at 0 or "
+                          "at the peat thickness (first order); the draws themselves are not clipped."))
     if float(wt_residual_sd_m) > 0:
         src.append(Source("water_table_residual", "normal zone mean of a correlated residual",
                           {"sd_m": float(wt_residual_sd_m),

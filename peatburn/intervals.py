@@ -1,0 +1,166 @@
+"""Monte Carlo intervals and variance contributions of a finished block pass.
+
+The per-zone sums of the block pass are the sufficient statistics of the zone-level draws of
+:mod:`peatburn.science.uncertainty`: no pixel is resampled. This module gathers the run's
+uncertainty sources (survey error from the stable-ground statistics and variogram; water-table
+model covariance; the documented defaults or the user's [uncertainty] overrides), draws per zone
+layer and for the run total, and writes ``_lo``/``_hi`` into the table rows.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .factors import list_factor_sets
+from .outputs.tables import OUTSIDE, TOTAL_LAYER
+from .pipeline import SCAR_LAYER
+from .science import uncertainty as unc
+from .science import variogram
+
+#: pipeline sum -> uncertainty-model sum
+SUM_MAP = {
+    "area_m2": "area_m2_survey", "volume_m3": "volume_m3", "peat_kg": "peat_kg", "carbon_kg": "carbon_kg",
+    "rho_area": "rho_area_survey", "rho_f_area": "rho_f_area_survey",
+    "wt_area": "wt_area", "wt_area_wt": "wt_area_wt", "wt_rho_area": "wt_rho_area",
+    "wt_rho_area_wt": "wt_rho_area_wt", "wt_rho_f_area": "wt_rho_f_area", "wt_rho_f_area_wt": "wt_rho_f_area_wt",
+}
+
+
+def survey_error_model(alignment, pixel_area_m2: float, range_override: float | None = None) -> dict:
+    """Per-pixel sigma [m], spherical range [m] and nugget share of the survey error, from a
+    variogram of the stable-ground residuals after co-registration; and the residual bias sd."""
+    x, y, r = alignment.stable_sample
+    sigma = float(alignment.nmad_after)
+    fit = {"nugget": 0.0, "sill": sigma ** 2, "range_m": float("nan")}
+    if range_override is None and len(r) >= 200:
+        extent = float(max(np.ptp(x), np.ptp(y)))
+        lags, gamma, counts = variogram.empirical_variogram(x, y, r, max_lag=max(extent / 3, 10 * math.sqrt(pixel_area_m2)))
+        fit = variogram.fit_spherical(lags, gamma, counts)
+    rng = range_override if range_override is not None else float(fit["range_m"])
+    if not math.isfinite(rng) or rng <= 0:
+        rng = math.sqrt(pixel_area_m2)  # no detectable correlation: one pixel
+    nug = float(fit["nugget"] / fit["sill"]) if fit.get("sill") else 0.0
+    nug = min(max(nug, 0.0), 1.0)
+    stable_area = alignment.n_stable_sample * pixel_area_m2
+    bias = float(unc.residual_bias_sd(sigma, rng, stable_area, nugget_fraction=nug, pixel_area_m2=pixel_area_m2,
+                                      estimator="median"))
+    return {"sigma_m": sigma, "range_m": rng, "nugget_fraction": nug, "bias_sd_m": bias,
+            "stable_area_m2": stable_area, "variogram": {k: float(v) for k, v in fit.items()}}
+
+
+def build_params(cfg, factors, alignment, models, sums, grid) -> tuple[dict, list, dict]:
+    pix = float(np.mean(grid.pixel_area(grid.windows(cfg.block_size)[0])))
+    u = cfg.uncertainty
+    survey = survey_error_model(alignment, pix, u.correlation_range_m) if alignment is not None else None
+    cf = sums.total["carbon_kg"] / sums.total["peat_kg"] if sums.total["peat_kg"] > 0 else unc.DEFAULT_CARBON_FRACTION
+    kw = {}
+    if models is not None:
+        m = models.all
+        cov = m.covariance_matrix()
+        if np.all(np.isfinite(cov)):
+            kw["wt_coef_cov"] = cov
+        rs = getattr(m, "residual_nmad", float("nan"))
+        kw["wt_residual_sd_m"] = float(rs) if rs is not None and math.isfinite(rs) else 0.0
+    fl = cfg.flaming
+    sources = unc.default_sources(
+        survey_bias_sd_m=survey["bias_sd_m"] if survey else 0.0,
+        survey_sigma_m=survey["sigma_m"] if survey else 0.0,
+        survey_range_m=survey["range_m"] if survey else math.sqrt(pix),
+        survey_nugget_fraction=survey["nugget_fraction"] if survey else 0.0, pixel_area_m2=pix,
+        interval_years=cfg.survey.interval_years if cfg.survey else 0.0,
+        # a run-wide error of the subsidence rate moves stable ground and scars alike and is removed by
+        # the vertical co-registration on stable ground; only local departures remain, which the user
+        # may give as uncertainty.subsidence_rate_sd (default 0)
+        subsidence_rate_sd_m_per_yr=u.subsidence_rate_sd if u.subsidence_rate_sd is not None else 0.0,
+        bulk_density_cv=u.bulk_density_cv if u.bulk_density_cv is not None else unc.DEFAULT_BULK_DENSITY_CV,
+        carbon_fraction=cf,
+        carbon_fraction_sd=u.carbon_fraction_sd if u.carbon_fraction_sd is not None else unc.DEFAULT_CARBON_FRACTION_SD,
+        smouldering_factors=factors.smouldering, flaming_factors=factors.flaming,
+        reference_factor_sets=list_factor_sets("smouldering") + list_factor_sets("flaming"),
+        fre_coefficient=factors.coefficient,
+        combustion_factor=fl.combustion_factor if fl and fl.combustion_factor else unc.DEFAULT_COMBUSTION_FACTOR,
+        **kw,
+    )
+    return unc.sources_to_params(sources, gwp=factors.gwp.gwp), sources, survey or {}
+
+
+def _model_sums(acc: dict, idx, flame_layer: dict | None, frp_route: bool, vegetation_cf: float) -> dict:
+    out = {k: np.asarray(acc[v], dtype=float)[idx] for k, v in SUM_MAP.items()}
+    if flame_layer is not None:
+        dm = np.asarray(flame_layer["dry_matter_kg"], dtype=float)[idx]
+        out["flaming_dm_fre_kg" if frp_route else "flaming_dm_area_kg"] = dm
+        out["flaming_carbon_kg"] = dm * vegetation_cf
+    return out
+
+
+def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid) -> dict:
+    """Fill ``<col>_lo``/``<col>_hi`` of every interval column in ``rows`` (in place) and return the
+    uncertainty summary for totals.json."""
+    params, sources, survey = build_params(cfg, factors, alignment, models, sums, grid)
+    draws, seed = cfg.uncertainty.draws, cfg.uncertainty.seed
+    frp = factors.frp_route
+    row_i = 0
+    per_zone = {}
+    for li, (name, ids, acc) in enumerate(sums.layers):
+        if name == SCAR_LAYER:
+            continue
+        idx = np.arange(1, len(ids) + 2)  # zones, then the outside bin
+        fl = flame.layers[li][1] if flame else None
+        ms = _model_sums(acc, idx, fl, frp, factors.vegetation_carbon_fraction)
+        iv = unc.intervals(ms, params, draws=draws, seed=seed)
+        con = unc.contributions(ms, params, quantity="carbon_kg")
+        for k in range(len(idx)):
+            _fill(rows[row_i + k], iv, k)
+        per_zone[name] = {(ids[k] if k < len(ids) else OUTSIDE): {s: _f(v[k]) for s, v in con.items()}
+                          for k in range(len(idx))}
+        row_i += len(idx)
+    tot = {k: np.array([v]) for k, v in sums.total.items()}
+    ms = _model_sums(tot, np.array([0]), {"dry_matter_kg": np.array([flame.total["dry_matter_kg"]])} if flame else None,
+                     frp, factors.vegetation_carbon_fraction)
+    iv = unc.intervals(ms, params, draws=draws, seed=seed)
+    assert rows[row_i]["layer"] == TOTAL_LAYER
+    _fill(rows[row_i], iv, 0)
+    con = unc.contributions(ms, params, quantity="carbon_kg")
+    return {
+        "method": "Monte Carlo at zone level: sums reduced once per zone in the block pass, draws of the run-wide "
+                  "and zone-level sources (docs/uncertainty.md); 95 % interval = 2.5 and 97.5 percentiles",
+        "draws": draws, "seed": seed,
+        "sources": [s.to_dict() for s in sources],
+        "survey_error": survey,
+        "contributions": {s: _f(v[0]) for s, v in con.items()},
+        "contributions_by_zone": per_zone,
+        "contributions_quantity": "carbon_smouldering_t",
+        "note": "Tier 1 default pixels carry no drawn uncertainty; their share is in the method shares. A run-wide "
+                "error of the subsidence rate is removed by the vertical co-registration on stable ground; local "
+                "departures enter only through uncertainty.subsidence_rate_sd (default 0).",
+    }
+
+
+def _fill(row: dict, iv: dict, k: int) -> None:
+    for q, (lo, hi) in iv.items():
+        col = _column(q)
+        if col is None:
+            continue
+        scale = 1e-3  # kg -> t
+        row[f"{col}_lo"] = float(lo[k]) * scale
+        row[f"{col}_hi"] = float(hi[k]) * scale
+
+
+def _column(q: str) -> str | None:
+    for pattern, col in unc.QUANTITY_COLUMNS.items():
+        if col.startswith("("):
+            continue
+        if "{gas}" in pattern:
+            for g in ("co2", "ch4", "co"):
+                if q == pattern.format(gas=g):
+                    return col.format(gas=g)
+        elif q == pattern:
+            return col
+    return None
+
+
+def _f(v) -> float | None:
+    v = float(v)
+    return v if math.isfinite(v) else None
