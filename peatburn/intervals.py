@@ -63,6 +63,10 @@ def build_params(cfg, factors, alignment, models, sums, grid) -> tuple[dict, lis
             kw["wt_coef_cov"] = cov
         rs = getattr(m, "residual_nmad", float("nan"))
         kw["wt_residual_sd_m"] = float(rs) if rs is not None and math.isfinite(rs) else 0.0
+        # pixel scatter about the fitted line decorrelates like the survey error it largely is; the
+        # scar-to-scar departures of the relation are in the coefficients' cluster-bootstrap covariance
+        if survey is not None:
+            kw["wt_residual_range_m"] = survey["range_m"]
     fl = cfg.flaming
     sources = unc.default_sources(
         survey_bias_sd_m=survey["bias_sd_m"] if survey else 0.0,
