@@ -82,3 +82,24 @@ def test_demo_end_to_end(runner, tmp_path):
         if float(row["area_survey_ha"]) < 0.99 * t["burned_area_ha"]:
             continue  # partly in the survey gap: estimated by another method
         assert float(row["carbon_smouldering_t"]) == pytest.approx(t["carbon_smouldering_t"], rel=0.02)
+
+
+def test_calibrate_writes_fit_and_plot_that_run_reuses(runner, tmp_path):
+    from peatburn.demo import make_demo_region
+
+    region = make_demo_region(tmp_path / "in", shape=(300, 375))
+    fit = tmp_path / "fit.json"
+    res = runner.invoke(cli, ["calibrate", str(region.config_path), "--out", str(fit)])
+    assert res.exit_code == 0, res.output
+    assert "burn depth =" in res.output and fit.exists() and fit.with_suffix(".png").exists()
+    data = json.loads(fit.read_text())
+    # the generator's relation (invented demo truth): slope 0.5
+    assert data["models"]["all"]["slope"] == pytest.approx(region.truth["water_table"]["b"], abs=0.1)
+    cfg = region.config_path.read_text().replace('model = "fit"', f'model = "{fit}"')
+    region.config_path.write_text(cfg)
+    res = runner.invoke(cli, ["run", str(region.config_path), "--out", str(tmp_path / "o"), "--quiet"])
+    assert res.exit_code == 0, res.output
+    totals = json.loads((tmp_path / "o" / "totals.json").read_text())
+    assert totals["water_table_model"]["all"]["slope"] == data["models"]["all"]["slope"]
+    res = runner.invoke(cli, ["calibrate", str(region.config_path), "--out", str(fit)])
+    assert res.exit_code == 2 and "--overwrite" in res.output
