@@ -134,6 +134,17 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
         notes.append(f"emission factors: the set {factors.smouldering.name} puts {checks['carbon_closure']:.3f} times "
                      f"the fuel's carbon into CO2+CO+CH4 at this run's carbon fraction "
                      f"({checks['effective_carbon_fraction']:.3f}); its gases overstate the carbon burned")
+    flame_checks = None
+    if flame is not None:
+        from .science import gases
+
+        ef = factors.flaming.ef
+        closure = float(gases.carbon_closure(ef, factors.vegetation_carbon_fraction))
+        flame_checks = {"mce": float(gases.modified_combustion_efficiency(ef["co2"], ef["co"])),
+                        "vegetation_carbon_fraction": factors.vegetation_carbon_fraction, "carbon_closure": closure}
+        if closure > 1.0:
+            notes.append(f"emission factors: the flaming set {factors.flaming.name} puts {closure:.3f} times the "
+                         f"vegetation's carbon (fraction {factors.vegetation_carbon_fraction:g}) into CO2+CO+CH4")
     plots = None
     if inputs.plots is not None:
         from .plots import validate_plots
@@ -170,7 +181,8 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
                            **({"lo": total.get(f"{k}_lo"), "hi": total.get(f"{k}_hi")}
                               if f"{k}_lo" in total else {})}
                        for k in tables.ZONE_COLUMNS[2:]},
-        "method": method_summary(cfg, total, factors, alignment, models, flame),
+        "method": {**method_summary(cfg, total, factors, alignment, models, flame),
+                   "smouldering_factor_checks": checks, "flaming_factor_checks": flame_checks},
         "qa": qa,
         "water_table_model": models.to_dict() if models else None,
         "field_plots": plots,
@@ -218,7 +230,6 @@ def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
         "depth": depth,
         "unestimated_area_ha": total["unestimated_area_ha"],
         "smouldering_factors": factors.smouldering.name,
-        "smouldering_factor_checks": None,
         "tier1_factors": factors.tier1.name,
         "flaming": flame.route if flame else "not estimated (no [flaming] section): flaming columns are zero",
         "flaming_factors": factors.flaming.name if flame else None,

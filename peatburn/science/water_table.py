@@ -834,8 +834,9 @@ def idw(x_obs, y_obs, v_obs, x, y, *, power: float = 2.0, k: int = 12, max_dista
     valid = np.isfinite(dist)  # missing neighbours come back as inf distance and index n
     safe_idx = np.where(valid, idx, 0)
     vals = vs[safe_idx]
-    exact = valid & (dist == 0)
-    with np.errstate(divide="ignore"):
+    # closer than a nanometre counts as on the station (weights 1/d^p would overflow to inf/inf)
+    exact = valid & (dist <= 1e-9)
+    with np.errstate(divide="ignore", over="ignore"):
         wts = np.where(valid & ~exact, 1.0 / np.where(valid & ~exact, dist, 1.0) ** power, 0.0)
     sw = wts.sum(axis=1)
     res = np.full(q.shape[0], np.nan)
