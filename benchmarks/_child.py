@@ -151,7 +151,7 @@ def task_floor(config, out, gdal_env=False):
     return {"wall_s": time.perf_counter() - t}
 
 
-def task_blocks(config, workers=1):
+def task_blocks(config, workers=1, cold=True):
     import peatburn
     from peatburn.executors import map_blocks
     from peatburn.pipeline import Sums, build_plan, coregister, open_inputs, process_block
@@ -160,6 +160,14 @@ def task_blocks(config, workers=1):
     plan = build_plan(inputs := open_inputs(cfg), coregister(inputs))
     windows = plan.grid.windows(cfg.block_size)
     sums = Sums.empty(plan)
+    if cold:
+        # empty this process's GDAL block cache: the co-registration read both surveys whole and, with
+        # GDAL's default cache (5 % of the RAM), a serial pass would find many tiles already decoded,
+        # which worker processes never do
+        import rasterio
+
+        with rasterio.Env(GDAL_CACHEMAX=1):  # shrinking the cache drops its blocks; leaving restores the size
+            pass
     t = time.perf_counter()
     for r in map_blocks(process_block, plan, windows, workers):
         sums.add(r)

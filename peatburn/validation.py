@@ -84,7 +84,7 @@ GROUPS: dict[str, tuple[str, str]] = {
     ),
     "tier1": (
         "IPCC Tier 1 arithmetic (2006 Guidelines Eq. 2.27; 2013 Wetlands Supplement Ch. 2)",
-        "L = A × (M_B × C_f) × G_ef × 10⁻³ [t], with A = 1 ha, fuel consumed M_B × C_f = 353 t d.m./ha "
+        "L = A × (M_B × C_f) × G_ef × 10⁻³ [t], with A = 1 ha, fuel consumed (IPCC default) M_B × C_f = 353 t d.m./ha "
         "(wildfire on tropical organic soil, IPCC 2013 Wetlands Supplement Ch. 2, recalled, "
         "unchecked) and the emission factors of the shipped set `smouldering_ipcc2013_wetlands` "
         "(CO2-C 464, CO 210, CH4 21 g/kg d.m., recalled, unchecked). Tool: "
@@ -144,7 +144,7 @@ BALLHORN_RELATIVE = 0.545473
 GRAHAM_AUGUST = (102.0, 8.1)
 GRAHAM_SEPTEMBER = (754.0, 60.2)
 #: Mean fuel carbon of tropical peat, Hu et al. 2018 (Int. J. Wildland Fire 27:293), abstract (checked).
-HU2018_CARBON_FRACTION = 0.56
+HU2018_CARBON_FRACTION = 0.56  # Hu et al. 2018, abstract (checked)
 
 #: Agus et al. 2012 (Proc. 14th International Peat Congress, Stockholm; summary, checked): per maturity
 #: class, mean carbon content [Mg/Mg], bulk density [Mg m-3], and carbon density Cv [Mg m-3] with its SD.
@@ -269,7 +269,7 @@ def _graham2022_rows():
         "graham2022", "September carbon from the September volume, density set on August",
         "Graham et al. 2022, Fire 5:62, abstract", c_sep, "checked (abstract)", tool, tol, "t C/ha",
         f"tolerance: rounding of the four published figures; implied bulk density {bd:.3f} g/cm³ at "
-        "f_C = 0.56, within the 0.05–0.2 g/cm³ of tropical peat (recalled)")]
+        "f_C = 0.56 (Hu et al. 2018), within the 0.05–0.2 g/cm³ of tropical peat (recalled)")]
 
 
 def _agus2012_rows():

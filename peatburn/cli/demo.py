@@ -14,9 +14,11 @@ from .options import handle_errors, overwrite_option, quiet_option, workers_opti
               help="Folder for the generated demo inputs [default: OUT/inputs].")
 @overwrite_option
 @workers_option
+@click.option("--pdf", is_flag=True, default=False,
+              help="Also print report.html to report.pdf with headless chromium (apt-get install chromium).")
 @quiet_option
 @handle_errors
-def demo_cmd(out_dir, inputs_dir, overwrite, workers, quiet):
+def demo_cmd(out_dir, inputs_dir, overwrite, workers, pdf, quiet):
     """Generate the invented demo region and run the whole pipeline on it.
 
     Every name and number of the demo is invented; no real place, company or person is shown.
@@ -26,10 +28,18 @@ def demo_cmd(out_dir, inputs_dir, overwrite, workers, quiet):
     from ..runner import prepare_out_dir, run
     from .summary import print_summary
 
+    if pdf:
+        from ..outputs.pdf import find_chromium, print_pdf
+
+        find_chromium()  # a missing chromium fails before the run, not after it
     out = Path(out_dir)
     prepare_out_dir(out, overwrite)
     region = make_demo_region(Path(inputs_dir) if inputs_dir else out / "inputs")
     result = run(load_config(region.config_path), out / "results", overwrite=True, workers=workers)
+    if pdf:
+        result.files["report_pdf"] = print_pdf(result.files["report"])
     if not quiet:
         print_summary(result)
         click.echo(f"report: {result.files['report']}")
+        if pdf:
+            click.echo(f"report (PDF): {result.files['report_pdf']}")

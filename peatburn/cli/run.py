@@ -12,20 +12,30 @@ from .options import config_argument, handle_errors, out_option, overwrite_optio
 @overwrite_option
 @workers_option
 @scheduler_option
+@click.option("--pdf", is_flag=True, default=False,
+              help="Also print report.html to report.pdf with headless chromium (apt-get install chromium).")
 @quiet_option
 @handle_errors
-def run_cmd(config, out_dir, overwrite, workers, scheduler, quiet):
+def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
     """Estimate smouldering (below-ground) peat-fire emissions for CONFIG and write the outputs.
 
     Writes zones.csv, totals.json, inventory.csv, burn_depth.tif, carbon_smouldering.tif,
-    provenance.json and report.html into --out. An existing, non-empty output folder is
+    provenance.json and report.html into --out (and report.pdf with --pdf). An existing, non-empty output folder is
     refused unless --overwrite is given.
     """
     from ..config import load_config
     from ..runner import run
     from .summary import print_summary
 
+    if pdf:
+        from ..outputs.pdf import find_chromium, print_pdf
+
+        find_chromium()  # a missing chromium fails before the run, not after it
     cfg = load_config(config)
     result = run(cfg, out_dir, overwrite=overwrite, workers=workers, scheduler=scheduler)
+    if pdf:
+        result.files["report_pdf"] = print_pdf(result.files["report"])
     if not quiet:
         print_summary(result)
+        if pdf:
+            click.echo(f"report (PDF): {result.files['report_pdf']}")

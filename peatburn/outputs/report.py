@@ -166,14 +166,20 @@ def fmt_num(v, digits: int = 3) -> str:
     if abs(f) < 1e-3:
         mant, exp = f"{f:.{max(digits - 1, 0)}e}".split("e")
         return f"{mant} × 10{_superscript(int(exp))}"
-    text = f"{rounded:.{digits}g}"
-    if "e" in text:  # e.g. 1e+02: write it out
-        text = f"{rounded:f}".rstrip("0").rstrip(".")
-    return text
+    text = f"{rounded:#.{digits}g}"  # "#" keeps significant trailing zeros: 0.200, not 0.2
+    if "e" in text:  # e.g. 1.00e+02: write it out
+        text = f"{rounded:.0f}"
+    return text.rstrip(".")
 
 
 def _superscript(n: int) -> str:
     return str(n).translate(str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹"))
+
+
+def fmt_plain(v) -> str:
+    """A published constant as it is tabulated (shortest form, no padding): ``6.8``, ``1580``."""
+    f = _finite(v)
+    return "–" if f is None else f"{f:g}" if abs(f) < 1e6 else f"{f:,.0f}"
 
 
 def fmt_int(v) -> str:
@@ -188,8 +194,8 @@ def fmt_pct(share, digits: int = 3) -> str:
 
 
 def fmt_range(lo, hi) -> str:
-    """``"lo–hi"`` (en dash), or "" when either end is missing."""
-    if _finite(lo) is None or _finite(hi) is None:
+    """``"lo–hi"`` (en dash); "" when either end is missing, or both are zero (nothing burned)."""
+    if _finite(lo) is None or _finite(hi) is None or (_finite(lo) == 0 and _finite(hi) == 0):
         return ""
     return f"{fmt_num(lo)}–{fmt_num(hi)}"
 
@@ -198,16 +204,6 @@ def fmt_interval(v, lo=None, hi=None) -> str:
     """``"x (lo–hi)"``; just ``"x"`` without an interval."""
     r = fmt_range(lo, hi)
     return f"{fmt_num(v)} ({r})" if r else fmt_num(v)
-
-
-def fmt_bytes(n) -> str:
-    f = _finite(n)
-    if f is None:
-        return "–"
-    for unit, size in (("GB", 1e9), ("MB", 1e6), ("kB", 1e3)):
-        if f >= size:
-            return f"{fmt_num(f / size)} {unit}"
-    return f"{int(f)} B"
 
 
 def _mpl(text) -> str:
@@ -225,7 +221,7 @@ def _style():
         "font.size": 8.5, "axes.titlesize": 9, "axes.labelsize": 8.5, "xtick.labelsize": 7.5,
         "ytick.labelsize": 7.5, "legend.fontsize": 7.5, "axes.spines.top": False, "axes.spines.right": False,
         "axes.edgecolor": "#555555", "axes.labelcolor": "#222222", "xtick.color": "#444444",
-        "ytick.color": "#444444", "text.color": "#222222", "svg.fonttype": "none",
+        "ytick.color": "#444444", "text.color": "#222222",
     })
 
 
@@ -256,6 +252,16 @@ def _overview(path: Path, max_side: int = 700, categorical: bool = False):
     return np.ma.filled(a.astype("float64"), np.nan), (b.left, b.right, b.bottom, b.top), geographic
 
 
+def _map_height(extent, geographic, width=6.0, colorbar=True) -> float:
+    """Figure height [in] that fits the map's aspect without blank bands (axes width is the figure's
+    width less the y labels and, with one, the colour bar)."""
+    w = extent[1] - extent[0]
+    h = (extent[3] - extent[2]) * (1.0 / max(math.cos(math.radians(0.5 * (extent[2] + extent[3]))), 1e-3)
+                                   if geographic else 1.0)
+    axes_w = width - (1.9 if colorbar else 1.0)
+    return float(np.clip(axes_w * h / w + 0.75, 2.5, 8.0)) if w > 0 else 4.8
+
+
 def _map_axes(ax, extent, geographic, zone_layers, label_zones):
     from matplotlib import patheffects
 
@@ -275,7 +281,9 @@ def _map_axes(ax, extent, geographic, zone_layers, label_zones):
                 if geom is None or geom.is_empty:
                     continue
                 p = geom.representative_point()
-                ax.text(p.x, p.y, _mpl(zid), fontsize=6.5, color=colour, ha="center", va="center",
+                frac = (p.x - extent[0]) / (extent[1] - extent[0]) if extent[1] > extent[0] else 0.5
+                ha = "right" if frac > 0.8 else "left" if frac < 0.2 else "center"
+                ax.text(p.x, p.y, _mpl(zid), fontsize=6.5, color=colour, ha=ha, va="center",
                         path_effects=[patheffects.withStroke(linewidth=2.2, foreground="white")], clip_on=True)
     if handles:
         ax.legend(handles=handles, loc="lower right", frameon=True, framealpha=0.9, title="zone layers",
@@ -297,7 +305,7 @@ def map_figure(path: Path, label: str, unit: str, cmap: str, zone_layers=(), lab
         return None
     arr, extent, geographic = _overview(path)
     with _style():
-        fig = _figure(6.0, 4.9)
+        fig = _figure(6.0, _map_height(extent, geographic))
         ax = fig.add_subplot()
         finite = arr[np.isfinite(arr)]
         vmax = float(np.percentile(finite, 98)) if finite.size else 1.0
@@ -318,7 +326,7 @@ def method_map_figure(path: Path, zone_layers=(), label_zones=False) -> str | No
     arr, extent, geographic = _overview(path, categorical=True)
     arr[arr == 0] = np.nan
     with _style():
-        fig = _figure(6.0, 4.9)
+        fig = _figure(5.4, _map_height(extent, geographic, width=5.4, colorbar=False))
         ax = fig.add_subplot()
         cmap = ListedColormap([METHOD_COLOURS[m] for m in METHOD_CODES])
         ax.imshow(arr, extent=extent, cmap=cmap, norm=BoundaryNorm([0.5, 1.5, 2.5, 3.5], 3), interpolation="nearest")
@@ -351,8 +359,9 @@ def _chart_rows(rows, key=lambda r: (r.get("carbon_smouldering_t") or 0) + (r.ge
     return layers, cut
 
 
-def zone_chart(rows: list[dict]) -> str | None:
-    """Carbon per zone, smouldering and flaming side by side, with 95 % interval bars when present."""
+def zone_chart(rows: list[dict], flaming: bool = True) -> str | None:
+    """Carbon per zone, smouldering and flaming side by side, with 95 % interval bars when present
+    (smouldering only when ``flaming`` is False: flaming was not estimated)."""
     layers, _ = _chart_rows(rows)
     if not layers:
         return None
@@ -362,24 +371,26 @@ def zone_chart(rows: list[dict]) -> str | None:
         axes = fig.subplots(len(n), 1, sharex=True, gridspec_kw={"height_ratios": n}, squeeze=False)[:, 0]
         for ax, (layer, rs) in zip(axes, layers.items()):
             y = np.arange(len(rs))
-            for off, phase, label in ((-0.2, "smouldering", "below ground (smouldering peat)"),
-                                      (0.2, "flaming", "above ground (flaming vegetation)")):
+            bars = ((-0.2, "smouldering", "below ground (smouldering peat)"),
+                    (0.2, "flaming", "above ground (flaming vegetation)")) if flaming else (
+                (0.0, "smouldering", "below ground (smouldering peat)"),)
+            for off, phase, label in bars:
                 key = f"carbon_{phase}_t"
                 v = np.array([_finite(r.get(key)) or 0.0 for r in rs])
                 lo = np.array([_finite(r.get(f"{key}_lo")) for r in rs], dtype=float)
                 hi = np.array([_finite(r.get(f"{key}_hi")) for r in rs], dtype=float)
                 err = None
                 if np.isfinite(lo).any():
-                    err = np.vstack([np.clip(v - np.nan_to_num(lo, nan=v), 0, None),
-                                     np.clip(np.nan_to_num(hi, nan=v) - v, 0, None)])
-                ax.barh(y + off, v, height=0.38, color=PHASE_COLOURS[phase], label=label, xerr=err,
-                        error_kw={"ecolor": "#222222", "elinewidth": 0.8, "capsize": 2})
+                    err = np.vstack([np.clip(v - np.where(np.isfinite(lo), lo, v), 0, None),
+                                     np.clip(np.where(np.isfinite(hi), hi, v) - v, 0, None)])
+                ax.barh(y + off, v, height=0.38 if flaming else 0.6, color=PHASE_COLOURS[phase], label=label,
+                        xerr=err, error_kw={"ecolor": "#222222", "elinewidth": 0.8, "capsize": 2})
             ax.set_yticks(y, [_mpl(r["zone"]) for r in rs])
             ax.set_ylim(len(rs) - 0.5, -0.5)
             ax.set_title(_mpl(f"zone layer: {layer}"), loc="left")
             ax.grid(axis="x", color="#dddddd", linewidth=0.6)
             ax.set_axisbelow(True)
-        axes[0].legend(loc="lower right", frameon=True, framealpha=0.9)
+        fig.legend(*axes[0].get_legend_handles_labels(), loc="outside upper center", ncols=2, frameon=False)
         axes[-1].set_xlabel("carbon released [t C]")
         axes[-1].xaxis.set_major_formatter(_thousands())
         return _png(fig)
@@ -453,7 +464,7 @@ def daily_chart(daily: list[dict]) -> str | None:
             ax.grid(axis="y", color="#dddddd", linewidth=0.6)
             ax.set_axisbelow(True)
             ax.yaxis.set_major_formatter(_thousands())
-        ax1.legend(loc="upper right", frameon=True, framealpha=0.9)
+        fig.legend(*ax1.get_legend_handles_labels(), loc="outside upper center", ncols=2, frameon=False)
         loc = mdates.AutoDateLocator(maxticks=10)
         ax2.xaxis.set_major_locator(loc)
         ax2.xaxis.set_major_formatter(mdates.ConciseDateFormatter(loc))
@@ -461,8 +472,9 @@ def daily_chart(daily: list[dict]) -> str | None:
         return _png(fig)
 
 
-def contribution_chart(contributions: list[tuple[str, float]]) -> str | None:
-    """Share of the variance of the run's total carbon by uncertainty source."""
+def contribution_chart(contributions: list[tuple[str, float]],
+                       quantity: str = "below-ground carbon [t C]") -> str | None:
+    """Share of the variance of the run's total of ``quantity`` by uncertainty source."""
     if not contributions:
         return None
     items = sorted(contributions, key=lambda kv: -kv[1])
@@ -473,7 +485,7 @@ def contribution_chart(contributions: list[tuple[str, float]]) -> str | None:
         ax.barh(y, [100.0 * v for _, v in items], height=0.6, color=OKABE_ITO_NAMED["bluish_green"])
         ax.set_yticks(y, [_mpl(_pretty(k)) for k, _ in items])
         ax.set_ylim(len(items) - 0.5, -0.5)
-        ax.set_xlabel("share of the variance of the run's below-ground carbon [%]")
+        ax.set_xlabel(_mpl(f"share of the variance of the run total of {quantity.split(' [')[0]} [%]"))
         ax.grid(axis="x", color="#dddddd", linewidth=0.6)
         ax.set_axisbelow(True)
         return _png(fig)
@@ -481,6 +493,22 @@ def contribution_chart(contributions: list[tuple[str, float]]) -> str | None:
 
 def _pretty(key) -> str:
     return str(key).replace("_", " ")
+
+
+_SUFFIX_UNITS = [("_kg_per_mj", "kg/MJ"), ("_t_per_ha", "t/ha"), ("_m_per_yr", "m/yr"), ("_g_per_kg", "g/kg"),
+                 ("_years", "yr"), ("_m2", "m²"), ("_mj", "MJ"), ("_ha", "ha"), ("_kg", "kg"), ("_m", "m"),
+                 ("_s", "s"), ("_t", "t")]
+
+
+def _label_with_unit(key) -> str:
+    """``"event_distance_m" -> "event distance [m]"``, ``"n_events" -> "events [count]"``."""
+    key = str(key)
+    if key.startswith("n_"):
+        return f"{_pretty(key[2:])} [count]"
+    for suffix, unit in _SUFFIX_UNITS:
+        if key.endswith(suffix) and len(key) > len(suffix):
+            return f"{_pretty(key[: -len(suffix)])} [{unit}]"
+    return _pretty(key)
 
 
 # ----------------------------------------------------------------------------- context
@@ -658,13 +686,62 @@ def uncertainty_contributions(unc) -> list[tuple[str, float]]:
     return out
 
 
+def _value_text(v) -> str:
+    if isinstance(v, dict):
+        return "; ".join(f"{_label_with_unit(k)}: {_value_text(x)}" for k, x in v.items())
+    if isinstance(v, (list, tuple)):
+        return "[" + ", ".join(_value_text(x) for x in v) + "]"
+    if isinstance(v, float):
+        return fmt_num(v)
+    return "–" if v is None else str(v)
+
+
+def _uncertainty_sources(unc) -> list[dict]:
+    """The drawn sources (``totals["uncertainty"]["sources"]``: name, distribution, parameters,
+    citation, note), as text; [] when absent or not a list of mappings."""
+    src = unc.get("sources") if isinstance(unc, dict) else None
+    if not isinstance(src, list):
+        return []
+    return [{"name": _pretty(s.get("name", "")), "distribution": str(s.get("distribution") or ""),
+             "parameters": _value_text(s.get("parameters") or {}), "citation": str(s.get("citation") or ""),
+             "note": str(s.get("note") or "")} for s in src if isinstance(s, dict)]
+
+
+def _contributions_by_zone(unc) -> dict | None:
+    """``layer -> zone -> source -> share`` (``totals["uncertainty"]["contributions_by_zone"]``) as a
+    table of percentages; None when absent or of another shape."""
+    by = unc.get("contributions_by_zone") if isinstance(unc, dict) else None
+    if not isinstance(by, dict):
+        return None
+    sources: list[str] = []
+    groups = []
+    for layer, zones in by.items():
+        if not isinstance(zones, dict):
+            return None
+        rows = []
+        for zone, shares in zones.items():
+            if not isinstance(shares, dict):
+                return None
+            for k in shares:
+                if k not in sources:
+                    sources.append(k)
+            rows.append((zone, shares))
+        groups.append((layer, rows))
+    if not sources:
+        return None
+    return {"sources": [_pretty(k) for k in sources],
+            "groups": [{"layer": layer, "rows": [{"zone": z, "outside": z == OUTSIDE,
+                                                   "cells": [fmt_pct(sh.get(k)) for k in sources]} for z, sh in rows]}
+                       for layer, rows in groups]}
+
+
 def _uncertainty_items(unc) -> tuple[list[tuple[str, str]], list[str]]:
-    """Scalar facts and texts of the uncertainty record, other than the contributions."""
+    """Scalar facts and texts of the uncertainty record, other than the contributions and sources."""
     if not isinstance(unc, dict):
         return [], []
     items, texts = [], []
     for k, v in unc.items():
-        if k == "contributions":
+        if k in ("contributions", "contributions_by_zone", "contributions_quantity", "sources"):
             continue
         if isinstance(v, (str, int, float, bool)) or v is None:
             if isinstance(v, str) and len(v) > 80:
@@ -676,7 +753,8 @@ def _uncertainty_items(unc) -> tuple[list[tuple[str, str]], list[str]]:
         elif isinstance(v, dict):
             for k2, v2 in v.items():
                 if isinstance(v2, (str, int, float)) and not isinstance(v2, bool):
-                    items.append((f"{_pretty(k)}: {_pretty(k2)}", fmt_num(v2) if isinstance(v2, float) else str(v2)))
+                    items.append((f"{_pretty(k)}: {_label_with_unit(k2)}",
+                                  fmt_num(v2) if isinstance(v2, float) else str(v2)))
     return items, texts
 
 
@@ -697,7 +775,7 @@ def _factor_set(fs, role: str, used: bool) -> dict:
         "role": role, "used": used, "name": getattr(fs, "name", "?"), "citation": getattr(fs, "citation", ""),
         "doi": getattr(fs, "doi", None) or "", "notes": getattr(fs, "notes", "") or "",
         "source_path": getattr(fs, "source_path", None) or "", "mce": mce,
-        "rows": [{"gas": g.upper().replace("_", "-"), "ef": fmt_num(v, 4), "sd": fmt_num(sd.get(g)),
+        "rows": [{"gas": g.upper().replace("_", "-"), "ef": fmt_plain(v), "sd": fmt_plain(sd.get(g)),
                   "citation": cites.get(g, ""), "status": status.get(g, "")} for g, v in ef.items()],
         "any_recalled": any(s == "recalled" for s in status.values()),
     }
@@ -735,6 +813,14 @@ def _zone_frames(cfg, crs) -> list:
     return out
 
 
+def _quantity_label(unc) -> str:
+    q = unc.get("contributions_quantity") if isinstance(unc, dict) else None
+    for key, label, unit in ZONE_TABLE + GAS_TABLE:
+        if key == q:
+            return f"{label.lower()} [{unit}]"
+    return _pretty(q) if q else "below-ground carbon [t C]"
+
+
 def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = None) -> dict:
     """Everything the template shows, as plain strings, numbers and lists (no file is written).
 
@@ -763,10 +849,10 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
         "carbon": map_figure(out_dir / "carbon_smouldering.tif", "carbon released below ground", "kg C m⁻²",
                              "viridis", zone_frames, label_zones),
         "method_map": method_map_figure(out_dir / "depth_method.tif", zone_frames, label_zones),
-        "zones": zone_chart(result.zones),
+        "zones": zone_chart(result.zones, flaming=flaming_estimated),
         "methods": method_share_chart(result.zones),
         "daily": daily_chart(result.daily),
-        "contributions": contribution_chart(contributions),
+        "contributions": contribution_chart(contributions, _quantity_label(unc)),
     }
 
     depth_methods = []
@@ -778,11 +864,15 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
     flaming_params = []
     for k, v in params.items():
         if isinstance(v, dict):
+            counts = all(isinstance(x, int) for x in v.values())
             v = ", ".join(f"{_pretty(k2)}: {fmt_num(v2) if isinstance(v2, float) else v2}" for k2, v2 in v.items())
-        flaming_params.append((_pretty(k), fmt_num(v) if isinstance(v, float) else str(v)))
+            flaming_params.append((f"{_pretty(k)}{' [count]' if counts else ''}", v))
+        else:
+            flaming_params.append((_label_with_unit(k), fmt_num(v) if isinstance(v, float) else str(v)))
 
     inventory = [{"year": str(r.get("year", "")), "phase": r.get("phase", ""), "gas": r.get("gas", ""),
-                  "v": fmt_num(r.get("emissions_gg")), "r": fmt_range(r.get("emissions_gg_lo"), r.get("emissions_gg_hi"))}
+                  "v": fmt_num(r.get("emissions_gg")),
+                  "r": fmt_range(r.get("emissions_gg_lo"), r.get("emissions_gg_hi"))}
                  for r in result.inventory or []]
 
     gwp = getattr(factors, "gwp", None)
@@ -805,7 +895,8 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
         "cautions": [str(c) for c in totals.get("cautions") or []],
         "notes": [str(n) for n in totals.get("notes") or []],
         "figures": figures, "zones_cut": zones_cut, "max_chart_zones": MAX_CHART_ZONES,
-        "zone_table": _table(result.zones, ZONE_TABLE), "gas_table": _table(result.zones, GAS_TABLE),
+        "zone_table": _table(result.zones, [c for c in ZONE_TABLE if flaming_estimated or "flaming" not in c[0]]),
+        "gas_table": _table(result.zones, [c for c in GAS_TABLE if flaming_estimated or "flaming" not in c[0]]),
         "frp_table": _table(result.zones, FRP_TABLE) if frp_route else None,
         "daily_days": len({r["date"] for r in result.daily or []}),
         "depth_methods": depth_methods, "unestimated": fmt_num(method.get("unestimated_area_ha")),
@@ -822,12 +913,13 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
         "field_plots": _field_plots(totals.get("field_plots")),
         "uncertainty": {"present": isinstance(unc, dict), "contributions": [(_pretty(k), fmt_pct(v)) for k, v in
                                                                           sorted(contributions, key=lambda kv: -kv[1])],
-                        "facts": unc_items, "texts": unc_texts},
+                        "quantity": _quantity_label(unc), "by_zone": _contributions_by_zone(unc),
+                        "sources": _uncertainty_sources(unc), "facts": unc_items, "texts": unc_texts},
         "inventory": inventory,
         "factor_sets": factor_sets,
         "gwp": {"name": getattr(gwp, "name", ""), "citation": getattr(gwp, "citation", ""),
                 "status": getattr(gwp, "status", ""),
-                "table": [(g.upper(), fmt_num(v, 4)) for g, v in (getattr(gwp, "gwp", {}) or {}).items()]},
+                "table": [(g.upper(), fmt_plain(v)) for g, v in (getattr(gwp, "gwp", {}) or {}).items()]},
         "references": REFERENCES,
         "provenance": {"inputs": inputs, "versions": versions, "grid": _grid(prov.get("grid") or {}),
                        "config_file": prov.get("config_file") or "", "outputs": prov.get("outputs") or [],

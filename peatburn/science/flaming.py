@@ -72,7 +72,7 @@ __all__ = [
 #: abstract, checked, gives 14 +/- 3 % of the fuel's heat radiated and r^2 = 0.98 for fuel mass
 #: against FRE, not the slope). The value 0.368 kg/MJ agrees with several public secondary
 #: copies that cite Wooster et al. (2005).
-WOOSTER_2005_COEFFICIENT = 0.368
+WOOSTER_2005_COEFFICIENT = 0.368  # kg/MJ, Wooster et al. 2005 (recalled, unchecked)
 
 #: Standard error of :data:`WOOSTER_2005_COEFFICIENT` [kg/MJ] (Wooster et al. 2005; recalled,
 #: unchecked: neither the value nor whether it is a standard error or a standard deviation was

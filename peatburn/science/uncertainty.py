@@ -64,6 +64,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import ConfigError, PhysicalRangeError
+from .flaming import WOOSTER_2005_COEFFICIENT, WOOSTER_2005_COEFFICIENT_SD
 
 __all__ = [
     "Source",
@@ -106,7 +107,7 @@ DEFAULT_SUBSIDENCE_RATE_SD = 0.01
 DEFAULT_BULK_DENSITY_CV = 0.15
 
 #: Mean fuel carbon fraction of tropical peat, 0.560 (Hu et al. 2018, abstract, checked).
-DEFAULT_CARBON_FRACTION = 0.56
+DEFAULT_CARBON_FRACTION = 0.56  # Hu et al. 2018 (abstract, checked)
 #: Standard deviation of the run-wide carbon fraction: 0.03 (about 5 % of 0.56). Assumption: the
 #: abstract of Hu et al. (2018) gives the mean, not its spread.
 DEFAULT_CARBON_FRACTION_SD = 0.03
@@ -117,10 +118,10 @@ DEFAULT_EF_CV = 0.5
 
 #: Combustion coefficient of fire radiative energy [kg/MJ], Wooster et al. (2005) (recalled,
 #: unchecked; the same value as ``peatburn.science.flaming.WOOSTER_2005_COEFFICIENT``).
-DEFAULT_FRE_COEFFICIENT = 0.368
+DEFAULT_FRE_COEFFICIENT = WOOSTER_2005_COEFFICIENT  # Wooster et al. 2005 (recalled, unchecked)
 #: Its spread [kg/MJ], Wooster et al. (2005) (recalled, unchecked; whether it is a standard error
 #: or a standard deviation is unchecked).
-DEFAULT_FRE_COEFFICIENT_SD = 0.015
+DEFAULT_FRE_COEFFICIENT_SD = WOOSTER_2005_COEFFICIENT_SD  # Wooster et al. 2005 (recalled, unchecked)
 
 #: Coefficient of variation of above-ground biomass [-] for the area-based flaming route: 0.3
 #: (assumption; biomass maps and IPCC defaults disagree by tens of percent).
