@@ -7,7 +7,6 @@ survey pixel qualifies. The fit itself is :func:`peatburn.science.water_table.fi
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass, field
 from pathlib import Path
 

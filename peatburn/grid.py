@@ -123,7 +123,7 @@ class RunGrid:
         area on the projection plane). Geographic CRS: geodesic area of each pixel on the CRS's
         ellipsoid (pyproj.Geod, Karney 2013), which depends only on the row.
         """
-        h, w = int(window.height), int(window.width)
+        h = int(window.height)
         if not self.crs.is_geographic:
             unit = self.crs.linear_units_factor[1] if self.crs.linear_units else 1.0
             area = abs(self.transform.a * self.transform.e - self.transform.b * self.transform.d) * unit**2

@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import math
 import uuid
-import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 

@@ -120,8 +120,6 @@ def test_water_table_with_wrong_sign_is_refused(tmp_path):
     """Water-table depths given as elevations of the water (negative below the surface) instead of
     depths below the surface: a one-line error that names the input."""
     s = make_scene(tmp_path / "s", zones=False)
-    with rasterio.open(s.folder / "thickness.tif") as ds:
-        prof = ds.profile
     import csv
 
     with open(s.folder / "stations.csv", "w", newline="") as fh:

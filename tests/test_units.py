@@ -1,6 +1,5 @@
 """Quantities at the boundaries: parsing, dimensions, documented units."""
 
-import pint
 import pytest
 
 from peatburn.errors import UnitError

@@ -1,7 +1,6 @@
 """Burn depth where no survey exists: the water-table model fitted on surveyed scars recovers the
 carbon of the scar the post-fire survey missed (invented demo region at reduced size, known truth)."""
 
-import json
 
 import numpy as np
 import pytest

@@ -1,6 +1,5 @@
 """Zone sums by rasterize + bincount, with overlapping polygons."""
 
-import geopandas as gpd
 import numpy as np
 import shapely
 from hypothesis import given, settings

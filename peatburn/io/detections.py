@@ -35,10 +35,7 @@ files: a line or polygon), ``"outside run area"`` (outside ``bounds``).
 
 from __future__ import annotations
 
-import csv
 import os
-import re
-import warnings
 from dataclasses import dataclass, field
 
 import geopandas as gpd
@@ -46,8 +43,9 @@ import numpy as np
 import pandas as pd
 import shapely
 
-from ..errors import ConfigError, CRSError, InputFileError, MissingInputError
+from ..errors import ConfigError, CRSError, MissingInputError
 from ..grid import normalise_crs
+from .point_tables import numeric_column, read_point_table
 
 __all__ = ["Detections", "read_detections", "OUR_COLUMNS", "REJECT_REASONS"]
 
@@ -58,7 +56,6 @@ OUR_COLUMNS = ("x", "y", "lon", "lat", "time", "frp_mw")
 REJECT_REASONS = ("no time", "bad time", "negative or missing FRP", "no position", "not a point",
                   "outside run area")
 
-_CSV_SUFFIXES = (".csv", ".txt", ".tsv")
 _EPOCH = pd.Timestamp(0, tz="UTC")
 
 
@@ -104,43 +101,6 @@ class Detections:
 
 
 # ----------------------------------------------------------------------------- reading
-
-
-def _read_table(path: str, what: str) -> tuple[pd.DataFrame, object]:
-    """The file's rows as a (Geo)DataFrame, and its CRS (None for a CSV or a vector without one)."""
-    if path.lower().endswith(_CSV_SUFFIXES):
-        try:
-            with open(path, newline="", encoding="utf-8-sig") as fh:
-                sample = fh.read(64 * 1024)
-            try:
-                sep = csv.Sniffer().sniff(sample, delimiters=",;\t").delimiter
-            except csv.Error:
-                sep = ","
-            frame = pd.read_csv(path, sep=sep, dtype=str, keep_default_na=True, skipinitialspace=True,
-                                encoding="utf-8-sig")
-        except pd.errors.EmptyDataError:
-            raise InputFileError(f"{what}: {path} is empty; it needs a header row "
-                                 f"(x,y,time,frp_mw or lon,lat,time,frp_mw) and one row per detection") from None
-        except (UnicodeDecodeError, pd.errors.ParserError, OSError) as exc:
-            raise InputFileError(f"{what}: cannot read {path} as CSV ({str(exc).splitlines()[0]}); "
-                                 f"save it as UTF-8 CSV with a header row") from None
-        frame.columns = [str(c).strip() for c in frame.columns]
-        return frame, None
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            frame = gpd.read_file(path)
-    except Exception as exc:  # pyogrio raises its own error kinds
-        raise InputFileError(f"{what}: cannot read {path} as a CSV or vector file "
-                             f"({str(exc).splitlines()[0]}); give a .csv file or a point layer "
-                             f"(GeoPackage, shapefile, GeoJSON)") from None
-    try:
-        has_geometry = isinstance(frame, gpd.GeoDataFrame) and frame.geometry is not None
-    except AttributeError:  # a GeoDataFrame without an active geometry column
-        has_geometry = False
-    if not has_geometry:
-        raise InputFileError(f"{what}: {path} has no geometry; give points, or a CSV with x, y or lon, lat")
-    return frame, frame.crs
 
 
 def _check_mapping(columns, path: str, what: str, existing: list[str]) -> dict:
@@ -200,15 +160,6 @@ def _parse_time(frame: pd.DataFrame, cols) -> tuple[pd.Series, np.ndarray, np.nd
     return parsed, missing, bad
 
 
-def _numeric(frame: pd.DataFrame, col) -> np.ndarray:
-    if col is None:
-        return np.full(len(frame), np.nan)
-    values = frame[col]
-    if not pd.api.types.is_numeric_dtype(values.dtype):
-        values = values.astype("string").str.strip()
-    return pd.to_numeric(values, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
-
-
 def read_detections(path, run_crs, *, crs=None, columns: dict | None = None, bounds=None,
                     what: str = "flaming.detections") -> Detections:
     """Read active-fire detections, reject bad rows (counted by reason), reproject to the run CRS.
@@ -252,7 +203,7 @@ def read_detections(path, run_crs, *, crs=None, columns: dict | None = None, bou
     if not os.path.exists(path):
         raise MissingInputError(f"{what}: file not found: {path}; check the path (paths are relative to the config file)")
     dst = normalise_crs(run_crs, "run grid")
-    frame, file_crs = _read_table(path, what)
+    frame, file_crs = read_point_table(path, what, "x,y,time,frp_mw or lon,lat,time,frp_mw", "detection")
     is_vector = isinstance(frame, gpd.GeoDataFrame)
     existing = [str(c) for c in frame.columns if not (is_vector and c == frame.geometry.name)]
     mapping = _check_mapping(columns, path, what, existing)
@@ -300,13 +251,13 @@ def read_detections(path, run_crs, *, crs=None, columns: dict | None = None, bou
                                f"flaming.crs (e.g. crs = \"EPSG:32749\"), or give lon, lat columns "
                                f"(EPSG:4326) instead")
             src = normalise_crs(crs, f"{what}: crs")
-            xs, ys = _numeric(frame, xc), _numeric(frame, yc)
+            xs, ys = numeric_column(frame, xc), numeric_column(frame, yc)
             lonlat = False
         elif have_ll:
             src = normalise_crs("EPSG:4326", what)
             if crs is not None:
                 notes.append("lon, lat columns are EPSG:4326; flaming.crs applies to x, y columns only")
-            xs, ys = _numeric(frame, lonc), _numeric(frame, latc)
+            xs, ys = numeric_column(frame, lonc), numeric_column(frame, latc)
             lonlat = True
         else:
             raise ConfigError(f"{what}: {path} has no position columns (x, y or lon, lat); its columns are: "
@@ -323,7 +274,7 @@ def read_detections(path, run_crs, *, crs=None, columns: dict | None = None, bou
     # --- time and FRP
     times, no_time, bad_time = _parse_time(frame, time_col)
     notes.append("times without a UTC offset were read as UTC")
-    frp = _numeric(frame, frp_col)
+    frp = numeric_column(frame, frp_col)
     bad_frp = ~np.isfinite(frp) | (frp < 0)
 
     # --- reproject what has a position

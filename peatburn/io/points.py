@@ -33,9 +33,7 @@ its edge) are counted in :attr:`Points.n_outside` and listed in the notes.
 
 from __future__ import annotations
 
-import csv
 import os
-import warnings
 from dataclasses import dataclass, field
 
 import geopandas as gpd
@@ -43,15 +41,15 @@ import numpy as np
 import pandas as pd
 import shapely
 
-from ..errors import ConfigError, CRSError, InputFileError, MissingInputError
+from ..errors import ConfigError, CRSError, MissingInputError
 from ..grid import normalise_crs
+from .point_tables import numeric_column, read_point_table
 
 __all__ = ["Points", "read_points", "REJECT_REASONS"]
 
 #: Reasons a row is rejected, in the order they are checked.
 REJECT_REASONS = ("no value", "no position", "bad date", "outside grid")
 
-_CSV_SUFFIXES = (".csv", ".txt", ".tsv")
 _LON_NAMES = ("lon", "longitude", "long")
 _LAT_NAMES = ("lat", "latitude")
 
@@ -100,42 +98,6 @@ class Points:
         return text + (f", {self.n_rejected} rejected ({'; '.join(parts)})" if parts else "")
 
 
-def _read_table(path: str, what: str):
-    """The file's rows as a (Geo)DataFrame, and its CRS (None for a CSV or a vector without one)."""
-    if path.lower().endswith(_CSV_SUFFIXES):
-        try:
-            with open(path, newline="", encoding="utf-8-sig") as fh:
-                sample = fh.read(64 * 1024)
-            try:
-                sep = csv.Sniffer().sniff(sample, delimiters=",;\t").delimiter
-            except csv.Error:
-                sep = ","
-            frame = pd.read_csv(path, sep=sep, dtype=str, keep_default_na=True, skipinitialspace=True,
-                                encoding="utf-8-sig")
-        except pd.errors.EmptyDataError:
-            raise InputFileError(f"{what}: {path} is empty; it needs a header row (x,y,value or lon,lat,value) "
-                                 f"and one row per point") from None
-        except (UnicodeDecodeError, pd.errors.ParserError, OSError) as exc:
-            raise InputFileError(f"{what}: cannot read {path} as CSV ({str(exc).splitlines()[0]}); "
-                                 f"save it as UTF-8 CSV with a header row") from None
-        frame.columns = [str(c).strip() for c in frame.columns]
-        return frame, None
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            frame = gpd.read_file(path)
-    except Exception as exc:  # pyogrio raises its own error kinds
-        raise InputFileError(f"{what}: cannot read {path} as a CSV or vector file ({str(exc).splitlines()[0]}); "
-                             f"give a .csv file or a point layer (GeoPackage, shapefile, GeoJSON)") from None
-    try:
-        has_geometry = isinstance(frame, gpd.GeoDataFrame) and frame.geometry is not None
-    except AttributeError:  # a GeoDataFrame without an active geometry column
-        has_geometry = False
-    if not has_geometry:
-        raise InputFileError(f"{what}: {path} has no geometry; give points, or a CSV with x, y or lon, lat columns")
-    return frame, frame.crs
-
-
 def _column(name: str, existing: list[str]):
     """The file's column for ``name``: same name, else the same name ignoring case (if unique)."""
     if name in existing:
@@ -150,13 +112,6 @@ def _first_of(names, existing):
         if col is not None:
             return col
     return None
-
-
-def _numeric(frame: pd.DataFrame, col) -> np.ndarray:
-    values = frame[col]
-    if not pd.api.types.is_numeric_dtype(values.dtype):
-        values = values.astype("string").str.strip()
-    return pd.to_numeric(values, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
 
 
 def _parse_dates(raw: pd.Series) -> tuple[pd.Series, np.ndarray]:
@@ -220,7 +175,7 @@ def read_points(path, run_crs, *, value_column: str, crs=None, x: str = "x", y: 
         raise MissingInputError(f"{what}: file not found: {path}; "
                                 f"check the path (paths are relative to the config file)")
     dst = normalise_crs(run_crs, "run grid")
-    frame, file_crs = _read_table(path, what)
+    frame, file_crs = read_point_table(path, what)
     is_vector = isinstance(frame, gpd.GeoDataFrame)
     existing = [str(c) for c in frame.columns if not (is_vector and c == frame.geometry.name)]
     listing = ", ".join(existing) or "(none)"
@@ -268,12 +223,12 @@ def read_points(path, run_crs, *, value_column: str, crs=None, x: str = "x", y: 
                 raise CRSError(f"{what}: {path} gives positions as {x}, {y} but no CRS for them; give crs "
                                f"(e.g. crs = \"EPSG:32749\"), or give lon, lat columns (EPSG:4326) instead")
             src = normalise_crs(crs, f"{what}: crs")
-            xs, ys = _numeric(frame, xc), _numeric(frame, yc)
+            xs, ys = numeric_column(frame, xc), numeric_column(frame, yc)
         elif lonc is not None and latc is not None:
             src = normalise_crs("EPSG:4326", what)
             if crs is not None:
                 notes.append("lon, lat columns are EPSG:4326; crs applies to x, y columns only")
-            xs, ys = _numeric(frame, lonc), _numeric(frame, latc)
+            xs, ys = numeric_column(frame, lonc), numeric_column(frame, latc)
         else:
             raise ConfigError(f"{what}: {path} has no position columns ({x}, {y} with a crs, or lon, lat); "
                               f"its columns are: {listing}")
@@ -284,7 +239,7 @@ def read_points(path, run_crs, *, value_column: str, crs=None, x: str = "x", y: 
             no_pos |= (np.abs(ys) > 90) | (xs < -180) | (xs > 360)
 
     # --- value and date
-    values = _numeric(frame, vcol)
+    values = numeric_column(frame, vcol)
     no_value = ~np.isfinite(values)
     bad_date = np.zeros(n, dtype=bool)
     dates = None

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 import os
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 import rasterio
@@ -17,7 +17,7 @@ from affine import Affine
 from rasterio.enums import Resampling
 from rasterio.errors import RasterioIOError
 from rasterio.vrt import WarpedVRT
-from rasterio.windows import Window, from_bounds
+from rasterio.windows import Window
 
 from ..errors import CRSError, GridError, InputFileError, MissingInputError
 from ..grid import RunGrid, normalise_crs
