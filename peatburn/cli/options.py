@@ -24,7 +24,8 @@ config_argument = click.argument("config", type=click.Path(dir_okay=False))
 
 
 def handle_errors(fn):
-    """Turn peatburn errors into one line on stderr and exit status 2 (traceback with --debug)."""
+    """Turn peatburn errors into one line on stderr and exit status 2 (traceback with --debug);
+    unforeseen errors also give one line, with exit status 1."""
 
     @functools.wraps(fn)
     def wrapper(*args, **kwargs):
@@ -37,5 +38,14 @@ def handle_errors(fn):
                 traceback.print_exc()
             click.echo(f"peatburn: error: {exc}", err=True)
             sys.exit(exc.exit_code)
+        except (click.exceptions.Exit, click.ClickException, SystemExit):
+            raise
+        except Exception as exc:  # an error we did not foresee: still one line, exit status 1
+            if debug:
+                traceback.print_exc()
+            first = str(exc).splitlines()[0] if str(exc) else ""
+            click.echo(f"peatburn: unexpected error: {exc.__class__.__name__}: {first} (run with --debug for the "
+                       f"traceback and report it; no output was left half-written)", err=True)
+            sys.exit(1)
 
     return wrapper
