@@ -550,6 +550,10 @@ def _headline(total: dict, totals: dict, gwp_name: str, flaming_estimated: bool,
     return h
 
 
+#: Zones listed per layer in the report's tables (the largest by carbon; all are in zones.csv).
+MAX_TABLE_ZONES = 100
+
+
 def _zone_groups(rows: list[dict]) -> tuple[list[dict], dict | None]:
     groups: list[dict] = []
     total = None
@@ -558,8 +562,16 @@ def _zone_groups(rows: list[dict]) -> tuple[list[dict], dict | None]:
             total = r
             continue
         if not groups or groups[-1]["layer"] != r["layer"]:
-            groups.append({"layer": r["layer"], "rows": []})
+            groups.append({"layer": r["layer"], "rows": [], "more": 0})
         groups[-1]["rows"].append(r)
+    for g in groups:
+        zones = [r for r in g["rows"] if r["zone"] != OUTSIDE]
+        if len(zones) > MAX_TABLE_ZONES:
+            outside = [r for r in g["rows"] if r["zone"] == OUTSIDE]
+            zones.sort(key=lambda r: -((_finite(r.get("carbon_smouldering_t")) or 0)
+                                       + (_finite(r.get("carbon_flaming_t")) or 0)))
+            g["more"] = len(zones) - MAX_TABLE_ZONES
+            g["rows"] = zones[:MAX_TABLE_ZONES] + outside
     return groups, total
 
 
@@ -579,8 +591,9 @@ def _table(rows: list[dict], spec) -> dict:
     groups, total = _zone_groups(rows)
     return {
         "columns": [{"label": label, "unit": unit} for _, label, unit in spec],
-        "groups": [{"layer": g["layer"], "rows": [{"zone": r["zone"], "outside": r["zone"] == OUTSIDE,
-                                                   "cells": _cells(r, spec)} for r in g["rows"]]}
+        "groups": [{"layer": g["layer"], "more": g["more"],
+                    "rows": [{"zone": r["zone"], "outside": r["zone"] == OUTSIDE, "cells": _cells(r, spec)}
+                             for r in g["rows"]]}
                    for g in groups],
         "total": {"zone": "all zones (run total)", "cells": _cells(total, spec)} if total else None,
     }
@@ -726,7 +739,7 @@ def _contributions_by_zone(unc) -> dict | None:
                 if k not in sources:
                     sources.append(k)
             rows.append((zone, shares))
-        groups.append((layer, rows))
+        groups.append((layer, rows[:MAX_TABLE_ZONES] + [r for r in rows[MAX_TABLE_ZONES:] if r[0] == OUTSIDE]))
     if not sources:
         return None
     return {"sources": [_pretty(k) for k in sources],
@@ -894,7 +907,7 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
         "headline": _headline(total, totals, getattr(gwp, "name", ""), flaming_estimated, frp_route),
         "cautions": [str(c) for c in totals.get("cautions") or []],
         "notes": [str(n) for n in totals.get("notes") or []],
-        "figures": figures, "zones_cut": zones_cut, "max_chart_zones": MAX_CHART_ZONES,
+        "figures": figures, "zones_cut": zones_cut, "max_chart_zones": MAX_CHART_ZONES, "max_table_zones": MAX_TABLE_ZONES,
         "zone_table": _table(result.zones, [c for c in ZONE_TABLE if flaming_estimated or "flaming" not in c[0]]),
         "gas_table": _table(result.zones, [c for c in GAS_TABLE if flaming_estimated or "flaming" not in c[0]]),
         "frp_table": _table(result.zones, FRP_TABLE) if frp_route else None,
