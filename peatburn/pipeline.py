@@ -629,7 +629,7 @@ def process_block(plan: RunPlan, window: Window) -> BlockResult:
     else:
         values["biomass_t"] = np.zeros(shape)
     total = {k: float(v.sum()) for k, v in values.items()}
-    zsums = [accumulate(bins, values, z.n_bins) for z, bins in zone_bins]
+    zsums = [accumulate(bins, values, z.n_bins, valid=burned) for z, bins in zone_bins]  # all values 0 outside
     cdens = np.where(estimated, carbon / area, np.nan)
     return BlockResult(window, depth.astype("float32"), cdens.astype("float32"), method, total, zsums)
 

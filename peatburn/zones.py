@@ -84,7 +84,9 @@ def accumulate(bins: list[np.ndarray], values: dict[str, np.ndarray], n_bins: in
                valid: np.ndarray | None = None) -> dict[str, np.ndarray]:
     """Sum each array of ``values`` per bin over all pass rasters in ``bins``.
 
-    NaN values contribute nothing. Returns arrays of length ``n_bins``.
+    Only pixels where ``valid`` is true are visited (pass the burned-area mask when every value is
+    zero outside it: the cost then scales with the burned pixels, not the block). NaN values
+    contribute nothing. Returns arrays of length ``n_bins``.
     """
     sums = {k: np.zeros(n_bins) for k in values}
     for b in bins:
@@ -93,7 +95,8 @@ def accumulate(bins: list[np.ndarray], values: dict[str, np.ndarray], n_bins: in
             continue
         idx = b[sel]
         for k, v in values.items():
-            vv = np.broadcast_to(v, b.shape)[sel]
-            vv = np.where(np.isnan(vv), 0.0, vv)
+            vv = v[sel] if np.shape(v) == b.shape else np.broadcast_to(v, b.shape)[sel]
+            if np.isnan(vv).any():
+                vv = np.where(np.isnan(vv), 0.0, vv)
             sums[k] += np.bincount(idx, weights=vv, minlength=n_bins)[:n_bins]
     return sums
