@@ -88,9 +88,19 @@ def load_factors(cfg: RunConfig) -> Factors:
 
 def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, progress=None,
         scheduler: str | None = None) -> RunResult:
-    """Run ``cfg`` and write zones.csv, totals.json, inventory.csv, burn_depth.tif,
+    """Run ``cfg`` and write zones.csv, totals.json, inventory.csv/json, daily.csv, burn_depth.tif,
     carbon_smouldering.tif, depth_method.tif, provenance.json and report.html into ``out_dir``.
+
+    GDAL's block cache is bounded for the whole run (:func:`peatburn.executors.gdal_env`), so peak
+    memory depends on the block size, not on the raster size.
     """
+    from .executors import gdal_env
+
+    with gdal_env():
+        return _run(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress, scheduler=scheduler)
+
+
+def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, scheduler) -> RunResult:
     out_dir = Path(out_dir)
     prepare_out_dir(out_dir, overwrite)
     factors = load_factors(cfg)

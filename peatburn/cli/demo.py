@@ -35,7 +35,12 @@ def demo_cmd(out_dir, inputs_dir, overwrite, workers, pdf, quiet):
     out = Path(out_dir)
     prepare_out_dir(out, overwrite)
     region = make_demo_region(Path(inputs_dir) if inputs_dir else out / "inputs")
-    result = run(load_config(region.config_path), out / "results", overwrite=True, workers=workers)
+    from ..executors import tune_malloc
+    from ..progress import progress_bar
+
+    tune_malloc()  # block-sized numpy temporaries reuse the heap (docs/performance.md)
+    result = run(load_config(region.config_path), out / "results", overwrite=True, workers=workers,
+                 progress=progress_bar(quiet=quiet))
     if pdf:
         result.files["report_pdf"] = print_pdf(result.files["report"])
     if not quiet:

@@ -24,6 +24,8 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
     refused unless --overwrite is given.
     """
     from ..config import load_config
+    from ..executors import tune_malloc
+    from ..progress import progress_bar
     from ..runner import run
     from .summary import print_summary
 
@@ -32,7 +34,9 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
 
         find_chromium()  # a missing chromium fails before the run, not after it
     cfg = load_config(config)
-    result = run(cfg, out_dir, overwrite=overwrite, workers=workers, scheduler=scheduler)
+    tune_malloc()  # block-sized numpy temporaries reuse the heap (docs/performance.md)
+    result = run(cfg, out_dir, overwrite=overwrite, workers=workers, scheduler=scheduler,
+                 progress=progress_bar(quiet=quiet))
     if pdf:
         result.files["report_pdf"] = print_pdf(result.files["report"])
     if not quiet:
