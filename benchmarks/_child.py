@@ -2,7 +2,8 @@
 
 Tasks
 -----
-run      peatburn.run on a config, with the time of each phase (instrumented from outside).
+run      peatburn.run on a config as `peatburn run` makes it (malloc tuned), with the time and the
+         memory high-water of each phase (instrumented from outside).
 floor    the I/O floor of a survey-only run: read both surveys by blocks, write two float32
          rasters block by block and copy them to COG (the same writer as a run).
 blocks   the CPU-bound part alone: map_blocks(process_block) over every window, results summed
@@ -85,7 +86,7 @@ def _env_for(gdal_env):
     return _env(int(gdal_env) * 2**20)
 
 
-def task_run(config, out, workers=1, gdal_env=False, scheduler=None, block_cache_mib=None):
+def task_run(config, out, workers=1, gdal_env=False, scheduler=None, block_cache_mib=None, cli_malloc=True):
     import peatburn
     import peatburn.io.writers as writers
     import peatburn.outputs.provenance as provenance
@@ -111,6 +112,10 @@ def task_run(config, out, workers=1, gdal_env=False, scheduler=None, block_cache
             return out
 
         runner.coregister = coregister_then_shrink
+    if cli_malloc:
+        from peatburn.executors import tune_malloc
+
+        tune_malloc()  # as `peatburn run` does (peatburn/cli/run.py)
     cfg = peatburn.load_config(config)
     t = time.perf_counter()
     with _env_for(gdal_env):
@@ -127,7 +132,6 @@ def task_floor(config, out, gdal_env=False):
 
     import _common
     from peatburn.config import load_config
-    from peatburn.executors import gdal_env as _env
     from peatburn.grid import RunGrid
     from peatburn.io.writers import BlockRasterWriter
 
@@ -179,7 +183,6 @@ def task_write(n, out, gdal_env=False):
     from affine import Affine
     from rasterio.crs import CRS
 
-    from peatburn.executors import gdal_env as _env
     from peatburn.grid import RunGrid
     from peatburn.io.writers import BlockRasterWriter
 

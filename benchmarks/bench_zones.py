@@ -40,6 +40,7 @@ def main(argv=None) -> dict:
     print(f"  RATIO extra time with zones: whole run {extra:+.0%} (<= 25 %: {c.verdict(extra, 0.25)}); "
           f"block pass {bz / b0 - 1:+.0%}")
     return {"run_0_s": r0["wall_s"], "run_z_s": rz["wall_s"], "extra": extra, "block_extra": bz / b0 - 1,
+
             "phases_z": rz["phases"]}
 
 
