@@ -556,11 +556,11 @@ def process_block(plan: RunPlan, window: Window) -> BlockResult:
     grid = plan.grid
     shape = (int(window.height), int(window.width))
     burned = st["scars"].mask(grid, window)
-    zone_bins = [(z, z.bin_rasters(grid, window)) for z in st["zones"]]
-    if not burned.any():
+    if not burned.any():  # most blocks of a national mosaic: no reads, no zone rasterization
         nan = np.full(shape, np.nan, dtype="float32")
         return BlockResult(window, nan, nan, np.zeros(shape, "uint8"), {k: 0.0 for k in SUM_KEYS},
-                           [{k: np.zeros(z.n_bins) for k in SUM_KEYS} for z, _ in zone_bins])
+                           [{k: np.zeros(z.n_bins) for k in SUM_KEYS} for z in st["zones"]])
+    zone_bins = [(z, z.bin_rasters(grid, window)) for z in st["zones"]]
     area = np.broadcast_to(grid.pixel_area(window), shape)
     rho = np.broadcast_to(_param(st, plan, "bulk_density", window), shape)
     cf = np.broadcast_to(_param(st, plan, "carbon_fraction", window), shape)
