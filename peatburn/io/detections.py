@@ -45,7 +45,7 @@ import shapely
 
 from ..errors import ConfigError, CRSError, MissingInputError
 from ..grid import normalise_crs
-from .point_tables import numeric_column, read_point_table
+from .point_tables import RowCounts, numeric_column, read_point_table
 
 __all__ = ["Detections", "read_detections", "OUR_COLUMNS", "REJECT_REASONS"]
 
@@ -60,7 +60,7 @@ _EPOCH = pd.Timestamp(0, tz="UTC")
 
 
 @dataclass
-class Detections:
+class Detections(RowCounts):
     """Clean active-fire detections in the run CRS, with what was rejected and why.
 
     Attributes
@@ -88,16 +88,7 @@ class Detections:
     n_read: int = 0
     source_crs: str = ""
     notes: list[str] = field(default_factory=list)
-
-    @property
-    def n_rejected(self) -> int:
-        return int(sum(self.rejected.values()))
-
-    def describe(self) -> str:
-        """One line: how many detections were read, kept and rejected (by reason)."""
-        parts = [f"{n} {why}" for why, n in self.rejected.items() if n]
-        text = f"{self.path}: {self.n_read} detection(s) read, {len(self.frame)} kept"
-        return text + (f", {self.n_rejected} rejected ({'; '.join(parts)})" if parts else "")
+    noun = "detection"  # for describe() (a class attribute, not a field)
 
 
 # ----------------------------------------------------------------------------- reading

@@ -17,6 +17,23 @@ from ..errors import InputFileError
 CSV_SUFFIXES = (".csv", ".txt", ".tsv")
 
 
+class RowCounts:
+    """What a point reader kept and rejected: mixed into the readers' result dataclasses, which
+    have ``frame``, ``rejected`` (reason -> count), ``path`` and ``n_read``."""
+
+    noun = "row"
+
+    @property
+    def n_rejected(self) -> int:
+        return int(sum(self.rejected.values()))
+
+    def describe(self) -> str:
+        """One line: rows read, kept and rejected (by reason)."""
+        parts = [f"{n} {why}" for why, n in self.rejected.items() if n]
+        text = f"{self.path}: {self.n_read} {self.noun}(s) read, {len(self.frame)} kept"
+        return text + (f", {self.n_rejected} rejected ({'; '.join(parts)})" if parts else "")
+
+
 def read_point_table(path: str, what: str, header_hint: str = "x,y,value or lon,lat,value",
                      row_name: str = "point") -> tuple[pd.DataFrame, object]:
     """The file's rows as a (Geo)DataFrame, and its CRS (None for a CSV or a vector without one).

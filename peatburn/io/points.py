@@ -43,7 +43,7 @@ import shapely
 
 from ..errors import ConfigError, CRSError, MissingInputError
 from ..grid import normalise_crs
-from .point_tables import numeric_column, read_point_table
+from .point_tables import RowCounts, numeric_column, read_point_table
 
 __all__ = ["Points", "read_points", "REJECT_REASONS"]
 
@@ -55,7 +55,7 @@ _LAT_NAMES = ("lat", "latitude")
 
 
 @dataclass
-class Points:
+class Points(RowCounts):
     """Points in the run CRS with one value each, and what was rejected while reading.
 
     Attributes
@@ -86,16 +86,7 @@ class Points:
     n_outside: int = 0
     source_crs: str = ""
     notes: list[str] = field(default_factory=list)
-
-    @property
-    def n_rejected(self) -> int:
-        return int(sum(self.rejected.values()))
-
-    def describe(self) -> str:
-        """One line: points read, kept and rejected (by reason)."""
-        parts = [f"{n} {why}" for why, n in self.rejected.items() if n]
-        text = f"{self.path}: {self.n_read} point(s) read, {len(self.frame)} kept"
-        return text + (f", {self.n_rejected} rejected ({'; '.join(parts)})" if parts else "")
+    noun = "point"  # for describe() (a class attribute, not a field)
 
 
 def _column(name: str, existing: list[str]):
