@@ -45,7 +45,7 @@ import shapely
 
 from ..errors import ConfigError, CRSError, MissingInputError
 from ..grid import normalise_crs
-from .point_tables import RowCounts, numeric_column, read_point_table
+from .point_tables import RowCounts, numeric_column, outside_bounds, read_point_table, reproject_points
 
 __all__ = ["Detections", "read_detections", "OUR_COLUMNS", "REJECT_REASONS"]
 
@@ -269,23 +269,10 @@ def read_detections(path, run_crs, *, crs=None, columns: dict | None = None, bou
     bad_frp = ~np.isfinite(frp) | (frp < 0)
 
     # --- reproject what has a position
-    out_x = np.full(n, np.nan)
-    out_y = np.full(n, np.nan)
     ok_pos = ~no_pos & ~not_point
-    if ok_pos.any():
-        pts = gpd.GeoSeries(gpd.points_from_xy(xs[ok_pos], ys[ok_pos]), crs=src.to_wkt()).to_crs(dst.to_wkt())
-        out_x[ok_pos] = pts.x.to_numpy()
-        out_y[ok_pos] = pts.y.to_numpy()
+    out_x, out_y = reproject_points(xs, ys, ok_pos, src, dst)
     no_pos |= ok_pos & ~(np.isfinite(out_x) & np.isfinite(out_y))
-
-    outside = np.zeros(n, dtype=bool)
-    if bounds is not None:
-        try:
-            xmin, ymin, xmax, ymax = (float(b) for b in bounds)
-        except (TypeError, ValueError):
-            raise ConfigError(f"{what}: bounds must be (xmin, ymin, xmax, ymax), got {bounds!r}") from None
-        with np.errstate(invalid="ignore"):
-            outside = ~((out_x >= xmin) & (out_x <= xmax) & (out_y >= ymin) & (out_y <= ymax))
+    outside = outside_bounds(out_x, out_y, bounds, what)
 
     # --- one reason per row, in REJECT_REASONS order
     checks = (("no time", no_time), ("bad time", bad_time), ("negative or missing FRP", bad_frp),

@@ -82,3 +82,30 @@ def numeric_column(frame: pd.DataFrame, col) -> np.ndarray:
     if not pd.api.types.is_numeric_dtype(values.dtype):
         values = values.astype("string").str.strip()
     return pd.to_numeric(values, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
+
+
+def reproject_points(xs, ys, ok, src_crs, dst_crs) -> tuple[np.ndarray, np.ndarray]:
+    """x, y of the rows where ``ok`` reprojected from ``src_crs`` to ``dst_crs`` (NaN elsewhere or
+    where the transform fails)."""
+    out_x = np.full(len(xs), np.nan)
+    out_y = np.full(len(xs), np.nan)
+    if ok.any():
+        pts = gpd.GeoSeries(gpd.points_from_xy(xs[ok], ys[ok]), crs=src_crs.to_wkt()).to_crs(dst_crs.to_wkt())
+        out_x[ok] = pts.x.to_numpy()
+        out_y[ok] = pts.y.to_numpy()
+    return out_x, out_y
+
+
+def outside_bounds(x, y, bounds, what: str) -> np.ndarray:
+    """True where a point lies outside ``bounds`` (xmin, ymin, xmax, ymax; edges inside); all False
+    without bounds. NaN positions count as outside."""
+    if bounds is None:
+        return np.zeros(len(x), dtype=bool)
+    try:
+        xmin, ymin, xmax, ymax = (float(b) for b in bounds)
+    except (TypeError, ValueError):
+        from ..errors import ConfigError
+
+        raise ConfigError(f"{what}: bounds must be (xmin, ymin, xmax, ymax), got {bounds!r}") from None
+    with np.errstate(invalid="ignore"):
+        return ~((x >= xmin) & (x <= xmax) & (y >= ymin) & (y <= ymax))

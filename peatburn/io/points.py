@@ -43,7 +43,7 @@ import shapely
 
 from ..errors import ConfigError, CRSError, MissingInputError
 from ..grid import normalise_crs
-from .point_tables import RowCounts, numeric_column, read_point_table
+from .point_tables import RowCounts, numeric_column, outside_bounds, read_point_table, reproject_points
 
 __all__ = ["Points", "read_points", "REJECT_REASONS"]
 
@@ -240,23 +240,10 @@ def read_points(path, run_crs, *, value_column: str, crs=None, x: str = "x", y: 
             notes.append("dates without a UTC offset were read as UTC")
 
     # --- reproject what has a position
-    out_x = np.full(n, np.nan)
-    out_y = np.full(n, np.nan)
     ok_pos = ~no_pos
-    if ok_pos.any():
-        pts = gpd.GeoSeries(gpd.points_from_xy(xs[ok_pos], ys[ok_pos]), crs=src.to_wkt()).to_crs(dst.to_wkt())
-        out_x[ok_pos] = pts.x.to_numpy()
-        out_y[ok_pos] = pts.y.to_numpy()
+    out_x, out_y = reproject_points(xs, ys, ok_pos, src, dst)
     no_pos |= ok_pos & ~(np.isfinite(out_x) & np.isfinite(out_y))
-
-    outside = np.zeros(n, dtype=bool)
-    if bounds is not None:
-        try:
-            xmin, ymin, xmax, ymax = (float(b) for b in bounds)
-        except (TypeError, ValueError):
-            raise ConfigError(f"{what}: bounds must be (xmin, ymin, xmax, ymax), got {bounds!r}") from None
-        with np.errstate(invalid="ignore"):
-            outside = ~no_pos & ~((out_x >= xmin) & (out_x <= xmax) & (out_y >= ymin) & (out_y <= ymax))
+    outside = ~no_pos & outside_bounds(out_x, out_y, bounds, what)
 
     # --- one reason per row, in REJECT_REASONS order
     checks = (("no value", no_value), ("no position", no_pos), ("bad date", bad_date),
