@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 import rasterio
 from affine import Affine
-from rasterio.enums import Resampling
+from rasterio.enums import MaskFlags, Resampling
 from rasterio.errors import RasterioIOError
 from rasterio.vrt import WarpedVRT
 from rasterio.windows import Window
@@ -164,6 +164,9 @@ class GridReader:
             raise InputFileError(f"{source.what}: cannot read {source.path} ({exc})") from None
         self._nodata = self._ds.nodata
         self._offset = _same_grid_offset(self._ds, grid, source.src_transform)
+        flags = self._ds.mask_flag_enums[source.band - 1]
+        # an internal mask or alpha band (not nodata, not "all valid") must be read as such
+        self._mask_band = not ({MaskFlags.nodata, MaskFlags.all_valid} & set(flags))
         self._vrt = None
         if self._offset is None:
             res_src = abs((source.src_transform or self._ds.transform).a)
@@ -183,20 +186,43 @@ class GridReader:
 
     def read(self, window: Window) -> np.ndarray:
         """Values of ``window`` of the run grid [documented unit], NaN where no data."""
-        b = self.source.band
         if self._vrt is None:
-            r0, c0 = self._offset
-            src_win = Window(window.col_off + c0, window.row_off + r0, window.width, window.height)
-            arr = self._ds.read(b, window=src_win, boundless=True, masked=True,
-                                fill_value=self._nodata if self._nodata is not None else 0)
-            if self._nodata is None:
-                # boundless areas are outside the file: mark them missing
-                arr = np.ma.masked_array(arr, mask=_outside_mask(src_win, self._ds.width, self._ds.height))
+            out = self._read_direct(window)
         else:
-            arr = self._vrt.read(b, window=window, masked=True)
-        out = np.ma.filled(arr.astype("float64"), np.nan)
+            # the warped view's nodata is NaN and the warper honours the source's nodata and masks, so
+            # a plain read is already NaN where there is no data (a masked read would run the warper
+            # a second time to build the mask)
+            out = self._vrt.read(self.source.band, window=window)
         if self.source.scale != 1.0:
             out *= self.source.scale
+        return out
+
+    def _read_direct(self, window: Window) -> np.ndarray:
+        """A read on the file's own lattice: the part of the window inside the file, NaN around it.
+
+        Avoids rasterio's boundless read (an extra VRT per call) and its masked read (a second pass
+        over the data for the mask): nodata values are compared directly, and only a file with an
+        internal mask or alpha band has its mask read.
+        """
+        ds, b = self._ds, self.source.band
+        r0, c0 = self._offset
+        row, col = int(window.row_off) + r0, int(window.col_off) + c0
+        h, w = int(window.height), int(window.width)
+        out = np.full((h, w), np.nan)
+        rs, re_ = max(row, 0), min(row + h, ds.height)
+        cs, ce = max(col, 0), min(col + w, ds.width)
+        if rs >= re_ or cs >= ce:
+            return out
+        src_win = Window(cs, rs, ce - cs, re_ - rs)
+        arr = ds.read(b, window=src_win)
+        part = arr.astype("float64")
+        if self._mask_band:
+            part[ds.read_masks(b, window=src_win) == 0] = np.nan
+        elif self._nodata is not None and not math.isnan(self._nodata):
+            nd = np.asarray(self._nodata).astype(arr.dtype)
+            if float(nd) == float(self._nodata):  # a nodata the data type cannot hold marks nothing
+                part[arr == nd] = np.nan
+        out[rs - row:re_ - row, cs - col:ce - col] = part
         return out
 
     def close(self):
@@ -209,12 +235,6 @@ class GridReader:
 
     def __exit__(self, *exc):
         self.close()
-
-
-def _outside_mask(win: Window, width: int, height: int) -> np.ndarray:
-    rows = np.arange(int(win.row_off), int(win.row_off + win.height))
-    cols = np.arange(int(win.col_off), int(win.col_off + win.width))
-    return ((rows < 0) | (rows >= height))[:, None] | ((cols < 0) | (cols >= width))[None, :]
 
 
 def read_on_grid(source: RasterSource, grid: RunGrid) -> np.ndarray:

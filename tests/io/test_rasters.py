@@ -49,6 +49,44 @@ def test_offset_and_partial_cover_read(tmp_path):
     assert (got[5:15, 5:15] == 1).all() and np.isnan(got[15:]).all()
 
 
+def test_internal_mask_integer_nodata_and_no_nodata(tmp_path):
+    """Masks read on the file's lattice and through the warper agree with rasterio's own masked read
+    of the file (the reference): an internal mask band, an integer nodata, and a file without
+    nodata whose edge lies inside the grid (outside the file is missing)."""
+    t = from_origin(1000, 2000, 2, 2)
+    arr = np.arange(20 * 30, dtype="float32").reshape(20, 30)
+    mask = np.full(arr.shape, 255, "uint8")
+    mask[2:6, 3:9] = 0
+    with rasterio.Env(GDAL_TIFF_INTERNAL_MASK=True):
+        with rasterio.open(tmp_path / "m.tif", "w", driver="GTiff", width=30, height=20, count=1, dtype="float32",
+                           crs="EPSG:32749", transform=t) as ds:
+            ds.write(arr, 1)
+            ds.write_mask(mask)
+    ints = (np.arange(20 * 30) % 7).astype("uint8").reshape(20, 30)
+    with rasterio.open(tmp_path / "i.tif", "w", driver="GTiff", width=30, height=20, count=1, dtype="uint8",
+                       crs="EPSG:32749", transform=t, nodata=3) as ds:
+        ds.write(ints, 1)
+    for name in ("m.tif", "i.tif"):
+        with rasterio.open(tmp_path / name) as ds:
+            ref = np.ma.filled(ds.read(1, masked=True).astype("float64"), np.nan)
+        grid = RunGrid(CRS.from_epsg(32749), t, 30, 20)
+        with GridReader(RasterSource(str(tmp_path / name), "x"), grid) as r:
+            np.testing.assert_array_equal(_blocks(r, grid, 8), ref)
+        # the same file through the warper (a shift of whole pixels, nearest): the same mask, moved
+        shifted = RunGrid(CRS.from_epsg(32749), from_origin(1004, 1996, 2, 2), 30, 20)
+        with GridReader(RasterSource(str(tmp_path / name), "x", resampling="nearest",
+                                     src_transform=from_origin(1000.0001, 2000, 2, 2)), shifted) as r:
+            got = _blocks(r, shifted, 8)
+        np.testing.assert_array_equal(got[:-2, :-2], ref[2:, 2:])
+        assert np.isnan(got[-2:]).all() and np.isnan(got[:, -2:]).all()
+    # no nodata at all: every value is data, the part of the grid outside the file is missing
+    _write(tmp_path / "n.tif", np.zeros((10, 10)), from_origin(1010, 1990, 2, 2), nodata=None)
+    grid = RunGrid(CRS.from_epsg(32749), from_origin(1000, 2000, 2, 2), 20, 20)
+    with GridReader(RasterSource(str(tmp_path / "n.tif"), "n"), grid) as r:
+        got = _blocks(r, grid, 7)
+    assert (got[5:15, 5:15] == 0).all() and np.isnan(got[:5]).all() and np.isnan(got[15:, :]).all()
+
+
 def test_windowed_warp_matches_whole_array_reproject(tmp_path):
     """Blocks read through the windowed warper equal rasterio.warp.reproject of the whole array
     (the reference: GDAL's warper run once on everything)."""
