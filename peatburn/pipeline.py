@@ -23,9 +23,9 @@ from .grid import RunGrid
 from .io.rasters import GridReader, RasterSource, check_overlap, grid_from_raster, inspect_raster, read_on_grid
 from .io.vectors import WindowRasterizer, read_polygons, zone_ids
 from .science import coregistration, peat, survey
-from .zones import ZoneLayerIndex, accumulate
+from .zones import ZoneLayerIndex, accumulate_stacked
 
-#: Pixel budget of the co-registration sample (a decimated view of the whole grid).
+#: Pixel budget of the co-registration sample (evenly spread full-resolution windows).
 SAMPLE_PIXELS = 4_000_000
 #: Stable-ground residuals kept for the variogram of the survey error.
 STABLE_SAMPLE_MAX = 50_000
@@ -256,42 +256,70 @@ def _subsidence(cfg: RunConfig, grid: RunGrid, window: Window, sub_src=None):
     return survey.subsidence_lowering(rate, cfg.survey.interval_years)
 
 
+#: Gap of missing pixels between sample windows in the co-registration mosaic: wider than the
+#: reach of the slope kernel and of a resampled shift of a few pixels.
+MOSAIC_GUTTER = 8
+#: Stable pixels the sample windows must hold before the decimated whole view is used instead.
+MIN_WINDOW_STABLE = 10_000
+
+
+@dataclass
+class _SampleWindow:
+    window: Window
+    pre: np.ndarray
+    post_raw: np.ndarray  # post survey + subsidence, before alignment [m]
+    sub: object  # subsidence lowering [m], scalar or array
+    stable: np.ndarray
+
+
 def coregister(inputs: Inputs, random_state: int = 0) -> SurveyAlignment:
-    """Estimate the post survey's shift on a decimated view of the stable ground, then measure the
-    stable-ground spread before and after at full resolution on sample windows.
+    """Estimate the post survey's shift on stable ground and measure the stable-ground spread
+    before and after alignment.
+
+    Both steps use the same evenly spread full-resolution sample windows
+    (:func:`sample_windows`, at most :data:`SAMPLE_PIXELS` pixels), read once: the shift is
+    estimated on a mosaic of them (:func:`_mosaic`), so the cost does not grow with the survey.
+    When the windows hold too little stable ground (a survey mostly outside its grid, say), the
+    shift is estimated on a decimated view of the whole grid instead.
     """
     cfg, grid = inputs.config, inputs.grid
-    factor = max(1, math.ceil(math.sqrt(grid.size / SAMPLE_PIXELS)))
-    sg = grid.decimated(factor)
-    whole = Window(0, 0, sg.width, sg.height)
-    pre = read_on_grid(RasterSource(str(cfg.survey.pre), "depth.survey.pre"), sg)
-    post = read_on_grid(RasterSource(str(cfg.survey.post), "depth.survey.post"), sg)
-    if not np.isfinite(pre).any() or not np.isfinite(post).any():
+    windows = sample_windows(grid, cfg.block_size)
+    samples = []
+    pre_src = RasterSource(str(cfg.survey.pre), "depth.survey.pre")
+    raw_src = RasterSource(str(cfg.survey.post), "depth.survey.post")
+    with GridReader(pre_src, grid) as rp, GridReader(raw_src, grid) as rr:
+        for w in windows:
+            sub = _subsidence(cfg, grid, w)
+            samples.append(_SampleWindow(w, rp.read(w), rr.read(w) + sub, sub, _stable_mask(inputs, grid, w)))
+    n_ok = sum(int(np.count_nonzero(s.stable & np.isfinite(s.pre) & np.isfinite(s.post_raw))) for s in samples)
+    whole = len(windows) == len(grid.windows(cfg.block_size))
+    factor = 1
+    if whole or n_ok >= MIN_WINDOW_STABLE:
+        pre, post_c, stable, transform = _mosaic(samples, grid, whole)
+    else:
+        factor = max(1, math.ceil(math.sqrt(grid.size / SAMPLE_PIXELS)))
+        pre, post_c, stable, transform = _decimated_view(inputs, factor)
+    if not np.isfinite(pre).any() or not np.isfinite(post_c).any():
         raise GridError("depth.survey: the pre- or post-fire survey holds no data on the run grid; "
                         "check nodata values and extents")
-    post_c = post + _subsidence(cfg, sg, whole)
-    stable = _stable_mask(inputs, sg, whole)
     try:
-        est = coregistration.estimate_shift(pre, post_c, stable, sg.transform, grid.crs, random_state=random_state)
+        est = coregistration.estimate_shift(pre, post_c, stable, transform, grid.crs, random_state=random_state)
     except ValueError as exc:
         raise GridError(f"depth.survey: co-registration impossible: {exc}; give a larger area of unburned ground "
                         f"(depth.survey.stable) or reduce depth.survey.stable_buffer_m") from None
+    del pre, post_c, stable
     post_info = inputs.rasters["depth.survey.post"]
     post_t = Affine.translation(*_shift_in_crs(est.shift_x, est.shift_y, grid, post_info.crs)) @ post_info.transform
 
-    # stable-ground statistics at full resolution on sample windows
+    # stable-ground statistics at full resolution on the same windows
     before, after, xs, ys = [], [], [], []
-    pre_src = RasterSource(str(cfg.survey.pre), "depth.survey.pre")
-    raw_src = RasterSource(str(cfg.survey.post), "depth.survey.post")
     al_src = RasterSource(str(cfg.survey.post), "depth.survey.post", src_transform=post_t)
-    with GridReader(pre_src, grid) as rp, GridReader(raw_src, grid) as rr, GridReader(al_src, grid) as ra:
-        for w in sample_windows(grid, cfg.block_size):
-            st = _stable_mask(inputs, grid, w)
-            p = rp.read(w)
-            sub = _subsidence(cfg, grid, w)
-            b = p - (rr.read(w) + sub)
-            a = p - (ra.read(w) + sub + est.shift_z)
-            ok = st & np.isfinite(a) & np.isfinite(b)
+    with GridReader(al_src, grid) as ra:
+        for s in samples:
+            w = s.window
+            b = s.pre - s.post_raw
+            a = s.pre - (ra.read(w) + s.sub + est.shift_z)
+            ok = s.stable & np.isfinite(a) & np.isfinite(b)
             before.append(b[ok])
             after.append(a[ok])
             x, y = grid.pixel_centres(w)
@@ -317,6 +345,54 @@ def coregister(inputs: Inputs, random_state: int = 0) -> SurveyAlignment:
     )
 
 
+def _mosaic(samples: list, grid: RunGrid, whole: bool):
+    """The sample windows side by side in one array for the shift estimate, with its geotransform.
+
+    When the windows tile the whole grid they keep their places (the mosaic is the grid). Else
+    they are laid out in rows, separated by :data:`MOSAIC_GUTTER` missing pixels so that no slope
+    or resampled value mixes two windows. A pure translation is estimated the same way at any
+    position, so the mosaic only needs the grid's pixel size and axis directions.
+    """
+    if whole:
+        pre = np.full(grid.shape, np.nan)
+        post = np.full(grid.shape, np.nan)
+        stable = np.zeros(grid.shape, bool)
+        for s in samples:
+            sl = (slice(int(s.window.row_off), int(s.window.row_off + s.window.height)),
+                  slice(int(s.window.col_off), int(s.window.col_off + s.window.width)))
+            pre[sl], post[sl], stable[sl] = s.pre, s.post_raw, s.stable
+        return pre, post, stable, grid.transform
+    g = MOSAIC_GUTTER
+    per_row = max(1, math.ceil(math.sqrt(len(samples))))
+    rows = [samples[i:i + per_row] for i in range(0, len(samples), per_row)]
+    height = sum(max(s.pre.shape[0] for s in r) for r in rows) + g * (len(rows) + 1)
+    width = max(sum(s.pre.shape[1] for s in r) + g * (len(r) + 1) for r in rows)
+    pre = np.full((height, width), np.nan)
+    post = np.full((height, width), np.nan)
+    stable = np.zeros((height, width), bool)
+    r0 = g
+    for r in rows:
+        c0 = g
+        for s in r:
+            h, w = s.pre.shape
+            pre[r0:r0 + h, c0:c0 + w], post[r0:r0 + h, c0:c0 + w], stable[r0:r0 + h, c0:c0 + w] = \
+                s.pre, s.post_raw, s.stable
+            c0 += w + g
+        r0 += max(s.pre.shape[0] for s in r) + g
+    t = grid.transform
+    return pre, post, stable, Affine(t.a, t.b, t.c, t.d, t.e, t.f)
+
+
+def _decimated_view(inputs: Inputs, factor: int):
+    """Both surveys read whole through a decimating warp (``factor`` pixels a side become one)."""
+    cfg, grid = inputs.config, inputs.grid
+    sg = grid.decimated(factor)
+    whole = Window(0, 0, sg.width, sg.height)
+    pre = read_on_grid(RasterSource(str(cfg.survey.pre), "depth.survey.pre"), sg)
+    post = read_on_grid(RasterSource(str(cfg.survey.post), "depth.survey.post"), sg)
+    return pre, post + _subsidence(cfg, sg, whole), _stable_mask(inputs, sg, whole), sg.transform
+
+
 def _shift_in_crs(dx: float, dy: float, grid: RunGrid, crs) -> tuple[float, float]:
     """A translation (dx, dy) in the run CRS expressed in ``crs`` at the grid centre (the same
     numbers when both CRSs agree; a local linearisation otherwise, exact enough for the sub-metre
@@ -331,8 +407,10 @@ def _shift_in_crs(dx: float, dy: float, grid: RunGrid, crs) -> tuple[float, floa
     return xs[1] - xs[0], ys[1] - ys[0]
 
 
-def sample_windows(grid: RunGrid, block: int, max_pixels: int = SAMPLE_PIXELS) -> list[Window]:
-    """Evenly spread block windows whose pixels add up to at most ``max_pixels``."""
+def sample_windows(grid: RunGrid, block: int, max_pixels: int | None = None) -> list[Window]:
+    """Evenly spread block windows whose pixels add up to at most ``max_pixels``
+    (default :data:`SAMPLE_PIXELS`)."""
+    max_pixels = SAMPLE_PIXELS if max_pixels is None else max_pixels
     wins = grid.windows(block)
     n = max(1, min(len(wins), max_pixels // (block * block)))
     idx = np.unique(np.linspace(0, len(wins) - 1, n).round().astype(int))
@@ -499,21 +577,33 @@ def _param(st, plan, name, window):
     return st["readers"][name].read(window)
 
 
-def survey_depth(st, plan: RunPlan, window: Window):
-    """Raw and capped survey burn depth of a window [m] (NaN where a survey is missing)."""
+def _at(x, sel: np.ndarray, shape):
+    """``x`` (scalar, or an array broadcastable to ``shape``) at the pixels ``sel``; scalars stay scalars."""
+    if x is None or np.ndim(x) == 0:
+        return x
+    return np.broadcast_to(x, shape)[sel]
+
+
+def survey_depth(st, plan: RunPlan, window: Window, where: np.ndarray | None = None):
+    """Raw and capped survey burn depth of a window [m] (NaN where a survey is missing).
+
+    With ``where`` (a boolean mask of the window) both are 1-D, at those pixels only.
+    """
     shape = (int(window.height), int(window.width))
+    n = shape if where is None else int(np.count_nonzero(where))
     if plan.pre is None:
-        nan = np.full(shape, np.nan)
+        nan = np.full(n, np.nan)
         return nan, nan
-    pre = st["readers"]["pre"].read(window)
-    post = st["readers"]["post"].read(window) + plan.shift_z
+    sel = (lambda a: a) if where is None else (lambda a: _at(a, where, shape))
+    pre = sel(st["readers"]["pre"].read(window))
+    post = sel(st["readers"]["post"].read(window)) + plan.shift_z
     if plan.tilt is not None:
         x, y = plan.grid.pixel_centres(window)
-        post = post + coregistration.plane(x, y, plan.tilt)
-    rate = _param(st, plan, "subsidence_rate", window)
+        post = post + sel(np.broadcast_to(coregistration.plane(x, y, plan.tilt), shape))
+    rate = sel(_param(st, plan, "subsidence_rate", window))
     sub = 0.0 if rate is None else survey.subsidence_lowering(rate, plan.interval_years)
     raw = survey.burn_depth(pre, post, sub)
-    thick = _param(st, plan, "thickness", window)
+    thick = sel(_param(st, plan, "thickness", window))
     return raw, (raw if thick is None else peat.cap_depth(raw, thick))
 
 
@@ -538,20 +628,30 @@ def water_table_depth(st, plan: RunPlan, window: Window, where: np.ndarray) -> n
     return out
 
 
-def _model_depth(st, plan: RunPlan, window: Window, wt: np.ndarray, thick) -> np.ndarray:
+def _model_depth(st, plan: RunPlan, window: Window, wt: np.ndarray, thick, where: np.ndarray) -> np.ndarray:
+    """Modelled depth at the pixels ``where`` (``wt`` and ``thick`` are already at those pixels)."""
     from .science.water_table import predict_depth
 
     m = plan.models
     d = predict_depth(m.all, wt, thick)
     if m.first is not None and m.repeat is not None and st["fire_count"] is not None:
-        count = st["fire_count"].rasterize(plan.grid, window, dtype="float64")
+        count = st["fire_count"].rasterize(plan.grid, window, dtype="float64")[where]
         d = np.where(count >= 2, predict_depth(m.repeat, wt, thick), predict_depth(m.first, wt, thick))
     return d
 
 
+#: Row of each summed quantity in a block's weight matrix.
+_ROW = {k: i for i, k in enumerate(SUM_KEYS)}
+
+
 def process_block(plan: RunPlan, window: Window) -> BlockResult:
     """Burn depth (survey, else water-table model, else Tier 1), peat mass and carbon of one window,
-    with zone sums."""
+    with zone sums.
+
+    Rasters are read for the whole window; everything else is computed on the burned pixels only
+    (1-D vectors), and the summed quantities are rows of one matrix reduced per zone by a single
+    ``bincount`` per zone pass (:func:`peatburn.zones.accumulate_stacked`).
+    """
     st = _state(plan)
     grid = plan.grid
     shape = (int(window.height), int(window.width))
@@ -560,78 +660,103 @@ def process_block(plan: RunPlan, window: Window) -> BlockResult:
         nan = np.full(shape, np.nan, dtype="float32")
         return BlockResult(window, nan, nan, np.zeros(shape, "uint8"), {k: 0.0 for k in SUM_KEYS},
                            [{k: np.zeros(z.n_bins) for k in SUM_KEYS} for z in st["zones"]])
-    zone_bins = [(z, z.bin_rasters(grid, window)) for z in st["zones"]]
-    area = np.broadcast_to(grid.pixel_area(window), shape)
-    rho = np.broadcast_to(_param(st, plan, "bulk_density", window), shape)
-    cf = np.broadcast_to(_param(st, plan, "carbon_fraction", window), shape)
+    n = int(np.count_nonzero(burned))
+
+    def at(x):
+        return _at(x, burned, shape)
+
+    area = np.broadcast_to(grid.pixel_area(window), shape)[burned]
+    rho = np.broadcast_to(at(_param(st, plan, "bulk_density", window)), n)
+    cf = np.broadcast_to(at(_param(st, plan, "carbon_fraction", window)), n)
     peat_ok = np.isfinite(rho) & np.isfinite(cf)
-    raw, depth_s = survey_depth(st, plan, window)
-    m_survey = burned & np.isfinite(depth_s) & peat_ok
+    raw, depth_s = survey_depth(st, plan, window, burned)
+    m_survey = np.isfinite(depth_s) & peat_ok
     depth = np.where(m_survey, depth_s, np.nan)
-    m_wt = np.zeros(shape, bool)
+    m_wt = np.zeros(n, bool)
     m_lin = m_wt
     wt = None
     if plan.models is not None:
-        need = burned & ~m_survey & peat_ok
-        wt = water_table_depth(st, plan, window, need)
+        need = ~m_survey & peat_ok
+        need_full = np.zeros(shape, bool)
+        need_full[burned] = need
+        wt = water_table_depth(st, plan, window, need_full)[burned]
         m_wt = need & np.isfinite(wt)
         if m_wt.any():
-            thick = _param(st, plan, "thickness", window)
-            depth = np.where(m_wt, _model_depth(st, plan, window, wt, thick), depth)
+            thick = at(_param(st, plan, "thickness", window))
+            depth = np.where(m_wt, _model_depth(st, plan, window, wt, thick, burned), depth)
             lin = plan.models.all.intercept + plan.models.all.slope * np.where(m_wt, wt, 0.0)
             cap = np.inf if thick is None else np.where(np.isfinite(thick), thick, np.inf)
             m_lin = m_wt & (lin > 0) & (lin < cap)
-    m_t1 = burned & ~m_survey & ~m_wt & np.isfinite(cf)
+    m_t1 = ~m_survey & ~m_wt & np.isfinite(cf)
     valid_depth = m_survey | m_wt
-    mass = np.where(valid_depth, peat.peat_dry_mass(depth, rho, area), 0.0)
-    t1_mass_all = np.where(burned, plan.tier1_fuel_t_ha * 1000.0 * area * 1e-4, 0.0)  # t/ha -> kg per pixel
+    estimated = valid_depth | m_t1
+    with np.errstate(invalid="ignore"):
+        mass = np.where(valid_depth, peat.peat_dry_mass(depth, rho, area), 0.0)
+    t1_mass_all = plan.tier1_fuel_t_ha * 1000.0 * area * 1e-4  # t/ha -> kg per pixel
     mass = np.where(m_t1, t1_mass_all, mass)
-    carbon = np.where(m_survey | m_wt | m_t1, peat.carbon_mass(mass, cf), 0.0)
-    estimated = m_survey | m_wt | m_t1
-    method = np.zeros(shape, "uint8")
-    method[m_survey] = METHOD_CODES["survey"]
-    method[m_wt] = METHOD_CODES["water_table"]
-    method[m_t1] = METHOD_CODES["tier1"]
-    lod_mask = survey.below_detection(depth, plan.lod) & m_survey if np.isfinite(plan.lod) else np.zeros(shape, bool)
-    capped = m_survey & np.isfinite(raw) & (raw > depth_s)
+    cf0 = np.where(np.isfinite(cf), cf, 0.0)
+    carbon = np.where(estimated, peat.carbon_mass(mass, cf0), 0.0)
+    lod_mask = survey.below_detection(depth, plan.lod) & m_survey if np.isfinite(plan.lod) else None
     rho_a = np.where(peat_ok, rho * peat.KG_M3_PER_G_CM3 * area, 0.0)
-    rho_f_a = np.where(peat_ok, rho_a * cf, 0.0)
-    wt_f = np.where(m_wt, wt, 0.0) if wt is not None else 0.0
-    values = {
-        "burned_area_m2": np.where(burned, area, 0.0),
-        "estimated_area_m2": np.where(estimated, area, 0.0),
-        "depth_area_m2": np.where(valid_depth, area, 0.0),
-        "volume_m3": np.where(valid_depth, depth * area, 0.0),
-        "peat_kg": np.where(estimated, mass, 0.0),
-        "carbon_kg": carbon,
-        "unestimated_area_m2": np.where(burned & ~estimated, area, 0.0),
-        "below_lod_area_m2": np.where(lod_mask, area, 0.0),
-        "capped_area_m2": np.where(capped, area, 0.0),
-        "rho_area_survey": np.where(m_survey, rho_a, 0.0),
-        "rho_f_area_survey": np.where(m_survey, rho_f_a, 0.0),
-        "wt_area": np.where(m_lin, area, 0.0),
-        "wt_area_wt": np.where(m_lin, area * wt_f, 0.0),
-        "wt_rho_area": np.where(m_lin, rho_a, 0.0),
-        "wt_rho_area_wt": np.where(m_lin, rho_a * wt_f, 0.0),
-        "wt_rho_f_area": np.where(m_lin, rho_f_a, 0.0),
-        "wt_rho_f_area_wt": np.where(m_lin, rho_f_a * wt_f, 0.0),
-        "tier1_all_peat_kg": t1_mass_all,
-        "tier1_all_carbon_kg": np.where(burned & np.isfinite(cf), t1_mass_all * np.where(np.isfinite(cf), cf, 0), 0.0),
-    }
+    rho_f_a = rho_a * cf0
+
+    w = np.zeros((len(SUM_KEYS), n))
+    used = []  # rows holding anything: only those are reduced per zone
+
+    def put(key, mask, v):
+        if mask is True or mask.any():
+            np.copyto(w[_ROW[key]], v, where=mask)
+            used.append(_ROW[key])
+
+    put("burned_area_m2", True, area)
+    put("estimated_area_m2", estimated, area)
+    put("depth_area_m2", valid_depth, area)
+    put("volume_m3", valid_depth, depth * area)
+    put("peat_kg", estimated, mass)
+    put("carbon_kg", True, carbon)
+    put("unestimated_area_m2", ~estimated, area)
+    if lod_mask is not None:
+        put("below_lod_area_m2", lod_mask, area)
+    with np.errstate(invalid="ignore"):
+        put("capped_area_m2", m_survey & (raw > depth_s), area)
+    put("rho_area_survey", m_survey, rho_a)
+    put("rho_f_area_survey", m_survey, rho_f_a)
+    if m_lin.any():
+        wt_f = np.where(m_lin, wt, 0.0)
+        put("wt_area", m_lin, area)
+        put("wt_area_wt", m_lin, area * wt_f)
+        put("wt_rho_area", m_lin, rho_a)
+        put("wt_rho_area_wt", m_lin, rho_a * wt_f)
+        put("wt_rho_f_area", m_lin, rho_f_a)
+        put("wt_rho_f_area_wt", m_lin, rho_f_a * wt_f)
+    put("tier1_all_peat_kg", True, t1_mass_all)
+    put("tier1_all_carbon_kg", True, t1_mass_all * cf0)
     for name, m in (("survey", m_survey), ("water_table", m_wt), ("tier1", m_t1)):
-        values[f"area_m2_{name}"] = np.where(m, area, 0.0)
-        values[f"peat_kg_{name}"] = np.where(m, mass, 0.0)
-        values[f"carbon_kg_{name}"] = np.where(m, carbon, 0.0)
+        if m.any():
+            put(f"area_m2_{name}", m, area)
+            put(f"peat_kg_{name}", m, mass)
+            put(f"carbon_kg_{name}", m, carbon)
     bio = _param(st, plan, "biomass", window)
     if bio is not None:
-        b = np.broadcast_to(bio, shape)
-        values["biomass_t"] = np.where(burned & np.isfinite(b), b * area * 1e-4, 0.0)  # t/ha x ha
-    else:
-        values["biomass_t"] = np.zeros(shape)
-    total = {k: float(v.sum()) for k, v in values.items()}
-    zsums = [accumulate(bins, values, z.n_bins, valid=burned) for z, bins in zone_bins]  # all values 0 outside
-    cdens = np.where(estimated, carbon / area, np.nan)
-    return BlockResult(window, depth.astype("float32"), cdens.astype("float32"), method, total, zsums)
+        b = np.broadcast_to(at(bio), n)
+        put("biomass_t", np.isfinite(b), b * area * 1e-4)  # t/ha x ha
+
+    total = dict(zip(SUM_KEYS, w.sum(axis=1).tolist()))
+    zsums = []
+    for z in st["zones"]:
+        bins = [b[burned] for b in z.bin_rasters(grid, window)]
+        zsums.append(dict(zip(SUM_KEYS, accumulate_stacked(bins, w, z.n_bins, rows=used))))
+    depth_r = np.full(shape, np.nan, "float32")
+    depth_r[burned] = depth
+    cdens = np.full(shape, np.nan, "float32")
+    cdens[burned] = np.where(estimated, carbon / area, np.nan)
+    method = np.zeros(shape, "uint8")
+    codes = np.zeros(n, "uint8")
+    codes[m_survey] = METHOD_CODES["survey"]
+    codes[m_wt] = METHOD_CODES["water_table"]
+    codes[m_t1] = METHOD_CODES["tier1"]
+    method[burned] = codes
+    return BlockResult(window, depth_r, cdens, method, total, zsums)
 
 
 # --------------------------------------------------------------------------------------------

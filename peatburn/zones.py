@@ -81,22 +81,46 @@ class ZoneLayerIndex:
 
 
 def accumulate(bins: list[np.ndarray], values: dict[str, np.ndarray], n_bins: int,
-               valid: np.ndarray | None = None) -> dict[str, np.ndarray]:
+                valid: np.ndarray | None = None) -> dict[str, np.ndarray]:
     """Sum each array of ``values`` per bin over all pass rasters in ``bins``.
 
     Only pixels where ``valid`` is true are visited (pass the burned-area mask when every value is
     zero outside it: the cost then scales with the burned pixels, not the block). NaN values
     contribute nothing. Returns arrays of length ``n_bins``.
     """
-    sums = {k: np.zeros(n_bins) for k in values}
+    keys = list(values)
+    shape = np.shape(bins[0]) if bins else ()
+    if valid is not None:
+        bins = [b[valid] for b in bins]
+    rows = [np.broadcast_to(values[k], shape) for k in keys]
+    stack = np.stack([r[valid] if valid is not None else r.ravel() for r in rows]) if keys else np.zeros((0, 0))
+    if np.isnan(stack).any():
+        stack = np.where(np.isnan(stack), 0.0, stack)
+    sums = accumulate_stacked([np.ravel(b) for b in bins], stack, n_bins)
+    return dict(zip(keys, sums))
+
+
+def accumulate_stacked(bins: list[np.ndarray], weights: np.ndarray, n_bins: int,
+                       rows=None) -> np.ndarray:
+    """Per-bin sums of the rows of ``weights`` (k quantities x n pixels).
+
+    ``bins`` holds, per pass, the 1-D bin index (0 = no zone) of the same n pixels. Row ``i`` of
+    the result (k x n_bins) is ``bincount(bin, weights[i])`` summed over the passes. ``rows``
+    lists the rows worth reducing (the others are known to be zero and stay zero). The bin index
+    of a pass is selected once for all rows, and not at all when every pixel has a zone.
+    """
+    k = weights.shape[0]
+    sums = np.zeros((k, n_bins))
+    rows = range(k) if rows is None else rows
     for b in bins:
-        sel = b > 0 if valid is None else (b > 0) & valid
-        if not sel.any():
+        sel = b > 0
+        if sel.all():
+            idx, pick = b, None
+        elif sel.any():
+            idx, pick = b[sel], sel
+        else:
             continue
-        idx = b[sel]
-        for k, v in values.items():
-            vv = v[sel] if np.shape(v) == b.shape else np.broadcast_to(v, b.shape)[sel]
-            if np.isnan(vv).any():
-                vv = np.where(np.isnan(vv), 0.0, vv)
-            sums[k] += np.bincount(idx, weights=vv, minlength=n_bins)[:n_bins]
+        for i in rows:
+            w = weights[i] if pick is None else weights[i][pick]
+            sums[i] += np.bincount(idx, weights=w, minlength=n_bins)[:n_bins]
     return sums
