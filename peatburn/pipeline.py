@@ -346,7 +346,8 @@ def coregister(inputs: Inputs, random_state: int = 0) -> SurveyAlignment:
 
 
 def _mosaic(samples: list, grid: RunGrid, whole: bool):
-    """The sample windows side by side in one array for the shift estimate, with its geotransform.
+    """The sample windows side by side in one float32 array for the shift estimate (xdem works in
+    float32), with its geotransform.
 
     When the windows tile the whole grid they keep their places (the mosaic is the grid). Else
     they are laid out in rows, separated by :data:`MOSAIC_GUTTER` missing pixels so that no slope
@@ -354,8 +355,8 @@ def _mosaic(samples: list, grid: RunGrid, whole: bool):
     position, so the mosaic only needs the grid's pixel size and axis directions.
     """
     if whole:
-        pre = np.full(grid.shape, np.nan)
-        post = np.full(grid.shape, np.nan)
+        pre = np.full(grid.shape, np.nan, "float32")
+        post = np.full(grid.shape, np.nan, "float32")
         stable = np.zeros(grid.shape, bool)
         for s in samples:
             sl = (slice(int(s.window.row_off), int(s.window.row_off + s.window.height)),
@@ -367,8 +368,8 @@ def _mosaic(samples: list, grid: RunGrid, whole: bool):
     rows = [samples[i:i + per_row] for i in range(0, len(samples), per_row)]
     height = sum(max(s.pre.shape[0] for s in r) for r in rows) + g * (len(rows) + 1)
     width = max(sum(s.pre.shape[1] for s in r) + g * (len(r) + 1) for r in rows)
-    pre = np.full((height, width), np.nan)
-    post = np.full((height, width), np.nan)
+    pre = np.full((height, width), np.nan, "float32")
+    post = np.full((height, width), np.nan, "float32")
     stable = np.zeros((height, width), bool)
     r0 = g
     for r in rows:

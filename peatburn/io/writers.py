@@ -23,6 +23,13 @@ import rasterio.shutil
 from ..grid import RunGrid
 
 RASTER_NODATA = -9999.0  # on-disk nodata of float outputs (in memory: NaN)
+#: Compression of the temporary tiled GeoTIFF, read once by the COG conversion and deleted: ZSTD
+#: level 1 writes 2.4x faster than DEFLATE with a predictor and is read back faster, for a file
+#: about 30 % larger (measured on a 67 Mpx float32 raster; docs/performance.md).
+TEMPORARY_COMPRESSION = {"compress": "zstd", "zstd_level": 1}
+#: Threads of the COG conversion (compression of the final tiles). It runs after the block pass,
+#: when no worker competes for the cores: 1.7x faster on 2 cores than one thread (same page).
+COG_THREADS = "ALL_CPUS"
 
 
 @contextlib.contextmanager
@@ -104,12 +111,14 @@ class BlockRasterWriter:
         self._tiled = Path(tmp)
         bs = 256 if block_size % 256 else min(block_size, 512)
         self.dtype, self.nodata = dtype, nodata
-        floating = np.dtype(dtype).kind == "f"
         profile = dict(driver="GTiff", width=grid.width, height=grid.height, count=1, dtype=dtype,
                        crs=grid.crs, transform=grid.transform, nodata=nodata, tiled=True,
-                       blockxsize=bs, blockysize=bs, compress="deflate", predictor=3 if floating else 2,
-                       BIGTIFF="IF_SAFER")
-        self._ds = rasterio.open(self._tiled, "w", **profile)
+                       blockxsize=bs, blockysize=bs, BIGTIFF="IF_SAFER", **TEMPORARY_COMPRESSION)
+        try:
+            self._ds = rasterio.open(self._tiled, "w", **profile)
+        except rasterio.errors.RasterioIOError:  # a GDAL built without ZSTD
+            profile.update(compress="deflate", zstd_level=None)
+            self._ds = rasterio.open(self._tiled, "w", **{k: v for k, v in profile.items() if v is not None})
         if description:
             self._ds.set_band_description(1, description)
         if units:
@@ -129,7 +138,8 @@ class BlockRasterWriter:
             if ok:
                 with atomic_path(self.final, suffix=".tif") as tmp:
                     rasterio.shutil.copy(self._tiled, tmp, driver="COG", COMPRESS="DEFLATE", PREDICTOR="YES",
-                                         BLOCKSIZE="512", BIGTIFF="IF_SAFER", OVERVIEWS="AUTO", NUM_THREADS="1",
+                                         BLOCKSIZE="512", BIGTIFF="IF_SAFER", OVERVIEWS="AUTO",
+                                         NUM_THREADS=COG_THREADS,
                                          RESAMPLING="NEAREST" if np.dtype(self.dtype).kind != "f" else "AVERAGE")
         finally:
             with contextlib.suppress(FileNotFoundError):
