@@ -591,20 +591,39 @@ def survey_depth(st, plan: RunPlan, window: Window, where: np.ndarray | None = N
     With ``where`` (a boolean mask of the window) both are 1-D, at those pixels only.
     """
     shape = (int(window.height), int(window.width))
-    n = shape if where is None else int(np.count_nonzero(where))
+    sel = np.ones(shape, bool) if where is None else where
+    pre, post, rate, thick = _survey_inputs(st, plan, window, sel)
+    raw, capped = _depth_from_survey(plan, window, sel, pre, post, rate, thick)
+    if where is None:
+        return raw.reshape(shape), capped.reshape(shape)
+    return raw, capped
+
+
+def _survey_inputs(st, plan: RunPlan, window: Window, sel: np.ndarray):
+    """Pre survey, post survey, subsidence rate and peat thickness at the pixels ``sel`` (1-D
+    arrays, or scalars for constants; the surveys None without a survey)."""
+    shape = sel.shape
+    thick = _at(_param(st, plan, "thickness", window), sel, shape)
     if plan.pre is None:
+        return None, None, None, thick
+    pre = st["readers"]["pre"].read(window)[sel]
+    post = st["readers"]["post"].read(window)[sel]
+    rate = _at(_param(st, plan, "subsidence_rate", window), sel, shape)
+    return pre, post, rate, thick
+
+
+def _depth_from_survey(plan: RunPlan, window: Window, sel: np.ndarray, pre, post, rate, thick):
+    """Raw and capped burn depth at the pixels ``sel`` from the surveys there [m]."""
+    n = int(np.count_nonzero(sel))
+    if pre is None:
         nan = np.full(n, np.nan)
         return nan, nan
-    sel = (lambda a: a) if where is None else (lambda a: _at(a, where, shape))
-    pre = sel(st["readers"]["pre"].read(window))
-    post = sel(st["readers"]["post"].read(window)) + plan.shift_z
+    post = post + plan.shift_z
     if plan.tilt is not None:
         x, y = plan.grid.pixel_centres(window)
-        post = post + sel(np.broadcast_to(coregistration.plane(x, y, plan.tilt), shape))
-    rate = sel(_param(st, plan, "subsidence_rate", window))
+        post = post + np.broadcast_to(coregistration.plane(x, y, plan.tilt), sel.shape)[sel]
     sub = 0.0 if rate is None else survey.subsidence_lowering(rate, plan.interval_years)
     raw = survey.burn_depth(pre, post, sub)
-    thick = sel(_param(st, plan, "thickness", window))
     return raw, (raw if thick is None else peat.cap_depth(raw, thick))
 
 
@@ -616,61 +635,102 @@ def water_table_depth(st, plan: RunPlan, window: Window, where: np.ndarray) -> n
         v = _param(st, plan, "water_table", window)
         return np.broadcast_to(v, shape).astype("float64") if np.ndim(v) == 0 else v
     out = np.full(shape, np.nan)
-    if plan.stations is None or not where.any():
-        return out
-    from .science.water_table import idw
-
-    x, y = plan.grid.pixel_centres(window)
-    xx = np.broadcast_to(x, shape)[where]
-    yy = np.broadcast_to(y, shape)[where]
-    power, k, dmax = plan.idw
-    sx, sy, sv = plan.stations
-    out[where] = idw(sx, sy, sv, xx, yy, power=power, k=k, max_distance=dmax)
+    out[where] = _idw_at(plan, window, where)
     return out
 
 
-def _model_depth(st, plan: RunPlan, window: Window, wt: np.ndarray, thick, where: np.ndarray) -> np.ndarray:
-    """Modelled depth at the pixels ``where`` (``wt`` and ``thick`` are already at those pixels)."""
-    from .science.water_table import predict_depth
+def _idw_at(plan: RunPlan, window: Window, where: np.ndarray) -> np.ndarray:
+    """Water-table depth interpolated from the stations at the pixels ``where`` (1-D) [m]."""
+    n = int(np.count_nonzero(where))
+    if plan.stations is None or n == 0:
+        return np.full(n, np.nan)
+    from .science.water_table import idw
 
-    m = plan.models
-    d = predict_depth(m.all, wt, thick)
-    if m.first is not None and m.repeat is not None and st["fire_count"] is not None:
-        count = st["fire_count"].rasterize(plan.grid, window, dtype="float64")[where]
-        d = np.where(count >= 2, predict_depth(m.repeat, wt, thick), predict_depth(m.first, wt, thick))
-    return d
+    shape = where.shape
+    x, y = plan.grid.pixel_centres(window)
+    power, k, dmax = plan.idw
+    sx, sy, sv = plan.stations
+    return idw(sx, sy, sv, np.broadcast_to(x, shape)[where], np.broadcast_to(y, shape)[where],
+               power=power, k=k, max_distance=dmax)
 
 
 #: Row of each summed quantity in a block's weight matrix.
 _ROW = {k: i for i, k in enumerate(SUM_KEYS)}
 
 
-def process_block(plan: RunPlan, window: Window) -> BlockResult:
-    """Burn depth (survey, else water-table model, else Tier 1), peat mass and carbon of one window,
-    with zone sums.
+@dataclass
+class BlockData:
+    """What one window reads: its burned pixels and every input at them (1-D arrays, or scalars
+    for constants), and the zone bins of those pixels. ``burned`` is None when nothing burned."""
 
-    Rasters are read for the whole window; everything else is computed on the burned pixels only
-    (1-D vectors), and the summed quantities are rows of one matrix reduced per zone by a single
-    ``bincount`` per zone pass (:func:`peatburn.zones.accumulate_stacked`).
-    """
+    window: Window
+    burned: np.ndarray | None
+    area: np.ndarray = None  # [m2]
+    rho: object = None  # [g cm-3]
+    cf: object = None  # [-]
+    pre: np.ndarray | None = None  # [m]
+    post: np.ndarray | None = None  # [m], co-registered, before the vertical term
+    rate: object = None  # subsidence rate [m/yr]
+    thick: object = None  # [m]
+    wt: object = None  # water-table raster or constant [m]; None with stations (interpolated later)
+    fire_count: np.ndarray | None = None
+    biomass: object = None  # [t/ha]
+    zone_bins: list = field(default_factory=list)  # per layer: per pass 1-D bins
+
+
+def read_block(plan: RunPlan, window: Window) -> BlockData:
+    """All the reading and rasterizing of one window (GDAL work, no arithmetic of the method)."""
     st = _state(plan)
     grid = plan.grid
     shape = (int(window.height), int(window.width))
     burned = st["scars"].mask(grid, window)
     if not burned.any():  # most blocks of a national mosaic: no reads, no zone rasterization
-        nan = np.full(shape, np.nan, dtype="float32")
-        return BlockResult(window, nan, nan, np.zeros(shape, "uint8"), {k: 0.0 for k in SUM_KEYS},
-                           [{k: np.zeros(z.n_bins) for k in SUM_KEYS} for z in st["zones"]])
-    n = int(np.count_nonzero(burned))
+        return BlockData(window, None)
 
     def at(x):
         return _at(x, burned, shape)
 
-    area = np.broadcast_to(grid.pixel_area(window), shape)[burned]
-    rho = np.broadcast_to(at(_param(st, plan, "bulk_density", window)), n)
-    cf = np.broadcast_to(at(_param(st, plan, "carbon_fraction", window)), n)
+    pre, post, rate, thick = _survey_inputs(st, plan, window, burned)
+    fire_count = None
+    m = plan.models
+    if m is not None and m.first is not None and m.repeat is not None and st["fire_count"] is not None:
+        fire_count = st["fire_count"].rasterize(grid, window, dtype="float64")[burned]
+    return BlockData(
+        window, burned, area=np.broadcast_to(grid.pixel_area(window), shape)[burned],
+        rho=at(_param(st, plan, "bulk_density", window)), cf=at(_param(st, plan, "carbon_fraction", window)),
+        pre=pre, post=post, rate=rate, thick=thick,
+        wt=at(_param(st, plan, "water_table", window)) if m is not None else None,
+        fire_count=fire_count, biomass=at(_param(st, plan, "biomass", window)),
+        zone_bins=[[b[burned] for b in z.bin_rasters(grid, window)] for z in st["zones"]],
+    )
+
+
+def process_block(plan: RunPlan, window: Window) -> BlockResult:
+    """Burn depth (survey, else water-table model, else Tier 1), peat mass and carbon of one window,
+    with zone sums: :func:`read_block` then :func:`compute_block`."""
+    return compute_block(plan, read_block(plan, window))
+
+
+def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
+    """The method on the burned pixels of one window read by :func:`read_block` (arithmetic only).
+
+    Everything is computed on 1-D vectors of the burned pixels; the summed quantities are rows of
+    one matrix reduced per zone pass by ``bincount`` (:func:`peatburn.zones.accumulate_stacked`).
+    """
+    window, burned = data.window, data.burned
+    shape = (int(window.height), int(window.width))
+    n_bins = [len(ids) + 2 for _, ids, _ in plan.zone_layers]
+    if burned is None:
+        nan = np.full(shape, np.nan, dtype="float32")
+        return BlockResult(window, nan, nan, np.zeros(shape, "uint8"), {k: 0.0 for k in SUM_KEYS},
+                           [{k: np.zeros(nb) for k in SUM_KEYS} for nb in n_bins])
+    n = int(np.count_nonzero(burned))
+    area = data.area
+    rho = np.broadcast_to(data.rho, n)
+    cf = np.broadcast_to(data.cf, n)
+    thick = data.thick
     peat_ok = np.isfinite(rho) & np.isfinite(cf)
-    raw, depth_s = survey_depth(st, plan, window, burned)
+    raw, depth_s = _depth_from_survey(plan, window, burned, data.pre, data.post, data.rate, thick)
     m_survey = np.isfinite(depth_s) & peat_ok
     depth = np.where(m_survey, depth_s, np.nan)
     m_wt = np.zeros(n, bool)
@@ -678,13 +738,16 @@ def process_block(plan: RunPlan, window: Window) -> BlockResult:
     wt = None
     if plan.models is not None:
         need = ~m_survey & peat_ok
-        need_full = np.zeros(shape, bool)
-        need_full[burned] = need
-        wt = water_table_depth(st, plan, window, need_full)[burned]
+        if data.wt is not None:
+            wt = np.broadcast_to(data.wt, n).astype("float64")
+        else:
+            wt = np.full(n, np.nan)
+            need_full = np.zeros(shape, bool)
+            need_full[burned] = need
+            wt[need] = _idw_at(plan, window, need_full)
         m_wt = need & np.isfinite(wt)
         if m_wt.any():
-            thick = at(_param(st, plan, "thickness", window))
-            depth = np.where(m_wt, _model_depth(st, plan, window, wt, thick, burned), depth)
+            depth = np.where(m_wt, _model_depth(plan, wt, thick, data.fire_count), depth)
             lin = plan.models.all.intercept + plan.models.all.slope * np.where(m_wt, wt, 0.0)
             cap = np.inf if thick is None else np.where(np.isfinite(thick), thick, np.inf)
             m_lin = m_wt & (lin > 0) & (lin < cap)
@@ -737,16 +800,13 @@ def process_block(plan: RunPlan, window: Window) -> BlockResult:
             put(f"area_m2_{name}", m, area)
             put(f"peat_kg_{name}", m, mass)
             put(f"carbon_kg_{name}", m, carbon)
-    bio = _param(st, plan, "biomass", window)
-    if bio is not None:
-        b = np.broadcast_to(at(bio), n)
+    if data.biomass is not None:
+        b = np.broadcast_to(data.biomass, n)
         put("biomass_t", np.isfinite(b), b * area * 1e-4)  # t/ha x ha
 
     total = dict(zip(SUM_KEYS, w.sum(axis=1).tolist()))
-    zsums = []
-    for z in st["zones"]:
-        bins = [b[burned] for b in z.bin_rasters(grid, window)]
-        zsums.append(dict(zip(SUM_KEYS, accumulate_stacked(bins, w, z.n_bins, rows=used))))
+    zsums = [dict(zip(SUM_KEYS, accumulate_stacked(bins, w, nb, rows=used)))
+             for bins, nb in zip(data.zone_bins, n_bins)]
     depth_r = np.full(shape, np.nan, "float32")
     depth_r[burned] = depth
     cdens = np.full(shape, np.nan, "float32")
@@ -758,6 +818,16 @@ def process_block(plan: RunPlan, window: Window) -> BlockResult:
     codes[m_t1] = METHOD_CODES["tier1"]
     method[burned] = codes
     return BlockResult(window, depth_r, cdens, method, total, zsums)
+
+
+def _model_depth(plan: RunPlan, wt: np.ndarray, thick, fire_count) -> np.ndarray:
+    """Modelled depth from the water table (1-D, with ``thick`` and ``fire_count`` at the same pixels)."""
+    from .science.water_table import predict_depth
+
+    m = plan.models
+    if fire_count is not None:
+        return np.where(fire_count >= 2, predict_depth(m.repeat, wt, thick), predict_depth(m.first, wt, thick))
+    return predict_depth(m.all, wt, thick)
 
 
 # --------------------------------------------------------------------------------------------

@@ -18,7 +18,8 @@ from .executors import map_blocks
 from .factors import load_factor_set, load_gwp_set
 from .io.writers import BlockRasterWriter, write_csv, write_json
 from .outputs import provenance, tables
-from .pipeline import METHOD_CODES, SCAR_LAYER, Sums, build_plan, coregister, fit_models, open_inputs, process_block
+from .pipeline import (METHOD_CODES, SCAR_LAYER, Sums, build_plan, compute_block, coregister, fit_models, open_inputs,
+                       process_block, read_block)
 
 CAUTIONS = [
     "These are estimates with uncertainty, not measurements and not legal findings.",
@@ -127,7 +128,8 @@ def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, sc
             BlockRasterWriter(out_dir / "depth_method.tif", grid, description="depth method: 1 survey, "
                               "2 water-table model, 3 IPCC Tier 1 default", units="code", dtype="uint8",
                               nodata=0, block_size=cfg.block_size) as wm:
-        for i, r in enumerate(map_blocks(process_block, plan, windows, workers, scheduler=scheduler)):
+        for i, r in enumerate(map_blocks(process_block, plan, windows, workers, scheduler=scheduler,
+                                         stages=(read_block, compute_block))):
             sums.add(r)
             wd.write(r.window, r.depth)
             wc.write(r.window, r.carbon_density)
