@@ -243,19 +243,11 @@ def _read_ahead_map(read: Callable, compute: Callable, plan, windows: list) -> I
     """Serial map with the reads of the next windows overlapping this window's computation.
 
     One reading thread: the GDAL datasets of the plan are only ever used by one thread at a time.
-    The thread runs under the GDAL options of the caller (rasterio keeps them per thread).
+    GDAL options set by the caller (:func:`gdal_env`) are process-wide, so the thread reads under them.
     """
-    import rasterio
     from concurrent.futures import ThreadPoolExecutor
 
-    options = rasterio.env.getenv() if rasterio.env.hasenv() else {}
-
-    def start():
-        # the reading thread keeps these options for its life (it ends with the pool)
-        threading.current_thread().peatburn_env = env = rasterio.Env(**options)
-        env.__enter__()
-
-    pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="peatburn-read", initializer=start)
+    pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="peatburn-read")
     pending = collections.deque()
     try:
         it = iter(windows)

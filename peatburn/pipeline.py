@@ -766,11 +766,21 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
 
     w = np.zeros((len(SUM_KEYS), n))
     used = []  # rows holding anything: only those are reduced per zone
+    alias = {}  # row -> an earlier row holding the same values (same array, on every pixel)
+    whole = {}  # id of an array put on every pixel -> (its row, the array)
 
     def put(key, mask, v):
-        if mask is True or mask.any():
-            np.copyto(w[_ROW[key]], v, where=mask)
-            used.append(_ROW[key])
+        everywhere = mask is True or mask.all()
+        if not everywhere and not mask.any():
+            return
+        r = _ROW[key]
+        if everywhere and id(v) in whole:
+            alias[r] = whole[id(v)][0]
+            return
+        np.copyto(w[r], v, where=mask)
+        used.append(r)
+        if everywhere:
+            whole[id(v)] = (r, v)  # holding v keeps its id from being reused by a later temporary
 
     put("burned_area_m2", True, area)
     put("estimated_area_m2", estimated, area)
@@ -804,9 +814,12 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         b = np.broadcast_to(data.biomass, n)
         put("biomass_t", np.isfinite(b), b * area * 1e-4)  # t/ha x ha
 
-    total = dict(zip(SUM_KEYS, w.sum(axis=1).tolist()))
-    zsums = [dict(zip(SUM_KEYS, accumulate_stacked(bins, w, nb, rows=used)))
-             for bins, nb in zip(data.zone_bins, n_bins)]
+    sums = [w.sum(axis=1)] + [accumulate_stacked(bins, w, nb, rows=used) for bins, nb in zip(data.zone_bins, n_bins)]
+    for r, src in alias.items():  # e.g. a fully surveyed block: estimated area = surveyed area = burned area
+        for a in sums:
+            a[r] = a[src]
+    total = dict(zip(SUM_KEYS, sums[0].tolist()))
+    zsums = [dict(zip(SUM_KEYS, a)) for a in sums[1:]]
     depth_r = np.full(shape, np.nan, "float32")
     depth_r[burned] = depth
     cdens = np.full(shape, np.nan, "float32")

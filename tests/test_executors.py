@@ -207,3 +207,36 @@ def test_progress_throttles_redraws():
 def test_counting_plan_pickles():
     # the counting plan used above is a faithful plan: it survives a round trip
     assert pickle.loads(pickle.dumps(CountingPlan(7))).k == 7
+
+
+def _read_stage(plan, window):
+    import threading
+
+    from rasterio.env import get_gdal_config
+
+    return window, threading.current_thread().name, get_gdal_config("GDAL_CACHEMAX")
+
+
+def _compute_stage(plan, data):
+    window, thread, cache = data
+    time.sleep(0.0005 * (window.row_off + window.col_off) / 10)
+    return (int(window.col_off), int(window.row_off), plan.k * int(window.col_off + window.row_off)), thread, cache
+
+
+def test_serial_read_ahead_keeps_order_thread_and_gdal_options():
+    """The serial executor with (read, compute) stages reads in a background thread, under the
+    caller's GDAL options (rasterio sets them process-wide), and yields in window order (hand
+    arithmetic, as _expected)."""
+    with rasterio.Env(GDAL_CACHEMAX=123 * 2**20):
+        got = list(map_blocks(None, CountingPlan(3), WINDOWS, stages=(_read_stage, _compute_stage)))
+    assert [g[0] for g in got] == _expected()
+    assert all(g[1].startswith("peatburn-read") for g in got)
+    assert all(int(g[2]) == 123 * 2**20 for g in got)
+
+
+def test_serial_read_ahead_reports_a_failed_read():
+    def read(plan, window):
+        return _failing_block(plan, window)
+
+    with pytest.raises(GridError, match="holds no data"):
+        list(map_blocks(None, CountingPlan(1), WINDOWS, stages=(read, lambda plan, d: d)))

@@ -49,7 +49,7 @@ class ShiftEstimate:
 
 
 def estimate_shift(reference, to_align, stable, transform, crs, *, random_state=0,
-                   max_samples=200_000) -> ShiftEstimate:
+                   max_samples=100_000) -> ShiftEstimate:
     """Estimate the horizontal and vertical shift of ``to_align`` against ``reference``.
 
     Parameters
@@ -65,9 +65,9 @@ def estimate_shift(reference, to_align, stable, transform, crs, *, random_state=
     random_state : int
         Seed of xdem's subsampling.
     max_samples : int
-        Stable pixels xdem subsamples for the fit. 200 000 recovers the benchmark scene's shift of
-        (0.6, -0.4) m within 2 cm, as 500 000 does, in half the time (measured on the 67 Mpx scene
-        of benchmarks/; docs/performance.md).
+        Stable pixels xdem subsamples for the fit. 100 000 recovers the benchmark scene's shift of
+        (0.6, -0.4) m within 1 cm and its datum offset within 0.3 mm, as 500 000 does, in a third
+        of the time (measured on the 67 Mpx scene of benchmarks/; docs/performance.md).
 
     Returns
     -------
