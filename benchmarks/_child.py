@@ -100,6 +100,9 @@ def task_run(config, out, workers=1, gdal_env=False, scheduler=None, block_cache
     _timed(writers.BlockRasterWriter, "close", "COG conversion")
     _timed(provenance, "build", "provenance (hashes)")
     _timed(report, "write_report", "report")
+    import peatburn.intervals as intervals
+
+    _timed(intervals, "add_intervals", "intervals (analytic, and draws when asked)")
     if block_cache_mib:
         # a smaller GDAL cache from the end of the co-registration on (a variant the runner may adopt)
         from rasterio.env import set_gdal_config

@@ -58,10 +58,11 @@ def scar_depth(x, y):
     return np.where(scar_mask(x, y), 0.2 + 0.05 * k, 0.0)
 
 
-def scene(name: str, *, zones: int = 0) -> Path:
+def scene(name: str, *, zones: int = 0, draws: int = 0) -> Path:
     """Make (or reuse) the scene ``name`` (a key of SIZES); return its config path.
 
-    ``zones`` > 0 adds a zone layer of that many Voronoi polygons tiling the grid.
+    ``zones`` > 0 adds a zone layer of that many Voronoi polygons tiling the grid; ``draws`` > 0
+    asks for that many Monte Carlo draws (``[uncertainty] draws``).
     """
     n = SIZES[name]
     folder = CACHE / f"scene_{name}"
@@ -77,7 +78,9 @@ def scene(name: str, *, zones: int = 0) -> Path:
         if not zpath.exists():
             _write_zones(zpath, n, zones)
         zone_text = f'[[zones]]\npath = "{zpath.name}"\nid = "name"\nname = "zones"\n'
-    cfg = folder / (f"config_z{zones}.toml" if zones else "config.toml")
+    if draws:
+        zone_text += f"\n[uncertainty]\ndraws = {draws}\n"
+    cfg = folder / ((f"config_z{zones}" if zones else "config") + (f"_d{draws}" if draws else "") + ".toml")
     cfg.write_text(f"""[run]
 name = "benchmark {name}"
 year = 2030

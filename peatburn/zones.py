@@ -72,10 +72,15 @@ class ZoneLayerIndex:
     def n_bins(self) -> int:
         return len(self.ids) + 2
 
-    def bin_rasters(self, grid: RunGrid, window) -> list[np.ndarray]:
-        """One int32 bin raster per pass, plus one giving ``n + 1`` outside every zone."""
+    def bin_rasters(self, grid: RunGrid, window, inside: np.ndarray | None = None) -> list[np.ndarray]:
+        """One int32 bin raster per pass, plus one giving ``n + 1`` outside every zone.
+
+        ``inside``, when the caller already has it, is the mask of the union of the layer's polygons
+        on the window (saves rasterizing it again).
+        """
         out = [p.rasterize(grid, window) for p in self.passes]
-        inside = self.union.mask(grid, window)
+        if inside is None:
+            inside = self.union.mask(grid, window)
         out.append(np.where(inside, 0, len(self.ids) + 1).astype("int32"))
         return out
 

@@ -32,9 +32,20 @@ TEMPORARY_COMPRESSION = {"compress": "zstd", "zstd_level": 1}
 COG_THREADS = "ALL_CPUS"
 
 
+def _file_mode() -> int:
+    """Permissions of a new file under this process's umask (``mkstemp`` would leave 0600)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
 @contextlib.contextmanager
 def atomic_path(final: Path | str, suffix: str = ""):
-    """Yield a temporary path beside ``final``; rename it onto ``final`` only if the block succeeds."""
+    """Yield a temporary path beside ``final``; rename it onto ``final`` only if the block succeeds.
+
+    The file gets the permissions any new file of this process would get (umask), so outputs can
+    be read by the colleagues and cluster workers a plain file could.
+    """
     final = Path(final)
     final.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{final.name}.", suffix=suffix + ".part", dir=final.parent)
@@ -42,6 +53,7 @@ def atomic_path(final: Path | str, suffix: str = ""):
     tmp = Path(tmp)
     try:
         yield tmp
+        os.chmod(tmp, _file_mode())
         os.replace(tmp, final)
     except BaseException:
         with contextlib.suppress(FileNotFoundError):

@@ -1,6 +1,7 @@
 """Atomic writers and the block-wise COG writer."""
 
 import json
+import os
 
 import numpy as np
 import pytest
@@ -57,3 +58,20 @@ def test_sha256_against_hashlib_reference(tmp_path):
 def test_json_has_no_nan(tmp_path):
     write_json(tmp_path / "t.json", {"a": float("nan"), "b": np.float32(1.5)})
     assert json.loads((tmp_path / "t.json").read_text()) == {"a": None, "b": 1.5}
+
+
+def test_outputs_get_the_permissions_of_a_plain_new_file(tmp_path):
+    """Outputs are written through mkstemp (mode 0600); they must end with the mode a plain
+    open() gives a new file under the same umask (the reference: the operating system itself)."""
+    import stat
+
+    from peatburn.io.writers import write_text
+
+    old = os.umask(0o022)
+    try:
+        write_text(tmp_path / "out.txt", "x")
+        (tmp_path / "plain022.txt").write_text("x")
+    finally:
+        os.umask(old)
+    mode = stat.S_IMODE((tmp_path / "out.txt").stat().st_mode)
+    assert mode == stat.S_IMODE((tmp_path / "plain022.txt").stat().st_mode) == 0o644
