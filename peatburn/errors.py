@@ -55,5 +55,9 @@ class OutputExistsError(PeatburnError, FileExistsError):
     """The output location exists and ``--overwrite`` was not given."""
 
 
+class ExecutorError(PeatburnError, RuntimeError):
+    """Blocks cannot be handed out: no dask scheduler at the address, or dask.distributed missing."""
+
+
 class ProvenanceMismatch(PeatburnError, ValueError):
     """Inputs no longer match a provenance record."""

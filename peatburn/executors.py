@@ -23,7 +23,8 @@ workers on N cores do not oversubscribe the machine or multiply GDAL's default c
 RAM per process), and glibc's malloc keeps block-sized arrays in its heap (:func:`tune_malloc`).
 :func:`gdal_env` gives the matching GDAL settings for the main process.
 
-A dask worker runs one block at a time per process (see :func:`_dask_task`): start workers with
+Open datasets are kept per thread (:func:`peatburn.pipeline._state`), so dask workers may run
+several threads; one single-threaded worker process per core runs fastest (see :func:`_dask_task`):
 ``dask worker ADDRESS --nworkers N --nthreads 1``.
 """
 
@@ -37,7 +38,7 @@ import threading
 from concurrent.futures import ProcessPoolExecutor
 from typing import Callable, Iterable, Iterator
 
-from .errors import PeatburnError
+from .errors import ExecutorError
 
 #: GDAL block cache of one worker process [bytes]. A block touches at most 4 input tiles of each of
 #: up to 6 input rasters (24 MiB with 512 x 512 float32 tiles); 128 MiB leaves room for a row of tiles.
@@ -195,33 +196,41 @@ _DASK_CONFIGURED: dict = {}
 def _dask_task(fn, plan, windows, cache_bytes):
     """Run a chunk of blocks on a dask worker.
 
-    The GDAL settings are applied once per worker process. Blocks run one at a time per process
-    (a lock): the per-process reader cache of the pipeline holds GDAL datasets, which are not
-    thread-safe; start workers with ``--nthreads 1`` and one process per core.
+    The GDAL settings are applied once per worker process. The pipeline keeps its open datasets
+    per thread, so a worker may run several threads; numpy work holds the GIL for part of each
+    block, so one single-threaded worker process per core runs fastest (``--nthreads 1``).
     """
     with _DASK_LOCK:
         if _DASK_CONFIGURED.get("cache") != cache_bytes:
             configure_worker(cache_bytes)
             _DASK_CONFIGURED["cache"] = cache_bytes
-        return [fn(plan, w) for w in windows]
+    return [fn(plan, w) for w in windows]
 
 
-def _dask_map(fn, plan, windows, scheduler, cache_bytes, chunk):
+def connect(scheduler: str):
+    """A :class:`distributed.Client` connected to the scheduler at ``scheduler``.
+
+    Raises
+    ------
+    ExecutorError
+        dask.distributed is not installed, or no scheduler answers within :data:`CONNECT_TIMEOUT` s.
+    """
     try:
         from distributed import Client
     except ImportError:  # pragma: no cover - depends on the installed extras
-        raise PeatburnError("--scheduler needs dask.distributed, which is not installed: "
+        raise ExecutorError("--scheduler needs dask.distributed, which is not installed: "
                             "pip install 'peatburn[scale]'") from None
-    own = not isinstance(scheduler, Client)
-    if own:
-        try:
-            client = Client(scheduler, set_as_default=False, timeout=CONNECT_TIMEOUT)
-        except (OSError, TimeoutError, ValueError) as exc:
-            raise PeatburnError(f"--scheduler: cannot connect to a dask scheduler at {scheduler!r} "
-                                f"({str(exc).splitlines()[0] if str(exc) else type(exc).__name__}); check the "
-                                f"address (e.g. tcp://10.0.0.5:8786) and that the scheduler is running") from None
-    else:
-        client = scheduler
+    try:
+        return Client(scheduler, set_as_default=False, timeout=CONNECT_TIMEOUT)
+    except (OSError, TimeoutError, ValueError) as exc:
+        raise ExecutorError(f"--scheduler: cannot connect to a dask scheduler at {scheduler!r} "
+                            f"({str(exc).splitlines()[0] if str(exc) else type(exc).__name__}); check the "
+                            f"address (e.g. tcp://10.0.0.5:8786) and that the scheduler is running") from None
+
+
+def _dask_map(fn, plan, windows, scheduler, cache_bytes, chunk):
+    own = isinstance(scheduler, str)
+    client = connect(scheduler) if own else scheduler
     try:
         [plan_f] = client.scatter([plan], broadcast=True, hash=False)
         threads = sum(client.nthreads().values()) or 1

@@ -10,6 +10,7 @@ layer and for the run total, and writes ``_lo``/``_hi`` into the table rows.
 from __future__ import annotations
 
 import math
+import os
 
 import numpy as np
 
@@ -99,6 +100,16 @@ def _model_sums(acc: dict, idx, flame_layer: dict | None, frp_route: bool, veget
     return out
 
 
+def _threads() -> int:
+    """Threads for the zone draws: every core this process may use. The draws run after the block
+    pass, when nothing else competes; their random streams are keyed by zone block, so the result
+    does not depend on the number of threads (science.uncertainty._Drawer)."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:  # not on Linux
+        return max(1, os.cpu_count() or 1)
+
+
 def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid) -> dict:
     """Fill ``<col>_lo``/``<col>_hi`` of every interval column in ``rows`` (in place) and return the
     uncertainty summary for totals.json."""
@@ -113,7 +124,7 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid) -> d
         idx = np.arange(1, len(ids) + 2)  # zones, then the outside bin
         fl = flame.layers[li][1] if flame else None
         ms = _model_sums(acc, idx, fl, frp, factors.vegetation_carbon_fraction)
-        iv = unc.intervals(ms, params, draws=draws, seed=seed)
+        iv = unc.intervals(ms, params, draws=draws, seed=seed, workers=_threads())
         con = unc.contributions(ms, params, quantity="carbon_kg")
         for k in range(len(idx)):
             _fill(rows[row_i + k], iv, k)

@@ -8,6 +8,7 @@ Per-block work (:func:`process_block`) is a module-level function of a picklable
 from __future__ import annotations
 
 import math
+import threading
 import uuid
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -533,25 +534,73 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
 
 @dataclass
 class BlockResult:
+    """One window's results, compact: the rasters only at the burned pixels (a worker sends this
+    back to the writing process; most of a block is usually unburned).
+
+    ``zones`` holds per layer only the summed quantities that are not zero in this window.
+    """
+
     window: Window
-    depth: np.ndarray  # m, NaN where no depth
-    carbon_density: np.ndarray  # kg C m-2
-    method: np.ndarray  # uint8 METHOD_CODES, 0 outside the burned area
+    burned: np.ndarray | None  # bool mask of the window; None when nothing burned
+    depth_b: np.ndarray  # burn depth at the burned pixels [m], NaN where no depth (float32)
+    cdens_b: np.ndarray  # carbon density at the burned pixels [kg C m-2] (float32)
+    codes: np.ndarray  # METHOD_CODES at the burned pixels (uint8)
     total: dict  # key -> float
     zones: list  # per layer: key -> array(n_bins)
 
+    @property
+    def shape(self) -> tuple[int, int]:
+        return int(self.window.height), int(self.window.width)
 
-_CACHE: dict = {}
+    def _full(self, values, fill, dtype):
+        out = np.full(self.shape, fill, dtype)
+        if self.burned is not None:
+            out[self.burned] = values
+        return out
+
+    @property
+    def depth(self) -> np.ndarray:
+        """Burn depth of the window [m], NaN where no depth (float32)."""
+        return self._full(self.depth_b, np.nan, "float32")
+
+    @property
+    def carbon_density(self) -> np.ndarray:
+        """Carbon burned per area [kg C m-2], NaN where not estimated (float32)."""
+        return self._full(self.cdens_b, np.nan, "float32")
+
+    @property
+    def method(self) -> np.ndarray:
+        """Depth method code per pixel (uint8 METHOD_CODES), 0 outside the burned area."""
+        return self._full(self.codes, 0, "uint8")
+
+    def __getstate__(self):
+        state = dict(self.__dict__)
+        if self.burned is not None:
+            state["burned"] = np.packbits(self.burned)  # a bit per pixel on the way to the writer
+        return state
+
+    def __setstate__(self, state):
+        if state["burned"] is not None:
+            h, w = int(state["window"].height), int(state["window"].width)
+            state["burned"] = np.unpackbits(state["burned"], count=h * w).reshape(h, w).astype(bool)
+        self.__dict__.update(state)
+
+
+_LOCAL = threading.local()
 
 
 def _state(plan: RunPlan):
-    """Readers and rasterizers of a plan, opened once per process."""
-    st = _CACHE.get(plan.token)
+    """Readers and rasterizers of a plan, opened once per thread (GDAL datasets must not be shared
+    by threads running at the same time; a thread keeps those of its latest plan)."""
+    cache = getattr(_LOCAL, "cache", None)
+    if cache is None:
+        cache = _LOCAL.cache = {}
+    st = cache.get(plan.token)
     if st is None:
-        for old in _CACHE.values():
+        for old in cache.values():
             for r in old["readers"].values():
                 r.close()
-        _CACHE.clear()
+        cache.clear()
         readers = {}
         for name in ("pre", "post", "subsidence_rate", "thickness", "bulk_density", "carbon_fraction",
                      "water_table", "biomass"):
@@ -565,7 +614,7 @@ def _state(plan: RunPlan):
             if plan.scar_fire_counts is not None else None,
             "zones": [ZoneLayerIndex.from_geometries(n, ids, g) for n, ids, g in plan.zone_layers],
         }
-        _CACHE[plan.token] = st
+        cache[plan.token] = st
     return st
 
 
@@ -723,9 +772,9 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     shape = (int(window.height), int(window.width))
     n_bins = [len(ids) + 2 for _, ids, _ in plan.zone_layers]
     if burned is None:
-        nan = np.full(shape, np.nan, dtype="float32")
-        return BlockResult(window, nan, nan, np.zeros(shape, "uint8"), {k: 0.0 for k in SUM_KEYS},
-                           [{k: np.zeros(nb) for k in SUM_KEYS} for nb in n_bins])
+        none = np.zeros(0, "float32")
+        return BlockResult(window, None, none, none, np.zeros(0, "uint8"), {k: 0.0 for k in SUM_KEYS},
+                           [{} for _ in n_bins])
     n = int(np.count_nonzero(burned))
     area = data.area
     rho = np.broadcast_to(data.rho, n)
@@ -821,18 +870,15 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         for a in sums:
             a[r] = a[src]
     total = dict(zip(SUM_KEYS, sums[0].tolist()))
-    zsums = [dict(zip(SUM_KEYS, a)) for a in sums[1:]]
-    depth_r = np.full(shape, np.nan, "float32")
-    depth_r[burned] = depth
-    cdens = np.full(shape, np.nan, "float32")
-    cdens[burned] = np.where(estimated, carbon / area, np.nan)
-    method = np.zeros(shape, "uint8")
+    nonzero = sorted(set(used) | set(alias))
+    zsums = [{SUM_KEYS[r]: a[r] for r in nonzero} for a in sums[1:]]
     codes = np.zeros(n, "uint8")
     codes[m_survey] = METHOD_CODES["survey"]
     codes[m_wt] = METHOD_CODES["water_table"]
     codes[m_t1] = METHOD_CODES["tier1"]
-    method[burned] = codes
-    return BlockResult(window, depth_r, cdens, method, total, zsums)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        cdens = np.where(estimated, carbon / area, np.nan).astype("float32")
+    return BlockResult(window, burned, depth.astype("float32"), cdens, codes, total, zsums)
 
 
 def _model_depth(plan: RunPlan, wt: np.ndarray, thick, fire_count) -> np.ndarray:
@@ -1007,5 +1053,5 @@ class Sums:
         for k in SUM_KEYS:
             self.total[k] += r.total[k]
         for (_, _, acc), z in zip(self.layers, r.zones):
-            for k in SUM_KEYS:
-                acc[k] += z[k]
+            for k, v in z.items():  # only the quantities not zero in the block
+                acc[k] += v

@@ -97,12 +97,19 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
     carbon_smouldering.tif, depth_method.tif, provenance.json and report.html into ``out_dir``.
 
     GDAL's block cache is bounded for the whole run (:func:`peatburn.executors.gdal_env`): peak
-    memory grows sub-linearly with the raster and is bounded (746 MiB at 67 Mpx; docs/performance.md).
+    memory depends on the block size and these bounds, not on the raster size (docs/performance.md).
+    ``scheduler`` (an address) is connected to before any input is read, so a wrong address fails
+    at once; a :class:`distributed.Client` may be passed instead and is left open.
     """
-    from .executors import gdal_env
+    from .executors import connect, gdal_env
 
-    with gdal_env():
-        return _run(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress, scheduler=scheduler)
+    client = connect(scheduler) if isinstance(scheduler, str) else scheduler
+    try:
+        with gdal_env():
+            return _run(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress, scheduler=client)
+    finally:
+        if client is not scheduler:
+            client.close()
 
 
 def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, scheduler) -> RunResult:
@@ -131,9 +138,9 @@ def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, sc
         for i, r in enumerate(map_blocks(process_block, plan, windows, workers, scheduler=scheduler,
                                          stages=(read_block, compute_block))):
             sums.add(r)
-            wd.write(r.window, r.depth)
-            wc.write(r.window, r.carbon_density)
-            wm.write(r.window, r.method)
+            wd.write_at(r.window, r.burned, r.depth_b)
+            wc.write_at(r.window, r.burned, r.cdens_b)
+            wm.write_at(r.window, r.burned, r.codes)
             if progress:
                 progress(i + 1, len(windows))
 

@@ -18,7 +18,7 @@ from rasterio.windows import Window
 
 import peatburn
 from peatburn import executors
-from peatburn.errors import GridError, PeatburnError
+from peatburn.errors import ExecutorError, GridError
 from peatburn.executors import map_blocks
 from peatburn.progress import Progress, progress_bar
 
@@ -144,8 +144,26 @@ def test_local_cluster_run_equals_serial_run(scene, scene_run, cluster, tmp_path
 
 def test_unreachable_scheduler_is_one_line_error(monkeypatch):
     monkeypatch.setattr(executors, "CONNECT_TIMEOUT", 1)
-    with pytest.raises(PeatburnError, match="cannot connect to a dask scheduler"):
+    with pytest.raises(ExecutorError, match="cannot connect to a dask scheduler"):
         list(map_blocks(_slow_block, CountingPlan(1), WINDOWS, scheduler="tcp://127.0.0.1:9"))
+
+
+def test_run_with_unreachable_scheduler_fails_before_reading_inputs(scene, tmp_path, monkeypatch):
+    """The CLI connects first: exit 2, one line, and no input was opened (co-registration of a
+    national survey is not wasted on a typo in the address)."""
+    from click.testing import CliRunner
+
+    import peatburn.runner as runner
+    from peatburn.cli.main import cli
+
+    monkeypatch.setattr(executors, "CONNECT_TIMEOUT", 1)
+    opened = []
+    monkeypatch.setattr(runner, "open_inputs", lambda *a, **k: opened.append(1))
+    res = CliRunner().invoke(cli, ["run", str(scene.config), "--out", str(tmp_path / "o"),
+                                   "--scheduler", "tcp://127.0.0.1:9"])
+    assert res.exit_code == 2, res.output
+    assert "cannot connect to a dask scheduler" in res.output and not opened
+    assert isinstance(ExecutorError("x"), RuntimeError)  # also the built-in a library user would catch
 
 
 # --------------------------------------------------------------------------------------------

@@ -144,6 +144,18 @@ class BlockRasterWriter:
             a = np.asarray(array).astype(self.dtype)
         self._ds.write(a, 1, window=window)
 
+    def write_at(self, window, mask: np.ndarray | None, values: np.ndarray):
+        """Write a window holding ``values`` at the pixels of ``mask`` and nodata elsewhere (NaN
+        values are nodata too); ``mask`` None writes a window of nodata."""
+        shape = (int(window.height), int(window.width))
+        a = np.full(shape, self.nodata, dtype=self.dtype)
+        if mask is not None:
+            v = np.asarray(values)
+            if np.dtype(self.dtype).kind == "f":
+                v = np.where(np.isfinite(v), v, self.nodata)
+            a[mask] = v
+        self._ds.write(a, 1, window=window)
+
     def close(self, ok: bool = True):
         self._ds.close()
         try:

@@ -262,6 +262,27 @@ def _map_height(extent, geographic, width=6.0, colorbar=True) -> float:
     return float(np.clip(axes_w * h / w + 0.75, 2.5, 8.0)) if w > 0 else 4.8
 
 
+def _outlines(ax, frame, extent, colour, dash):
+    """Draw zone outlines as one line broken by NaN between rings, simplified to half a pixel of a
+    700-pixel map (drawing 10,000 polygons one by one took a second per map; docs/performance.md).
+    The vertices are kept on the frame (``frame.attrs``) for the next map of the same report."""
+    import shapely
+
+    tol = max(extent[1] - extent[0], extent[3] - extent[2]) / 1400.0
+    cached = frame.attrs.get("peatburn_outlines")
+    if cached is not None and cached[0] == tol:
+        xy = cached[1]
+    else:
+        geoms = np.asarray(frame.geometry.array, dtype=object)
+        geoms = geoms[~(shapely.is_missing(geoms) | shapely.is_empty(geoms))]
+        lines = shapely.get_parts(shapely.boundary(shapely.simplify(geoms, tol)))
+        coords, index = shapely.get_coordinates(lines, return_index=True)
+        breaks = np.flatnonzero(np.diff(index)) + 1
+        xy = np.insert(coords, breaks, np.nan, axis=0) if len(coords) else np.empty((0, 2))
+        frame.attrs["peatburn_outlines"] = (tol, xy)
+    ax.plot(xy[:, 0], xy[:, 1], color=colour, linestyle=dash, linewidth=1.0)
+
+
 def _map_axes(ax, extent, geographic, zone_layers, label_zones):
     from matplotlib import patheffects
 
@@ -272,7 +293,7 @@ def _map_axes(ax, extent, geographic, zone_layers, label_zones):
     handles = []
     for i, (name, frame, ids) in enumerate(zone_layers):
         colour, dash = LAYER_STYLES[i % len(LAYER_STYLES)]
-        frame.boundary.plot(ax=ax, color=colour, linestyle=dash, linewidth=1.0)
+        _outlines(ax, frame, extent, colour, dash)
         from matplotlib.lines import Line2D
 
         handles.append(Line2D([], [], color=colour, linestyle=dash, linewidth=1.0, label=_mpl(name)))

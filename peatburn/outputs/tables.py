@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
 
 from ..science import gases
 
@@ -46,55 +47,64 @@ def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
 
     ``factors`` holds the smouldering, flaming and Tier 1 factor sets, the GWP set and the
     vegetation carbon fraction; ``flame`` the flaming sums of the zone (dry matter [kg], FRE [MJ],
-    detections) or None.
+    detections) or None. The sums may be scalars (one zone) or arrays (many zones at once); the
+    quantities have the same shape.
     """
     ha, t = HA_PER_M2, T_PER_KG
-    depth_area = sums["depth_area_m2"]
-    peat_kg = sums["peat_kg"]
-    carbon = sums["carbon_kg"]
-    out = {
-        "burned_area_ha": sums["burned_area_m2"] * ha,
-        "estimated_area_ha": sums["estimated_area_m2"] * ha,
-        "unestimated_area_ha": sums["unestimated_area_m2"] * ha,
-        "below_lod_area_ha": sums["below_lod_area_m2"] * ha,
-        "mean_burn_depth_m": sums["volume_m3"] / depth_area if depth_area > 0 else math.nan,
-        "peat_burned_t": peat_kg * t,
-        "carbon_smouldering_t": carbon * t,
-    }
-    sm = {g: float(gases.gas_emissions(peat_kg, factors.smouldering.ef[g])) * t for g in GASES}
-    for g in GASES:
-        out[f"{g}_smouldering_t"] = sm[g]
-    out["co2e_smouldering_t"] = float(gases.co2_equivalent(sm, factors.gwp.gwp))
-    for m in METHODS:
-        out[f"area_{m}_ha"] = sums[f"area_m2_{m}"] * ha
-        out[f"carbon_share_{m}"] = sums[f"carbon_kg_{m}"] / carbon if carbon else math.nan
-    t1_dm = sums["tier1_all_peat_kg"]
-    out["carbon_tier1_t"] = sums["tier1_all_carbon_kg"] * t
-    t1 = {g: float(gases.gas_emissions(t1_dm, factors.tier1.ef[g])) * t for g in GASES}
-    for g in GASES:
-        out[f"{g}_tier1_t"] = t1[g]
-    out["co2e_tier1_t"] = float(gases.co2_equivalent(t1, factors.gwp.gwp))
-    # flaming, apart
-    dm = flame["dry_matter_kg"] if flame else 0.0
-    fl = {g: float(gases.gas_emissions(dm, factors.flaming.ef[g])) * t for g in GASES}
-    out["carbon_flaming_t"] = dm * factors.vegetation_carbon_fraction * t
-    for g in GASES:
-        out[f"{g}_flaming_t"] = fl[g]
-    out["co2e_flaming_t"] = float(gases.co2_equivalent(fl, factors.gwp.gwp))
-    fre = flame["fre_mj"] if flame else math.nan
-    has_fre = flame is not None and factors.frp_route
-    out["fre_mj"] = fre if has_fre else math.nan
-    out["n_detections"] = flame["n_detections"] if has_fre else math.nan
-    if has_fre:
-        from ..science import flaming
+    s = {k: np.asarray(v, dtype="float64") for k, v in sums.items()}
+    depth_area = s["depth_area_m2"]
+    peat_kg = s["peat_kg"]
+    carbon = s["carbon_kg"]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        out = {
+            "burned_area_ha": s["burned_area_m2"] * ha,
+            "estimated_area_ha": s["estimated_area_m2"] * ha,
+            "unestimated_area_ha": s["unestimated_area_m2"] * ha,
+            "below_lod_area_ha": s["below_lod_area_m2"] * ha,
+            "mean_burn_depth_m": np.where(depth_area > 0, s["volume_m3"] / depth_area, np.nan),
+            "peat_burned_t": peat_kg * t,
+            "carbon_smouldering_t": carbon * t,
+        }
+        sm = {g: gases.gas_emissions(peat_kg, factors.smouldering.ef[g]) * t for g in GASES}
+        for g in GASES:
+            out[f"{g}_smouldering_t"] = sm[g]
+        out["co2e_smouldering_t"] = gases.co2_equivalent(sm, factors.gwp.gwp)
+        for m in METHODS:
+            out[f"area_{m}_ha"] = s[f"area_m2_{m}"] * ha
+            out[f"carbon_share_{m}"] = np.where(carbon != 0, s[f"carbon_kg_{m}"] / carbon, np.nan)
+        t1_dm = s["tier1_all_peat_kg"]
+        out["carbon_tier1_t"] = s["tier1_all_carbon_kg"] * t
+        t1 = {g: gases.gas_emissions(t1_dm, factors.tier1.ef[g]) * t for g in GASES}
+        for g in GASES:
+            out[f"{g}_tier1_t"] = t1[g]
+        out["co2e_tier1_t"] = gases.co2_equivalent(t1, factors.gwp.gwp)
+        # flaming, apart
+        dm = np.asarray(flame["dry_matter_kg"], dtype="float64") if flame else np.zeros_like(peat_kg)
+        fl = {g: gases.gas_emissions(dm, factors.flaming.ef[g]) * t for g in GASES}
+        out["carbon_flaming_t"] = dm * factors.vegetation_carbon_fraction * t
+        for g in GASES:
+            out[f"{g}_flaming_t"] = fl[g]
+        out["co2e_flaming_t"] = gases.co2_equivalent(fl, factors.gwp.gwp)
+        has_fre = flame is not None and factors.frp_route
+        nan = np.full(np.shape(peat_kg), np.nan)
+        if has_fre:
+            from ..science import flaming
 
-        frp_c = float(flaming.frp_only_carbon(fre, factors.coefficient, factors.vegetation_carbon_fraction)) * t
-        out["carbon_frp_only_t"] = frp_c
-        out["smouldering_to_frp_ratio"] = out["carbon_smouldering_t"] / frp_c if frp_c > 0 else math.nan
-    else:
-        out["carbon_frp_only_t"] = math.nan
-        out["smouldering_to_frp_ratio"] = math.nan
+            fre = np.asarray(flame["fre_mj"], dtype="float64")
+            frp_c = flaming.frp_only_carbon(fre, factors.coefficient, factors.vegetation_carbon_fraction) * t
+            out["fre_mj"] = fre
+            out["n_detections"] = np.asarray(flame["n_detections"], dtype="float64")
+            out["carbon_frp_only_t"] = frp_c
+            out["smouldering_to_frp_ratio"] = np.where(frp_c > 0, out["carbon_smouldering_t"] / frp_c, np.nan)
+        else:
+            out["fre_mj"] = out["n_detections"] = out["carbon_frp_only_t"] = out["smouldering_to_frp_ratio"] = nan
     return out
+
+
+def _rows(layer: str, zones: list[str], q: dict) -> list[dict]:
+    """Rows (dicts of Python floats) from quantities of ``len(zones)`` zones."""
+    cols = {k: np.broadcast_to(v, (len(zones),)).tolist() for k, v in q.items()}
+    return [{"layer": layer, "zone": z, **{k: c[i] for k, c in cols.items()}} for i, z in enumerate(zones)]
 
 
 def zone_rows(result_sums, factors, flame_sums=None) -> list[dict]:
@@ -106,16 +116,12 @@ def zone_rows(result_sums, factors, flame_sums=None) -> list[dict]:
         if name == SCAR_LAYER:
             continue
         fl = flame_sums.layers[li][1] if flame_sums else None
-        for k, zid in enumerate(ids, start=1):
-            rows.append({"layer": name, "zone": zid,
-                         **quantities({key: float(v[k]) for key, v in acc.items()}, factors,
-                                      {key: float(v[k]) for key, v in fl.items()} if fl else None)})
-        n = len(ids) + 1
-        rows.append({"layer": name, "zone": OUTSIDE,
-                     **quantities({key: float(v[n]) for key, v in acc.items()}, factors,
-                                  {key: float(v[n]) for key, v in fl.items()} if fl else None)})
-    rows.append({"layer": TOTAL_LAYER, "zone": TOTAL_ZONE,
-                 **quantities(result_sums.total, factors, flame_sums.total if flame_sums else None)})
+        sel = slice(1, len(ids) + 2)  # the zones (bins 1..n), then the outside bin n + 1
+        q = quantities({key: v[sel] for key, v in acc.items()}, factors,
+                       {key: np.asarray(v)[sel] for key, v in fl.items()} if fl else None)
+        rows += _rows(name, [*ids, OUTSIDE], q)
+    q = quantities(result_sums.total, factors, flame_sums.total if flame_sums else None)
+    rows += _rows(TOTAL_LAYER, [TOTAL_ZONE], {k: np.reshape(v, (1,)) for k, v in q.items()})
     return rows
 
 
