@@ -97,6 +97,7 @@ def task_run(config, out, workers=1, gdal_env=False, scheduler=None, block_cache
     _timed(runner, "build_plan", "plan")
     _timed_generator(runner, "map_blocks", "blocks (compute, or wait for workers)")
     _timed(writers.BlockRasterWriter, "write", "block writes")
+    _timed(writers.BlockRasterWriter, "write_at", "block writes")
     _timed(writers.BlockRasterWriter, "close", "COG conversion")
     _timed(provenance, "build", "provenance (hashes)")
     _timed(report, "write_report", "report")

@@ -128,13 +128,17 @@ def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, sc
     grid = plan.grid
     windows = grid.windows(cfg.block_size)
     sums = Sums.empty(plan)
-    with BlockRasterWriter(out_dir / "burn_depth.tif", grid, description="burn depth", units="m",
-                           block_size=cfg.block_size) as wd, \
-            BlockRasterWriter(out_dir / "carbon_smouldering.tif", grid, description="carbon burned below ground",
-                              units="kg C m-2", block_size=cfg.block_size) as wc, \
-            BlockRasterWriter(out_dir / "depth_method.tif", grid, description="depth method: 1 survey, "
-                              "2 water-table model, 3 IPCC Tier 1 default", units="code", dtype="uint8",
-                              nodata=0, block_size=cfg.block_size) as wm:
+    rasters = [
+        BlockRasterWriter(out_dir / "burn_depth.tif", grid, description="burn depth", units="m",
+                          block_size=cfg.block_size),
+        BlockRasterWriter(out_dir / "carbon_smouldering.tif", grid, description="carbon burned below ground",
+                          units="kg C m-2", block_size=cfg.block_size),
+        BlockRasterWriter(out_dir / "depth_method.tif", grid, description="depth method: 1 survey, "
+                          "2 water-table model, 3 IPCC Tier 1 default", units="code", dtype="uint8",
+                          nodata=0, block_size=cfg.block_size),
+    ]
+    wd, wc, wm = rasters
+    try:
         for i, r in enumerate(map_blocks(process_block, plan, windows, workers, scheduler=scheduler,
                                          stages=(read_block, compute_block))):
             sums.add(r)
@@ -143,7 +147,50 @@ def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, sc
             wm.write_at(r.window, r.burned, r.codes)
             if progress:
                 progress(i + 1, len(windows))
+    except BaseException:
+        _finish_rasters(rasters, ok=False)
+        raise
+    # the COG conversions (GDAL, outside the GIL) run while the tables and intervals are computed
+    converting = _background(_finish_rasters, rasters)
+    try:
+        return _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, sums, notes, converting)
+    finally:
+        converting.wait()
 
+
+def _background(fn, *args):
+    """Run ``fn(*args)`` in a thread; ``.result()`` re-raises its error, ``.wait()`` only waits."""
+    import concurrent.futures
+
+    pool = concurrent.futures.ThreadPoolExecutor(max_workers=1, thread_name_prefix="peatburn-cog")
+    fut = pool.submit(fn, *args)
+    pool.shutdown(wait=False)
+
+    class Job:
+        def result(self):
+            return fut.result()
+
+        def wait(self):
+            concurrent.futures.wait([fut])
+
+    return Job()
+
+
+def _finish_rasters(rasters, ok: bool = True) -> None:
+    """Close every raster writer (COG conversion when ``ok``); after a failure the rest are only
+    cleaned up, and the first error is raised."""
+    err = None
+    for w in rasters:
+        try:
+            w.close(ok=ok and err is None)
+        except BaseException as exc:  # noqa: BLE001 - re-raised below
+            err = err or exc
+    if err is not None:
+        raise err
+
+
+def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, sums, notes, converting):
+    grid = plan.grid
     from .above_ground import flaming_sums
 
     flame = flaming_sums(cfg, inputs, sums)
@@ -168,16 +215,17 @@ def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, sc
         if closure > 1.0:
             notes.append(f"emission factors: the flaming set {factors.flaming.name} puts {closure:.3f} times the "
                          f"vegetation's carbon (fraction {factors.vegetation_carbon_fraction:g}) into CO2+CO+CH4")
-    plots = None
-    if inputs.plots is not None:
-        from .plots import validate_plots
-
-        plots = validate_plots(inputs, plan, out_dir)
     uncertainty = None
     if cfg.uncertainty.draws > 0:
         from .intervals import add_intervals
 
         uncertainty = add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid)
+    converting.result()  # the rasters are complete from here on (field plots sample them)
+    plots = None
+    if inputs.plots is not None:
+        from .plots import validate_plots
+
+        plots = validate_plots(inputs, plan, out_dir)
 
     from .outputs import timeline
 
