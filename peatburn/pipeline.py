@@ -26,8 +26,10 @@ from .io.vectors import WindowRasterizer, read_polygons, zone_ids
 from .science import coregistration, peat, survey
 from .zones import ZoneLayerIndex, accumulate_stacked
 
-#: Pixel budget of the co-registration sample (evenly spread full-resolution windows).
-SAMPLE_PIXELS = 4_000_000
+#: Pixel budget of the co-registration sample (evenly spread full-resolution windows). 2 Mpx
+#: recovers the benchmark scene's shift within 2 cm in 1.0 s, 4 Mpx within 1 cm in 1.5 s
+#: (benchmarks/, 67 Mpx scene; docs/performance.md).
+SAMPLE_PIXELS = 2_000_000
 #: Stable-ground residuals kept for the variogram of the survey error.
 STABLE_SAMPLE_MAX = 50_000
 

@@ -66,7 +66,7 @@ def estimate_shift(reference, to_align, stable, transform, crs, *, random_state=
         Seed of xdem's subsampling.
     max_samples : int
         Stable pixels xdem subsamples for the fit. 100 000 recovers the benchmark scene's shift of
-        (0.6, -0.4) m within 1 cm and its datum offset within 0.3 mm, as 500 000 does, in a third
+        (0.6, -0.4) m within 2 cm and its datum offset within 0.3 mm, as 500 000 does, in a third
         of the time (measured on the 67 Mpx scene of benchmarks/; docs/performance.md).
 
     Returns
