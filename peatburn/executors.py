@@ -43,10 +43,11 @@ from .errors import ExecutorError
 #: GDAL block cache of one worker process [bytes]. A block touches at most 4 input tiles of each of
 #: up to 6 input rasters (24 MiB with 512 x 512 float32 tiles); 128 MiB leaves room for a row of tiles.
 WORKER_GDAL_CACHE = 128 * 2**20
-#: GDAL block cache of the main process during a run [bytes]: bounds the memory of the readers,
-#: of the block writers and of the COG conversion, which otherwise grows with the raster up to
-#: GDAL's default cache of 5 % of the RAM.
-MAIN_GDAL_CACHE = 256 * 2**20
+#: GDAL block cache of the main process during a run [bytes], at least and at most (see
+#: :func:`run_cache_bytes`): bounds the memory of the readers, of the block writers and of the COG
+#: conversion, which otherwise grows with the raster up to GDAL's default of 5 % of the RAM.
+MAIN_GDAL_CACHE = 64 * 2**20
+MAX_GDAL_CACHE = 256 * 2**20
 #: Seconds to wait for a dask scheduler to answer.
 CONNECT_TIMEOUT = 10
 #: Chunks in flight per worker (submitted, not yet handed to the caller).
@@ -68,6 +69,19 @@ def gdal_settings(cache_bytes: int = MAIN_GDAL_CACHE) -> dict:
         GDAL block-cache size [bytes].
     """
     return {"GDAL_CACHEMAX": int(cache_bytes), "GDAL_NUM_THREADS": "1"}
+
+
+def run_cache_bytes(width: int, block: int) -> int:
+    """GDAL block cache of a run on a grid ``width`` pixels wide [bytes].
+
+    Room for two rows of blocks of two float32 inputs: the co-registered survey's bilinear read
+    reaches one row into the next row of tiles, which the next row of blocks reads again; with
+    less, those tiles are decoded twice. At least :data:`MAIN_GDAL_CACHE` (64 MiB, enough up to
+    8192 pixels wide with 512-pixel blocks), at most :data:`MAX_GDAL_CACHE`. Common practice
+    (size the cache to the working set), measured in docs/performance.md.
+    """
+    need = 2 * 2 * int(width) * int(block) * 4
+    return int(min(max(need, MAIN_GDAL_CACHE), MAX_GDAL_CACHE))
 
 
 def gdal_env(cache_bytes: int = MAIN_GDAL_CACHE):

@@ -96,8 +96,9 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
     """Run ``cfg`` and write zones.csv, totals.json, inventory.csv/json, daily.csv, burn_depth.tif,
     carbon_smouldering.tif, depth_method.tif, provenance.json and report.html into ``out_dir``.
 
-    GDAL's block cache is bounded for the whole run (:func:`peatburn.executors.gdal_env`): peak
-    memory depends on the block size and these bounds, not on the raster size (docs/performance.md).
+    GDAL's block cache is bounded for the whole run (:func:`peatburn.executors.gdal_env`, sized
+    by :func:`peatburn.executors.run_cache_bytes`): peak memory depends on the block size and
+    these bounds, not on the raster size (docs/performance.md).
     ``scheduler`` (an address) is connected to before any input is read, so a wrong address fails
     at once; a :class:`distributed.Client` may be passed instead and is left open.
     """
@@ -118,6 +119,13 @@ def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, sc
     factors = load_factors(cfg)
 
     inputs = open_inputs(cfg)
+    from .executors import gdal_env, run_cache_bytes
+
+    with gdal_env(run_cache_bytes(inputs.grid.width, cfg.block_size)):
+        return _run_inputs(cfg, out_dir, inputs, factors, workers=workers, progress=progress, scheduler=scheduler)
+
+
+def _run_inputs(cfg: RunConfig, out_dir: Path, inputs, factors, *, workers: int, progress, scheduler) -> RunResult:
     notes = list(inputs.notes)
     alignment = coregister(inputs) if inputs.has_survey else None
     plan = build_plan(inputs, alignment)

@@ -258,3 +258,11 @@ def test_serial_read_ahead_reports_a_failed_read():
 
     with pytest.raises(GridError, match="holds no data"):
         list(map_blocks(None, CountingPlan(1), WINDOWS, stages=(read, lambda plan, d: d)))
+
+
+def test_run_cache_holds_two_block_rows_of_two_inputs_within_bounds():
+    # hand arithmetic: 2 rows x 2 float32 inputs x width x 512 rows x 4 bytes
+    assert executors.run_cache_bytes(8192, 512) == 2 * 2 * 8192 * 512 * 4 == 64 * 2**20
+    assert executors.run_cache_bytes(12_000, 512) == 2 * 2 * 12_000 * 512 * 4  # between the bounds
+    assert executors.run_cache_bytes(300, 64) == 64 * 2**20  # floor
+    assert executors.run_cache_bytes(100_000, 512) == 256 * 2**20  # cap
