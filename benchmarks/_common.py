@@ -254,6 +254,24 @@ def best_of(repeat: int, task: str, **kwargs) -> dict:
     return best
 
 
+def best_of_pairs(repeat: int, a: tuple, b: tuple) -> tuple[dict, dict, list[float]]:
+    """Run two children alternately ``repeat`` times (a, b, a, b, ...), so that a drift in the
+    machine's speed hits both alike; return the fastest of each (as :func:`best_of`) and the
+    ratio b / a of every pair."""
+    runs_a, runs_b = [], []
+    for _ in range(max(1, repeat)):
+        runs_a.append(best_of(1, a[0], **a[1]))
+        runs_b.append(best_of(1, b[0], **b[1]))
+
+    def merge(runs):
+        best = min(runs, key=lambda r: r["wall_s"])
+        return dict(best, peak_mib=max(r["peak_mib"] for r in runs),
+                    all_wall_s=[r["all_wall_s"][0] for r in runs],
+                    all_other_load=[r["all_other_load"][0] for r in runs])
+
+    return merge(runs_a), merge(runs_b), [rb["wall_s"] / ra["wall_s"] for ra, rb in zip(runs_a, runs_b)]
+
+
 def machine() -> dict:
     import rasterio
 

@@ -427,6 +427,8 @@ def sample_windows(grid: RunGrid, block: int, max_pixels: int | None = None) -> 
 METHOD_CODES = {"survey": 1, "water_table": 2, "tier1": 3}
 #: Internal zone layer of the burn scars themselves (per-scar sums for the daily series and years).
 SCAR_LAYER = "__scars__"
+#: The only sums kept per scar (the daily series and the year shares use nothing else).
+SCAR_LAYER_KEYS = ("peat_kg", "carbon_kg")
 METHODS = tuple(METHOD_CODES)
 
 #: Quantities summed per zone and for the run [m2, m3, kg, kg/m ...].
@@ -867,13 +869,17 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         b = np.broadcast_to(data.biomass, n)
         put("biomass_t", np.isfinite(b), b * area * 1e-4)  # t/ha x ha
 
-    sums = [w.sum(axis=1)] + [accumulate_stacked(bins, w, nb, rows=used) for bins, nb in zip(data.zone_bins, n_bins)]
+    nonzero = sorted(set(used) | set(alias))
+    scar_rows = [r for r in (_ROW[k] for k in SCAR_LAYER_KEYS) if r in nonzero]
+    layer_rows = [scar_rows if name == SCAR_LAYER else nonzero for name, _, _ in plan.zone_layers]
+    sums = [w.sum(axis=1)] + [
+        accumulate_stacked(bins, w, nb, rows=sorted({alias.get(r, r) for r in rows}))
+        for bins, nb, rows in zip(data.zone_bins, n_bins, layer_rows)]
     for r, src in alias.items():  # e.g. a fully surveyed block: estimated area = surveyed area = burned area
         for a in sums:
             a[r] = a[src]
     total = dict(zip(SUM_KEYS, sums[0].tolist()))
-    nonzero = sorted(set(used) | set(alias))
-    zsums = [{SUM_KEYS[r]: a[r] for r in nonzero} for a in sums[1:]]
+    zsums = [{SUM_KEYS[r]: a[r] for r in rows} for a, rows in zip(sums[1:], layer_rows)]
     codes = np.zeros(n, "uint8")
     codes[m_survey] = METHOD_CODES["survey"]
     codes[m_wt] = METHOD_CODES["water_table"]
