@@ -754,9 +754,7 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
         pre=pre, post=post, rate=rate, thick=thick,
         wt=at(_param(st, plan, "water_table", window)) if m is not None else None,
         fire_count=fire_count, biomass=at(_param(st, plan, "biomass", window)),
-        # the scar layer's polygons are the burned area: its union mask is ``burned``
-        zone_bins=[[b[burned] for b in z.bin_rasters(grid, window, burned if z.name == SCAR_LAYER else None)]
-                   for z in st["zones"]],
+        zone_bins=[[b[burned] for b in z.bin_rasters(grid, window)] for z in st["zones"]],
     )
 
 

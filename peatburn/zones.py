@@ -60,27 +60,28 @@ class ZoneLayerIndex:
     name: str
     ids: list[str]
     passes: list[WindowRasterizer]
-    union: WindowRasterizer
 
     @classmethod
     def from_geometries(cls, name: str, ids: list[str], geometries) -> "ZoneLayerIndex":
         geoms = np.asarray(geometries, dtype=object)
         passes = [WindowRasterizer(geoms[idx], values=idx + 1) for idx in overlap_passes(geoms)]
-        return cls(name=name, ids=list(ids), passes=passes, union=WindowRasterizer(geoms))
+        return cls(name=name, ids=list(ids), passes=passes)
 
     @property
     def n_bins(self) -> int:
         return len(self.ids) + 2
 
-    def bin_rasters(self, grid: RunGrid, window, inside: np.ndarray | None = None) -> list[np.ndarray]:
-        """One int32 bin raster per pass, plus one giving ``n + 1`` outside every zone.
+    def bin_rasters(self, grid: RunGrid, window) -> list[np.ndarray]:
+        """One int32 bin raster per pass, plus one giving ``n + 1`` where no pass has a zone.
 
-        ``inside``, when the caller already has it, is the mask of the union of the layer's polygons
-        on the window (saves rasterizing it again).
+        "Outside" is defined by the passes themselves, not by a rasterization of the union of the
+        polygons: every pixel then falls in a zone or in the outside bin, so a layer's sums add up
+        to the run's whatever GDAL decides for pixel centres on shared edges.
         """
         out = [p.rasterize(grid, window) for p in self.passes]
-        if inside is None:
-            inside = self.union.mask(grid, window)
+        inside = np.zeros(out[0].shape, bool) if out else np.zeros((int(window.height), int(window.width)), bool)
+        for b in out:
+            inside |= b > 0
         out.append(np.where(inside, 0, len(self.ids) + 1).astype("int32"))
         return out
 
