@@ -3,8 +3,8 @@
     python benchmarks/run_all.py [--only io,memory,workers,zones,draws]
 
 Synthetic scenes are made on first use in $PEATBURN_BENCH_DIR (default /tmp/peatburn-bench,
-about 0.5 GB for the 67 Mpx pair) and reused. Takes about 10 minutes on 2 cores (each
-benchmark under 5). Timings keep the fastest of 2 runs and wait for the machine to be idle. The results
+about 0.5 GB for the 67 Mpx pair) and reused. Takes about 6 minutes on 2 cores (each
+benchmark under 2). Timings keep the fastest of 2 runs and wait for the machine to be idle. The results
 are also written to $PEATBURN_BENCH_DIR/results.json. Benchmark 5 (10,000 Monte Carlo draws
 against none) lives in bench_uncertainty.py, written with the uncertainty module, and runs here
 when that file exists.
