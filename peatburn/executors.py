@@ -221,8 +221,9 @@ def _dask_task(fn, plan, windows, cache_bytes):
     return [fn(plan, w) for w in windows]
 
 
-def connect(scheduler: str):
-    """A :class:`distributed.Client` connected to the scheduler at ``scheduler``.
+def connect(scheduler):
+    """A :class:`distributed.Client` connected to the scheduler at ``scheduler`` (an address, or a
+    cluster object such as :class:`distributed.LocalCluster`).
 
     Raises
     ------
@@ -243,7 +244,12 @@ def connect(scheduler: str):
 
 
 def _dask_map(fn, plan, windows, scheduler, cache_bytes, chunk):
-    own = isinstance(scheduler, str)
+    try:
+        from distributed import Client
+    except ImportError:  # pragma: no cover - depends on the installed extras
+        raise ExecutorError("--scheduler needs dask.distributed, which is not installed: "
+                            "pip install 'peatburn[scale]'") from None
+    own = not isinstance(scheduler, Client)  # an address or a cluster object: a client of our own
     client = connect(scheduler) if own else scheduler
     try:
         [plan_f] = client.scatter([plan], broadcast=True, hash=False)

@@ -97,14 +97,14 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
     carbon_smouldering.tif, depth_method.tif, provenance.json and report.html into ``out_dir``.
 
     GDAL's block cache is bounded for the whole run (:func:`peatburn.executors.gdal_env`, sized
-    by :func:`peatburn.executors.run_cache_bytes`): peak memory depends on the block size and
-    these bounds, not on the raster size (docs/performance.md).
+    by :func:`peatburn.executors.run_cache_bytes`): peak memory depends on the block size and the
+    grid's width (up to a bound), not on the raster's area (docs/performance.md).
     ``scheduler`` (an address) is connected to before any input is read, so a wrong address fails
     at once; a :class:`distributed.Client` may be passed instead and is left open.
     """
     from .executors import connect, gdal_env
 
-    client = connect(scheduler) if isinstance(scheduler, str) else scheduler
+    client = connect(scheduler) if isinstance(scheduler, str) else scheduler  # a Client or cluster: as given
     try:
         with gdal_env():
             return _run(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress, scheduler=client)
@@ -136,17 +136,17 @@ def _run_inputs(cfg: RunConfig, out_dir: Path, inputs, factors, *, workers: int,
     grid = plan.grid
     windows = grid.windows(cfg.block_size)
     sums = Sums.empty(plan)
-    rasters = [
-        BlockRasterWriter(out_dir / "burn_depth.tif", grid, description="burn depth", units="m",
-                          block_size=cfg.block_size),
-        BlockRasterWriter(out_dir / "carbon_smouldering.tif", grid, description="carbon burned below ground",
-                          units="kg C m-2", block_size=cfg.block_size),
-        BlockRasterWriter(out_dir / "depth_method.tif", grid, description="depth method: 1 survey, "
-                          "2 water-table model, 3 IPCC Tier 1 default", units="code", dtype="uint8",
-                          nodata=0, block_size=cfg.block_size),
+    specs = [
+        ("burn_depth.tif", dict(description="burn depth", units="m")),
+        ("carbon_smouldering.tif", dict(description="carbon burned below ground", units="kg C m-2")),
+        ("depth_method.tif", dict(description="depth method: 1 survey, 2 water-table model, 3 IPCC Tier 1 default",
+                                  units="code", dtype="uint8", nodata=0)),
     ]
-    wd, wc, wm = rasters
+    rasters = []
     try:
+        for name, kw in specs:
+            rasters.append(BlockRasterWriter(out_dir / name, grid, block_size=cfg.block_size, **kw))
+        wd, wc, wm = rasters
         for i, r in enumerate(map_blocks(process_block, plan, windows, workers, scheduler=scheduler,
                                          stages=(read_block, compute_block))):
             sums.add(r)

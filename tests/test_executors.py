@@ -122,6 +122,17 @@ def test_dask_keeps_window_order(cluster):
     assert os.getpid() not in {o[3] for o in out}  # ran on the cluster's worker processes
 
 
+def test_dask_accepts_a_client_or_a_cluster_object(cluster):
+    import distributed
+
+    with distributed.Client(cluster, set_as_default=False) as client:
+        out = list(map_blocks(_slow_block, CountingPlan(3), WINDOWS, scheduler=client))
+        assert client.status == "running"  # a client passed in is left open
+    assert [o[:3] for o in out] == _expected()
+    out = list(map_blocks(_slow_block, CountingPlan(3), WINDOWS, scheduler=cluster))
+    assert [o[:3] for o in out] == _expected()
+
+
 def test_dask_error_keeps_its_type(cluster):
     with pytest.raises(GridError):
         list(map_blocks(_failing_block, CountingPlan(1), WINDOWS, scheduler=cluster.scheduler_address))
