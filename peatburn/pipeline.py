@@ -817,7 +817,7 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     rho_a = np.where(peat_ok, rho * peat.KG_M3_PER_G_CM3 * area, 0.0)
     rho_f_a = rho_a * cf0
 
-    w = np.zeros((len(SUM_KEYS), n))
+    w = np.empty((len(SUM_KEYS), n))  # only the rows in ``used`` are ever written or read
     used = []  # rows holding anything: only those are reduced per zone
     alias = {}  # row -> an earlier row holding the same values (same array, on every pixel)
     whole = {}  # id of an array put on every pixel -> (its row, the array)
@@ -830,7 +830,11 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         if everywhere and id(v) in whole:
             alias[r] = whole[id(v)][0]
             return
-        np.copyto(w[r], v, where=mask)
+        if everywhere:
+            w[r] = v
+        else:
+            w[r] = 0.0
+            np.copyto(w[r], v, where=mask)
         used.append(r)
         if everywhere:
             whole[id(v)] = (r, v)  # holding v keeps its id from being reused by a later temporary
@@ -870,7 +874,10 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     nonzero = sorted(set(used) | set(alias))
     scar_rows = [r for r in (_ROW[k] for k in SCAR_LAYER_KEYS) if r in nonzero]
     layer_rows = [scar_rows if name == SCAR_LAYER else nonzero for name, _, _ in plan.zone_layers]
-    sums = [w.sum(axis=1)] + [
+    total_sums = np.zeros(len(SUM_KEYS))
+    for r in used:
+        total_sums[r] = w[r].sum()
+    sums = [total_sums] + [
         accumulate_stacked(bins, w, nb, rows=sorted({alias.get(r, r) for r in rows}))
         for bins, nb, rows in zip(data.zone_bins, n_bins, layer_rows)]
     for r, src in alias.items():  # e.g. a fully surveyed block: estimated area = surveyed area = burned area
