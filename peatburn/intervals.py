@@ -100,6 +100,17 @@ def _model_sums(acc: dict, idx, flame_layer: dict | None, frp_route: bool, veget
     return out
 
 
+class _HasColumn:
+    """The quantities that have an interval column in the tables (the others, such as the peat
+    volume, are not drawn)."""
+
+    def __contains__(self, q) -> bool:
+        return _column(q) is not None
+
+
+_WITH_COLUMN = _HasColumn()
+
+
 def _threads() -> int:
     """Threads for the zone draws: every core this process may use. The draws run after the block
     pass, when nothing else competes; their random streams are keyed by zone block, so the result
@@ -124,7 +135,7 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid) -> d
         idx = np.arange(1, len(ids) + 2)  # zones, then the outside bin
         fl = flame.layers[li][1] if flame else None
         ms = _model_sums(acc, idx, fl, frp, factors.vegetation_carbon_fraction)
-        iv = unc.intervals(ms, params, draws=draws, seed=seed, workers=_threads())
+        iv = unc.intervals(ms, params, draws=draws, seed=seed, workers=_threads(), quantities=_WITH_COLUMN)
         con = unc.contributions(ms, params, quantity="carbon_kg")
         for k in range(len(idx)):
             _fill(rows[row_i + k], iv, k)
@@ -134,7 +145,7 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid) -> d
     tot = {k: np.array([v]) for k, v in sums.total.items()}
     ms = _model_sums(tot, np.array([0]), {"dry_matter_kg": np.array([flame.total["dry_matter_kg"]])} if flame else None,
                      frp, factors.vegetation_carbon_fraction)
-    iv = unc.intervals(ms, params, draws=draws, seed=seed)
+    iv = unc.intervals(ms, params, draws=draws, seed=seed, quantities=_WITH_COLUMN)
     assert rows[row_i]["layer"] == TOTAL_LAYER
     _fill(rows[row_i], iv, 0)
     con = unc.contributions(ms, params, quantity="carbon_kg")

@@ -1143,7 +1143,8 @@ def _row_quantiles(a: np.ndarray, qs) -> list[np.ndarray]:
 
 
 def intervals(sums: Mapping, params: Mapping, *, draws: int, seed: int, quantiles=(0.025, 0.975),
-              fixed=frozenset(), chunk_zones=2000, total=False, workers=1) -> dict[str, tuple[np.ndarray, np.ndarray]]:
+              fixed=frozenset(), chunk_zones=2000, total=False, workers=1,
+              quantities=None) -> dict[str, tuple[np.ndarray, np.ndarray]]:
     """Monte Carlo intervals (default 2.5 and 97.5 percentiles) of every quantity per zone.
 
     The percentiles of the draws are the 95 % coverage interval of the Monte Carlo method of
@@ -1163,6 +1164,9 @@ def intervals(sums: Mapping, params: Mapping, *, draws: int, seed: int, quantile
     workers : int
         Threads over chunks of zones (results do not depend on it; memory stays near
         :data:`MAX_FLOATS` in total).
+    quantities : collection of str, optional
+        Draw only these quantities (default: all of the model). Each quantity's draws are the
+        same whichever others are drawn: the random streams are keyed by source and zone block.
 
     Returns
     -------
@@ -1176,20 +1180,21 @@ def intervals(sums: Mapping, params: Mapping, *, draws: int, seed: int, quantile
         raise ConfigError(f"quantiles must lie in [0, 1], got {quantiles!r}")
     model = _build(sums, params)
     fixed = _check_fixed(fixed)
+    wanted = [q for q in model.quantities if quantities is None or q in quantities]
     n_out = model.n + (1 if total else 0)
-    res = {q: [np.empty(n_out) for _ in qs] for q in model.quantities}
-    tot = {q: np.zeros(draws) for q in model.quantities}
+    res = {q: [np.empty(n_out) for _ in qs] for q in wanted}
+    tot = {q: np.zeros(draws) for q in wanted}
 
     def reduce(sl, evaluate):
         part = {}
-        for q in model.quantities:
+        for q in wanted:
             arr = evaluate(q)
             s = _block_sums(arr) if total else None
             part[q] = (_row_quantiles(arr, qs), s)
             del arr
         return sl, part
 
-    for sl, part in _map_chunks(_Drawer(model, draws, seed, fixed), chunk_zones, int(workers), reduce):
+    for sl, part in _map_chunks(_Drawer(model, draws, seed, fixed, wanted), chunk_zones, int(workers), reduce):
         for q, (vals, s) in part.items():
             for out, val in zip(res[q], vals):
                 out[sl] = val
@@ -1197,7 +1202,7 @@ def intervals(sums: Mapping, params: Mapping, *, draws: int, seed: int, quantile
                 for row in s:  # block by block, in zone order: the total does not depend on chunking
                     tot[q] += row
     if total:
-        for q in model.quantities:
+        for q in wanted:
             for out, val in zip(res[q], _row_quantiles(tot[q][None, :].copy(), qs)):
                 out[-1] = val[0]
     return {q: tuple(v) for q, v in res.items()}

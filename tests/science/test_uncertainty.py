@@ -454,3 +454,15 @@ def test_independent_error_assumption_fails_the_same_coverage(coverage_hits):
     gives intervals far too narrow; the same test would reject them."""
     hits = coverage_hits["independent"]
     assert hits[:, 0].sum() < scipy.stats.binom.ppf(0.005, N_SCENES, 0.95) - 50
+
+
+def test_a_quantity_draws_the_same_whatever_else_is_drawn():
+    """Invariant: drawing a subset of the quantities (the run leaves out the peat volume, which
+    has no interval column) gives exactly the intervals of those quantities in a full draw."""
+    sums = _zones()
+    full = u.intervals(sums, PARAMS, draws=500, seed=7, total=True)
+    part = u.intervals(sums, PARAMS, draws=500, seed=7, total=True, quantities={"carbon_kg", "co2e_smouldering_kg"})
+    assert set(part) == {"carbon_kg", "co2e_smouldering_kg"}
+    for q in part:
+        for i in (0, 1):
+            np.testing.assert_array_equal(part[q][i], full[q][i])
