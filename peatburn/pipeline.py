@@ -819,7 +819,10 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
 
     w = np.empty((len(SUM_KEYS), n))  # only the rows in ``used`` are ever written or read
     used = []  # rows holding anything: only those are reduced per zone
-    alias = {}  # row -> an earlier row holding the same values (same array, on every pixel)
+    # row -> (an earlier row, factor): its sums are the earlier row's times the factor. Factor 1: the
+    # same array on every pixel; other factors: a constant times the same pixels (constant peat
+    # properties, the Tier 1 fuel), so one bincount serves both
+    alias = {}
     whole = {}  # id of an array put on every pixel -> (its row, the array)
 
     def put(key, mask, v):
@@ -828,7 +831,7 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
             return
         r = _ROW[key]
         if everywhere and id(v) in whole:
-            alias[r] = whole[id(v)][0]
+            alias[r] = (whole[id(v)][0], 1.0)
             return
         if everywhere:
             w[r] = v
@@ -839,19 +842,35 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         if everywhere:
             whole[id(v)] = (r, v)  # holding v keeps its id from being reused by a later temporary
 
+    def scaled(key, src_key, factor, v=None):
+        """``key`` = ``factor`` x the row ``src_key`` on every pixel (``v``: the array it stands for)."""
+        r, src = _ROW[key], _ROW[src_key]
+        if src not in used and src not in alias:
+            return  # the source is zero in this block: so is this row
+        alias[r] = (src, float(factor))
+        if v is not None:
+            whole[id(v)] = (r, v)
+
+    # constant, finite bulk density and carbon fraction (the usual inventory case): the peat rows are
+    # constants times the volume and area rows [kg = (g cm-3 x kg m-3 per g cm-3) x m3]
+    const_peat = np.ndim(data.rho) == 0 and np.ndim(data.cf) == 0 and bool(peat_ok.all())
+    k_rho = float(data.rho) * peat.KG_M3_PER_G_CM3 if const_peat else None
+    only_survey = const_peat and not m_wt.any() and not m_t1.any()
     put("burned_area_m2", True, area)
     put("estimated_area_m2", estimated, area)
     put("depth_area_m2", valid_depth, area)
     put("volume_m3", valid_depth, depth * area)
-    put("peat_kg", estimated, mass)
-    put("carbon_kg", True, carbon)
+    if only_survey:  # mass = depth x rho x K x area, carbon = mass x cf, on the surveyed pixels only
+        scaled("peat_kg", "volume_m3", k_rho, mass)
+        scaled("carbon_kg", "volume_m3", k_rho * float(data.cf), carbon)
+    else:
+        put("peat_kg", estimated, mass)
+        put("carbon_kg", True, carbon)
     put("unestimated_area_m2", ~estimated, area)
     if lod_mask is not None:
         put("below_lod_area_m2", lod_mask, area)
     with np.errstate(invalid="ignore"):
         put("capped_area_m2", m_survey & (raw > depth_s), area)
-    put("rho_area_survey", m_survey, rho_a)
-    put("rho_f_area_survey", m_survey, rho_f_a)
     if m_lin.any():
         wt_f = np.where(m_lin, wt, 0.0)
         put("wt_area", m_lin, area)
@@ -860,16 +879,31 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         put("wt_rho_area_wt", m_lin, rho_a * wt_f)
         put("wt_rho_f_area", m_lin, rho_f_a)
         put("wt_rho_f_area_wt", m_lin, rho_f_a * wt_f)
-    put("tier1_all_peat_kg", True, t1_mass_all)
-    put("tier1_all_carbon_kg", True, t1_mass_all * cf0)
     for name, m in (("survey", m_survey), ("water_table", m_wt), ("tier1", m_t1)):
         if m.any():
             put(f"area_m2_{name}", m, area)
             put(f"peat_kg_{name}", m, mass)
             put(f"carbon_kg_{name}", m, carbon)
+    if const_peat:  # rho x K x area and rho x K x cf x area over the surveyed pixels
+        scaled("rho_area_survey", "area_m2_survey", k_rho)
+        scaled("rho_f_area_survey", "area_m2_survey", k_rho * float(data.cf))
+    else:
+        put("rho_area_survey", m_survey, rho_a)
+        put("rho_f_area_survey", m_survey, rho_f_a)
+    fuel_kg_m2 = plan.tier1_fuel_t_ha * 1000.0 * 1e-4  # t/ha -> kg/m2
+    scaled("tier1_all_peat_kg", "burned_area_m2", fuel_kg_m2)  # fuel x area on every burned pixel
+    if np.ndim(data.cf) == 0 and np.isfinite(data.cf):
+        scaled("tier1_all_carbon_kg", "burned_area_m2", fuel_kg_m2 * float(data.cf))
+    else:
+        put("tier1_all_carbon_kg", True, t1_mass_all * cf0)
     if data.biomass is not None:
         b = np.broadcast_to(data.biomass, n)
         put("biomass_t", np.isfinite(b), b * area * 1e-4)  # t/ha x ha
+
+    def root(r):
+        while r in alias:
+            r = alias[r][0]
+        return r
 
     nonzero = sorted(set(used) | set(alias))
     scar_rows = [r for r in (_ROW[k] for k in SCAR_LAYER_KEYS) if r in nonzero]
@@ -878,11 +912,11 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     for r in used:
         total_sums[r] = w[r].sum()
     sums = [total_sums] + [
-        accumulate_stacked(bins, w, nb, rows=sorted({alias.get(r, r) for r in rows}))
+        accumulate_stacked(bins, w, nb, rows=sorted({root(r) for r in rows}))
         for bins, nb, rows in zip(data.zone_bins, n_bins, layer_rows)]
-    for r, src in alias.items():  # e.g. a fully surveyed block: estimated area = surveyed area = burned area
+    for r, (src, factor) in alias.items():  # in the order defined: a source is final before it is used
         for a in sums:
-            a[r] = a[src]
+            a[r] = a[src] * factor
     total = dict(zip(SUM_KEYS, sums[0].tolist()))
     zsums = [{SUM_KEYS[r]: a[r] for r in rows} for a, rows in zip(sums[1:], layer_rows)]
     codes = np.zeros(n, "uint8")
