@@ -272,6 +272,16 @@ def best_of_pairs(repeat: int, a: tuple, b: tuple) -> tuple[dict, dict, list[flo
     return merge(runs_a), merge(runs_b), [rb["wall_s"] / ra["wall_s"] for ra, rb in zip(runs_a, runs_b)]
 
 
+def compare_runs(repeat: int, label0: str, cfg0, label1: str, cfg1, out0: str, out1: str) -> tuple[dict, dict]:
+    """Fastest of ``repeat`` whole runs of two configs, with both phase tables printed."""
+    r0 = best_of(repeat, "run", config=str(cfg0), out=out_dir(out0))
+    r1 = best_of(repeat, "run", config=str(cfg1), out=out_dir(out1))
+    print(f"  (fastest of {repeat}; all runs: {label0} {r0['all_wall_s']}, {label1} {r1['all_wall_s']})")
+    print_phases(label0, r0)
+    print_phases(label1, r1)
+    return r0, r1
+
+
 def machine() -> dict:
     import rasterio
 

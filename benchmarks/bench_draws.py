@@ -29,11 +29,7 @@ def main(argv=None) -> dict:
     cfg0 = c.scene(a.scene, zones=a.zones)
     cfgd = c.scene(a.scene, zones=a.zones, draws=a.draws)
     c.warm(cfg0)
-    r0 = c.best_of(a.repeat, "run", config=str(cfg0), out=c.out_dir("d0"))
-    rd = c.best_of(a.repeat, "run", config=str(cfgd), out=c.out_dir("dN"))
-    print(f"  (fastest of {a.repeat}; all runs: no draws {r0['all_wall_s']}, draws {rd['all_wall_s']})")
-    c.print_phases("no draws", r0)
-    c.print_phases(f"{a.draws} draws", rd)
+    r0, rd = c.compare_runs(a.repeat, "no draws", cfg0, f"{a.draws} draws", cfgd, "d0", "dN")
     extra = rd["wall_s"] / r0["wall_s"] - 1
     print(f"  RATIO extra time with {a.draws} draws: whole run {extra:+.0%} (<= 25 %: {c.verdict(extra, 0.25)})")
     return {"run_0_s": r0["wall_s"], "run_draws_s": rd["wall_s"], "extra": extra, "phases_draws": rd["phases"]}

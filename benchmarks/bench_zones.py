@@ -29,18 +29,13 @@ def main(argv=None) -> dict:
     cfg0 = c.scene(a.scene)
     cfgz = c.scene(a.scene, zones=a.zones)
     c.warm(cfg0)
-    r0 = c.best_of(a.repeat, "run", config=str(cfg0), out=c.out_dir("z0"))
-    rz = c.best_of(a.repeat, "run", config=str(cfgz), out=c.out_dir("zN"))
-    print(f"  (fastest of {a.repeat}; all runs: no zones {r0['all_wall_s']}, zones {rz['all_wall_s']})")
-    c.print_phases("no zones", r0)
-    c.print_phases(f"{a.zones} zones ({rz['zones'] - 1} rows)", rz)
+    r0, rz = c.compare_runs(a.repeat, "no zones", cfg0, f"{a.zones} zones", cfgz, "z0", "zN")
     extra = rz["wall_s"] / r0["wall_s"] - 1
     b0 = sum(r0["phases"][k] for k in BLOCK_PHASES)
     bz = sum(rz["phases"][k] for k in BLOCK_PHASES)
     print(f"  RATIO extra time with zones: whole run {extra:+.0%} (<= 25 %: {c.verdict(extra, 0.25)}); "
           f"block pass {bz / b0 - 1:+.0%}")
     return {"run_0_s": r0["wall_s"], "run_z_s": rz["wall_s"], "extra": extra, "block_extra": bz / b0 - 1,
-
             "phases_z": rz["phases"]}
 
 

@@ -259,10 +259,10 @@ def _subsidence(cfg: RunConfig, grid: RunGrid, window: Window, sub_src=None):
     return survey.subsidence_lowering(rate, cfg.survey.interval_years)
 
 
-#: Gap of missing pixels between sample windows in the co-registration mosaic: wider than the
+#: Gap of missing pixels between sample windows in the co-registration mosaic [pixels]: wider than the
 #: reach of the slope kernel and of a resampled shift of a few pixels.
 MOSAIC_GUTTER = 8
-#: Stable pixels the sample windows must hold before the decimated whole view is used instead.
+#: Stable pixels the sample windows must hold before the decimated whole view is used instead [pixels].
 MIN_WINDOW_STABLE = 10_000
 
 
@@ -809,7 +809,8 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     estimated = valid_depth | m_t1
     with np.errstate(invalid="ignore"):
         mass = np.where(valid_depth, peat.peat_dry_mass(depth, rho, area), 0.0)
-    t1_mass_all = plan.tier1_fuel_t_ha * 1000.0 * area * 1e-4  # t/ha -> kg per pixel
+    fuel_kg_m2 = plan.tier1_fuel_t_ha * 1000.0 * 1e-4  # Tier 1 fuel consumption, t/ha -> kg/m2
+    t1_mass_all = fuel_kg_m2 * area  # kg per pixel
     mass = np.where(m_t1, t1_mass_all, mass)
     cf0 = np.where(np.isfinite(cf), cf, 0.0)
     carbon = np.where(estimated, peat.carbon_mass(mass, cf0), 0.0)
@@ -890,7 +891,6 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     else:
         put("rho_area_survey", m_survey, rho_a)
         put("rho_f_area_survey", m_survey, rho_f_a)
-    fuel_kg_m2 = plan.tier1_fuel_t_ha * 1000.0 * 1e-4  # t/ha -> kg/m2
     scaled("tier1_all_peat_kg", "burned_area_m2", fuel_kg_m2)  # fuel x area on every burned pixel
     if np.ndim(data.cf) == 0 and np.isfinite(data.cf):
         scaled("tier1_all_carbon_kg", "burned_area_m2", fuel_kg_m2 * float(data.cf))

@@ -32,6 +32,7 @@ from pathlib import Path
 import numpy as np
 
 from ..io.writers import write_text
+from .tables import OUTSIDE, TOTAL_LAYER
 
 #: The Okabe-Ito palette (Okabe & Ito 2008), by colour name.
 OKABE_ITO_NAMED = {
@@ -57,9 +58,6 @@ MAX_CHART_ZONES = 25
 #: Zone names are written on the maps when there are at most this many zones in all layers.
 MAX_MAP_LABELS = 20
 DPI = 120
-
-OUTSIDE = "(outside every zone)"
-TOTAL_LAYER = "total"
 
 #: Columns of the main zone table: key, label, unit.
 ZONE_TABLE = [
