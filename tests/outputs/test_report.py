@@ -275,6 +275,22 @@ def test_intervals_are_shown_as_value_lo_hi(demo):
     assert len(p.images()) == 7  # the contribution chart is added
 
 
+def test_run_report_draws_the_runs_zone_layers_without_reading_them_again(demo, page, tmp_path, monkeypatch):
+    out, result, cfg, prov, factors, inputs = demo
+    assert cfg.zones, "the demo has zone layers"
+    # the maps a report draws after reading the zone layers from the config are those of the run's report
+    ctx = report.build_context(result, cfg, prov, factors)
+    for key in ("depth", "carbon", "method_map"):
+        assert ctx["figures"][key] in page.images(), key
+
+    def no_second_read(*a, **k):
+        raise AssertionError("the report read the zone layers again")
+
+    monkeypatch.setattr(report, "_zone_frames", no_second_read)
+    again = peatburn.run(cfg, tmp_path / "again", overwrite=True)
+    assert Page((Path(again.out_dir) / "report.html").read_text(encoding="utf-8")).images() == page.images()
+
+
 def test_report_without_rasters_or_zones_still_renders(demo, tmp_path):
     _, result, cfg, prov, factors, _ = demo
     r = copy.deepcopy(result)
