@@ -7,7 +7,8 @@ run      peatburn.run on a config as `peatburn run` makes it (malloc tuned), wit
 floor    the I/O floor of a survey-only run: read both surveys by blocks, write two float32
          rasters block by block and copy them to COG (the same writer as a run).
 blocks   the CPU-bound part alone: map_blocks(process_block) over every window, results summed
-         and dropped (no writing), after the plan is built.
+         and dropped (no writing), after the plan is built (worker processes started before the
+         co-registration, as in a run, unless early=False).
 write    one float32 raster written by BlockRasterWriter (memory of the writer alone).
 """
 
@@ -159,14 +160,18 @@ def task_floor(config, out, gdal_env=False):
     return {"wall_s": time.perf_counter() - t}
 
 
-def task_blocks(config, workers=1, cold=True):
+def task_blocks(config, workers=1, cold=True, early=True):
+    """``early``: start the worker processes before the co-registration, as a run does (their
+    start-up then is not in the time); else they start inside the timed block pass."""
     import peatburn
-    from peatburn.executors import map_blocks
+    from peatburn.executors import BLOCK_GROUP, WorkerPool, map_blocks
     from peatburn.pipeline import Sums, build_plan, coregister, open_inputs, process_block
 
     cfg = peatburn.load_config(config)
-    plan = build_plan(inputs := open_inputs(cfg), coregister(inputs))
-    windows = plan.grid.windows(cfg.block_size)
+    inputs = open_inputs(cfg)
+    pool = WorkerPool(workers) if workers > 1 and early else None
+    plan = build_plan(inputs, coregister(inputs))
+    windows = plan.grid.windows(cfg.block_size, group=BLOCK_GROUP)  # the run's order
     sums = Sums.empty(plan)
     if cold:
         # empty this process's GDAL block cache: the co-registration read both surveys whole and, with
@@ -177,9 +182,12 @@ def task_blocks(config, workers=1, cold=True):
         with rasterio.Env(GDAL_CACHEMAX=1):  # shrinking the cache drops its blocks; leaving restores the size
             pass
     t = time.perf_counter()
-    for r in map_blocks(process_block, plan, windows, workers):
+    for r in map_blocks(process_block, plan, windows, workers, pool=pool):
         sums.add(r)
-    return {"wall_s": time.perf_counter() - t, "blocks": len(windows), "carbon_kg": sums.total["carbon_kg"]}
+    wall = time.perf_counter() - t
+    if pool is not None:
+        pool.close()
+    return {"wall_s": wall, "blocks": len(windows), "carbon_kg": sums.total["carbon_kg"]}
 
 
 def task_write(n, out, gdal_env=False):

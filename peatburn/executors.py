@@ -5,9 +5,10 @@ adds sums in the same order whatever the executor and the totals equal the seria
 
 ``serial``
     in this process.
-``processes`` (``workers=N``)
-    N local worker processes. The plan is sent once to each worker (pool initializer); a task
-    carries only a few consecutive windows; each worker opens the input files itself.
+``processes`` (``workers=N``, :class:`WorkerPool`)
+    N local worker processes, which a run starts before its co-registration. The plan is written
+    once to a temporary file that each worker reads on its first task; a task carries only a few
+    consecutive windows; each worker opens the input files itself.
 ``dask.distributed`` (``scheduler="tcp://host:8786"``)
     blocks are submitted to an existing cluster; the plan is scattered once to every worker
     (broadcast) and each result is gathered back to this process, which writes the outputs. The
@@ -31,9 +32,13 @@ several threads; one single-threaded worker process per core runs fastest (see :
 from __future__ import annotations
 
 import collections
+import contextlib
 import multiprocessing
 import os
+import pickle
+import shutil
 import sys
+import tempfile
 import threading
 from concurrent.futures import ProcessPoolExecutor
 from typing import Callable, Iterable, Iterator
@@ -52,10 +57,15 @@ MAX_GDAL_CACHE = 256 * 2**20
 CONNECT_TIMEOUT = 10
 #: Chunks in flight per worker (submitted, not yet handed to the caller).
 PREFETCH = 2
-#: Consecutive windows per task: neighbouring blocks share input tiles (a block read through the
-#: warper touches its neighbours' tiles), so a worker given runs of windows decodes fewer tiles
-#: twice; it also cuts the round trips per block. 4 measured best of 1, 4 and 16 (docs/performance.md).
-CHUNK = 4
+#: Side of the squares of blocks a run orders its windows in (``RunGrid.windows(block, group)``).
+#: A block read with a sub-pixel shift touches the tiles to its right and below, which its
+#: neighbours decode too; a worker given a 4 x 4 square decodes 25 tiles of the shifted survey for
+#: 16 blocks (a 1 x 4 run: 10 for 4). Measured on 2 workers: about 7 % less time than runs of 4 in
+#: row order (docs/performance.md).
+BLOCK_GROUP = 4
+#: Consecutive windows per task: one square of blocks (it also cuts the round trips per block).
+#: Results in flight: PREFETCH x workers x CHUNK blocks.
+CHUNK = BLOCK_GROUP * BLOCK_GROUP
 
 _THREAD_VARS = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
 
@@ -167,14 +177,17 @@ def _ordered(submit: Callable, chunks: list, depth: int) -> Iterator:
 _WORKER: dict = {}
 
 
-def _init_process(fn, plan, cache_bytes):
-    configure_worker(cache_bytes)
-    _WORKER["fn"] = fn
-    _WORKER["plan"] = plan
+def _started() -> int:
+    return os.getpid()
 
 
-def _process_task(windows):
-    fn, plan = _WORKER["fn"], _WORKER["plan"]
+def _pool_task(fn, plan_path: str, windows):
+    """Run a chunk of blocks in a worker; the plan is read from ``plan_path`` once per worker."""
+    if _WORKER.get("path") != plan_path:
+        with open(plan_path, "rb") as fh:
+            _WORKER["plan"] = pickle.load(fh)
+        _WORKER["path"] = plan_path
+    plan = _WORKER["plan"]
     return [fn(plan, w) for w in windows]
 
 
@@ -189,15 +202,53 @@ def _mp_context():
     return multiprocessing.get_context("spawn")
 
 
-def _process_map(fn, plan, windows, workers, cache_bytes, chunk):
-    with ProcessPoolExecutor(max_workers=workers, mp_context=_mp_context(), initializer=_init_process,
-                             initargs=(fn, plan, cache_bytes)) as pool:
+class WorkerPool:
+    """``workers`` local processes, started at once and given a plan later (:meth:`map`).
+
+    Starting a worker costs about 1.7 s on the benchmark machine (a fresh interpreter importing
+    numpy, rasterio, shapely and peatburn; docs/performance.md). A run starts its pool before the
+    co-registration, so that start-up overlaps the co-registration instead of the block pass. The
+    plan, which exists only after the co-registration, is written once to a temporary file that
+    each worker reads on its first task (not pickled into every task: with many zones it holds
+    every polygon).
+
+    Use as a context manager, or call :meth:`close`.
+    """
+
+    def __init__(self, workers: int, cache_bytes: int = WORKER_GDAL_CACHE):
+        self.workers = max(1, int(workers))
+        self._pool = ProcessPoolExecutor(max_workers=self.workers, mp_context=_mp_context(),
+                                         initializer=configure_worker, initargs=(cache_bytes,))
+        self._dir = tempfile.mkdtemp(prefix="peatburn-plan-")
+        self._count = 0
+        # the processes start now; their start-up runs while the caller goes on
+        self._starting = [self._pool.submit(_started) for _ in range(self.workers)]
+
+    def map(self, fn: Callable, plan, windows: list, chunk: int = CHUNK) -> Iterator:
+        """Yield ``fn(plan, w)`` for each of ``windows`` in order (see :func:`map_blocks`)."""
+        self._count += 1
+        path = os.path.join(self._dir, f"plan{self._count}.pickle")
+        with open(path, "wb") as fh:
+            pickle.dump(plan, fh, protocol=pickle.HIGHEST_PROTOCOL)
+        chunk = max(1, min(chunk, len(windows) // self.workers))
         try:
-            yield from _ordered(lambda ch: pool.submit(_process_task, ch), _chunks(windows, chunk),
-                                PREFETCH * workers)
-        except BaseException:
-            pool.shutdown(wait=True, cancel_futures=True)
-            raise
+            yield from _ordered(lambda ch: self._pool.submit(_pool_task, fn, path, ch), _chunks(windows, chunk),
+                                PREFETCH * self.workers)
+        finally:
+            with contextlib.suppress(OSError):
+                os.unlink(path)
+
+    def close(self) -> None:
+        """Stop the workers (blocks not yet run are cancelled) and remove the plan files; a second
+        call does nothing."""
+        self._pool.shutdown(wait=True, cancel_futures=True)
+        shutil.rmtree(self._dir, ignore_errors=True)
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()
 
 
 # --------------------------------------------------------------------------------------------
@@ -254,6 +305,7 @@ def _dask_map(fn, plan, windows, scheduler, cache_bytes, chunk):
     try:
         [plan_f] = client.scatter([plan], broadcast=True, hash=False)
         threads = sum(client.nthreads().values()) or 1
+        chunk = max(1, min(chunk, len(windows) // threads))
         yield from _ordered(lambda ch: client.submit(_dask_task, fn, plan_f, ch, cache_bytes, pure=False),
                             _chunks(windows, chunk), PREFETCH * threads)
     finally:
@@ -297,7 +349,8 @@ def _read_ahead_map(read: Callable, compute: Callable, plan, windows: list) -> I
 
 
 def map_blocks(fn: Callable, plan, windows: Iterable, workers: int = 1, scheduler=None, *,
-               worker_cache: int = WORKER_GDAL_CACHE, chunk: int = CHUNK, stages: tuple | None = None) -> Iterator:
+               worker_cache: int = WORKER_GDAL_CACHE, chunk: int = CHUNK, stages: tuple | None = None,
+               pool: WorkerPool | None = None) -> Iterator:
     """Yield ``fn(plan, window)`` for each window, in window order.
 
     Parameters
@@ -308,12 +361,13 @@ def map_blocks(fn: Callable, plan, windows: Iterable, workers: int = 1, schedule
         Picklable; sent once per worker process.
     windows : iterable of rasterio.windows.Window
     workers : int
-        Local worker processes; 1 runs serially in this process. Ignored when ``scheduler`` is given.
+        Local worker processes; 1 runs serially in this process. Ignored when ``scheduler`` or
+        ``pool`` is given.
     scheduler : str or distributed.Client, optional
         Address of a dask.distributed scheduler (e.g. ``"tcp://10.0.0.5:8786"``), or a client.
         A client made from an address is closed at the end; a client passed in is left open.
     worker_cache : int
-        GDAL block cache of each worker process [bytes].
+        GDAL block cache of each worker process [bytes] (of a pool made here).
     chunk : int
         Consecutive windows per task sent to a worker (tile reuse, fewer round trips).
     stages : (read, compute), optional
@@ -321,6 +375,8 @@ def map_blocks(fn: Callable, plan, windows: Iterable, workers: int = 1, schedule
         file work (GDAL decoding and rasterizing, which release the GIL) and ``compute`` the
         arithmetic. A serial run then reads the next windows in a background thread while it
         computes this one (:data:`READ_AHEAD` windows ahead).
+    pool : WorkerPool, optional
+        Worker processes started earlier (their start-up overlapped other work); left running.
 
     Notes
     -----
@@ -332,6 +388,9 @@ def map_blocks(fn: Callable, plan, windows: Iterable, workers: int = 1, schedule
     if scheduler is not None:
         yield from _dask_map(fn, plan, windows, scheduler, worker_cache, max(1, chunk))
         return
+    if pool is not None and len(windows) > 1:
+        yield from pool.map(fn, plan, windows, max(1, chunk))
+        return
     if workers <= 1 or len(windows) <= 1:
         if stages is not None and len(windows) > 1:
             yield from _read_ahead_map(*stages, plan, windows)
@@ -339,5 +398,5 @@ def map_blocks(fn: Callable, plan, windows: Iterable, workers: int = 1, schedule
         for w in windows:
             yield fn(plan, w)
         return
-    chunk = max(1, min(chunk, len(windows) // workers))
-    yield from _process_map(fn, plan, windows, min(workers, len(windows)), worker_cache, chunk)
+    with WorkerPool(min(workers, len(windows)), worker_cache) as own:
+        yield from own.map(fn, plan, windows, max(1, chunk))

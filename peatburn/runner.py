@@ -14,7 +14,7 @@ from pathlib import Path
 from . import __version__
 from .config import RunConfig
 from .errors import OutputExistsError
-from .executors import map_blocks
+from .executors import BLOCK_GROUP, map_blocks
 from .factors import load_factor_set, load_gwp_set
 from .io.writers import BlockRasterWriter, write_csv, write_json
 from .outputs import provenance, tables
@@ -119,13 +119,37 @@ def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, sc
     factors = load_factors(cfg)
 
     inputs = open_inputs(cfg)
-    from .executors import gdal_env, run_cache_bytes
+    from .executors import WorkerPool, gdal_env, run_cache_bytes
 
-    with gdal_env(run_cache_bytes(inputs.grid.width, cfg.block_size)):
-        return _run_inputs(cfg, out_dir, inputs, factors, workers=workers, progress=progress, scheduler=scheduler)
+    # local workers start now: their start-up overlaps the co-registration (docs/performance.md)
+    pool = WorkerPool(workers) if workers > 1 and scheduler is None else None
+    try:
+        with gdal_env(run_cache_bytes(inputs.grid.width, cfg.block_size)):
+            return _run_inputs(cfg, out_dir, inputs, factors, progress=progress, scheduler=scheduler, pool=pool)
+    finally:
+        if pool is not None:
+            pool.close()
 
 
-def _run_inputs(cfg: RunConfig, out_dir: Path, inputs, factors, *, workers: int, progress, scheduler) -> RunResult:
+def _run_inputs(cfg: RunConfig, out_dir: Path, inputs, factors, *, progress, scheduler, pool) -> RunResult:
+    """The run after its inputs are open; ``pool`` (local workers, or None) is closed as soon as the
+    block pass ends, so the COG conversion has the cores to itself."""
+    try:
+        plan, alignment, models, sums, rasters, notes = _block_pass(cfg, out_dir, inputs, progress, scheduler, pool)
+    finally:
+        if pool is not None:
+            pool.close()
+    # the COG conversions (GDAL, outside the GIL) run while the tables and intervals are computed
+    converting = _background(_finish_rasters, rasters)
+    try:
+        return _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, sums, notes, converting)
+    finally:
+        converting.wait()
+
+
+def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
+    """Co-registration, plan and the block pass; returns the plan, the alignment, the water-table
+    models, the sums, the open raster writers and the notes."""
     notes = list(inputs.notes)
     alignment = coregister(inputs) if inputs.has_survey else None
     plan = build_plan(inputs, alignment)
@@ -134,7 +158,7 @@ def _run_inputs(cfg: RunConfig, out_dir: Path, inputs, factors, *, workers: int,
         models = fit_models(inputs, plan, notes)
         plan = build_plan(inputs, alignment, models)
     grid = plan.grid
-    windows = grid.windows(cfg.block_size)
+    windows = grid.windows(cfg.block_size, group=BLOCK_GROUP)  # squares of blocks: fewer tiles decoded twice
     sums = Sums.empty(plan)
     specs = [
         ("burn_depth.tif", dict(description="burn depth", units="m")),
@@ -147,7 +171,7 @@ def _run_inputs(cfg: RunConfig, out_dir: Path, inputs, factors, *, workers: int,
         for name, kw in specs:
             rasters.append(BlockRasterWriter(out_dir / name, grid, block_size=cfg.block_size, **kw))
         wd, wc, wm = rasters
-        for i, r in enumerate(map_blocks(process_block, plan, windows, workers, scheduler=scheduler,
+        for i, r in enumerate(map_blocks(process_block, plan, windows, scheduler=scheduler, pool=pool,
                                          stages=(read_block, compute_block))):
             sums.add(r)
             wd.write_at(r.window, r.burned, r.depth_b)
@@ -158,12 +182,7 @@ def _run_inputs(cfg: RunConfig, out_dir: Path, inputs, factors, *, workers: int,
     except BaseException:
         _finish_rasters(rasters, ok=False)
         raise
-    # the COG conversions (GDAL, outside the GIL) run while the tables and intervals are computed
-    converting = _background(_finish_rasters, rasters)
-    try:
-        return _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, sums, notes, converting)
-    finally:
-        converting.wait()
+    return plan, alignment, models, sums, rasters, notes
 
 
 def _background(fn, *args):

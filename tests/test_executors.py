@@ -73,8 +73,22 @@ def test_processes_keep_window_order_and_send_plan_once_per_worker():
     assert [o[:3] for o in out] == _expected()
     pids = {o[3] for o in out}
     assert os.getpid() not in pids and 1 <= len(pids) <= 2
-    # the plan travels with the pool initializer (once per worker process), not with every block
-    assert 1 <= CountingPlan.pickled <= 2
+    # the plan is pickled once (to the file the workers read), not with every block
+    assert CountingPlan.pickled == 1
+
+
+def test_pool_started_before_the_plan_serves_two_plans_and_cleans_up():
+    from peatburn.executors import WorkerPool
+
+    with WorkerPool(2) as pool:
+        first = list(map_blocks(_slow_block, CountingPlan(3), WINDOWS, pool=pool))
+        second = list(map_blocks(_slow_block, CountingPlan(5), WINDOWS, pool=pool))  # a new plan replaces the old
+        folder = pool._dir
+        assert os.listdir(folder) == []  # each plan file is removed when its map ends
+    assert [o[:3] for o in first] == _expected(3)
+    assert [o[:3] for o in second] == _expected(5)
+    assert os.getpid() not in {o[3] for o in first + second}
+    assert not os.path.exists(folder)
 
 
 def test_worker_error_keeps_its_type():

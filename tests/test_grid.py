@@ -64,3 +64,23 @@ def test_decimated_grid_keeps_bounds(w, h, f):
     g = RunGrid(CRS.from_epsg(32749), from_origin(1000, 5000, 2, 2), w, h)
     d = g.decimated(f)
     np.testing.assert_allclose(d.bounds, g.bounds, atol=1e-6)
+
+
+def test_grouped_windows_order_by_hand():
+    # a 5 x 3 grid of 10-px blocks (50 x 30 px) in squares of 2 x 2 blocks, written out by hand as
+    # (col_off, row_off): squares row-major, blocks of a square row-major, edge squares cut
+    g = RunGrid(CRS.from_epsg(32749), from_origin(0, 100, 1, 1), 50, 30)
+    got = [(int(w.col_off), int(w.row_off)) for w in g.windows(10, group=2)]
+    assert got == [(0, 0), (10, 0), (0, 10), (10, 10), (20, 0), (30, 0), (20, 10), (30, 10), (40, 0), (40, 10),
+                   (0, 20), (10, 20), (20, 20), (30, 20), (40, 20)]
+
+
+@given(st.integers(1, 200), st.integers(1, 200), st.integers(1, 64), st.integers(1, 6))
+@settings(max_examples=80, deadline=None)
+def test_grouped_windows_cover_the_grid_once(width, height, block, group):
+    g = RunGrid(CRS.from_epsg(32749), from_origin(0, 1000, 1, 1), width, height)
+    grouped = g.windows(block, group=group)
+    key = lambda w: (int(w.row_off), int(w.col_off), int(w.height), int(w.width))  # noqa: E731
+    assert sorted(map(key, grouped)) == sorted(map(key, g.windows(block)))  # the same windows
+    assert len(set(map(key, grouped))) == len(grouped)
+    assert sum(int(w.width) * int(w.height) for w in grouped) == width * height
