@@ -165,13 +165,13 @@ def task_blocks(config, workers=1, cold=True, early=True):
     start-up then is not in the time); else they start inside the timed block pass."""
     import peatburn
     from peatburn.executors import BLOCK_GROUP, WorkerPool, map_blocks
-    from peatburn.pipeline import Sums, build_plan, coregister, open_inputs, process_block
+    from peatburn.pipeline import Sums, build_plan, coregister, open_inputs, process_block, window_group
 
     cfg = peatburn.load_config(config)
     inputs = open_inputs(cfg)
     pool = WorkerPool(workers) if workers > 1 and early else None
     plan = build_plan(inputs, coregister(inputs))
-    windows = plan.grid.windows(cfg.block_size, group=BLOCK_GROUP)  # the run's order
+    windows = plan.grid.windows(cfg.block_size, group=window_group(inputs, cfg.block_size, BLOCK_GROUP))  # the run's order
     sums = Sums.empty(plan)
     if cold:
         # empty this process's GDAL block cache: the co-registration read both surveys whole and, with

@@ -120,6 +120,27 @@ def open_inputs(cfg: RunConfig) -> Inputs:
     return Inputs(cfg, grid, rasters, scars, zones, stable, stations, plots, notes)
 
 
+def window_group(inputs: Inputs, block_size: int, group: int) -> int:
+    """Side of the squares of blocks the run's windows are ordered in (:meth:`RunGrid.windows`):
+    ``group`` when every input raster's internal blocks (tiles or strips), measured in run-grid
+    pixels, fit in a square of ``group`` x ``group`` blocks; 1 (row order) otherwise.
+
+    A striped GeoTIFF holds rows of the whole width in each strip: in square order every strip
+    would be decoded once per column of squares, in row order once. A raster in another CRS than
+    the grid's counts as not fitting (its blocks cannot be measured in grid pixels). Common
+    practice (follow the files' own tiling); docs/performance.md.
+    """
+    span = group * int(block_size)
+    gx, gy = inputs.grid.res
+    for info in inputs.rasters.values():
+        if info.crs != inputs.grid.crs:
+            return 1
+        bh, bw = info.block_shapes[0]
+        if bw * info.res[0] / gx > span or bh * info.res[1] / gy > span:
+            return 1
+    return group
+
+
 def _note_rejected(notes: list, what: str, points) -> None:
     for reason, n in (points.rejected or {}).items():
         if n:

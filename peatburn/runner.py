@@ -19,7 +19,7 @@ from .factors import load_factor_set, load_gwp_set
 from .io.writers import BlockRasterWriter, write_csv, write_json
 from .outputs import provenance, tables
 from .pipeline import (METHOD_CODES, SCAR_LAYER, Sums, build_plan, compute_block, coregister, fit_models, open_inputs,
-                       process_block, read_block)
+                       process_block, read_block, window_group)
 
 CAUTIONS = [
     "These are estimates with uncertainty, not measurements and not legal findings.",
@@ -158,7 +158,8 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
         models = fit_models(inputs, plan, notes)
         plan = build_plan(inputs, alignment, models)
     grid = plan.grid
-    windows = grid.windows(cfg.block_size, group=BLOCK_GROUP)  # squares of blocks: fewer tiles decoded twice
+    # squares of blocks (fewer tiles decoded twice by workers) unless an input is striped
+    windows = grid.windows(cfg.block_size, group=window_group(inputs, cfg.block_size, BLOCK_GROUP))
     sums = Sums.empty(plan)
     specs = [
         ("burn_depth.tif", dict(description="burn depth", units="m")),

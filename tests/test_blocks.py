@@ -197,3 +197,35 @@ def test_atomic_path_keeps_the_old_file_on_error(tmp_path):
             raise ValueError("boom")
     assert final.read_text() == "old complete file\n"
     assert _leftovers(tmp_path) == []
+
+
+@pytest.mark.parametrize("layout, pixel, epsg, expected", [
+    (dict(tiled=True, blockxsize=16, blockysize=16), 2.0, 32749, 4),  # 16 px tiles fit a 4 x 8 = 32 px square
+    (dict(tiled=True, blockxsize=16, blockysize=16), 4.0, 32749, 4),  # 16 coarse px = 32 grid px: still fits
+    (dict(tiled=True, blockxsize=32, blockysize=32), 4.0, 32749, 1),  # 32 coarse px = 64 grid px: does not
+    (dict(tiled=False, blockysize=4), 2.0, 32749, 1),  # strips of the whole 100 px width
+    (dict(tiled=True, blockxsize=16, blockysize=16), 2.0, 32750, 1),  # another CRS: not measurable
+])
+def test_window_group_follows_the_inputs_tiling(tmp_path, layout, pixel, epsg, expected):
+    """The block layout is GDAL's, as rasterio reports it for files written here (``block_shapes``)."""
+    from types import SimpleNamespace
+
+    from rasterio.crs import CRS
+    from rasterio.transform import from_origin
+
+    from peatburn.grid import RunGrid
+    from peatburn.io.rasters import inspect_raster
+    from peatburn.pipeline import window_group
+
+    n = int(200 / pixel)
+    path = tmp_path / "in.tif"
+    with rasterio.open(path, "w", driver="GTiff", width=n, height=n, count=1, dtype="float32",
+                       crs=CRS.from_epsg(epsg), transform=from_origin(500_000, 9_800_000, pixel, pixel),
+                       **layout) as ds:
+        ds.write(np.zeros((1, n, n), "float32"))
+    info = inspect_raster(path)
+    if not layout.get("tiled"):
+        assert info.block_shapes[0] == (4, n)  # GDAL's strips span the width
+    grid = RunGrid(CRS.from_epsg(32749), from_origin(500_000, 9_800_000, 2.0, 2.0), 100, 100)
+    inputs = SimpleNamespace(grid=grid, rasters={"depth.survey.pre": info})
+    assert window_group(inputs, 8, 4) == expected
