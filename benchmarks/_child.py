@@ -5,11 +5,13 @@ Tasks
 run      peatburn.run on a config as `peatburn run` makes it (malloc tuned), with the time and the
          memory high-water of each phase (instrumented from outside).
 floor    the I/O floor of a survey-only run: read both surveys by blocks, write two float32
-         rasters block by block and copy them to COG (the same writer as a run).
+         rasters block by block and copy them to COG (the same writer and writing threads as a run).
 blocks   the CPU-bound part alone: map_blocks(process_block) over every window, results summed
          and dropped (no writing), after the plan is built (worker processes started before the
          co-registration, as in a run, unless early=False).
 write    one float32 raster written by BlockRasterWriter (memory of the writer alone).
+main_writes  the main process's work per block in a parallel run (unpickle, sums, three raster
+         writes), one raster after another and through the writing threads.
 """
 
 from __future__ import annotations
@@ -97,8 +99,9 @@ def task_run(config, out, workers=1, gdal_env=False, scheduler=None, block_cache
     _timed(runner, "coregister", "co-registration")
     _timed(runner, "build_plan", "plan")
     _timed_generator(runner, "map_blocks", "blocks (compute, or wait for workers)")
-    _timed(writers.BlockRasterWriter, "write", "block writes")
-    _timed(writers.BlockRasterWriter, "write_at", "block writes")
+    # the writes themselves run in threads (writers.BackgroundWrites); timed is the main thread's wait
+    _timed(writers.BackgroundWrites, "write_at", "block writes (waits for the writing threads)")
+    _timed(writers.BackgroundWrites, "close", "block writes (waits for the writing threads)")
     _timed(writers.BlockRasterWriter, "close", "COG conversion")
     _timed(provenance, "build", "provenance (hashes)")
     _timed(report, "write_report", "report")
@@ -138,7 +141,7 @@ def task_floor(config, out, gdal_env=False):
     import _common
     from peatburn.config import load_config
     from peatburn.grid import RunGrid
-    from peatburn.io.writers import BlockRasterWriter
+    from peatburn.io.writers import BackgroundWrites, BlockRasterWriter
 
     cfg = load_config(config)
     out = Path(out)
@@ -149,14 +152,16 @@ def task_floor(config, out, gdal_env=False):
             grid = RunGrid(dpre.crs, dpre.transform, dpre.width, dpre.height)
             with BlockRasterWriter(out / "a.tif", grid, block_size=cfg.block_size) as wa, \
                     BlockRasterWriter(out / "b.tif", grid, block_size=cfg.block_size) as wb:
+                writes = BackgroundWrites([wa, wb])  # the run's writing threads
                 for w in grid.windows(cfg.block_size):
                     pre = dpre.read(1, window=w)
                     post = dpost.read(1, window=w)
                     x, y = grid.pixel_centres(w)
-                    # the same footprint as a run's outputs (NaN outside the scars), no science
-                    d = np.where(_common.scar_mask(x, y), pre - post, np.nan)
-                    wa.write(w, d)
-                    wb.write(w, d * 0.055)
+                    # the same footprint as a run's outputs (nodata outside the scars), no science
+                    m = _common.scar_mask(x, y)
+                    d = (pre - post)[m]
+                    writes.write_at(w, m, [d, d * 0.055])
+                writes.close()
     return {"wall_s": time.perf_counter() - t}
 
 
@@ -208,7 +213,56 @@ def task_write(n, out, gdal_env=False):
     return {"wall_s": time.perf_counter() - t}
 
 
+def task_main_writes(config, out, repeat=3):
+    """The main process's share of a parallel run, per block: unpickle a worker's result, add its
+    sums and write its three rasters, one raster after another (``threads`` False) or through the
+    run's writing threads (BackgroundWrites). The block results are computed first and kept
+    pickled, as they arrive from workers; the COG conversion is not timed."""
+    import pickle
+
+    import peatburn
+    from peatburn.executors import BLOCK_GROUP, gdal_env, map_blocks, run_cache_bytes
+    from peatburn.io.writers import BackgroundWrites, BlockRasterWriter
+    from peatburn.pipeline import (Sums, build_plan, compute_block, coregister, open_inputs, process_block,
+                                   read_block, window_group)
+
+    cfg = peatburn.load_config(config)
+    inputs = open_inputs(cfg)
+    plan = build_plan(inputs, coregister(inputs))
+    windows = plan.grid.windows(cfg.block_size, group=window_group(inputs, cfg.block_size, BLOCK_GROUP))
+    t = time.perf_counter()
+    packed = [pickle.dumps(r) for r in map_blocks(process_block, plan, windows, stages=(read_block, compute_block))]
+    block_s = (time.perf_counter() - t) / len(windows)
+    times = {False: [], True: []}
+    out = Path(out)
+    out.mkdir(parents=True, exist_ok=True)
+    with gdal_env(run_cache_bytes(plan.grid.width, cfg.block_size)):
+        for _ in range(repeat):
+            for threads in (False, True):
+                rasters = [BlockRasterWriter(out / f"{name}.tif", plan.grid, block_size=cfg.block_size, **kw)
+                           for name, kw in (("depth", {}), ("carbon", {}), ("method", dict(dtype="uint8", nodata=0)))]
+                sums = Sums.empty(plan)
+                t = time.perf_counter()
+                writes = BackgroundWrites(rasters) if threads else None
+                for b in packed:
+                    r = pickle.loads(b)
+                    sums.add(r)
+                    if writes is not None:
+                        writes.write_at(r.window, r.burned, [r.depth_b, r.cdens_b, r.codes])
+                    else:
+                        for w, v in zip(rasters, (r.depth_b, r.cdens_b, r.codes)):
+                            w.write_at(r.window, r.burned, v)
+                if writes is not None:
+                    writes.close()
+                times[threads].append(time.perf_counter() - t)
+                for w in rasters:
+                    w.close(ok=False)  # no COG conversion
+    return {"wall_s": 0.0, "blocks": len(windows), "serial_read_ahead_block_s": block_s,
+            "one_after_another_s": times[False], "threads_s": times[True]}
+
+
 if __name__ == "__main__":
     task, kwargs = sys.argv[1], json.loads(sys.argv[2])
-    res = {"run": task_run, "floor": task_floor, "blocks": task_blocks, "write": task_write}[task](**kwargs)
+    res = {"run": task_run, "floor": task_floor, "blocks": task_blocks, "write": task_write,
+           "main_writes": task_main_writes}[task](**kwargs)
     print(json.dumps(res))

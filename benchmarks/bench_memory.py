@@ -33,7 +33,7 @@ def main(argv=None) -> dict:
         r = c.best_of(1, "run", config=str(cfg), out=c.out_dir("mem"))
         res[name] = r
         hw = ", ".join(f"{k.split(' (')[0]} {v:.0f}" for k, v in r["hwm_mib"].items()
-                       if k in ("open inputs", "co-registration", "block writes", "COG conversion"))
+                       if k.split(" (")[0] in ("open inputs", "co-registration", "block writes", "COG conversion"))
         print(f"  {name:>6s}: peak {r['peak_mib']:5.0f} MiB, {r['wall_s']:5.1f} s   [peak after: {hw}]  "
               f"({c.load_note(r)})")
     out = {name: r["peak_mib"] for name, r in res.items()}

@@ -1,6 +1,6 @@
 """Run every benchmark of the scale work and print the ratios (``make bench``).
 
-    python benchmarks/run_all.py [--only io,memory,workers,zones,draws]
+    python benchmarks/run_all.py [--only io,memory,workers,zones,draws,writes]
 
 Synthetic scenes are made on first use in $PEATBURN_BENCH_DIR (default /tmp/peatburn-bench,
 about 0.5 GB for the 67 Mpx pair) and reused. Takes about 6 minutes on 2 cores (each
@@ -24,7 +24,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import _common as c  # noqa: E402
 
 BENCHES = {"io": "bench_io", "memory": "bench_memory", "workers": "bench_workers", "zones": "bench_zones",
-           "draws": "bench_draws"}
+           "draws": "bench_draws", "writes": "bench_writes"}
 
 
 def main(argv=None):

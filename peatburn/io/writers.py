@@ -214,3 +214,50 @@ def file_record(path) -> dict:
     """Path, size and SHA-256 of one input file (a GeoPackage's or shapefile's sidecars are not followed)."""
     p = Path(path)
     return {"path": str(p), "size_bytes": p.stat().st_size, "sha256": sha256_of(p)}
+
+
+class BackgroundWrites:
+    """Write each block's windows into several :class:`BlockRasterWriter` in background threads,
+    one thread per writer (a GDAL dataset is only ever used by one thread), at most ``depth``
+    blocks behind the caller.
+
+    GDAL compresses a tile in the thread that writes it and releases the GIL meanwhile, so the
+    writes of the three output rasters overlap each other and the caller's next block.
+    """
+
+    def __init__(self, writers: list, depth: int = 2):
+        import collections
+        from concurrent.futures import ThreadPoolExecutor
+
+        self._writers = list(writers)
+        self._threads = [ThreadPoolExecutor(max_workers=1, thread_name_prefix="peatburn-write") for _ in self._writers]
+        self._pending = collections.deque()
+        self.depth = max(1, int(depth))
+
+    def write_at(self, window, mask, values: list) -> None:
+        """Queue ``writer.write_at(window, mask, v)`` for each writer and its array of ``values``
+        (``mask`` and the arrays must not change afterwards); waits while ``depth`` blocks are queued."""
+        while len(self._pending) >= self.depth:
+            self._wait(self._pending.popleft())
+        self._pending.append([t.submit(w.write_at, window, mask, v)
+                              for t, w, v in zip(self._threads, self._writers, values)])
+
+    @staticmethod
+    def _wait(futures) -> None:
+        err = None
+        for f in futures:
+            try:
+                f.result()
+            except BaseException as exc:  # noqa: BLE001 - re-raised below, after every write ended
+                err = err or exc
+        if err is not None:
+            raise err
+
+    def close(self) -> None:
+        """Wait for every queued write (re-raising the first error) and stop the threads."""
+        try:
+            while self._pending:
+                self._wait(self._pending.popleft())
+        finally:
+            for t in self._threads:
+                t.shutdown(wait=True, cancel_futures=True)

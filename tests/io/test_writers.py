@@ -111,3 +111,53 @@ def test_csv_fields_read_back_with_the_csv_module(tmp_path_factory, rows):
             else:
                 assert repr(float(text)) == text  # the shortest form
                 assert abs(float(text) - v) <= 0.5e-9 + 4 * math.ulp(v)  # rounded to 9 decimals
+
+
+def _grid(n=96):
+    return RunGrid(CRS.from_epsg(32749), from_origin(500_000, 9_800_000, 1, 1), n, n)
+
+
+def test_background_writes_equal_direct_writes(tmp_path):
+    """Reference: the same windows written directly by BlockRasterWriter.write_at, read back with rasterio."""
+    from peatburn.io.writers import BackgroundWrites
+
+    grid = _grid()
+    rng = np.random.default_rng(3)
+    blocks = []
+    for win in grid.windows(32, group=2):
+        mask = rng.random((int(win.height), int(win.width))) < 0.4
+        blocks.append((win, mask, rng.normal(size=int(mask.sum())).astype("float32"),
+                       rng.integers(1, 4, int(mask.sum())).astype("uint8")))
+    outs = {}
+    for how in ("direct", "threads"):
+        ws = [BlockRasterWriter(tmp_path / f"{how}_f.tif", grid, block_size=32),
+              BlockRasterWriter(tmp_path / f"{how}_c.tif", grid, block_size=32, dtype="uint8", nodata=0)]
+        bg = BackgroundWrites(ws, depth=2) if how == "threads" else None
+        for win, mask, f, c in blocks:
+            if bg is None:
+                ws[0].write_at(win, mask, f)
+                ws[1].write_at(win, mask, c)
+            else:
+                bg.write_at(win, mask, [f, c])
+        if bg is not None:
+            bg.close()
+        for w in ws:
+            w.close()
+        outs[how] = [rasterio.open(tmp_path / f"{how}_{k}.tif").read(1) for k in ("f", "c")]
+    for a, b in zip(outs["direct"], outs["threads"]):
+        np.testing.assert_array_equal(a, b)
+    assert (outs["threads"][1] > 0).sum() == sum(int(m.sum()) for _, m, _, _ in blocks)
+
+
+def test_background_write_error_is_raised_and_nothing_is_left(tmp_path):
+    from peatburn.io.writers import BackgroundWrites
+
+    grid = _grid(64)
+    w = BlockRasterWriter(tmp_path / "out.tif", grid, block_size=32)
+    bg = BackgroundWrites([w])
+    win = grid.windows(32)[0]
+    bg.write_at(win, np.ones((32, 32), bool), [np.zeros(5, "float32")])  # 5 values for 1024 pixels
+    with pytest.raises(ValueError):
+        bg.close()
+    w.close(ok=False)
+    assert list(tmp_path.iterdir()) == []
