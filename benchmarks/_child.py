@@ -5,7 +5,8 @@ Tasks
 run      peatburn.run on a config as `peatburn run` makes it (malloc tuned), with the time and the
          memory high-water of each phase (instrumented from outside).
 floor    the I/O floor of a survey-only run: read both surveys by blocks, write two float32
-         rasters block by block and copy them to COG (the same writer and writing threads as a run).
+         rasters block by block and copy them to COG (the same writer as a serial run, writing
+         in its own thread).
 blocks   the CPU-bound part alone: map_blocks(process_block) over every window, results summed
          and dropped (no writing), after the plan is built (worker processes started before the
          co-registration, as in a run, unless early=False).
@@ -99,9 +100,9 @@ def task_run(config, out, workers=1, gdal_env=False, scheduler=None, block_cache
     _timed(runner, "coregister", "co-registration")
     _timed(runner, "build_plan", "plan")
     _timed_generator(runner, "map_blocks", "blocks (compute, or wait for workers)")
-    # the writes themselves run in threads (writers.BackgroundWrites); timed is the main thread's wait
-    _timed(writers.BackgroundWrites, "write_at", "block writes (waits for the writing threads)")
-    _timed(writers.BackgroundWrites, "close", "block writes (waits for the writing threads)")
+    # with workers the writes run in threads (writers.BlockWrites): then this is the main thread's wait
+    _timed(writers.BlockWrites, "write_at", "block writes")
+    _timed(writers.BlockWrites, "close", "block writes")
     _timed(writers.BlockRasterWriter, "close", "COG conversion")
     _timed(provenance, "build", "provenance (hashes)")
     _timed(report, "write_report", "report")
@@ -141,7 +142,7 @@ def task_floor(config, out, gdal_env=False):
     import _common
     from peatburn.config import load_config
     from peatburn.grid import RunGrid
-    from peatburn.io.writers import BackgroundWrites, BlockRasterWriter
+    from peatburn.io.writers import BlockRasterWriter, BlockWrites
 
     cfg = load_config(config)
     out = Path(out)
@@ -152,7 +153,7 @@ def task_floor(config, out, gdal_env=False):
             grid = RunGrid(dpre.crs, dpre.transform, dpre.width, dpre.height)
             with BlockRasterWriter(out / "a.tif", grid, block_size=cfg.block_size) as wa, \
                     BlockRasterWriter(out / "b.tif", grid, block_size=cfg.block_size) as wb:
-                writes = BackgroundWrites([wa, wb])  # the run's writing threads
+                writes = BlockWrites([wa, wb], threads=False)  # as a serial run writes
                 for w in grid.windows(cfg.block_size):
                     pre = dpre.read(1, window=w)
                     post = dpost.read(1, window=w)
@@ -216,13 +217,13 @@ def task_write(n, out, gdal_env=False):
 def task_main_writes(config, out, repeat=3):
     """The main process's share of a parallel run, per block: unpickle a worker's result, add its
     sums and write its three rasters, one raster after another (``threads`` False) or through the
-    run's writing threads (BackgroundWrites). The block results are computed first and kept
+    run's writing threads (BlockWrites). The block results are computed first and kept
     pickled, as they arrive from workers; the COG conversion is not timed."""
     import pickle
 
     import peatburn
     from peatburn.executors import BLOCK_GROUP, gdal_env, map_blocks, run_cache_bytes
-    from peatburn.io.writers import BackgroundWrites, BlockRasterWriter
+    from peatburn.io.writers import BlockRasterWriter, BlockWrites
     from peatburn.pipeline import (Sums, build_plan, compute_block, coregister, open_inputs, process_block,
                                    read_block, window_group)
 
@@ -243,17 +244,12 @@ def task_main_writes(config, out, repeat=3):
                            for name, kw in (("depth", {}), ("carbon", {}), ("method", dict(dtype="uint8", nodata=0)))]
                 sums = Sums.empty(plan)
                 t = time.perf_counter()
-                writes = BackgroundWrites(rasters) if threads else None
+                writes = BlockWrites(rasters, threads=threads)
                 for b in packed:
                     r = pickle.loads(b)
                     sums.add(r)
-                    if writes is not None:
-                        writes.write_at(r.window, r.burned, [r.depth_b, r.cdens_b, r.codes])
-                    else:
-                        for w, v in zip(rasters, (r.depth_b, r.cdens_b, r.codes)):
-                            w.write_at(r.window, r.burned, v)
-                if writes is not None:
-                    writes.close()
+                    writes.write_at(r.window, r.burned, [r.depth_b, r.cdens_b, r.codes])
+                writes.close()
                 times[threads].append(time.perf_counter() - t)
                 for w in rasters:
                     w.close(ok=False)  # no COG conversion

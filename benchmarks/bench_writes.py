@@ -3,7 +3,7 @@
 With ``--workers N`` or ``--scheduler``, the main process unpickles every block result, adds its
 sums and writes its three output rasters. That work does not spread over the workers, so it caps
 the number of workers that pay. This prints it per block, with the three rasters written one
-after another and through the run's writing threads (``peatburn.io.writers.BackgroundWrites``),
+after another and through the run's writing threads (``peatburn.io.writers.BlockWrites``),
 and the number of workers each can feed (a worker's time per block / the main process's).
 No target in the issue; a ratio measured in one run.
 

@@ -18,7 +18,7 @@ from .config import RunConfig
 from .errors import OutputExistsError
 from .executors import BLOCK_GROUP, map_blocks
 from .factors import load_factor_set, load_gwp_set
-from .io.writers import BackgroundWrites, BlockRasterWriter, write_csv, write_json
+from .io.writers import BlockRasterWriter, BlockWrites, write_csv, write_json
 from .outputs import provenance, tables
 from .pipeline import (METHOD_CODES, SCAR_LAYER, Sums, build_plan, compute_block, coregister, fit_models, open_inputs,
                        process_block, read_block, window_group)
@@ -174,7 +174,8 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
     try:
         for name, kw in specs:
             rasters.append(BlockRasterWriter(out_dir / name, grid, block_size=cfg.block_size, **kw))
-        writes = BackgroundWrites(rasters)  # one thread per raster: the main process writes 1.6x faster
+        # blocks computed in other processes: write in a thread per raster, so the main process keeps up
+        writes = BlockWrites(rasters, threads=pool is not None or scheduler is not None)
         for i, r in enumerate(map_blocks(process_block, plan, windows, scheduler=scheduler, pool=pool,
                                          stages=(read_block, compute_block))):
             sums.add(r)

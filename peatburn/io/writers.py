@@ -216,27 +216,37 @@ def file_record(path) -> dict:
     return {"path": str(p), "size_bytes": p.stat().st_size, "sha256": sha256_of(p)}
 
 
-class BackgroundWrites:
-    """Write each block's windows into several :class:`BlockRasterWriter` in background threads,
-    one thread per writer (a GDAL dataset is only ever used by one thread), at most ``depth``
-    blocks behind the caller.
+class BlockWrites:
+    """Write each block's windows into several :class:`BlockRasterWriter`: in the calling thread,
+    or (``threads=True``) in background threads, one per writer (a GDAL dataset is only ever used
+    by one thread), at most ``depth`` blocks behind the caller.
 
-    GDAL compresses a tile in the thread that writes it and releases the GIL meanwhile, so the
-    writes of the three output rasters overlap each other and the caller's next block.
+    GDAL compresses a tile in the thread that writes it and releases the GIL meanwhile, so with
+    threads the writes of the output rasters overlap each other and the caller's next block: the
+    main process of a parallel run takes in a block in 2.0 ms instead of 4.5 ms on the benchmark
+    scene (benchmarks/bench_writes.py). A serial run gains nothing from them on 2 cores (its
+    reading thread and its computation already fill them; docs/performance.md) and writes in its
+    own thread.
     """
 
-    def __init__(self, writers: list, depth: int = 2):
+    def __init__(self, writers: list, threads: bool = True, depth: int = 2):
         import collections
         from concurrent.futures import ThreadPoolExecutor
 
         self._writers = list(writers)
-        self._threads = [ThreadPoolExecutor(max_workers=1, thread_name_prefix="peatburn-write") for _ in self._writers]
+        self._threads = [ThreadPoolExecutor(max_workers=1, thread_name_prefix="peatburn-write")
+                         for _ in self._writers] if threads else None
         self._pending = collections.deque()
         self.depth = max(1, int(depth))
 
     def write_at(self, window, mask, values: list) -> None:
-        """Queue ``writer.write_at(window, mask, v)`` for each writer and its array of ``values``
-        (``mask`` and the arrays must not change afterwards); waits while ``depth`` blocks are queued."""
+        """``writer.write_at(window, mask, v)`` for each writer and its array of ``values``. With
+        threads the writes are queued (``mask`` and the arrays must not change afterwards), and
+        this waits while ``depth`` blocks are queued."""
+        if self._threads is None:
+            for w, v in zip(self._writers, values):
+                w.write_at(window, mask, v)
+            return
         while len(self._pending) >= self.depth:
             self._wait(self._pending.popleft())
         self._pending.append([t.submit(w.write_at, window, mask, v)
@@ -259,5 +269,5 @@ class BackgroundWrites:
             while self._pending:
                 self._wait(self._pending.popleft())
         finally:
-            for t in self._threads:
+            for t in self._threads or ():
                 t.shutdown(wait=True, cancel_futures=True)

@@ -119,7 +119,7 @@ def _grid(n=96):
 
 def test_background_writes_equal_direct_writes(tmp_path):
     """Reference: the same windows written directly by BlockRasterWriter.write_at, read back with rasterio."""
-    from peatburn.io.writers import BackgroundWrites
+    from peatburn.io.writers import BlockWrites
 
     grid = _grid()
     rng = np.random.default_rng(3)
@@ -132,14 +132,14 @@ def test_background_writes_equal_direct_writes(tmp_path):
     for how in ("direct", "threads"):
         ws = [BlockRasterWriter(tmp_path / f"{how}_f.tif", grid, block_size=32),
               BlockRasterWriter(tmp_path / f"{how}_c.tif", grid, block_size=32, dtype="uint8", nodata=0)]
-        bg = BackgroundWrites(ws, depth=2) if how == "threads" else None
-        for win, mask, f, c in blocks:
-            if bg is None:
+        if how == "direct":
+            for win, mask, f, c in blocks:
                 ws[0].write_at(win, mask, f)
                 ws[1].write_at(win, mask, c)
-            else:
+        else:
+            bg = BlockWrites(ws, threads=True, depth=2)
+            for win, mask, f, c in blocks:
                 bg.write_at(win, mask, [f, c])
-        if bg is not None:
             bg.close()
         for w in ws:
             w.close()
@@ -150,11 +150,11 @@ def test_background_writes_equal_direct_writes(tmp_path):
 
 
 def test_background_write_error_is_raised_and_nothing_is_left(tmp_path):
-    from peatburn.io.writers import BackgroundWrites
+    from peatburn.io.writers import BlockWrites
 
     grid = _grid(64)
     w = BlockRasterWriter(tmp_path / "out.tif", grid, block_size=32)
-    bg = BackgroundWrites([w])
+    bg = BlockWrites([w], threads=True)
     win = grid.windows(32)[0]
     bg.write_at(win, np.ones((32, 32), bool), [np.zeros(5, "float32")])  # 5 values for 1024 pixels
     with pytest.raises(ValueError):
