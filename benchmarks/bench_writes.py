@@ -25,7 +25,7 @@ import _common as c  # noqa: E402
 def main(argv=None) -> dict:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--scene", default="67mpx", choices=sorted(c.SIZES))
-    ap.add_argument("--repeat", type=int, default=3, help="alternating passes of each way; the median is kept")
+    ap.add_argument("--repeat", type=int, default=5, help="alternating passes of each way; the median is kept")
     ap.add_argument("--worker-block-ms", type=float, default=None,
                     help="a worker's time per block [ms] (default: the serial block pass's, as measured here)")
     a = ap.parse_args(argv)

@@ -3,11 +3,11 @@
     python benchmarks/run_all.py [--only io,memory,workers,zones,draws,writes]
 
 Synthetic scenes are made on first use in $PEATBURN_BENCH_DIR (default /tmp/peatburn-bench,
-about 0.5 GB for the 67 Mpx pair) and reused. Takes about 6 minutes on 2 cores (each
-benchmark under 2). Timings keep the fastest of 2 runs and wait for the machine to be idle. The results
-are also written to $PEATBURN_BENCH_DIR/results.json. Benchmark 5 (10,000 Monte Carlo draws
-against none) lives in bench_uncertainty.py, written with the uncertainty module, and runs here
-when that file exists.
+about 0.5 GB for the 67 Mpx pair) and reused. Takes about 6.5 minutes on 2 cores (each
+benchmark under 2). Timings keep the fastest of 2 or 3 runs and wait for the machine to be idle.
+The results are also written to $PEATBURN_BENCH_DIR/results.json. The five benchmarks of the
+scale issue are io (1), memory (2), workers (3), zones (4) and draws (5); writes times the main
+process's share of a parallel run.
 """
 
 from __future__ import annotations

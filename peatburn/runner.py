@@ -8,7 +8,6 @@ written atomically.
 from __future__ import annotations
 
 import contextlib
-
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
