@@ -273,10 +273,12 @@ def best_of_pairs(repeat: int, a: tuple, b: tuple) -> tuple[dict, dict, list[flo
 
 
 def compare_runs(repeat: int, label0: str, cfg0, label1: str, cfg1, out0: str, out1: str) -> tuple[dict, dict]:
-    """Fastest of ``repeat`` whole runs of two configs, with both phase tables printed."""
-    r0 = best_of(repeat, "run", config=str(cfg0), out=out_dir(out0))
-    r1 = best_of(repeat, "run", config=str(cfg1), out=out_dir(out1))
-    print(f"  (fastest of {repeat}; all runs: {label0} {r0['all_wall_s']}, {label1} {r1['all_wall_s']})")
+    """Fastest of ``repeat`` whole runs of two configs, run alternately (a drift of the machine's
+    speed then hits both alike), with both phase tables and each pair's ratio printed."""
+    r0, r1, pairs = best_of_pairs(repeat, ("run", dict(config=str(cfg0), out=out_dir(out0))),
+                                  ("run", dict(config=str(cfg1), out=out_dir(out1))))
+    print(f"  (fastest of {repeat}, alternating; all runs: {label0} {r0['all_wall_s']}, {label1} {r1['all_wall_s']}; "
+          f"each pair's extra time: {', '.join(f'{p - 1:+.0%}' for p in pairs)})")
     print_phases(label0, r0)
     print_phases(label1, r1)
     return r0, r1

@@ -23,7 +23,7 @@ def main(argv=None) -> dict:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--scene", default="67mpx", choices=sorted(c.SIZES))
     ap.add_argument("--zones", type=int, default=10_000)
-    ap.add_argument("--repeat", type=int, default=2, help="runs of each; the fastest is kept")
+    ap.add_argument("--repeat", type=int, default=3, help="runs of each, alternating; the fastest is kept")
     a = ap.parse_args(argv)
     print(f"[4] {a.zones} zone polygons vs none, {a.scene}")
     cfg0 = c.scene(a.scene)
