@@ -1058,56 +1058,78 @@ _SUBSAMPLE = 1024  # draws used to place the tail thresholds of the fast quantil
 _TAIL_MAX = 0.1  # ranks within this share of either end use the tail selection
 
 
-def _tail_values(a: np.ndarray, ranks: list[int], upper: bool):
-    """Order statistics ``ranks`` (0-based, ascending) of each row of ``a``, all in one tail.
-
-    A threshold from a subsample of the row keeps the few candidates of the tail (a few percent
-    of the row); they are sorted and the ranks read off. Rows where the threshold keeps too few
-    (or, with ties, too many) candidates fall back to a full partition, so the result is always
-    the exact order statistic.
-    """
+def _subsample_threshold(a: np.ndarray, need: int, upper: bool) -> tuple[np.ndarray, int]:
+    """Per row, a value that about ``need`` (+6 sd) of the row lie beyond, from the first
+    :data:`_SUBSAMPLE` draws; and the number of the subsample kept beyond it."""
     rows, n = a.shape
-    need = (n - min(ranks)) if upper else (max(ranks) + 1)  # candidates needed from the tail end
     m = min(_SUBSAMPLE, n)
     p = need / n
     k_sub = int(math.ceil(p * m + 6.0 * math.sqrt(m * p * (1.0 - p)) + 3.0))
     k_sub = min(max(k_sub, 0), m - 1)
     sub = a[:, :m].copy()
-    if upper:
-        sub.partition(m - 1 - k_sub, axis=1)
-        thr = sub[:, m - 1 - k_sub]
-        mask = a >= thr[:, None]
-    else:
-        sub.partition(k_sub, axis=1)
-        thr = sub[:, k_sub]
-        mask = a <= thr[:, None]
-    del sub
-    cnt = mask.sum(axis=1)
-    cap = max(4 * need + 64, int(1.5 * need * m / max(k_sub, 1)))
-    bad = (cnt < need) | (cnt > cap)
-    out = np.empty((len(ranks), rows))
-    if bad.any():
-        mask[bad] = False
-        part = np.partition(a[bad], ranks, axis=1)
-        for i, r in enumerate(ranks):
-            out[i, bad] = part[:, r]
-    good = ~bad
-    if good.any():
+    k = m - 1 - k_sub if upper else k_sub
+    sub.partition(k, axis=1)
+    return sub[:, k].copy(), k_sub
+
+
+def _tail_values(a: np.ndarray, lower: list[int], upper: list[int]) -> dict[int, np.ndarray]:
+    """Order statistics ``lower`` and ``upper`` (0-based, ascending ranks, near the low and the
+    high end) of each row of ``a``, from one pass over ``a``.
+
+    A threshold per tail from a subsample of the row keeps the few candidates of that tail (a few
+    percent of the row); both tails' candidates are gathered in one pass, sorted per row and the
+    ranks read off. Rows where a threshold keeps too few (or, with ties, too many) candidates fall
+    back to a full partition, so the result is always the exact order statistic.
+    """
+    rows, n = a.shape
+    m = min(_SUBSAMPLE, n)
+    sides = []  # (ranks, upper, threshold, need, cap)
+    for ranks, up in ((lower, False), (upper, True)):
+        if ranks:
+            need = (n - min(ranks)) if up else (max(ranks) + 1)  # candidates needed from the tail end
+            thr, k_sub = _subsample_threshold(a, need, up)
+            cap = max(4 * need + 64, int(1.5 * need * m / max(k_sub, 1)))
+            sides.append((ranks, up, thr, need, cap))
+    mask = None
+    for _, up, thr, _, _ in sides:
+        side = (a >= thr[:, None]) if up else (a <= thr[:, None])
+        mask = side if mask is None else np.logical_or(mask, side, out=mask)
+    idx = np.flatnonzero(mask)  # row-major: the candidates come grouped by row
+    del mask
+    vals = a.ravel()[idx]
+    row = idx // n
+    del idx
+    out: dict[int, np.ndarray] = {}
+    bad_any = np.zeros(rows, bool)
+    for ranks, up, thr, need, cap in sides:
+        keep = (vals >= thr[row]) if up else (vals <= thr[row])
+        v, r = vals[keep], row[keep]
+        cnt = np.bincount(r, minlength=rows)
+        bad = (cnt < need) | (cnt > cap)
+        bad_any |= bad
+        good = ~bad
+        for rank in ranks:
+            out[rank] = np.empty(rows)
+        if not good.any():
+            continue
+        ok = good[r]
+        v, r = v[ok], r[ok]
         c = np.where(good, cnt, 0)
-        vals = a[mask]
         width = int(c.max())
-        pad = np.full((rows, width), -np.inf if upper else np.inf)
-        row_idx = np.repeat(np.arange(rows), c)
         start = np.cumsum(c) - c
-        col_idx = np.arange(vals.size) - np.repeat(start, c)
-        pad[row_idx, col_idx] = vals
+        pad = np.full(rows * width, -np.inf if up else np.inf)
+        pad[np.arange(v.size) + (r * width - start[r])] = v
+        pad = pad.reshape(rows, width)
         pad.sort(axis=1)
-        for i, r in enumerate(ranks):
-            if upper:
-                # the (n - 1 - r)-th largest: from the top of the sorted candidates (padding is -inf, first)
-                out[i, good] = pad[good, width - (n - r)]
-            else:
-                out[i, good] = pad[good, r]
+        for rank in ranks:
+            # upper: the (n - 1 - rank)-th largest, from the top of the sorted candidates (padding
+            # -inf comes first); lower: the rank-th smallest (padding +inf comes last)
+            out[rank][good] = pad[good, width - (n - rank)] if up else pad[good, rank]
+    if bad_any.any():
+        ranks = [rank for ranks, *_ in sides for rank in ranks]
+        part = np.partition(a[bad_any], ranks, axis=1)
+        for rank in ranks:
+            out[rank][bad_any] = part[:, rank]
     return out
 
 
@@ -1129,10 +1151,7 @@ def _row_quantiles(a: np.ndarray, qs) -> list[np.ndarray]:
         a.partition(ranks, axis=1)
         value = {r: a[:, r] for r in ranks}
     else:
-        for group, up in ((lower, False), (upper, True)):
-            if group:
-                for r, v in zip(group, _tail_values(a, group, up)):
-                    value[r] = v
+        value = _tail_values(a, lower, upper)
     res = []
     for p in pos:
         lo = int(math.floor(p))
