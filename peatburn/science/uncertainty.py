@@ -1127,9 +1127,9 @@ def _tail_values(a: np.ndarray, lower: list[int], upper: list[int]) -> dict[int,
             # -inf comes first); lower: the rank-th smallest (padding +inf comes last)
             out[rank][good] = pad[good, width - (n - rank)] if up else pad[good, rank]
     if bad_any.any():
-        ranks = [rank for ranks, *_ in sides for rank in ranks]
-        part = np.partition(a[bad_any], ranks, axis=1)
-        for rank in ranks:
+        all_ranks = [rank for side in sides for rank in side[0]]
+        part = np.partition(a[bad_any], all_ranks, axis=1)
+        for rank in all_ranks:
             out[rank][bad_any] = part[:, rank]
     return out
 
