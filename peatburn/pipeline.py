@@ -830,7 +830,7 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     estimated = valid_depth | m_t1
     with np.errstate(invalid="ignore"):
         mass = np.where(valid_depth, peat.peat_dry_mass(depth, rho, area), 0.0)
-    fuel_kg_m2 = plan.tier1_fuel_t_ha * 1000.0 * 1e-4  # Tier 1 fuel consumption, t/ha -> kg/m2
+    fuel_kg_m2 = plan.tier1_fuel_t_ha * peat.KG_M2_PER_T_HA  # Tier 1 fuel consumption [kg m-2]
     t1_mass_all = fuel_kg_m2 * area  # kg per pixel
     mass = np.where(m_t1, t1_mass_all, mass)
     cf0 = np.where(np.isfinite(cf), cf, 0.0)
@@ -919,7 +919,7 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         put("tier1_all_carbon_kg", True, t1_mass_all * cf0)
     if data.biomass is not None:
         b = np.broadcast_to(data.biomass, n)
-        put("biomass_t", np.isfinite(b), b * area * 1e-4)  # t/ha x ha
+        put("biomass_t", np.isfinite(b), b * (area * peat.HA_PER_M2))  # t/ha x ha
 
     def root(r):
         while r in alias:

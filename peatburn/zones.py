@@ -87,7 +87,7 @@ class ZoneLayerIndex:
 
 
 def accumulate(bins: list[np.ndarray], values: dict[str, np.ndarray], n_bins: int,
-                valid: np.ndarray | None = None) -> dict[str, np.ndarray]:
+               valid: np.ndarray | None = None) -> dict[str, np.ndarray]:
     """Sum each array of ``values`` per bin over all pass rasters in ``bins``.
 
     Only pixels where ``valid`` is true are visited (pass the burned-area mask when every value is

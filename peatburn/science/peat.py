@@ -23,6 +23,10 @@ import numpy as np
 
 #: kg m-3 per g cm-3 (exact: 1 g cm-3 = 1000 kg m-3; SI definition).
 KG_M3_PER_G_CM3 = 1000.0
+#: kg m-2 per t ha-1 (exact: 1000 kg per 10,000 m2; SI definition).
+KG_M2_PER_T_HA = 0.1
+#: ha per m2 (exact: 1 ha = 10,000 m2).
+HA_PER_M2 = 1e-4
 
 
 def cap_depth(depth, thickness):

@@ -12,6 +12,8 @@ from peatburn.units import Q_
 def test_unit_constant_against_pint():
     # 1 g/cm^3 in kg/m^3 from pint, the reference unit library
     assert peat.KG_M3_PER_G_CM3 == pytest.approx(Q_(1, "g/cm^3").to("kg/m^3").magnitude)
+    assert peat.KG_M2_PER_T_HA == pytest.approx(Q_(1, "t/ha").to("kg/m^2").magnitude)
+    assert peat.HA_PER_M2 == pytest.approx(Q_(1, "m^2").to("ha").magnitude)
 
 
 def test_page_2002_carbon_per_hectare():
