@@ -46,6 +46,12 @@ class PeatConfig:
     bulk_density: Value
     carbon_fraction: Value
     thickness: Value | None = None
+    #: organic-soil extent: polygons (any vector file) or a raster (non-zero = organic soil)
+    extent: Path | None = None
+    #: stated fallbacks for holes in the bulk-density / carbon-fraction rasters [g cm-3, -];
+    #: None: the median of the run's valid values (with a note)
+    bulk_density_fill: float | None = None
+    carbon_fraction_fill: float | None = None
 
 
 @dataclass(frozen=True)
@@ -147,7 +153,13 @@ class RunConfig:
     resolution: float | None = None
     start_field: str = "fire_start"
     end_field: str = "fire_end"
+    id_field: str | None = None  # fires.csv id; None: the scar layer's first text field
     raw: dict = field(default_factory=dict, compare=False, repr=False)
+
+    @property
+    def tier1_only(self) -> bool:
+        """No survey and no water table: every burned pixel on peat gets the IPCC Tier 1 default."""
+        return self.survey is None and self.water_table is None
 
     def input_paths(self) -> dict[str, Path]:
         """Every input file of the run, by config key."""
@@ -178,6 +190,8 @@ class RunConfig:
             v = getattr(self.peat, key)
             if isinstance(v, RasterRef):
                 out[f"peat.{key}"] = v.path
+        if self.peat.extent is not None:
+            out["peat.extent"] = self.peat.extent
         for i, z in enumerate(self.zones):
             out[f"zones[{i}].path"] = z.path
         for key in ("smouldering", "flaming"):
@@ -192,7 +206,7 @@ class RunConfig:
 
 _SCHEMA = {
     "run": {"name", "year", "crs", "block_size", "force_ranges", "resolution"},
-    "burned_area": {"path", "layer", "fire_count_field", "start_field", "end_field"},
+    "burned_area": {"path", "layer", "fire_count_field", "start_field", "end_field", "id_field"},
     "depth": {"survey", "water_table", "plots", "tier1"},
     "depth.water_table": {"depth", "value_column", "crs", "date_column", "model", "intercept", "slope",
                           "fit_method", "idw_power", "idw_neighbours", "idw_max_distance_m", "units"},
@@ -202,7 +216,7 @@ _SCHEMA = {
                 "biomass", "combustion_factor", "vegetation_carbon_fraction"},
     "depth.survey": {"pre", "post", "interval_years", "pre_date", "post_date", "subsidence_rate", "stable",
                      "stable_buffer_m", "tilt", "lod_t"},
-    "peat": {"thickness", "bulk_density", "carbon_fraction"},
+    "peat": {"thickness", "bulk_density", "carbon_fraction", "extent", "bulk_density_fill", "carbon_fraction_fill"},
     "emission_factors": {"smouldering", "flaming", "gwp"},
     "zones": {"path", "id", "name", "layer"},
     "uncertainty": {"draws", "seed", "bulk_density_cv", "carbon_fraction_sd", "subsidence_rate_sd",
@@ -353,9 +367,8 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         if "fuel_consumption" in depth["tier1"]:
             tier1 = Tier1Config(_value(depth["tier1"]["fuel_consumption"], base, "depth.tier1.fuel_consumption",
                                        "biomass", where, "fuel_consumption", force=force))
-    if survey is None and water_table is None:
-        raise ConfigError(f"{where}: [depth] needs a [depth.survey] (two elevation surveys) or a "
-                          f"[depth.water_table]; without either only the Tier 1 default applies: give one of them")
+    # neither a survey nor a water table: a Tier-1-only run (burned area and peat inputs), the first
+    # thing a national compiler runs; accepted and labelled as such in every output (RunConfig.tier1_only)
     fire_count_field = ba.get("fire_count_field")
     resolution = run.get("resolution")
     if resolution is not None:
@@ -370,6 +383,9 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
                                "carbon_fraction", where, force=force),
         thickness=_value(peat_raw["thickness"], base, "peat.thickness", "peat_thickness", where, "thickness", force=force)
         if "thickness" in peat_raw else None,
+        extent=_path(peat_raw["extent"], base, "peat.extent", where) if "extent" in peat_raw else None,
+        bulk_density_fill=_fill_value(peat_raw, "bulk_density_fill", "bulk_density", base, where, force),
+        carbon_fraction_fill=_fill_value(peat_raw, "carbon_fraction_fill", "carbon_fraction", base, where, force),
     )
 
     if isinstance(peat.carbon_fraction, float) and not (0.0 < peat.carbon_fraction <= 1.0):
@@ -424,8 +440,22 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         factors=factors, zones=tuple(zones), uncertainty=unc, block_size=block_size,
         water_table=water_table, plots=plots, tier1=tier1, flaming=flaming, fire_count_field=fire_count_field,
         resolution=resolution, start_field=str(ba.get("start_field", "fire_start")),
-        end_field=str(ba.get("end_field", "fire_end")), raw=raw,
+        end_field=str(ba.get("end_field", "fire_end")),
+        id_field=str(ba["id_field"]) if ba.get("id_field") is not None else None, raw=raw,
     )
+
+
+def _fill_value(peat_raw: dict, key: str, quantity: str, base: Path, where: str, force: bool) -> float | None:
+    """A stated fallback for holes in a peat-property raster: a number or quantity, not a raster."""
+    if key not in peat_raw:
+        return None
+    v = _value(peat_raw[key], base, f"peat.{key}", quantity, where, force=force)
+    if isinstance(v, RasterRef):
+        raise ConfigError(f"{where}: `peat.{key}` must be one value (the fallback put in the holes of "
+                          f"peat.{quantity}), not a raster")
+    if quantity == "carbon_fraction" and not (0.0 < v <= 1.0):
+        raise PhysicalRangeError(f"{where}: `peat.{key}` = {v:g} is not a mass fraction in (0, 1]")
+    return float(v)
 
 
 def _opt_number(table: dict, key: str, section: str, where: str, lo=None, hi=None):

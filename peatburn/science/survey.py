@@ -6,16 +6,20 @@ The burn-depth estimator
 ------------------------
 Within the burned area, the per-pixel estimate is the fire-caused lowering
 
-    d = (z_pre - z_post_aligned) - r * T,      then  d = min(d, peat thickness)
+    d = (z_pre - z_post_aligned) - r * T,      then capped by the peat thickness
+
 
 with *no* lower clip at zero. Survey noise e has (after co-registration) zero mean on stable
 ground, so E[d] equals the true lowering and a zone sum of d is unbiased. Clipping every negative
 difference to zero (max(d, 0)) would instead add E[max(e, 0)] = sigma / sqrt(2 pi) per pixel over
 unburned islands and thin burns, a positive bias that grows with the area (Lane et al. 2003 and
 Wheaton et al. 2010 discuss the analogous bias of thresholded change budgets). The cap at the peat
-thickness is a physical bound: fire cannot remove more peat than was there; it biases low only
-where the true burn reaches the mineral soil within the noise. Pixels below the level of detection
-are counted for the QA summary, not removed from the sums.
+thickness is a physical bound: fire cannot remove more peat than was there. Applied as a plain
+``min(d, thickness)`` it would bias low where the true burn reaches the mineral soil (it cuts the
+upper tail of the noise only), so it is applied only beyond the level of detection
+(:func:`peatburn.science.peat.cap_depth`). Pixels below the level of detection are counted for the
+QA summary, not removed from the sums; pixels far beyond it (:func:`outliers`: canal water, spoil
+banks, survey blunders) are counted with their area in the QA table, not removed either.
 
 References
 ----------
@@ -67,7 +71,7 @@ def elevation_change(pre, post):
     return np.asarray(pre, dtype="float64") - np.asarray(post, dtype="float64")
 
 
-def burn_depth(pre, post_aligned, subsidence=0.0, thickness=None):
+def burn_depth(pre, post_aligned, subsidence=0.0, thickness=None, tolerance=0.0):
     """Unbiased per-pixel burn depth: lowering not explained by subsidence, capped by the peat.
 
     Parameters
@@ -79,7 +83,10 @@ def burn_depth(pre, post_aligned, subsidence=0.0, thickness=None):
     subsidence : array_like, optional
         Subsidence between the surveys [m] (see :func:`subsidence_lowering`).
     thickness : array_like, optional
-        Pre-fire peat thickness [m]; the depth never exceeds it. NaN means unknown (no cap).
+        Pre-fire peat thickness [m]; the depth never exceeds it by more than ``tolerance``. NaN
+        means unknown (no cap).
+    tolerance : float, optional
+        Level of detection [m]: the cap applies only beyond it (:func:`peatburn.science.peat.cap_depth`).
 
     Returns
     -------
@@ -89,8 +96,9 @@ def burn_depth(pre, post_aligned, subsidence=0.0, thickness=None):
     """
     d = elevation_change(pre, post_aligned) - np.asarray(subsidence, dtype="float64")
     if thickness is not None:
-        t = np.asarray(thickness, dtype="float64")
-        d = np.where(np.isnan(t), d, np.minimum(d, t))
+        from .peat import cap_depth
+
+        d = cap_depth(d, thickness, tolerance)
     return d
 
 
@@ -162,3 +170,51 @@ def below_detection(depth, lod):
     d = np.asarray(depth, dtype="float64")
     with np.errstate(invalid="ignore"):
         return np.abs(d) < np.asarray(lod, dtype="float64")
+
+
+#: Multiple of the level of detection beyond which a surveyed difference inside a scar is flagged as
+#: an outlier (:func:`outliers`). Common practice in spirit (robust screening at a few times the
+#: noise level); the value 5 is this project's choice, stated in docs/method.md.
+OUTLIER_LOD_MULTIPLE = 5.0
+
+
+def outliers(depth, lod, thickness=None, multiple=OUTLIER_LOD_MULTIPLE):
+    """Surveyed burn depths far beyond what noise or fire explains: flagged, never dropped.
+
+    A pixel is an outlier where the surface *rose* by more than ``multiple x lod`` (``depth <
+    -multiple x lod``: spoil banks, regrowth or a blunder; a fire only lowers the ground), or where
+    it fell deeper than the peat by more than ``multiple x lod`` (``depth > thickness + multiple x
+    lod``: canal water, excavation). The caller counts their area in the QA table and keeps them in
+    the sums (removing them would bias the sums in an unknown direction; the QA lets a reviewer
+    judge).
+
+    Parameters
+    ----------
+    depth : array_like
+        Raw burn depth (before the thickness cap) [m].
+    lod : float
+        Level of detection [m] (:func:`level_of_detection`); NaN flags nothing.
+    thickness : array_like, optional
+        Peat thickness [m]; NaN or None: no upper test.
+    multiple : float
+        Multiple of the level of detection [-].
+
+    Returns
+    -------
+    numpy.ndarray of bool
+        True at the outliers (NaN depth -> False).
+
+    References
+    ----------
+    Wheaton, J. M. et al. (2010). Earth Surf. Process. Landforms 35:136-156 (level of detection).
+    """
+    d = np.asarray(depth, dtype="float64")
+    if not np.isfinite(lod):
+        return np.zeros(d.shape, bool)
+    k = float(multiple) * float(lod)
+    with np.errstate(invalid="ignore"):
+        out = d < -k
+        if thickness is not None:
+            t = np.asarray(thickness, dtype="float64")
+            out = out | (np.isfinite(t) & (d > t + k))
+    return out

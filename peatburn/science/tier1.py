@@ -45,6 +45,7 @@ __all__ = [
     "tier1_fuel_consumed",
     "tier1_emissions",
     "tier1_equivalent_depth",
+    "TIER1_FUEL_RELATIVE_SD",
 ]
 
 #: Default fuel consumption (M_B x C_f) of organic-soil fires [t dry matter / ha], IPCC 2013
@@ -59,6 +60,18 @@ WETLANDS_2013_FUEL_CONSUMPTION_T_HA = {
         "status": "recalled, unchecked",
     },
 }
+
+#: Stated uncertainty of the tropical wildfire default of Table 2.6: 353 +/- 170 t d.m./ha
+#: (**recalled, unchecked**, like the value itself; whether the +/- is a 95 % interval or one
+#: standard deviation could not be checked). peatburn reads it as the half-width of a 95 % interval,
+#: the IPCC's usual convention for default uncertainties (IPCC 2006 Vol. 1 Ch. 3, section 3.1.5:
+#: recalled), so the relative standard deviation is 170 / 1.96 / 353 = 0.246
+#: (:data:`TIER1_FUEL_RELATIVE_SD`). Reading it as one sd would give 0.48: the run states which.
+WETLANDS_2013_FUEL_CONSUMPTION_T_HA["tropical_wildfire"]["half_width_95"] = 170.0
+
+#: Relative standard deviation of the Tier 1 fuel consumption [-]: the half-width of the
+#: recalled 95 % interval / 1.96 / the default (see above; recalled, unchecked).
+TIER1_FUEL_RELATIVE_SD = 170.0 / 1.96 / 353.0
 
 #: The default used by :func:`tier1_fuel_consumed` [t d.m./ha] (tropical wildfire, recalled).
 DEFAULT_FUEL_CONSUMPTION_T_HA = WETLANDS_2013_FUEL_CONSUMPTION_T_HA["tropical_wildfire"]["value"]

@@ -64,3 +64,46 @@ def test_no_carbon_created(depth, bd, cf):
 
 def test_cap_depth_nan_thickness_means_unknown():
     np.testing.assert_allclose(peat.cap_depth(np.array([0.5, 0.5]), np.array([np.nan, 0.2])), [0.5, 0.2])
+
+
+def test_cap_within_detection_keeps_the_mean_at_the_cap():
+    """Synthetic truth: the true burn reaches the mineral soil (depth = thickness = 0.3 m) and the
+    survey adds normal noise (sd 0.05 m). A plain min(d, thickness) biases the mean low by
+    sigma / sqrt(2 pi) (the mean of min(e, 0) for a normal e: a textbook identity, checked here with
+    scipy); the cap beyond the level of detection t sigma removes only the noise of the pixels beyond it,
+    a bias of -sigma phi(t) (the partial expectation of a normal above t sigma: textbook identity)."""
+    import scipy.stats
+
+    rng = np.random.default_rng(7)
+    sigma, thick, n = 0.05, 0.3, 400_000
+    d = thick + rng.normal(0, sigma, n)
+    lod = 1.96 * sigma
+    plain = peat.cap_depth(d, thick).mean() - thick
+    ours = peat.cap_depth(d, thick, tolerance=lod).mean() - thick
+    assert plain == pytest.approx(-sigma / np.sqrt(2 * np.pi), abs=3e-4)
+    t = 1.96
+    expected = -sigma * scipy.stats.norm.pdf(t)
+    assert ours == pytest.approx(expected, abs=3e-4)
+    assert abs(ours) < abs(plain) / 5
+
+
+def test_cap_at_zero_thickness_gives_no_negative_mass():
+    """Mineral soil (thickness 0): no peat, so no burn depth and no mass, whatever the noise."""
+    rng = np.random.default_rng(8)
+    d = rng.normal(0, 0.05, 10_000)
+    capped = peat.cap_depth(d, np.zeros_like(d), tolerance=0.1)
+    assert np.all(capped == 0.0)
+    assert np.all(peat.peat_dry_mass(capped, 0.1, 4.0) >= 0)
+    assert np.isnan(peat.cap_depth(np.array([np.nan]), np.array([0.0]))[0])
+
+
+def test_cap_far_beyond_thickness_still_caps():
+    np.testing.assert_allclose(peat.cap_depth(np.array([0.9, 0.35, 0.2]), 0.3, tolerance=0.1), [0.3, 0.35, 0.2])
+
+
+def test_fill_missing_keeps_valid_values_and_marks_holes():
+    v, filled = peat.fill_missing(np.array([0.1, np.nan, 0.12]), 0.09)
+    np.testing.assert_allclose(v, [0.1, 0.09, 0.12])
+    assert filled.tolist() == [False, True, False]
+    v2, filled2 = peat.fill_missing(np.array([np.nan]), np.nan)
+    assert np.isnan(v2[0]) and not filled2.any()

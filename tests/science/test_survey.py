@@ -79,3 +79,22 @@ def test_depth_never_exceeds_thickness(lowering, thickness):
 
 def test_below_detection():
     assert survey.below_detection(np.array([0.05, -0.2, np.nan]), 0.1).tolist() == [True, False, False]
+
+
+def test_outliers_flag_spoil_banks_and_canals_not_noise():
+    """Synthetic truth: a burn of 0.4 m on 4 m of peat with noise (sd 0.05, LoD 0.098 m), plus a spoil
+    bank (ground raised 1.5 m) and a canal (water 6 m below the old surface, deeper than the peat)."""
+    rng = np.random.default_rng(3)
+    lod = 1.96 * 0.05
+    d = 0.4 + rng.normal(0, 0.05, 1000)
+    d[:10] = -1.5
+    d[10:20] = 6.0
+    flag = survey.outliers(d, lod, thickness=np.full(1000, 4.0))
+    assert flag[:20].all()
+    assert not flag[20:].any()  # 5 LoD = 10 sd: noise never reaches it
+    assert not survey.outliers(d, float("nan")).any()  # no LoD (no survey QA): nothing flagged
+
+
+def test_burn_depth_cap_uses_the_tolerance():
+    d = survey.burn_depth(np.array([10.0, 10.0]), np.array([9.65, 9.0]), 0.0, thickness=0.3, tolerance=0.1)
+    np.testing.assert_allclose(d, [0.35, 0.3])

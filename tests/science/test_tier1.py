@@ -92,3 +92,11 @@ def test_bad_inputs_are_refused_with_the_name():
     with pytest.raises(PhysicalRangeError, match="fuel_consumption_t_ha"):
         tier1.tier1_fuel_consumed(1.0, "a lot")
     assert issubclass(PhysicalRangeError, PeatburnError)
+
+
+def test_tier1_relative_sd_from_the_recalled_interval():
+    """IPCC 2013 Wetlands Supplement Table 2.6, tropical wildfire 353 +/- 170 t d.m./ha (recalled,
+    unchecked) read as a 95 % half-width: sd = 170 / 1.96 (hand arithmetic: 86.73 t/ha, 0.2457)."""
+    row = tier1.WETLANDS_2013_FUEL_CONSUMPTION_T_HA["tropical_wildfire"]
+    assert row["half_width_95"] == 170.0 and "recalled" in row["status"]
+    assert tier1.TIER1_FUEL_RELATIVE_SD == pytest.approx(0.2457, abs=1e-4)
