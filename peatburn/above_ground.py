@@ -22,6 +22,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import shapely
 
+from .pipeline import SCAR_LAYER
 from .science import flaming
 
 
@@ -82,15 +83,18 @@ def flaming_sums(cfg, inputs, sums) -> FlamingSums | None:
     total = {"dry_matter_kg": float(np.sum(dm)), "fre_mj": float(np.sum(energy)), "n_detections": float(len(f))}
     pts = shapely.points(x, y) if len(f) else np.zeros(0, dtype=object)
     layers = []
-    for (name, ids, geoms), (_, n_bins) in zip(inputs_zone_geoms(inputs), layers_bins):
+    for (name, ids, geoms), (_, n_bins) in zip(inputs_zone_geoms(inputs, with_scars=True), layers_bins):
         d = _empty(n_bins)
         inside_any = np.zeros(len(f), bool)
         if len(f):
             tree = shapely.STRtree(geoms)
             pi, gi = tree.query(pts, predicate="intersects")
+            # a detection inside several fires (a repeat burn) is split equally between them, as the
+            # shared pixels are (outputs.fires); zones of a layer that overlap each count it whole
+            share = 1.0 / np.bincount(pi, minlength=len(f))[pi] if name == SCAR_LAYER else 1.0
             for k in KEYS:
                 vals = {"dry_matter_kg": dm, "fre_mj": energy, "n_detections": np.ones(len(f))}[k]
-                d[k] += np.bincount(gi + 1, weights=vals[pi], minlength=n_bins)[:n_bins]
+                d[k] += np.bincount(gi + 1, weights=vals[pi] * share, minlength=n_bins)[:n_bins]
             inside_any[pi] = True
             out = ~inside_any
             for k in KEYS:
@@ -108,5 +112,11 @@ def flaming_sums(cfg, inputs, sums) -> FlamingSums | None:
                                           "rejected": det.rejected})
 
 
-def inputs_zone_geoms(inputs):
-    return [(z.name, ids, np.asarray(layer.geometries, dtype=object)) for z, layer, ids in inputs.zones]
+def inputs_zone_geoms(inputs, with_scars: bool = False):
+    """(name, ids, geometries) of the zone layers, in the order of the run's sums; with
+    ``with_scars`` the internal layer of the burn scars last (as in the block pass)."""
+    out = [(z.name, ids, np.asarray(layer.geometries, dtype=object)) for z, layer, ids in inputs.zones]
+    if with_scars:
+        n = len(inputs.scars.frame)
+        out.append((SCAR_LAYER, [str(i) for i in range(n)], np.asarray(inputs.scars.geometries, dtype=object)))
+    return out

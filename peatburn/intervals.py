@@ -121,9 +121,10 @@ def _threads() -> int:
         return max(1, os.cpu_count() or 1)
 
 
-def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid) -> dict:
-    """Fill ``<col>_lo``/``<col>_hi`` of every interval column in ``rows`` (in place) and return the
-    uncertainty summary for totals.json."""
+def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire_rows=None) -> dict:
+    """Fill ``<col>_lo``/``<col>_hi`` of every interval column in ``rows`` (in place), and of the
+    smouldering carbon in ``fire_rows`` (fires.csv, one per burn-scar polygon, when given), and
+    return the uncertainty summary for totals.json."""
     params, sources, survey = build_params(cfg, factors, alignment, models, sums, grid)
     draws, seed = cfg.uncertainty.draws, cfg.uncertainty.seed
     frp = factors.frp_route
@@ -131,6 +132,9 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid) -> d
     per_zone = {}
     for li, (name, ids, acc) in enumerate(sums.layers):
         if name == SCAR_LAYER:
+            if fire_rows:
+                _fill_fires(fire_rows, acc, flame.layers[li][1] if flame else None, params, draws, seed, frp,
+                            factors.vegetation_carbon_fraction)
             continue
         idx = np.arange(1, len(ids) + 2)  # zones, then the outside bin
         fl = flame.layers[li][1] if flame else None
@@ -162,6 +166,16 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid) -> d
                 "error of the subsidence rate is removed by the vertical co-registration on stable ground; local "
                 "departures enter only through uncertainty.subsidence_rate_sd (default 0).",
     }
+
+
+def _fill_fires(fire_rows, acc, flame_layer, params, draws, seed, frp, vegetation_cf) -> None:
+    """Intervals of each fire's smouldering carbon: the same zone-level draws as a zone layer's, on
+    the scar layer's sums (shared pixels of repeat burns split between their fires)."""
+    idx = np.arange(1, len(fire_rows) + 1)
+    ms = _model_sums(acc, idx, flame_layer, frp, vegetation_cf)
+    iv = unc.intervals(ms, params, draws=draws, seed=seed, workers=_threads(), quantities={"carbon_kg"})
+    for k, row in enumerate(fire_rows):
+        _fill(row, iv, k)
 
 
 def _fill(row: dict, iv: dict, k: int) -> None:

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import contextlib
 import math
+
+import numpy as np
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -151,7 +153,7 @@ def _run_inputs(cfg: RunConfig, out_dir: Path, inputs, factors, *, progress, sch
 def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
     """Co-registration, plan and the block pass; returns the plan, the alignment, the water-table
     models, the sums, the open raster writers and the notes."""
-    notes = list(inputs.notes)
+    notes = list(inputs.notes) + run_notes(cfg)
     alignment = coregister(inputs) if inputs.has_survey else None
     plan = build_plan(inputs, alignment)
     models = None
@@ -189,6 +191,22 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
         _finish_rasters(rasters, ok=False)
         raise
     return plan, alignment, models, sums, rasters, notes
+
+
+def run_notes(cfg) -> list[str]:
+    """Notes a run's configuration alone calls for (method scope, what a setting does or not do)."""
+    from .config import RasterRef
+
+    notes = []
+    if cfg.tier1_only:
+        notes.append("Tier 1 only: no survey and no water table, so every burned pixel on organic soil gets the "
+                     "IPCC 2013 Wetlands Supplement default fuel consumption (no measured or modelled depth)")
+    sv = cfg.survey
+    if sv is not None and sv.subsidence_rate is not None and not isinstance(sv.subsidence_rate, RasterRef):
+        notes.append(f"subsidence: the rate is one constant ({float(sv.subsidence_rate):g} m/yr); the vertical "
+                     f"co-registration on stable ground absorbs a uniform lowering, so it has no effect on the burn "
+                     f"depths: only a rate map that differs between scars and stable ground changes them")
+    return notes
 
 
 def _background(fn, *args):
@@ -248,11 +266,16 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
         if closure > 1.0:
             notes.append(f"emission factors: the flaming set {factors.flaming.name} puts {closure:.3f} times the "
                          f"vegetation's carbon (fraction {factors.vegetation_carbon_fraction:g}) into CO2+CO+CH4")
+    from .outputs import fires, timeline
+
+    periods = timeline.scar_periods(inputs.scars.frame, cfg.start_field, cfg.end_field)
+    scar_sums = scar_layer_sums(sums, len(inputs.scars.frame))
+    fire_rows = fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums)
     uncertainty = None
     if cfg.uncertainty.draws > 0:
         from .intervals import add_intervals
 
-        uncertainty = add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid)
+        uncertainty = add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire_rows=fire_rows)
     converting.result()  # the rasters are complete from here on (field plots sample them)
     plots = None
     if inputs.plots is not None:
@@ -260,17 +283,8 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
 
         plots = validate_plots(inputs, plan, out_dir)
 
-    from .outputs import timeline
-
-    scar_acc = next(acc for name, _, acc in sums.layers if name == SCAR_LAYER)
-    n_scars = len(inputs.scars.frame)
-    scar_sums = {k: scar_acc[k][1:n_scars + 1].copy() for k in ("peat_kg", "carbon_kg")}
-    overlap = float(scar_sums["peat_kg"].sum())
-    if overlap and sums.total["peat_kg"]:
-        # overlapping scar polygons count shared pixels twice: rescale to the run total
-        for k in scar_sums:
-            scar_sums[k] *= sums.total[k] / float(scar_sums[k].sum()) if float(scar_sums[k].sum()) else 1.0
-    periods = timeline.scar_periods(inputs.scars.frame, cfg.start_field, cfg.end_field)
+    # the scars' sums add up to the run's: shared pixels of repeat burns are split between their fires
+    # in the block pass (outputs.fires), so no rescaling is needed and no scar lends carbon to another
     flame_daily = flame.daily_dry_matter_kg if flame else {}
     daily = timeline.daily_rows(scar_sums, periods, flame_daily, factors)
     shares = timeline.year_shares(scar_sums, periods, flame_daily,
@@ -300,6 +314,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
             columns += [f"{c}_lo", f"{c}_hi"]
     files = {}
     files["zones"] = write_csv(out_dir / "zones.csv", rows, columns)
+    files["fires"] = write_csv(out_dir / "fires.csv", fire_rows, fires.fire_columns(bool(uncertainty)))
     files["totals"] = write_json(out_dir / "totals.json", totals)
     inv = tables.inventory_rows(total, shares, factors.gwp.name)
     files["daily"] = write_csv(out_dir / "daily.csv", daily, timeline.DAILY_COLUMNS)
@@ -307,7 +322,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     files["inventory_json"] = write_json(out_dir / "inventory.json", {"unit": "Gg", "rows": inv})
     prov = provenance.build(cfg, grid, alignment, factors, models,
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
-                                   "outputs": sorted(["zones.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
+                                   "outputs": sorted(["zones.csv", "fires.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
                                                       "burn_depth.tif", "carbon_smouldering.tif",
                                                       "depth_method.tif", "report.html"])})
     files["provenance"] = write_json(out_dir / "provenance.json", prov)
@@ -319,6 +334,25 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     for name in ("burn_depth", "carbon_smouldering", "depth_method"):
         files[name] = out_dir / f"{name}.tif"
     return result
+
+
+def scar_layer_sums(sums, n_scars: int) -> dict:
+    """The block pass's sums per fire (burn-scar polygon), in layer order: ``key -> array(n_scars)``."""
+    acc = next(acc for name, _, acc in sums.layers if name == SCAR_LAYER)
+    return {k: np.asarray(v[1:n_scars + 1], dtype="float64").copy() for k, v in acc.items()}
+
+
+def fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums) -> list[dict]:
+    """Rows of fires.csv (intervals are filled in later by :func:`peatburn.intervals.add_intervals`)."""
+    from .outputs import fires
+
+    ids, _ = fires.fire_ids(inputs.scars.frame, cfg.id_field)
+    n = len(ids)
+    fl = None
+    if flame is not None:
+        li = [name for name, _, _ in sums.layers].index(SCAR_LAYER)
+        fl = {k: np.asarray(v)[1:n + 1] for k, v in flame.layers[li][1].items()}
+    return fires.fire_rows(ids, periods, scar_sums, factors, cfg.year, flame=fl)
 
 
 def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
@@ -333,7 +367,9 @@ def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
                     "tier": tiers[m]}
     return {
         "depth": depth,
+        "tier1_only": cfg.tier1_only,
         "unestimated_area_ha": total["unestimated_area_ha"],
+        "mineral_soil_area_ha": total["mineral_soil_area_ha"],
         "smouldering_factors": factors.smouldering.name,
         "tier1_factors": factors.tier1.name,
         "flaming": flame.route if flame else "not estimated (no [flaming] section): flaming columns are zero",
@@ -366,5 +402,12 @@ def qa_summary(total: dict, alignment) -> dict:
         "share_of_surveyed_area_below_lod": total["below_lod_area_m2"] / est if est else math.nan,
         "share_of_burned_area_unestimated": total["unestimated_area_m2"] / burned if burned else math.nan,
         "share_of_surveyed_area_capped_by_thickness": total["capped_area_m2"] / est if est else math.nan,
+        # survey outliers inside the scars (science.survey.outliers): flagged, kept in the sums
+        "outlier_area_ha": total["outlier_area_m2"] * tables.HA_PER_M2,
+        "share_of_surveyed_area_outliers": total["outlier_area_m2"] / est if est else math.nan,
+        # holes in the peat-property rasters filled from the stated fallback (science.peat.fill_missing)
+        "bulk_density_filled_area_ha": total["rho_filled_area_m2"] * tables.HA_PER_M2,
+        "carbon_fraction_filled_area_ha": total["cf_filled_area_m2"] * tables.HA_PER_M2,
+        "mineral_soil_area_ha": total["mineral_area_m2"] * tables.HA_PER_M2,
     })
     return out

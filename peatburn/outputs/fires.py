@@ -60,26 +60,6 @@ def fire_ids(frame, id_field: str | None, what: str = "burned_area.id_field") ->
     return ids, field
 
 
-def repeat_burn_areas(geometries) -> np.ndarray:
-    """Area of each polygon shared with at least one other polygon of the layer [map units^2]."""
-    import shapely
-
-    geoms = np.asarray(geometries, dtype=object)
-    out = np.zeros(len(geoms))
-    if len(geoms) < 2:
-        return out
-    tree = shapely.STRtree(geoms)
-    left, right = tree.query(geoms, predicate="intersects")
-    others: dict[int, list[int]] = {}
-    for a, b in zip(left.tolist(), right.tolist()):
-        if a != b:
-            others.setdefault(a, []).append(b)
-    for a, bs in others.items():
-        shared = shapely.intersection(geoms[a], shapely.union_all(geoms[bs]))
-        out[a] = float(shapely.area(shared))
-    return out
-
-
 def inventory_year(period: tuple, run_year):
     """The inventory year of a fire: the year of its start date, else the run's year.
 
@@ -102,8 +82,7 @@ def fire_columns(with_intervals: bool, extra: list[str] | tuple = ()) -> list[st
 
 
 def fire_rows(ids: list[str], periods: list[tuple], scar_sums: dict, factors, run_year, *,
-              flame: dict | None = None, repeat_area_m2=None, intervals: dict | None = None,
-              extra: dict | None = None) -> list[dict]:
+              flame: dict | None = None, extra: dict | None = None) -> list[dict]:
     """Rows of fires.csv.
 
     Parameters
@@ -112,22 +91,20 @@ def fire_rows(ids: list[str], periods: list[tuple], scar_sums: dict, factors, ru
         Per fire: the id and the (start, end) dates (None where unknown), in layer order.
     scar_sums : dict of str to array
         The block pass's sums of the internal scar layer, one value per fire (pipeline.SUM_KEYS),
-        shared pixels already split between the fires covering them.
+        shared pixels already split between the fires covering them; ``repeat_area_m2`` holds each
+        fire's whole area shared with another fire, ``mineral_area_m2`` its share of burned
+        mineral soil.
     factors
         The run's factor sets (as for :func:`peatburn.outputs.tables.quantities`).
     flame : dict of str to array, optional
         Flaming sums per fire (``dry_matter_kg``, ``fre_mj``, ``n_detections``).
-    repeat_area_m2 : array_like, optional
-        Area each fire shares with another [m2].
-    intervals : dict of str to (array, array), optional
-        ``column -> (lo, hi)`` per fire, in the column's unit.
     extra : dict of str to list, optional
         Further columns, one value per fire.
     """
     q = quantities(scar_sums, factors, flame)
     n = len(ids)
     mineral = np.asarray(scar_sums.get("mineral_area_m2", np.zeros(n)), dtype="float64")
-    rep = np.zeros(n) if repeat_area_m2 is None else np.asarray(repeat_area_m2, dtype="float64")
+    rep = np.asarray(scar_sums.get("repeat_area_m2", np.zeros(n)), dtype="float64")
     rows = []
     for i in range(n):
         start, end = periods[i] if i < len(periods) else (None, None)
@@ -148,9 +125,6 @@ def fire_rows(ids: list[str], periods: list[tuple], scar_sums: dict, factors, ru
             "carbon_flaming_t": float(q["carbon_flaming_t"][i]),
             "n_detections": float(q["n_detections"][i]),
         }
-        for col, (lo, hi) in (intervals or {}).items():
-            row[f"{col}_lo"] = float(lo[i])
-            row[f"{col}_hi"] = float(hi[i])
         for col, vals in (extra or {}).items():
             row[col] = vals[i]
         rows.append(row)

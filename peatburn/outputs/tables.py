@@ -19,6 +19,7 @@ METHODS = ("survey", "water_table", "tier1")
 
 ZONE_COLUMNS = [
     "layer", "zone", "burned_area_ha", "estimated_area_ha", "unestimated_area_ha", "below_lod_area_ha",
+    "mineral_soil_area_ha",
     "mean_burn_depth_m", "peat_burned_t", "carbon_smouldering_t",
     "co2_smouldering_t", "ch4_smouldering_t", "co_smouldering_t",
     "carbon_flaming_t", "co2_flaming_t", "ch4_flaming_t", "co_flaming_t",
@@ -61,6 +62,8 @@ def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
             "estimated_area_ha": s["estimated_area_m2"] * ha,
             "unestimated_area_ha": s["unestimated_area_m2"] * ha,
             "below_lod_area_ha": s["below_lod_area_m2"] * ha,
+            # burned mineral soil (thickness 0 or outside the peat extent): no below-ground emission
+            "mineral_soil_area_ha": s["mineral_area_m2"] * ha if "mineral_area_m2" in s else np.zeros_like(peat_kg),
             "mean_burn_depth_m": np.where(depth_area > 0, s["volume_m3"] / depth_area, np.nan),
             "peat_burned_t": peat_kg * t,
             "carbon_smouldering_t": carbon * t,
@@ -127,6 +130,7 @@ def zone_rows(result_sums, factors, flame_sums=None) -> list[dict]:
 
 UNITS = {
     "burned_area_ha": "ha", "estimated_area_ha": "ha", "unestimated_area_ha": "ha", "below_lod_area_ha": "ha",
+    "mineral_soil_area_ha": "ha",
     "mean_burn_depth_m": "m", "peat_burned_t": "t dry matter", "carbon_smouldering_t": "t C",
     "carbon_flaming_t": "t C", "co2e_smouldering_t": "t CO2e", "co2e_flaming_t": "t CO2e",
     "area_survey_ha": "ha", "area_water_table_ha": "ha", "area_tier1_ha": "ha",
