@@ -47,6 +47,11 @@ def print_summary(result) -> None:
     shares = result.totals["method"]["depth"]
     click.echo("depth method, share of below-ground carbon: " + ", ".join(
         f"{m} {100 * (v['share_of_carbon'] or 0):.0f} %" for m, v in shares.items()))
+    if result.totals["method"].get("tier1_only"):
+        click.echo("method: Tier 1 only (no survey, no water table): the IPCC default on every burned pixel of organic soil")
+    mineral = result.totals["method"].get("mineral_soil_area_ha")
+    if mineral:
+        click.echo(f"burned mineral soil (no peat burned): {_n(mineral)} ha")
     unc = result.totals.get("uncertainty")
     if unc:
         top = sorted(((v or 0, k) for k, v in unc["contributions"].items()), reverse=True)[:3]

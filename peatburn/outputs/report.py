@@ -49,6 +49,8 @@ METHOD_COLOURS = {"survey": OKABE_ITO_NAMED["blue"], "water_table": OKABE_ITO_NA
 METHOD_LABELS = {"survey": "surveys differenced", "water_table": "water-table model",
                  "tier1": "IPCC Tier 1 default"}
 METHOD_CODES = {"survey": 1, "water_table": 2, "tier1": 3}  # as written in depth_method.tif
+#: Code 4 of depth_method.tif: burned mineral soil (thickness 0 or outside the peat extent), no peat burned.
+MINERAL_CODE, MINERAL_COLOUR, MINERAL_LABEL = 4, "#BBBBBB", "mineral soil (no peat)"
 #: Outline style of each zone layer on the maps: colour and dash, so layers differ without colour.
 LAYER_STYLES = [(OKABE_ITO_NAMED["black"], "-"), (OKABE_ITO_NAMED["reddish_purple"], "--"),
                 (OKABE_ITO_NAMED["bluish_green"], ":"), (OKABE_ITO_NAMED["vermillion"], "-.")]
@@ -347,11 +349,14 @@ def method_map_figure(path: Path, zone_layers=(), label_zones=False) -> str | No
     with _style():
         fig = _figure(5.4, _map_height(extent, geographic, width=5.4, colorbar=False))
         ax = fig.add_subplot()
-        cmap = ListedColormap([METHOD_COLOURS[m] for m in METHOD_CODES])
-        ax.imshow(arr, extent=extent, cmap=cmap, norm=BoundaryNorm([0.5, 1.5, 2.5, 3.5], 3), interpolation="nearest")
+        cmap = ListedColormap([METHOD_COLOURS[m] for m in METHOD_CODES] + [MINERAL_COLOUR])
+        ax.imshow(arr, extent=extent, cmap=cmap, norm=BoundaryNorm([0.5, 1.5, 2.5, 3.5, 4.5], 4),
+                  interpolation="nearest")
         _map_axes(ax, extent, geographic, zone_layers, label_zones)
         present = set(np.unique(arr[np.isfinite(arr)]).astype(int))
         leg = [Patch(color=METHOD_COLOURS[m], label=METHOD_LABELS[m]) for m, c in METHOD_CODES.items() if c in present]
+        if MINERAL_CODE in present:
+            leg.append(Patch(color=MINERAL_COLOUR, label=MINERAL_LABEL))
         if leg:
             first = ax.get_legend()
             ax.legend(handles=leg, loc="upper left", title="burn depth from", title_fontsize=7, framealpha=0.9)
@@ -637,6 +642,12 @@ def _qa_rows(qa: dict) -> list[tuple[str, str]]:
         ("surveyed area where the burn depth was capped by the peat thickness [%]",
          fmt_pct(qa.get("share_of_surveyed_area_capped_by_thickness"))),
         ("burned area with no estimate [%]", fmt_pct(qa.get("share_of_burned_area_unestimated"))),
+        ("survey outliers inside the scars (rise or fall beyond 5 levels of detection; kept in the sums) [ha]",
+         fmt_num(qa.get("outlier_area_ha"))),
+        ("burned area on mineral soil (no peat burned) [ha]", fmt_num(qa.get("mineral_soil_area_ha"))),
+        ("area whose bulk density was filled from the fallback [ha]", fmt_num(qa.get("bulk_density_filled_area_ha"))),
+        ("area whose carbon fraction was filled from the fallback [ha]",
+         fmt_num(qa.get("carbon_fraction_filled_area_ha"))),
     ]
     if qa.get("tilt_coefficients"):
         rows.insert(3, ("planar tilt removed (coefficients)", ", ".join(fmt_num(c) for c in qa["tilt_coefficients"])))
@@ -937,6 +948,7 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
         "frp_table": _table(result.zones, FRP_TABLE) if frp_route else None,
         "daily_days": len({r["date"] for r in result.daily or []}),
         "depth_methods": depth_methods, "unestimated": fmt_num(method.get("unestimated_area_ha")),
+        "mineral": fmt_num(method.get("mineral_soil_area_ha")), "tier1_only": bool(method.get("tier1_only")),
         "tier1_comparison": {"carbon": fmt_num(total.get("carbon_tier1_t")), "co2e": fmt_num(total.get("co2e_tier1_t")),
                              "ours": fmt_num(total.get("carbon_smouldering_t"))},
         "flaming": {"estimated": flaming_estimated, "route": flaming_text, "params": flaming_params,
