@@ -86,6 +86,19 @@ class ZoneLayerIndex:
         return out
 
 
+def coverage_count(bins: list[np.ndarray]) -> np.ndarray:
+    """How many polygons of a layer cover each pixel, from :meth:`ZoneLayerIndex.bin_rasters`
+    output (one bin array per pass, then the "outside" array, which is left out): the polygons of
+    one pass do not overlap, so a pixel is in at most one polygon per pass."""
+    passes = bins[:-1]
+    if not passes:
+        return np.zeros(np.shape(bins[0]) if bins else (0,), "int32")
+    k = np.zeros(np.shape(passes[0]), "int32")
+    for b in passes:
+        k += b > 0
+    return k
+
+
 def accumulate(bins: list[np.ndarray], values: dict[str, np.ndarray], n_bins: int,
                valid: np.ndarray | None = None) -> dict[str, np.ndarray]:
     """Sum each array of ``values`` per bin over all pass rasters in ``bins``.

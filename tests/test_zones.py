@@ -73,3 +73,12 @@ def test_nan_values_contribute_nothing():
     v[0, :] = np.nan
     s = _sum_blocks(layer, v, 50)
     assert s[1] == GRID.size - 100
+
+
+def test_coverage_count_of_overlapping_polygons():
+    """Two squares overlapping on one column of pixels (hand-drawn 1 x 3 grid): cover counts 1, 2, 1."""
+    from peatburn.zones import coverage_count
+
+    passes = [np.array([1, 1, 0]), np.array([0, 2, 2])]
+    outside = np.array([0, 0, 0])
+    assert coverage_count(passes + [outside]).tolist() == [1, 2, 1]

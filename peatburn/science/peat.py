@@ -80,6 +80,35 @@ def cap_depth(depth, thickness, tolerance=0.0):
         return np.where(np.isfinite(t) & (t <= 0), np.where(np.isnan(d), d, 0.0), out)
 
 
+def mineral_soil(thickness, in_extent=None):
+    """True where a burned pixel has no peat: thickness 0 or less, or outside the organic-soil extent.
+
+    Below-ground fire emissions are counted on organic soil only: the 2013 Wetlands Supplement,
+    Ch. 2, applies its fire equation (Eq. 2.8, with the Table 2.6 fuel consumption) to burned
+    organic soils (chapter scope recalled, unchecked). NaN thickness means unknown, not mineral.
+
+    Parameters
+    ----------
+    thickness : array_like or None
+        Peat thickness [m] (None: unknown everywhere).
+    in_extent : array_like of bool, optional
+        True inside the peat / organic-soil extent (None: no extent given, all inside).
+
+    Returns
+    -------
+    numpy.ndarray of bool
+    """
+    shapes = [np.shape(x) for x in (thickness, in_extent) if x is not None]
+    out = np.zeros(np.broadcast_shapes(*shapes) if shapes else (), bool)
+    if thickness is not None:
+        t = np.asarray(thickness, dtype="float64")
+        with np.errstate(invalid="ignore"):
+            out = out | (t <= 0)
+    if in_extent is not None:
+        out = out | ~np.asarray(in_extent, bool)
+    return out
+
+
 def fill_missing(values, fallback):
     """Missing values (NaN) replaced by ``fallback``; returns ``(filled, was_missing)``.
 

@@ -107,3 +107,9 @@ def test_fill_missing_keeps_valid_values_and_marks_holes():
     assert filled.tolist() == [False, True, False]
     v2, filled2 = peat.fill_missing(np.array([np.nan]), np.nan)
     assert np.isnan(v2[0]) and not filled2.any()
+
+
+def test_mineral_soil_from_thickness_and_extent():
+    m = peat.mineral_soil(np.array([0.0, 1.0, np.nan, 2.0]), np.array([True, True, True, False]))
+    assert m.tolist() == [True, False, False, True]
+    assert not peat.mineral_soil(None, None)
