@@ -209,6 +209,24 @@ def run_notes(cfg) -> list[str]:
     return notes
 
 
+def fill_notes(cfg, plan, total: dict) -> list[str]:
+    """Notes on holes in the peat-property rasters that were filled (science.peat.fill_missing)."""
+    out = []
+    for key, label, unit, configured in (
+            ("rho", "bulk_density", "g/cm^3", cfg.peat.bulk_density_fill),
+            ("cf", "carbon_fraction", "", cfg.peat.carbon_fraction_fill)):
+        area = total.get(f"{key}_filled_area_m2", 0.0)
+        if not area:
+            continue
+        value = getattr(plan, f"{key}_fill")
+        how = (f"the configured peat.{label}_fill" if configured is not None
+               else f"the median of the run's valid values (set peat.{label}_fill to state another)")
+        out.append(f"peat.{label}: {area * tables.HA_PER_M2:.4g} ha of burned pixels had no value and were filled "
+                   f"with {value:.4g}{' ' + unit if unit else ''}, {how}; their measured or modelled depth is kept "
+                   f"and their carbon carries a wider spread (peat_property_fill)")
+    return out
+
+
 def _background(fn, *args):
     """Run ``fn(*args)`` in a thread; ``.result()`` re-raises its error, ``.wait()`` only waits."""
     import concurrent.futures
@@ -250,6 +268,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     rows = tables.zone_rows(sums, factors, flame)
     total = rows[-1]
     qa = qa_summary(sums.total, alignment)
+    notes += fill_notes(cfg, plan, sums.total)
     checks = factor_checks(factors.smouldering, sums.total)
     if checks["carbon_closure"] is not None and checks["carbon_closure"] > 1.0:
         notes.append(f"emission factors: the set {factors.smouldering.name} puts {checks['carbon_closure']:.3f} times "
