@@ -43,7 +43,14 @@ def check_cmd(config, against):
         wt = cfg.water_table
         src = f"raster {wt.raster.path}" if wt.raster else f"stations {wt.stations} (IDW, power {wt.idw_power:g})"
         click.echo(f"depth 2: water-table model ({wt.model}) from {src}")
-    click.echo("depth 3: IPCC 2013 Wetlands Supplement Tier 1 default where neither gives a depth")
+    if cfg.tier1_only:
+        click.echo("depth: Tier 1 only (no survey, no water table): the IPCC 2013 Wetlands Supplement default on "
+                   "every burned pixel of organic soil")
+    else:
+        click.echo("depth 3: IPCC 2013 Wetlands Supplement Tier 1 default where neither gives a depth")
+    if cfg.peat.extent is not None:
+        click.echo(f"peat extent: {cfg.peat.extent} (outside it, and where the thickness is 0: mineral soil, "
+                   f"no below-ground emission)")
     if cfg.flaming is not None:
         click.echo(f"flaming: {cfg.flaming.method} route")
     click.echo(f"smouldering factors: {sm.name} ({sm.citation}); GWP: {gwp.name}")
