@@ -347,7 +347,9 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
     _check_keys(ba, "burned_area", where)
     burned = _path(_require(ba, "path", "burned_area", where), base, "burned_area.path", where)
 
-    depth = _require(raw, "depth", "", where)
+    depth = raw.get("depth", {})  # no [depth] at all: a Tier-1-only run
+    if not isinstance(depth, dict):
+        raise ConfigError(f"{where}: [depth] must be a table")
     _check_keys(depth, "depth", where)
     survey = None
     if "survey" in depth:
