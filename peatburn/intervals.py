@@ -19,6 +19,7 @@ from .outputs.tables import OUTSIDE, TOTAL_LAYER
 from .pipeline import SCAR_LAYER
 from .science import uncertainty as unc
 from .science import variogram
+from .science.tier1 import TIER1_FUEL_RELATIVE_SD
 
 #: pipeline sum -> uncertainty-model sum
 SUM_MAP = {
@@ -26,6 +27,9 @@ SUM_MAP = {
     "rho_area": "rho_area_survey", "rho_f_area": "rho_f_area_survey",
     "wt_area": "wt_area", "wt_area_wt": "wt_area_wt", "wt_rho_area": "wt_rho_area",
     "wt_rho_area_wt": "wt_rho_area_wt", "wt_rho_f_area": "wt_rho_f_area", "wt_rho_f_area_wt": "wt_rho_f_area_wt",
+    # parts of peat_kg / carbon_kg with sources of their own (Tier 1 default; filled peat properties)
+    "peat_kg_tier1": "peat_kg_tier1", "carbon_kg_tier1": "carbon_kg_tier1",
+    "peat_kg_filled": "peat_kg_filled", "carbon_kg_filled": "carbon_kg_filled",
 }
 
 
@@ -51,7 +55,27 @@ def survey_error_model(alignment, pixel_area_m2: float, range_override: float | 
             "stable_area_m2": stable_area, "variogram": {k: float(v) for k, v in fit.items()}}
 
 
-def build_params(cfg, factors, alignment, models, sums, grid) -> tuple[dict, list, dict]:
+def subsidence_map_sd(cfg) -> float:
+    """sd of the zone-correlated subsidence-rate term [m/yr] (docs/method.md 2.1, 7.4).
+
+    Only the contrast between the rate in the scars and on the stable ground reaches a burn depth
+    (the vertical co-registration absorbs a uniform rate and any run-wide error of it). So the
+    error is drawn per zone, fully correlated within a zone: ``uncertainty.subsidence_rate_sd`` when
+    given; else, with a rate *map*, the default 0.01 m/yr (half the 3-5 cm/yr span of drained
+    tropical peat, Hooijer et al. 2012 through a secondary summary, taken as one sd: an
+    assumption); else (one constant rate, or none) 0: a constant cancels.
+    """
+    from .config import RasterRef
+
+    sv, u = cfg.survey, cfg.uncertainty
+    if sv is None:
+        return 0.0
+    if u.subsidence_rate_sd is not None:
+        return float(u.subsidence_rate_sd)
+    return unc.DEFAULT_SUBSIDENCE_RATE_SD if isinstance(sv.subsidence_rate, RasterRef) else 0.0
+
+
+def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0.0) -> tuple[dict, list, dict]:
     pix = float(np.mean(grid.pixel_area(grid.windows(cfg.block_size)[0])))
     u = cfg.uncertainty
     survey = survey_error_model(alignment, pix, u.correlation_range_m) if alignment is not None else None
@@ -76,9 +100,12 @@ def build_params(cfg, factors, alignment, models, sums, grid) -> tuple[dict, lis
         survey_nugget_fraction=survey["nugget_fraction"] if survey else 0.0, pixel_area_m2=pix,
         interval_years=cfg.survey.interval_years if cfg.survey else 0.0,
         # a run-wide error of the subsidence rate moves stable ground and scars alike and is removed by
-        # the vertical co-registration on stable ground; only local departures remain, which the user
-        # may give as uncertainty.subsidence_rate_sd (default 0)
-        subsidence_rate_sd_m_per_yr=u.subsidence_rate_sd if u.subsidence_rate_sd is not None else 0.0,
+        # the vertical co-registration on stable ground: only the zone-correlated term of a rate map
+        # remains (subsidence_map_sd)
+        subsidence_rate_sd_m_per_yr=0.0,
+        subsidence_rate_map_sd_m_per_yr=subsidence_map_sd(cfg),
+        tier1_fuel_cv=TIER1_FUEL_RELATIVE_SD,
+        peat_fill_cv=float(fill_cv),
         bulk_density_cv=u.bulk_density_cv if u.bulk_density_cv is not None else unc.DEFAULT_BULK_DENSITY_CV,
         carbon_fraction=cf,
         carbon_fraction_sd=u.carbon_fraction_sd if u.carbon_fraction_sd is not None else unc.DEFAULT_CARBON_FRACTION_SD,
@@ -121,11 +148,11 @@ def _threads() -> int:
         return max(1, os.cpu_count() or 1)
 
 
-def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire_rows=None) -> dict:
+def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire_rows=None, fill_cv=0.0) -> dict:
     """Fill ``<col>_lo``/``<col>_hi`` of every interval column in ``rows`` (in place), and of the
     smouldering carbon in ``fire_rows`` (fires.csv, one per burn-scar polygon, when given), and
     return the uncertainty summary for totals.json."""
-    params, sources, survey = build_params(cfg, factors, alignment, models, sums, grid)
+    params, sources, survey = build_params(cfg, factors, alignment, models, sums, grid, fill_cv)
     draws, seed = cfg.uncertainty.draws, cfg.uncertainty.seed
     frp = factors.frp_route
     row_i = 0
@@ -162,9 +189,11 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
         "contributions": {s: _f(v[0]) for s, v in con.items()},
         "contributions_by_zone": per_zone,
         "contributions_quantity": "carbon_smouldering_t",
-        "note": "Tier 1 default pixels carry no drawn uncertainty; their share is in the method shares. A run-wide "
-                "error of the subsidence rate is removed by the vertical co-registration on stable ground; local "
-                "departures enter only through uncertainty.subsidence_rate_sd (default 0).",
+        "note": "Tier 1 default pixels are drawn with the stated uncertainty of the default (tier1_fuel), not with "
+                "the bulk density. A run-wide error of the subsidence rate is removed by the vertical co-registration "
+                "on stable ground; a rate map's error enters as a zone-correlated term (subsidence_rate_map: "
+                "uncertainty.subsidence_rate_sd, default 0.01 m/yr with a rate map, 0 with one constant rate). "
+                "Pixels whose bulk density or carbon fraction was filled get a wider spread (peat_property_fill).",
     }
 
 

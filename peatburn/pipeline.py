@@ -24,7 +24,7 @@ from .grid import RunGrid
 from .io.rasters import GridReader, RasterSource, check_overlap, grid_from_raster, inspect_raster, read_on_grid
 from .io.vectors import WindowRasterizer, read_polygons, zone_ids
 from .science import coregistration, peat, survey
-from .zones import ZoneLayerIndex, accumulate_stacked
+from .zones import ZoneLayerIndex, accumulate_stacked, coverage_count
 
 #: Pixel budget of the co-registration sample (evenly spread full-resolution windows). 2 Mpx
 #: recovers the benchmark scene's shift within 2 cm in 1.0 s, 4 Mpx within 1 cm in 1.5 s
@@ -49,6 +49,7 @@ class Inputs:
     stations: object | None = None  # io.points.Points (water-table stations)
     plots: object | None = None  # io.points.Points (field plots)
     notes: list[str] = field(default_factory=list)
+    extent: object | None = None  # PolygonLayer of the organic-soil extent (a raster extent is in ``rasters``)
 
     @property
     def has_survey(self) -> bool:
@@ -117,7 +118,15 @@ def open_inputs(cfg: RunConfig) -> Inputs:
         plots = read_points(cfg.plots.path, grid.crs, value_column=cfg.plots.value_column, crs=cfg.plots.crs,
                             date_column=cfg.plots.date_column, bounds=grid.bounds, what="depth.plots.path")
         _note_rejected(notes, "field plots", plots)
-    return Inputs(cfg, grid, rasters, scars, zones, stable, stations, plots, notes)
+    extent = None
+    if cfg.peat.extent is not None and not _is_raster_path(cfg.peat.extent):
+        extent = read_polygons(cfg.peat.extent, grid.crs, "peat.extent")
+        notes += [f"peat.extent: {n}" for n in extent.notes]
+    return Inputs(cfg, grid, rasters, scars, zones, stable, stations, plots, notes, extent)
+
+
+def _is_raster_path(path) -> bool:
+    return str(path).lower().endswith((".tif", ".tiff", ".vrt", ".img", ".nc"))
 
 
 def window_group(inputs: Inputs, block_size: int, group: int) -> int:
@@ -209,6 +218,8 @@ def _raster_params(cfg: RunConfig) -> dict[str, RasterRef]:
         v = getattr(cfg.peat, key)
         if isinstance(v, RasterRef):
             out[f"peat.{key}"] = v
+    if cfg.peat.extent is not None and _is_raster_path(cfg.peat.extent):
+        out["peat.extent"] = RasterRef(cfg.peat.extent)
     return out
 
 
@@ -446,16 +457,21 @@ def sample_windows(grid: RunGrid, block: int, max_pixels: int | None = None) -> 
 # the plan and one block
 
 METHOD_CODES = {"survey": 1, "water_table": 2, "tier1": 3}
+#: depth_method.tif code of burned mineral soil (thickness 0 or outside the peat extent): no peat burned.
+MINERAL_CODE = 4
 #: Internal zone layer of the burn scars themselves (per-scar sums for the daily series and years).
 SCAR_LAYER = "__scars__"
-#: The only sums kept per scar (the daily series and the year shares use nothing else).
-SCAR_LAYER_KEYS = ("peat_kg", "carbon_kg")
 METHODS = tuple(METHOD_CODES)
 
 #: Quantities summed per zone and for the run [m2, m3, kg, kg/m ...].
 SUM_KEYS = (
     "burned_area_m2", "estimated_area_m2", "depth_area_m2", "volume_m3", "peat_kg", "carbon_kg",
     "unestimated_area_m2", "below_lod_area_m2", "capped_area_m2",
+    # burned mineral soil (thickness 0 or outside the peat extent); ground burned more than once (in the
+    # scar layer: each fire's whole area shared with another); survey outliers; filled peat properties
+    "mineral_area_m2", "repeat_area_m2", "outlier_area_m2", "rho_filled_area_m2", "cf_filled_area_m2",
+    # peat and carbon of pixels whose bulk density or carbon fraction was filled (wider spread)
+    "peat_kg_filled", "carbon_kg_filled",
     *(f"{k}_{m}" for m in METHODS for k in ("area_m2", "peat_kg", "carbon_kg")),
     # for zone-level Monte Carlo: mass per metre of depth over survey / water-table pixels
     "rho_area_survey", "rho_f_area_survey",
@@ -511,6 +527,10 @@ class RunPlan:
     models: DepthModels | None = None
     tier1_fuel_t_ha: float = 0.0
     biomass: object = None  # RasterSource | float | None [t/ha]
+    extent: object = None  # RasterSource (non-zero = organic soil) | geometries array | None
+    rho_fill: float = float("nan")  # fallback bulk density for holes [g cm-3] (science.peat.fill_missing)
+    cf_fill: float = float("nan")  # fallback carbon fraction for holes [-]
+    fill_cv: float = 0.0  # relative spread of a filled value (uncertainty source peat_property_fill)
     token: str = field(default_factory=lambda: uuid.uuid4().hex)
 
 
@@ -529,6 +549,7 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
     if cfg.fire_count_field:
         fc = inputs.scars.frame[cfg.fire_count_field].fillna(1).astype(float).to_numpy()
     wt = cfg.water_table
+    fill = fill_values(inputs)
     stations = None
     if inputs.stations is not None and len(inputs.stations.frame):
         f = inputs.stations.frame
@@ -554,7 +575,65 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
         models=models,
         tier1_fuel_t_ha=cfg.tier1.fuel_consumption_t_ha or tier1_default_fuel(),
         biomass=_param_source(cfg.flaming.biomass, "flaming.biomass") if cfg.flaming else None,
+        extent=_extent_source(inputs), **fill,
     )
+
+
+def _extent_source(inputs: Inputs):
+    """The organic-soil extent as the blocks read it: polygons (geometries) or a raster (nearest)."""
+    ext = inputs.config.peat.extent
+    if ext is None:
+        return None
+    if inputs.extent is not None:
+        return np.asarray(inputs.extent.geometries, dtype=object)
+    return RasterSource(str(ext), "peat.extent", resampling="nearest")
+
+
+#: Relative spread of a filled peat property when the run's valid values are too few to measure
+#: their spread (fewer than this many sampled pixels) [-]: an **assumption**.
+MIN_FILL_SAMPLES = 30
+DEFAULT_FILL_CV = 0.3
+
+
+def fill_values(inputs: Inputs) -> dict:
+    """Fallbacks for holes in the bulk-density and carbon-fraction rasters, and their spread.
+
+    The configured ``peat.bulk_density_fill`` / ``peat.carbon_fraction_fill``, else the median of
+    the raster's valid values on the run's sample windows (evenly spread, :func:`sample_windows`).
+    The spread of a filled value (uncertainty source ``peat_property_fill``) is the larger relative
+    spread (NMAD / median) of the sampled valid values of the two rasters: putting one value where
+    none was measured errs by about the property's spatial variation (common practice); with fewer
+    than :data:`MIN_FILL_SAMPLES` valid values, :data:`DEFAULT_FILL_CV` (assumption). Constants
+    have no holes.
+    """
+    from .errors import ConfigError
+
+    cfg, grid = inputs.config, inputs.grid
+    out = {"rho_fill": float("nan"), "cf_fill": float("nan"), "fill_cv": 0.0}
+    cvs = []
+    for key, name in (("rho", "bulk_density"), ("cf", "carbon_fraction")):
+        ref = getattr(cfg.peat, name)
+        if not isinstance(ref, RasterRef):
+            continue
+        src = _param_source(ref, f"peat.{name}")
+        vals = []
+        with GridReader(src, grid) as r:
+            for w in sample_windows(grid, cfg.block_size):
+                v = r.read(w)
+                vals.append(v[np.isfinite(v)])
+        v = np.concatenate(vals) if vals else np.zeros(0)
+        med = float(np.median(v)) if v.size else float("nan")
+        cvs.append(float(survey.nmad(v)) / med if v.size >= MIN_FILL_SAMPLES and med > 0 else DEFAULT_FILL_CV)
+        configured = getattr(cfg.peat, f"{name}_fill")
+        if configured is not None:
+            out[f"{key}_fill"] = float(configured)
+        elif v.size:
+            out[f"{key}_fill"] = med
+        else:
+            raise ConfigError(f"peat.{name}: {ref.path} holds no valid value on the run grid; give "
+                              f"peat.{name}_fill (the value for its holes) or a raster with data")
+    out["fill_cv"] = max(cvs) if cvs else 0.0
+    return out
 
 
 @dataclass
@@ -628,7 +707,7 @@ def _state(plan: RunPlan):
         cache.clear()
         readers = {}
         for name in ("pre", "post", "subsidence_rate", "thickness", "bulk_density", "carbon_fraction",
-                     "water_table", "biomass"):
+                     "water_table", "biomass", "extent"):
             src = getattr(plan, name)
             if isinstance(src, RasterSource):
                 readers[name] = GridReader(src, plan.grid)
@@ -638,6 +717,7 @@ def _state(plan: RunPlan):
             "fire_count": WindowRasterizer(plan.scars, values=plan.scar_fire_counts)
             if plan.scar_fire_counts is not None else None,
             "zones": [ZoneLayerIndex.from_geometries(n, ids, g) for n, ids, g in plan.zone_layers],
+            "extent": WindowRasterizer(plan.extent) if isinstance(plan.extent, np.ndarray) else None,
         }
         cache[plan.token] = st
     return st
@@ -698,7 +778,8 @@ def _depth_from_survey(plan: RunPlan, window: Window, sel: np.ndarray, pre, post
         post = post + np.broadcast_to(coregistration.plane(x, y, plan.tilt), sel.shape)[sel]
     sub = 0.0 if rate is None else survey.subsidence_lowering(rate, plan.interval_years)
     raw = survey.burn_depth(pre, post, sub)
-    return raw, (raw if thick is None else peat.cap_depth(raw, thick))
+    # the cap acts beyond the level of detection only (no low bias at the cap; docs/method.md 2.4)
+    return raw, (raw if thick is None else peat.cap_depth(raw, thick, plan.lod))
 
 
 def water_table_depth(st, plan: RunPlan, window: Window, where: np.ndarray) -> np.ndarray:
@@ -749,6 +830,7 @@ class BlockData:
     wt: object = None  # water-table raster or constant [m]; None with stations (interpolated later)
     fire_count: np.ndarray | None = None
     biomass: object = None  # [t/ha]
+    in_extent: np.ndarray | None = None  # inside the organic-soil extent (None: no extent given)
     zone_bins: list = field(default_factory=list)  # per layer: per pass 1-D bins
 
 
@@ -775,8 +857,19 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
         pre=pre, post=post, rate=rate, thick=thick,
         wt=at(_param(st, plan, "water_table", window)) if m is not None else None,
         fire_count=fire_count, biomass=at(_param(st, plan, "biomass", window)),
+        in_extent=_in_extent(st, plan, window, burned),
         zone_bins=[[b[burned] for b in z.bin_rasters(grid, window)] for z in st["zones"]],
     )
+
+
+def _in_extent(st, plan: RunPlan, window: Window, burned: np.ndarray):
+    """Inside the organic-soil extent at the burned pixels (None without an extent)."""
+    if plan.extent is None:
+        return None
+    if st["extent"] is not None:
+        return st["extent"].mask(plan.grid, window)[burned]
+    v = st["readers"]["extent"].read(window)[burned]
+    return np.isfinite(v) & (v != 0)
 
 
 def process_block(plan: RunPlan, window: Window) -> BlockResult:
@@ -800,10 +893,14 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
                            [{} for _ in n_bins])
     n = int(np.count_nonzero(burned))
     area = data.area
-    rho = np.broadcast_to(data.rho, n)
-    cf = np.broadcast_to(data.cf, n)
+    # holes in the peat properties are filled (Tier 1 is the last resort for the depth, never for them)
+    rho, rho_filled = peat.fill_missing(np.broadcast_to(data.rho, n), plan.rho_fill)
+    cf, cf_filled = peat.fill_missing(np.broadcast_to(data.cf, n), plan.cf_fill)
     thick = data.thick
-    peat_ok = np.isfinite(rho) & np.isfinite(cf)
+    # burned mineral soil (thickness 0, or outside the extent): nothing burns below ground there
+    mineral = np.broadcast_to(peat.mineral_soil(thick, data.in_extent), n)
+    organic = ~mineral
+    peat_ok = np.isfinite(rho) & np.isfinite(cf) & organic
     raw, depth_s = _depth_from_survey(plan, window, burned, data.pre, data.post, data.rate, thick)
     m_survey = np.isfinite(depth_s) & peat_ok
     depth = np.where(m_survey, depth_s, np.nan)
@@ -825,13 +922,13 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
             lin = plan.models.all.intercept + plan.models.all.slope * np.where(m_wt, wt, 0.0)
             cap = np.inf if thick is None else np.where(np.isfinite(thick), thick, np.inf)
             m_lin = m_wt & (lin > 0) & (lin < cap)
-    m_t1 = ~m_survey & ~m_wt & np.isfinite(cf)
+    m_t1 = ~m_survey & ~m_wt & np.isfinite(cf) & organic
     valid_depth = m_survey | m_wt
-    estimated = valid_depth | m_t1
+    estimated = valid_depth | m_t1 | mineral  # mineral soil: estimated, as zero
     with np.errstate(invalid="ignore"):
         mass = np.where(valid_depth, peat.peat_dry_mass(depth, rho, area), 0.0)
     fuel_kg_m2 = plan.tier1_fuel_t_ha * peat.KG_M2_PER_T_HA  # Tier 1 fuel consumption [kg m-2]
-    t1_mass_all = fuel_kg_m2 * area  # kg per pixel
+    t1_mass_all = np.where(organic, fuel_kg_m2 * area, 0.0)  # kg per pixel, on organic soil only
     mass = np.where(m_t1, t1_mass_all, mass)
     cf0 = np.where(np.isfinite(cf), cf, 0.0)
     carbon = np.where(estimated, peat.carbon_mass(mass, cf0), 0.0)
@@ -876,6 +973,7 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     # constant, finite bulk density and carbon fraction (the usual inventory case): the peat rows are
     # constants times the volume and area rows [kg = (g cm-3 x kg m-3 per g cm-3) x m3]
     const_peat = np.ndim(data.rho) == 0 and np.ndim(data.cf) == 0 and bool(peat_ok.all())
+    any_mineral = bool(mineral.any())
     k_rho = float(data.rho) * peat.KG_M3_PER_G_CM3 if const_peat else None
     only_survey = const_peat and not m_wt.any() and not m_t1.any()
     put("burned_area_m2", True, area)
@@ -889,8 +987,16 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         put("peat_kg", estimated, mass)
         put("carbon_kg", True, carbon)
     put("unestimated_area_m2", ~estimated, area)
+    put("mineral_area_m2", mineral, area)
     if lod_mask is not None:
         put("below_lod_area_m2", lod_mask, area)
+        put("outlier_area_m2", survey.outliers(raw, plan.lod, thick) & m_survey, area)
+    put("rho_filled_area_m2", rho_filled & valid_depth, area)  # where the density was used
+    put("cf_filled_area_m2", cf_filled & (valid_depth | m_t1), area)
+    filled = (rho_filled | cf_filled) & valid_depth
+    if filled.any():
+        put("peat_kg_filled", filled, mass)
+        put("carbon_kg_filled", filled, carbon)
     with np.errstate(invalid="ignore"):
         put("capped_area_m2", m_survey & (raw > depth_s), area)
     if m_lin.any():
@@ -912,9 +1018,12 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     else:
         put("rho_area_survey", m_survey, rho_a)
         put("rho_f_area_survey", m_survey, rho_f_a)
-    scaled("tier1_all_peat_kg", "burned_area_m2", fuel_kg_m2)  # fuel x area on every burned pixel
+    if not any_mineral:  # fuel x area on every burned pixel
+        scaled("tier1_all_peat_kg", "burned_area_m2", fuel_kg_m2)
+    else:  # ... of organic soil only
+        put("tier1_all_peat_kg", organic, t1_mass_all)
     if np.ndim(data.cf) == 0 and np.isfinite(data.cf):
-        scaled("tier1_all_carbon_kg", "burned_area_m2", fuel_kg_m2 * float(data.cf))
+        scaled("tier1_all_carbon_kg", "tier1_all_peat_kg", float(data.cf))
     else:
         put("tier1_all_carbon_kg", True, t1_mass_all * cf0)
     if data.biomass is not None:
@@ -926,24 +1035,41 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
             r = alias[r][0]
         return r
 
+    # repeat burns: a pixel inside k scars gives each 1/k of every quantity (outputs/fires.py), and its
+    # whole area to each one's repeat_area_m2; in the zones and the total, repeat_area_m2 is the ground
+    # that burned more than once
+    cover = coverage_count(data.zone_bins[-1])  # the scar layer is the last layer
+    repeat = cover > 1
     nonzero = sorted(set(used) | set(alias))
-    scar_rows = [r for r in (_ROW[k] for k in SCAR_LAYER_KEYS) if r in nonzero]
-    layer_rows = [scar_rows if name == SCAR_LAYER else nonzero for name, _, _ in plan.zone_layers]
     total_sums = np.zeros(len(SUM_KEYS))
     for r in used:
         total_sums[r] = w[r].sum()
+    rows = sorted({root(r) for r in nonzero})
+    w_scar = w
+    if repeat.any():
+        w_scar = np.empty_like(w)
+        w_scar[rows] = w[rows] / np.maximum(cover, 1)
     sums = [total_sums] + [
-        accumulate_stacked(bins, w, nb, rows=sorted({root(r) for r in rows}))
-        for bins, nb, rows in zip(data.zone_bins, n_bins, layer_rows)]
+        accumulate_stacked(bins, w_scar if name == SCAR_LAYER else w, nb, rows=rows)
+        for (name, _, _), bins, nb in zip(plan.zone_layers, data.zone_bins, n_bins)]
+    if repeat.any():
+        r_rep = _ROW["repeat_area_m2"]
+        rep_w = np.where(repeat, area, 0.0)[None, :]
+        total_sums[r_rep] = rep_w.sum()
+        for a, bins, nb in zip(sums[1:], data.zone_bins, n_bins):
+            a[r_rep] = accumulate_stacked(bins, rep_w, nb)[0]
+        nonzero.append(r_rep)
     for r, (src, factor) in alias.items():  # in the order defined: a source is final before it is used
         for a in sums:
             a[r] = a[src] * factor
     total = dict(zip(SUM_KEYS, sums[0].tolist()))
-    zsums = [{SUM_KEYS[r]: a[r] for r in rows} for a, rows in zip(sums[1:], layer_rows)]
+    zsums = [{SUM_KEYS[r]: a[r] for r in nonzero} for a in sums[1:]]
     codes = np.zeros(n, "uint8")
     codes[m_survey] = METHOD_CODES["survey"]
     codes[m_wt] = METHOD_CODES["water_table"]
     codes[m_t1] = METHOD_CODES["tier1"]
+    codes[mineral] = MINERAL_CODE
+    depth = np.where(mineral, 0.0, depth)  # no peat, so no peat burned (burn_depth.tif shows 0)
     with np.errstate(invalid="ignore", divide="ignore"):
         cdens = np.where(estimated, carbon / area, np.nan).astype("float32")
     return BlockResult(window, burned, depth.astype("float32"), cdens, codes, total, zsums)

@@ -294,7 +294,8 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     if cfg.uncertainty.draws > 0:
         from .intervals import add_intervals
 
-        uncertainty = add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire_rows=fire_rows)
+        uncertainty = add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire_rows=fire_rows,
+                                    fill_cv=plan.fill_cv)
     converting.result()  # the rasters are complete from here on (field plots sample them)
     plots = None
     if inputs.plots is not None:

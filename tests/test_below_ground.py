@@ -270,3 +270,36 @@ def test_constant_subsidence_cancels_and_is_said(tmp_path):
     r0 = peatburn.run(s.config, tmp_path / "o0")
     assert r3.total["carbon_smouldering_t"] == pytest.approx(r0.total["carbon_smouldering_t"], rel=1e-4)
     assert any("one constant" in n for n in r3.totals["notes"])
+
+
+def test_tier1_intervals_come_from_the_default_not_the_density(tmp_path):
+    """Tier-1-only run with draws: the variance of the carbon is the default's stated spread
+    (tier1_fuel, IPCC 2013 Wetlands Supplement Table 2.6, recalled) and the carbon fraction's; the
+    bulk density plays no part (the default's mass does not depend on it). Each fire gets an interval."""
+    s, _, _ = _mineral_scene(tmp_path / "s", extra="[uncertainty]\ndraws = 200\nseed = 1\n", survey=False)
+    r = peatburn.run(s.config, tmp_path / "o")
+    con = r.totals["uncertainty"]["contributions"]
+    assert con["tier1_fuel"] > 0.9
+    assert not con.get("bulk_density")
+    f = read_fires(r.out_dir)
+    lo, mid, hi = (float(f["A"][k]) for k in ("carbon_smouldering_t_lo", "carbon_smouldering_t",
+                                               "carbon_smouldering_t_hi"))
+    assert lo < mid < hi
+
+
+def test_subsidence_map_error_drawn_by_default(tmp_path):
+    """A subsidence-rate raster brings the zone-correlated rate-map term with its marked default
+    spread (0.01 m/yr, an assumption stated in docs/uncertainty.md); one constant rate brings none."""
+    s = make_scene(tmp_path / "s", zones=False, extra_config="[uncertainty]\ndraws = 100\nseed = 1\n")
+    with rasterio.open(s.folder / "thickness.tif") as ds:
+        t = ds.transform
+    write_tif(s.folder / "subsidence.tif", np.full((240, 300), 0.03), t)
+    text = s.config.read_text()
+    s.config.write_text(text.replace('subsidence_rate = "0.03 m/yr"', 'subsidence_rate = "subsidence.tif"'))
+    r = peatburn.run(s.config, tmp_path / "o")
+    src = {x["name"]: x for x in r.totals["uncertainty"]["sources"]}
+    assert src["subsidence_rate_map"]["parameters"]["sd_m_per_yr"] == 0.01
+    assert "assumption" in src["subsidence_rate_map"]["citation"]
+    s.config.write_text(text)
+    r2 = peatburn.run(s.config, tmp_path / "o2")
+    assert "subsidence_rate_map" not in {x["name"] for x in r2.totals["uncertainty"]["sources"]}

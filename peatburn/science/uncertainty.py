@@ -156,10 +156,14 @@ SOURCE_NAMES = (
     "biomass",
     "combustion_factor",
     "emission_factors_flaming",
+    # below-ground sources of issue 14 (appended, so the random streams of the others keep their keys)
+    "subsidence_rate_map",
+    "tier1_fuel",
+    "peat_property_fill",
 )
 _RUN_WIDE = {"survey_bias", "subsidence_rate", "water_table_coefficients", "bulk_density", "carbon_fraction",
              "emission_factors_smouldering", "fre_coefficient", "biomass", "combustion_factor",
-             "emission_factors_flaming"}
+             "emission_factors_flaming", "tier1_fuel", "peat_property_fill"}
 
 #: Zone sums read by the draws (arrays over zones; absent keys count as zeros). Survey sums
 #: (``area_m2``, ``rho_area``, ``rho_f_area``) cover the pixels whose depth comes from the
@@ -180,6 +184,12 @@ SUM_KEYS = {
     "wt_rho_area_wt": "sum rho A wt x 1000 over water-table pixels [kg] (optional)",
     "wt_rho_f_area": "sum rho f A x 1000 over water-table pixels [kg C/m]",
     "wt_rho_f_area_wt": "sum rho f A wt x 1000 over water-table pixels [kg C]",
+    "peat_kg_tier1": "sum of the Tier 1 default mass, part of peat_kg [kg] (optional; drawn with tier1_fuel, "
+                     "not with the bulk density)",
+    "carbon_kg_tier1": "sum of the Tier 1 default carbon, part of carbon_kg [kg C] (optional)",
+    "peat_kg_filled": "mass of survey / water-table pixels whose bulk density or carbon fraction was filled, "
+                      "part of peat_kg [kg] (optional; drawn with peat_property_fill too)",
+    "carbon_kg_filled": "carbon of those pixels, part of carbon_kg [kg C] (optional)",
     "flaming_dm_fre_kg": "flaming dry matter from FRE with the nominal combustion coefficient [kg]",
     "flaming_dm_area_kg": "flaming dry matter from area x biomass x combustion factor [kg]",
     "flaming_carbon_kg": "flaming carbon [kg C] (scaled with the flaming dry matter)",
@@ -456,7 +466,8 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
                     fre_coefficient=DEFAULT_FRE_COEFFICIENT, fre_coefficient_sd=DEFAULT_FRE_COEFFICIENT_SD,
                     biomass_cv=DEFAULT_BIOMASS_CV,
                     combustion_factor=DEFAULT_COMBUSTION_FACTOR, combustion_factor_sd=DEFAULT_COMBUSTION_FACTOR_SD,
-                    wt_coef_cov=None, wt_residual_sd_m=0.0, wt_residual_range_m=None) -> list[Source]:
+                    wt_coef_cov=None, wt_residual_sd_m=0.0, wt_residual_range_m=None,
+                    subsidence_rate_map_sd_m_per_yr=0.0, tier1_fuel_cv=0.0, peat_fill_cv=0.0) -> list[Source]:
     """The sources of uncertainty of a run, each with its distribution, parameters and basis.
 
     Parameters
@@ -496,6 +507,18 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
     wt_residual_sd_m, wt_residual_range_m : float, optional
         Scatter of the water-table model about its line [m] and its correlation range [m]
         (no range: fully correlated within a zone).
+    subsidence_rate_map_sd_m_per_yr : float
+        Error of a subsidence-rate *map* [m/yr], as a zone-correlated term: one value per zone
+        (fully correlated within it, independent between zones), acting as ``dr_z * T`` over the
+        surveyed area. Only the contrast between scars and stable ground matters (a run-wide error
+        is absorbed by the co-registration), so this is the term a rate map adds.
+    tier1_fuel_cv : float
+        Relative spread of the Tier 1 default fuel consumption [-]
+        (:data:`peatburn.science.tier1.TIER1_FUEL_RELATIVE_SD`); a run-wide scale on the Tier 1
+        pixels' mass and carbon, which do not depend on the bulk density.
+    peat_fill_cv : float
+        Relative spread of a filled bulk density or carbon fraction [-]; a run-wide scale on the
+        mass and carbon of the pixels whose property was filled, on top of ``bulk_density``.
 
     Returns
     -------
@@ -531,6 +554,15 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
                "area. If the stable ground subsides at the same rate, co-registration already removes "
                "it and this source double-counts (conservative)."),
     ]
+    if float(subsidence_rate_map_sd_m_per_yr) > 0:
+        src.append(Source("subsidence_rate_map", "normal, one value per zone",
+                          {"sd_m_per_yr": float(subsidence_rate_map_sd_m_per_yr),
+                           "interval_years": float(interval_years)},
+                          "default sd 0.01 m/yr: half the 3-5 cm/yr span of drained tropical peat (Hooijer et "
+                          "al. 2012, secondary check) taken as one sd: assumption",
+                          "Per zone, fully correlated within it and independent between zones; acts as "
+                          "dr_z * T over the surveyed area (only a rate map's contrast between scars and stable "
+                          "ground reaches the depths)."))
     if wt_coef_cov is not None:
         cov = np.asarray(wt_coef_cov, dtype="float64")
         if cov.shape != (2, 2) or not np.all(np.isfinite(cov)):
@@ -550,6 +582,18 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
     src.append(Source("bulk_density", "lognormal scale, mean 1", {"cv": float(bulk_density_cv)},
                       "assumption (10-20 % span; see DEFAULT_BULK_DENSITY_CV)",
                       "Run-wide multiplicative scale on peat mass, carbon and smouldering gases."))
+    if float(tier1_fuel_cv) > 0:
+        src.append(Source("tier1_fuel", "lognormal scale, mean 1", {"cv": float(tier1_fuel_cv)},
+                          "IPCC 2013 Wetlands Supplement Ch. 2 Table 2.6: 353 +/- 170 t d.m./ha for tropical "
+                          "wildfire, +/- read as a 95 % half-width (recalled, unchecked)",
+                          "Run-wide scale on the mass and carbon of the Tier 1 pixels (not the bulk density: "
+                          "their mass does not depend on it)."))
+    if float(peat_fill_cv) > 0:
+        src.append(Source("peat_property_fill", "lognormal scale, mean 1", {"cv": float(peat_fill_cv)},
+                          "relative spread (NMAD / median) of the run's valid bulk-density and carbon-fraction "
+                          "values, the larger of the two; 0.3 when too few (assumption)",
+                          "Run-wide scale on the mass and carbon of the pixels whose bulk density or carbon "
+                          "fraction was filled, on top of the bulk-density scale."))
     cf_mean = float(carbon_fraction)
     if not cf_mean > 0:
         raise PhysicalRangeError("carbon_fraction must be > 0")
@@ -636,6 +680,12 @@ def sources_to_params(sources, *, gwp=None) -> dict:
             p["biomass_cv"] = q["cv"]
         elif s.name == "combustion_factor":
             p["combustion_factor_cv"] = q["cv"]
+        elif s.name == "subsidence_rate_map":
+            p.update(subsidence_rate_map_sd_m_per_yr=q["sd_m_per_yr"], interval_years=q["interval_years"])
+        elif s.name == "tier1_fuel":
+            p["tier1_fuel_cv"] = q["cv"]
+        elif s.name == "peat_property_fill":
+            p["peat_fill_cv"] = q["cv"]
         else:
             raise ConfigError(f"unknown uncertainty source {s.name!r}; known: {', '.join(SOURCE_NAMES)}")
     if gwp is not None:
@@ -650,6 +700,7 @@ _PARAM_KEYS = {
     "subsidence_rate_sd_m_per_yr", "interval_years", "wt_coef_cov", "wt_residual_sd_m", "wt_residual_range_m",
     "bulk_density_cv", "carbon_fraction_cv", "ef_smouldering", "ef_flaming", "fre_coefficient_cv",
     "biomass_cv", "combustion_factor_cv", "gwp",
+    "subsidence_rate_map_sd_m_per_yr", "tier1_fuel_cv", "peat_fill_cv",
 }
 
 
@@ -733,6 +784,7 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
     sig = _nonneg(params, "survey_sigma_m")
     T = _nonneg(params, "interval_years")
     sig_r = _nonneg(params, "subsidence_rate_sd_m_per_yr") * T
+    sig_map = np.full(n, _nonneg(params, "subsidence_rate_map_sd_m_per_yr") * T)  # per zone
     sz = np.zeros(n)
     if sig > 0:
         rng_m = params.get("survey_range_m")
@@ -763,29 +815,43 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
         swz = np.full(n, s_wt) if r_wt is None else correlated_sum_sd(s_wt, float(r_wt), wt_area)
 
     fields = {
-        "survey": {"survey_bias": sig_b, "subsidence_rate": sig_r, "survey_random": sz},
+        "survey": {"survey_bias": sig_b, "subsidence_rate": sig_r, "survey_random": sz, "subsidence_map": sig_map},
         "wt_a": {"wt1": float(wt_l[0, 0]), "wt2": float(wt_l[0, 1]), "wt_residual": swz},
         "wt_b": {"wt1": float(wt_l[1, 0]), "wt2": float(wt_l[1, 1])},
     }
     fields = {f: {k: c for k, c in src.items() if np.any(np.asarray(c) != 0)} for f, src in fields.items()}
     fields = {f: src for f, src in fields.items() if src}
+    # Tier 1 and filled pixels are parts of peat_kg / carbon_kg with sources of their own: the main
+    # cores hold the rest (the survey and water-table error fields act on depth pixels only)
+    p_t1, c_t1 = get("peat_kg_tier1"), get("carbon_kg_tier1")
+    p_fill, c_fill = get("peat_kg_filled"), get("carbon_kg_filled")
     cores = {
         "V": (get("volume_m3"), {"survey": area, "wt_a": wt_area, "wt_b": wt_a_wt}),
-        "P": (get("peat_kg"), {"survey": get("rho_area"), "wt_a": wt_r, "wt_b": wt_r_wt}),
-        "C": (get("carbon_kg"), {"survey": get("rho_f_area"), "wt_a": wt_rf, "wt_b": wt_rf_wt}),
+        "P": (get("peat_kg") - p_t1 - p_fill, {"survey": get("rho_area"), "wt_a": wt_r, "wt_b": wt_r_wt}),
+        "C": (get("carbon_kg") - c_t1 - c_fill, {"survey": get("rho_f_area"), "wt_a": wt_rf, "wt_b": wt_rf_wt}),
+        "PT1": (p_t1, {}), "CT1": (c_t1, {}), "PF": (p_fill, {}), "CF": (c_fill, {}),
     }
     for name, (base, mult) in cores.items():  # drop fields with no effect
         cores[name] = (base, {f: m for f, m in mult.items() if f in fields and np.any(m != 0)})
     additive_src = {"survey_bias": ("survey_bias", True), "subsidence_rate": ("subsidence_rate", True),
-                    "survey_random": ("survey_random", False), "wt1": ("water_table_coefficients", True),
+                    "survey_random": ("survey_random", False), "subsidence_map": ("subsidence_rate_map", False),
+                    "wt1": ("water_table_coefficients", True),
                     "wt2": ("water_table_coefficients", True), "wt_residual": ("water_table_residual", False)}
 
     factors = {"bulk_density": ("bulk_density", _nonneg(params, "bulk_density_cv")),
-               "carbon_fraction": ("carbon_fraction", _nonneg(params, "carbon_fraction_cv"))}
+               "carbon_fraction": ("carbon_fraction", _nonneg(params, "carbon_fraction_cv")),
+               "tier1_fuel": ("tier1_fuel", _nonneg(params, "tier1_fuel_cv")),
+               "peat_fill": ("peat_property_fill", _nonneg(params, "peat_fill_cv"))}
+    # the peat-mass terms: (core, factors of the mass); gases follow the mass, carbon adds f_C
+    mass_terms = [("P", ("bulk_density",)), ("PT1", ("tier1_fuel",)), ("PF", ("bulk_density", "peat_fill"))]
+    mass_terms = [t for t in mass_terms if t[0] == "P" or np.any(cores[t[0]][0] != 0)]
+    carbon_terms = [("C", ("bulk_density", "carbon_fraction")), ("CT1", ("tier1_fuel", "carbon_fraction")),
+                    ("CF", ("bulk_density", "carbon_fraction", "peat_fill"))]
+    carbon_terms = [t for t in carbon_terms if t[0] == "C" or np.any(cores[t[0]][0] != 0)]
     quantities = {
         "volume_m3": [("V", 1.0, ())],
-        "peat_kg": [("P", 1.0, ("bulk_density",))],
-        "carbon_kg": [("C", 1.0, ("bulk_density", "carbon_fraction"))],
+        "peat_kg": [(c, 1.0, f) for c, f in mass_terms],
+        "carbon_kg": [(c, 1.0, f) for c, f in carbon_terms],
     }
     gwp = {str(g).lower(): float(v) for g, v in dict(params.get("gwp") or {}).items()}
     ef_s = _efs(params, "ef_smouldering")
@@ -793,9 +859,9 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
     for g, (ef, cv) in ef_s.items():
         fk = f"ef_smouldering:{g}"
         factors[fk] = ("emission_factors_smouldering", cv)
-        quantities[f"{g}_smouldering_kg"] = [("P", ef / 1000.0, ("bulk_density", fk))]
+        quantities[f"{g}_smouldering_kg"] = [(c, ef / 1000.0, f + (fk,)) for c, f in mass_terms]
         if g in gwp:
-            co2e.append(("P", gwp[g] * ef / 1000.0, ("bulk_density", fk)))
+            co2e += [(c, gwp[g] * ef / 1000.0, f + (fk,)) for c, f in mass_terms]
     if co2e:
         quantities["co2e_smouldering_kg"] = co2e
 

@@ -489,3 +489,43 @@ def test_row_quantiles_equal_numpys(kind):
         ref = np.quantile(a, qs, axis=1)
         for g, r in zip(got, ref):
             np.testing.assert_array_equal(g, r)
+
+
+def test_tier1_pixels_drawn_with_their_own_source_not_the_bulk_density():
+    """A zone whose carbon is all Tier 1: its variance comes from the spread of the default (IPCC 2013
+    Wetlands Supplement Table 2.6, 353 +/- 170 t/ha, recalled) and the carbon fraction, never from the
+    bulk density (the default's mass does not depend on it). First order, hand arithmetic:
+    Var C = (C x cv_t1)^2 + (C x cv_f)^2."""
+    sums = {"peat_kg": np.array([1000.0]), "carbon_kg": np.array([500.0]),
+            "peat_kg_tier1": np.array([1000.0]), "carbon_kg_tier1": np.array([500.0])}
+    params = {"bulk_density_cv": 0.15, "carbon_fraction_cv": 0.05, "tier1_fuel_cv": 0.246}
+    comp = u.variance_components(sums, params, quantity="carbon_kg")
+    assert comp.get("bulk_density", np.zeros(1))[0] == 0.0
+    assert comp["tier1_fuel"][0] == pytest.approx((500 * 0.246) ** 2, rel=1e-12)
+    assert comp["carbon_fraction"][0] == pytest.approx((500 * 0.05) ** 2, rel=1e-12)
+    lo, hi = u.intervals(sums, params, draws=20_000, seed=1, quantities={"carbon_kg"})["carbon_kg"]
+    # lognormal scales of mean 1: the 95 % interval of the product, to within Monte Carlo noise
+    s = math.sqrt(math.log1p(0.246 ** 2) + math.log1p(0.05 ** 2))
+    assert lo[0] == pytest.approx(500 * math.exp(-1.96 * s - s * s / 2), rel=0.03)
+    assert hi[0] == pytest.approx(500 * math.exp(1.96 * s - s * s / 2), rel=0.03)
+
+
+def test_subsidence_map_term_is_zone_correlated():
+    """The rate-map error is one value per zone: within a zone it acts on the whole surveyed area
+    (sd = sd_r x T x sum rho f A, not averaged down like the pixel noise), and two zones add their
+    variances (independent), unlike a run-wide source whose derivatives add before squaring."""
+    sums = {"area_m2": np.array([1e4, 2e4]), "volume_m3": np.array([4e3, 8e3]), "peat_kg": np.array([4e5, 8e5]),
+            "carbon_kg": np.array([2e5, 4e5]), "rho_area": np.array([1e6, 2e6]), "rho_f_area": np.array([5e5, 1e6])}
+    params = {"subsidence_rate_map_sd_m_per_yr": 0.01, "interval_years": 3.0}
+    comp = u.variance_components(sums, params, quantity="carbon_kg", total=True)
+    per = (0.01 * 3.0 * np.array([5e5, 1e6])) ** 2
+    np.testing.assert_allclose(comp["subsidence_rate_map"][:2], per, rtol=1e-12)
+    assert comp["subsidence_rate_map"][2] == pytest.approx(per.sum(), rel=1e-12)
+
+
+def test_filled_peat_properties_widen_the_spread():
+    sums = {"peat_kg": np.array([1000.0]), "carbon_kg": np.array([500.0]),
+            "peat_kg_filled": np.array([200.0]), "carbon_kg_filled": np.array([100.0])}
+    comp = u.variance_components(sums, {"bulk_density_cv": 0.15, "peat_fill_cv": 0.3}, quantity="carbon_kg")
+    assert comp["peat_property_fill"][0] == pytest.approx((100 * 0.3) ** 2, rel=1e-12)
+    assert comp["bulk_density"][0] == pytest.approx((500 * 0.15) ** 2, rel=1e-12)  # all pixels, filled too
