@@ -530,7 +530,9 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
                       ("bulk_density_cv", bulk_density_cv), ("carbon_fraction_sd", carbon_fraction_sd),
                       ("fre_coefficient_sd", fre_coefficient_sd), ("biomass_cv", biomass_cv),
                       ("combustion_factor_sd", combustion_factor_sd), ("wt_residual_sd_m", wt_residual_sd_m),
-                      ("interval_years", interval_years)):
+                      ("interval_years", interval_years),
+                      ("subsidence_rate_map_sd_m_per_yr", subsidence_rate_map_sd_m_per_yr),
+                      ("tier1_fuel_cv", tier1_fuel_cv), ("peat_fill_cv", peat_fill_cv)):
         if not (math.isfinite(float(val)) and float(val) >= 0):
             raise PhysicalRangeError(f"uncertainty source {name}: must be a finite number >= 0, got {val!r}")
     src = [
@@ -582,18 +584,19 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
     src.append(Source("bulk_density", "lognormal scale, mean 1", {"cv": float(bulk_density_cv)},
                       "assumption (10-20 % span; see DEFAULT_BULK_DENSITY_CV)",
                       "Run-wide multiplicative scale on peat mass, carbon and smouldering gases."))
-    if float(tier1_fuel_cv) > 0:
-        src.append(Source("tier1_fuel", "lognormal scale, mean 1", {"cv": float(tier1_fuel_cv)},
-                          "IPCC 2013 Wetlands Supplement Ch. 2 Table 2.6: 353 +/- 170 t d.m./ha for tropical "
-                          "wildfire, +/- read as a 95 % half-width (recalled, unchecked)",
-                          "Run-wide scale on the mass and carbon of the Tier 1 pixels (not the bulk density: "
-                          "their mass does not depend on it)."))
-    if float(peat_fill_cv) > 0:
-        src.append(Source("peat_property_fill", "lognormal scale, mean 1", {"cv": float(peat_fill_cv)},
-                          "relative spread (NMAD / median) of the run's valid bulk-density and carbon-fraction "
-                          "values, the larger of the two; 0.3 when too few (assumption)",
-                          "Run-wide scale on the mass and carbon of the pixels whose bulk density or carbon "
-                          "fraction was filled, on top of the bulk-density scale."))
+    for name, cv, basis, note in (
+            ("tier1_fuel", tier1_fuel_cv,
+             "IPCC 2013 Wetlands Supplement Ch. 2 Table 2.6: 353 +/- 170 t d.m./ha for tropical wildfire, +/- read "
+             "as a 95 % half-width (recalled, unchecked)",
+             "Run-wide scale on the mass and carbon of the Tier 1 pixels (not the bulk density: their mass does "
+             "not depend on it)."),
+            ("peat_property_fill", peat_fill_cv,
+             "relative spread (NMAD / median) of the run's valid bulk-density and carbon-fraction values, the "
+             "larger of the two; 0.3 when too few (assumption)",
+             "Run-wide scale on the mass and carbon of the pixels whose bulk density or carbon fraction was "
+             "filled, on top of the bulk-density scale.")):
+        if float(cv) > 0:
+            src.append(Source(name, "lognormal scale, mean 1", {"cv": float(cv)}, basis, note))
     cf_mean = float(carbon_fraction)
     if not cf_mean > 0:
         raise PhysicalRangeError("carbon_fraction must be > 0")
