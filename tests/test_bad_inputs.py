@@ -87,7 +87,7 @@ def test_same_inputs_give_byte_identical_outputs(tmp_path):
     s = make_scene(tmp_path / "s")
     peatburn.run(s.config, tmp_path / "a")
     peatburn.run(s.config, tmp_path / "b")
-    for name in ("zones.csv", "inventory.csv", "burn_depth.tif", "carbon_smouldering.tif"):
+    for name in ("zones.csv", "fires.csv", "inventory.csv", "burn_depth.tif", "carbon_smouldering.tif"):
         assert (tmp_path / "a" / name).read_bytes() == (tmp_path / "b" / name).read_bytes(), name
 
 
