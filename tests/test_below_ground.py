@@ -128,7 +128,7 @@ def test_fires_table_dates_years_and_inventory(repeat_runs):
 # ---------------------------------------------------------------------------------------------
 # peat extent, mineral soil, Tier 1 only
 
-def _mineral_scene(folder, extra="", survey=True):
+def _mineral_scene(folder, extra="", survey=True, raster_extent=False):
     """Scene whose scar B has no peat south of its centre (thickness 0) and whose peat extent leaves
     out the west strip of scar A (x < X0 + 130 m)."""
     s = make_scene(folder, zones=False, extra_config=extra)
@@ -140,10 +140,15 @@ def _mineral_scene(folder, extra="", survey=True):
     thick[south_b] = 0.0
     write_tif(s.folder / "thickness.tif", thick, t)
     extent = shapely.box(X0 + 130.0, Y0 - H_M, X0 + W_M, Y0)
-    gpd.GeoDataFrame({"kind": ["organic soil"]}, geometry=[extent], crs=f"EPSG:{EPSG}").to_file(
-        s.folder / "peat_extent.gpkg", layer="extent", driver="GPKG")
+    if raster_extent:  # 1 = organic soil, 0 = mineral soil
+        write_tif(s.folder / "peat_extent.tif", (x >= X0 + 130.0).astype(float), t)
+        name = "peat_extent.tif"
+    else:
+        gpd.GeoDataFrame({"kind": ["organic soil"]}, geometry=[extent], crs=f"EPSG:{EPSG}").to_file(
+            s.folder / "peat_extent.gpkg", layer="extent", driver="GPKG")
+        name = "peat_extent.gpkg"
     text = s.config.read_text().replace('thickness = "thickness.tif"',
-                                        'thickness = "thickness.tif"\nextent = "peat_extent.gpkg"')
+                                        f'thickness = "thickness.tif"\nextent = "{name}"')
     if not survey:
         start = text.index("[depth.survey]")
         end = text.index("[peat]")
@@ -154,10 +159,11 @@ def _mineral_scene(folder, extra="", survey=True):
     return s, mineral, burned
 
 
-def test_no_peat_burned_on_mineral_soil(tmp_path):
+@pytest.mark.parametrize("raster_extent", [False, True], ids=["polygon extent", "raster extent"])
+def test_no_peat_burned_on_mineral_soil(tmp_path, raster_extent):
     """IPCC 2013 Wetlands Supplement Ch. 2: organic-soil fire emissions apply to burned organic soil
     only (recalled, unchecked). Truth: zero below ground where thickness is 0 or outside the extent."""
-    s, mineral, burned = _mineral_scene(tmp_path / "s")
+    s, mineral, burned = _mineral_scene(tmp_path / "s", raster_extent=raster_extent)
     r = peatburn.run(s.config, tmp_path / "o")
     d = true_depth() * ~mineral
     assert r.total["carbon_smouldering_t"] == pytest.approx(true_carbon_t(d), rel=TOL)
