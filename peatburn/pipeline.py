@@ -50,6 +50,7 @@ class Inputs:
     plots: object | None = None  # io.points.Points (field plots)
     notes: list[str] = field(default_factory=list)
     extent: object | None = None  # PolygonLayer of the organic-soil extent (a raster extent is in ``rasters``)
+    fill: dict | None = None  # fallbacks for holes in the peat properties (fill_values), found once
 
     @property
     def has_survey(self) -> bool:
@@ -549,7 +550,9 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
     if cfg.fire_count_field:
         fc = inputs.scars.frame[cfg.fire_count_field].fillna(1).astype(float).to_numpy()
     wt = cfg.water_table
-    fill = fill_values(inputs)
+    if inputs.fill is None:
+        inputs.fill = fill_values(inputs)
+    fill = inputs.fill
     stations = None
     if inputs.stations is not None and len(inputs.stations.frame):
         f = inputs.stations.frame
