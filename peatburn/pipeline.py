@@ -1103,7 +1103,12 @@ def depth_samples(inputs: Inputs, plan: RunPlan, max_samples: int = 200_000, see
         if not burned.any():
             continue
         _, d = survey_depth(st, plan, w)
-        ok = burned & np.isfinite(d)
+        # mineral soil (thickness 0, outside the peat extent) burns no peat: not a calibration pair
+        everywhere = np.ones(burned.shape, bool)
+        ext = _in_extent(st, plan, w, everywhere)
+        mineral = peat.mineral_soil(_param(st, plan, "thickness", w),
+                                    None if ext is None else ext.reshape(burned.shape))
+        ok = burned & np.isfinite(d) & ~mineral
         wt = water_table_depth(st, plan, w, ok)
         ok &= np.isfinite(wt)
         if not ok.any():
