@@ -88,7 +88,9 @@ FRP_TABLE = [
 #: Methods and their sources, as printed in the report (statuses as in docs/method.md and docs/sources.md).
 REFERENCES = [
     ("Burn depth = pre-fire elevation − co-registered post-fire elevation − subsidence over the interval, "
-     "capped by the peat thickness and not clipped at zero (so zone sums stay unbiased); propagated error "
+     "capped by the peat thickness only beyond the level of detection (no low bias at the cap) and not clipped "
+     "at zero (so zone sums stay unbiased); survey outliers beyond 5 levels of detection flagged and kept; "
+     "propagated error "
      "√(σ_pre² + σ_post²) and level of detection t × √(σ_pre² + σ_post²)",
      "Lane, S. N., Westaway, R. M. & Hicks, D. M. (2003). Estimation of erosion and deposition volumes in a "
      "large, gravel-bed, braided river using synoptic remote sensing. Earth Surf. Process. Landforms 28:249–271. "
@@ -108,10 +110,17 @@ REFERENCES = [
      "IPCC (2006). 2006 IPCC Guidelines for National Greenhouse Gas Inventories, Vol. 4, Ch. 2, Eq. 2.27.",
      "checked against the Vol. 4 worksheets"),
     ("Tier 1 (last resort where neither surveys nor a water-table model give a depth): default fuel "
-     "consumption and emission factors for fires on tropical organic soil",
+     "consumption and emission factors for fires on tropical organic soil, charged on burned organic soil "
+     "only (not where the peat thickness is 0 or outside the peat extent); its uncertainty 353 ± 170 t/ha "
+     "drawn as its own source",
      "IPCC (2014). 2013 Supplement to the 2006 IPCC Guidelines for National Greenhouse Gas Inventories: "
      "Wetlands, Ch. 2 (Tables 2.6 and 2.7).",
-     "default values recalled, unchecked"),
+     "default values and their uncertainty recalled, unchecked"),
+    ("Subsidence acts only through its contrast: the vertical co-registration on stable ground absorbs a "
+     "uniform rate, so one constant rate changes nothing; a rate map's error is drawn per zone",
+     "Nuth, C. & Kääb, A. (2011), The Cryosphere 5:271–290 (co-registration); Hooijer, A. et al. (2012), "
+     "Biogeosciences 9:1053 (3–5 cm/yr; default spread 0.01 m/yr is an assumption).",
+     "consequence of the method (tested); rate values checked through a secondary summary"),
     ("Flaming dry matter = fire radiative energy (time integral of FRP) × combustion coefficient",
      "Wooster, M. J., Roberts, G., Perry, G. L. W. & Kaufman, Y. J. (2005). Retrieval of biomass combustion "
      "rates and totals from fire radiative power observations. J. Geophys. Res. 110, D24311, "
