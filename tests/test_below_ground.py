@@ -309,3 +309,21 @@ def test_subsidence_map_error_drawn_by_default(tmp_path):
     s.config.write_text(text)
     r2 = peatburn.run(s.config, tmp_path / "o2")
     assert "subsidence_rate_map" not in {x["name"] for x in r2.totals["uncertainty"]["sources"]}
+
+
+def test_flaming_carbon_per_fire_with_repeat_burns(tmp_path):
+    """Burned area x biomass x combustion factor (IPCC 2006 Vol. 4 Ch. 2 Eq. 2.27) per fire, x the
+    vegetation carbon fraction 0.47 (IPCC 2006 default, recalled): hand arithmetic on each fire's pixel
+    area, the pixels shared by A and C counted half in each (the repeat-burn rule)."""
+    s = make_scene(tmp_path / "s", zones=False,
+                   extra_config='[flaming]\nmethod = "biomass"\nbiomass = "200 t/ha"\ncombustion_factor = 0.36\n')
+    write_scars(s.folder, [SCAR_A, SCAR_B, SCAR_C], ["A", "B", "C"], ["2030-08-01", "2030-09-01", "2031-08-05"],
+                ["2030-08-20", "2030-09-10", "2031-08-09"])
+    r = peatburn.run(s.config, tmp_path / "o")
+    f = read_fires(r.out_dir)
+    x, y = centres()
+    in_a, in_b, in_c = (shapely.contains_xy(g, x, y) for g in (SCAR_A, SCAR_B, SCAR_C))
+    share = {"A": in_a * np.where(in_c, 0.5, 1.0), "B": in_b * 1.0, "C": in_c * np.where(in_a, 0.5, 1.0)}
+    for k, w in share.items():
+        expected = w.sum() * AREA / 1e4 * 200 * 0.36 * 0.47
+        assert float(f[k]["carbon_flaming_t"]) == pytest.approx(expected, rel=1e-6), k
