@@ -17,7 +17,7 @@ from .config import RunConfig
 from .errors import OutputExistsError
 from .executors import BLOCK_GROUP, map_blocks
 from .factors import load_factor_set, load_gwp_set
-from .io.writers import BlockRasterWriter, BlockWrites, write_csv, write_json
+from .io.writers import BlockRasterWriter, BlockWrites, is_own_temporary, write_csv, write_json
 from .outputs import provenance, tables
 from .pipeline import (METHOD_CODES, SCAR_LAYER, Sums, build_plan, compute_block, coregister, fit_models, open_inputs,
                        process_block, read_block, window_group)
@@ -68,10 +68,9 @@ def prepare_out_dir(out_dir: Path, overwrite: bool) -> None:
         if not overwrite:
             raise OutputExistsError(f"output folder {out_dir} exists and is not empty; choose another --out "
                                     f"or pass --overwrite")
-        for stale in out_dir.glob(".*.part"):  # temporaries of a run that was killed
-            stale.unlink()
-        for stale in out_dir.glob(".*.tiled.tif"):
-            stale.unlink()
+        for stale in out_dir.iterdir():  # temporaries of a run that was killed: only files with our marker
+            if is_own_temporary(stale):
+                stale.unlink()
     out_dir.mkdir(parents=True, exist_ok=True)
 
 
