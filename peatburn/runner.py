@@ -114,7 +114,14 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
 
 
 def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, scheduler) -> RunResult:
+    from .io.lock import output_lock
+
     out_dir = Path(out_dir)
+    with output_lock(out_dir):  # one run at a time per output folder (issue 22)
+        return _run_locked(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress, scheduler=scheduler)
+
+
+def _run_locked(cfg: RunConfig, out_dir: Path, *, overwrite: bool, workers: int, progress, scheduler) -> RunResult:
     prepare_out_dir(out_dir, overwrite)
     factors = load_factors(cfg)
 
