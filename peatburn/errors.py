@@ -65,3 +65,7 @@ class ProvenanceMismatch(PeatburnError, ValueError):
 
 class OutputLockedError(PeatburnError, BlockingIOError):
     """Another run is writing into the same output folder."""
+
+
+class DiskFullError(PeatburnError, OSError):
+    """The file system of the output folder filled up during a run."""

@@ -118,7 +118,33 @@ def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, sc
 
     out_dir = Path(out_dir)
     with output_lock(out_dir):  # one run at a time per output folder (issue 22)
-        return _run_locked(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress, scheduler=scheduler)
+        try:
+            return _run_locked(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress,
+                               scheduler=scheduler)
+        except Exception as exc:
+            _raise_if_disk_full(out_dir, exc)
+            raise
+
+
+def _raise_if_disk_full(out_dir: Path, exc: BaseException) -> None:
+    """Turn an error of a full file system (GDAL's read of a cut temporary, ENOSPC) into one line."""
+    import errno
+
+    from .errors import DiskFullError
+    from .io.writers import FULL_DISK_BYTES, free_bytes
+
+    if isinstance(exc, DiskFullError) or not out_dir.exists():
+        return
+    free = free_bytes(out_dir)
+    if getattr(exc, "errno", None) != errno.ENOSPC and free >= FULL_DISK_BYTES:
+        return
+    import os
+
+    st = os.statvfs(out_dir)
+    raise DiskFullError(f"the disk holding {out_dir.absolute()} is full: the run needed more than the "
+                        f"{st.f_blocks * st.f_frsize / 2**20:.2f} MiB file system had ({free / 2**20:.2f} MiB free "
+                        f"after its temporaries were removed); free space or choose another --out (files under their "
+                        f"final names are complete)") from exc
 
 
 def _run_locked(cfg: RunConfig, out_dir: Path, *, overwrite: bool, workers: int, progress, scheduler) -> RunResult:

@@ -203,6 +203,7 @@ class BlockRasterWriter:
                                          BLOCKSIZE="512", BIGTIFF="IF_SAFER", OVERVIEWS="AUTO",
                                          NUM_THREADS=COG_THREADS,
                                          RESAMPLING="NEAREST" if np.dtype(self.dtype).kind != "f" else "AVERAGE")
+                    check_space(tmp.parent)  # GDAL only prints a failed write: never rename a cut file
         finally:
             with contextlib.suppress(FileNotFoundError):
                 self._tiled.unlink()
@@ -212,6 +213,24 @@ class BlockRasterWriter:
 
     def __exit__(self, exc_type, exc, tb):
         self.close(ok=exc_type is None)
+
+
+#: Below this many free bytes a file system counts as full: GDAL reports a failed write (ENOSPC) on
+#: stderr without raising, so a COG cut short would otherwise be renamed onto its final name.
+FULL_DISK_BYTES = 64 * 1024
+
+
+def free_bytes(folder) -> int:
+    st = os.statvfs(folder)
+    return st.f_bavail * st.f_frsize
+
+
+def check_space(folder) -> None:
+    """Raise ``OSError(ENOSPC)`` if the file system of ``folder`` is (all but) full."""
+    import errno
+
+    if free_bytes(folder) < FULL_DISK_BYTES:
+        raise OSError(errno.ENOSPC, "No space left on device", str(folder))
 
 
 def sha256_of(path, chunk: int = 1 << 20) -> str:

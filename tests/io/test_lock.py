@@ -3,11 +3,14 @@ process is writing is refused in one line (exit 2); a lock left by a killed proc
 
 from __future__ import annotations
 
+import os
+import shutil
 import subprocess
 import sys
 import textwrap
 
 import pytest
+import rasterio
 from click.testing import CliRunner
 
 from peatburn.cli.main import cli
@@ -55,3 +58,27 @@ def test_lock_of_a_killed_process_is_stale_and_taken_over(tmp_path):
                 with output_lock(out):
                     pass
     assert not lock_path(out).exists()
+
+
+@pytest.mark.skipif(not hasattr(os, "geteuid") or os.geteuid() != 0 or shutil.which("mount") is None,
+                    reason="mounting a small tmpfs needs root")
+def test_full_disk_is_one_line_exit_2_and_no_cut_file(tmp_path):
+    """Issue 22 item 3: a 120 KiB tmpfs fills during the rasters' conversion (real file system, no mock)."""
+    s = make_scene(tmp_path / "s")
+    mnt = tmp_path / "small"
+    mnt.mkdir()
+    if subprocess.run(["mount", "-t", "tmpfs", "-o", "size=120k", "tmpfs", str(mnt)]).returncode:
+        pytest.skip("mount -t tmpfs refused (a container without CAP_SYS_ADMIN)")
+    try:
+        res = CliRunner().invoke(cli, ["run", str(s.config), "--out", str(mnt / "o"), "--quiet"])
+        names = {p.name: p for p in (mnt / "o").iterdir()}
+        for name in ("burn_depth.tif", "carbon_smouldering.tif", "depth_method.tif"):
+            if name in names:  # every raster under its final name opens and reads whole
+                with rasterio.open(names[name]) as ds:
+                    ds.read(1)
+        assert not [n for n in names if "peatburn-tmp" in n], names
+    finally:
+        subprocess.run(["umount", str(mnt)])
+    assert res.exit_code == 2, res.output
+    lines = [ln for ln in res.output.strip().splitlines() if ln.startswith("peatburn: error")]
+    assert len(lines) == 1 and "is full" in lines[0] and str(mnt) in lines[0] and "MiB" in lines[0], res.output
