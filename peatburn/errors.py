@@ -61,3 +61,11 @@ class ExecutorError(PeatburnError, RuntimeError):
 
 class ProvenanceMismatch(PeatburnError, ValueError):
     """Inputs no longer match a provenance record."""
+
+
+class OutputLockedError(PeatburnError, BlockingIOError):
+    """Another run is writing into the same output folder."""
+
+
+class DiskFullError(PeatburnError, OSError):
+    """The file system of the output folder filled up during a run."""

@@ -19,7 +19,7 @@ from .config import RunConfig
 from .errors import OutputExistsError
 from .executors import BLOCK_GROUP, map_blocks
 from .factors import load_factor_set, load_gwp_set
-from .io.writers import BlockRasterWriter, BlockWrites, write_csv, write_json
+from .io.writers import BlockRasterWriter, BlockWrites, is_own_temporary, write_csv, write_json
 from .outputs import provenance, tables
 from .pipeline import (METHOD_CODES, SCAR_LAYER, Sums, build_plan, compute_block, coregister, fit_models, open_inputs,
                        process_block, read_block, window_group)
@@ -70,10 +70,9 @@ def prepare_out_dir(out_dir: Path, overwrite: bool) -> None:
         if not overwrite:
             raise OutputExistsError(f"output folder {out_dir} exists and is not empty; choose another --out "
                                     f"or pass --overwrite")
-        for stale in out_dir.glob(".*.part"):  # temporaries of a run that was killed
-            stale.unlink()
-        for stale in out_dir.glob(".*.tiled.tif"):
-            stale.unlink()
+        for stale in out_dir.iterdir():  # temporaries of a run that was killed: only files with our marker
+            if is_own_temporary(stale):
+                stale.unlink()
     out_dir.mkdir(parents=True, exist_ok=True)
 
 
@@ -117,7 +116,40 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
 
 
 def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, scheduler) -> RunResult:
+    from .io.lock import output_lock
+
     out_dir = Path(out_dir)
+    with output_lock(out_dir):  # one run at a time per output folder (issue 22)
+        try:
+            return _run_locked(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress,
+                               scheduler=scheduler)
+        except Exception as exc:
+            _raise_if_disk_full(out_dir, exc)
+            raise
+
+
+def _raise_if_disk_full(out_dir: Path, exc: BaseException) -> None:
+    """Turn an error of a full file system (GDAL's read of a cut temporary, ENOSPC) into one line."""
+    import errno
+
+    from .errors import DiskFullError
+    from .io.writers import FULL_DISK_BYTES, free_bytes
+
+    if isinstance(exc, DiskFullError) or not out_dir.exists():
+        return
+    free = free_bytes(out_dir)
+    if getattr(exc, "errno", None) != errno.ENOSPC and free >= FULL_DISK_BYTES:
+        return
+    import os
+
+    st = os.statvfs(out_dir)
+    raise DiskFullError(f"the disk holding {out_dir.absolute()} is full: the run needed more than the "
+                        f"{st.f_blocks * st.f_frsize / 2**20:.2f} MiB file system had ({free / 2**20:.2f} MiB free "
+                        f"after its temporaries were removed); free space or choose another --out (files under their "
+                        f"final names are complete)") from exc
+
+
+def _run_locked(cfg: RunConfig, out_dir: Path, *, overwrite: bool, workers: int, progress, scheduler) -> RunResult:
     prepare_out_dir(out_dir, overwrite)
     factors = load_factors(cfg)
 

@@ -186,6 +186,16 @@ def test_killed_writer_leaves_no_file(tmp_path):
         proc.wait(timeout=30)
     assert proc.returncode != 0
     assert not final.exists()
+    # issue 26 item 3: the killed run's temporary carries peatburn's marker, and --overwrite removes only
+    # such files: a user's hidden files with the same suffixes, and folders so named, are left alone
+    left = _leftovers(tmp_path)
+    assert left and all(".depth.tif.peatburn-tmp." in n for n in left), left
+    (tmp_path / ".thesis_draft.part").write_text("a user's draft\n")
+    (tmp_path / ".scan.tiled.tif").write_bytes(b"a user's raster")
+    (tmp_path / ".notes.peatburn-tmp.abcdefgh.part").mkdir()  # a folder named like a temporary
+    runner.prepare_out_dir(tmp_path, overwrite=True)
+    assert _leftovers(tmp_path) == [".notes.peatburn-tmp.abcdefgh.part", ".scan.tiled.tif", ".thesis_draft.part"]
+    assert (tmp_path / ".thesis_draft.part").read_text() == "a user's draft\n"
 
 
 def test_atomic_path_keeps_the_old_file_on_error(tmp_path):

@@ -13,6 +13,7 @@ import hashlib
 import json
 import math
 import os
+import re
 import tempfile
 from pathlib import Path
 
@@ -30,6 +31,21 @@ TEMPORARY_COMPRESSION = {"compress": "zstd", "zstd_level": 1}
 #: Threads of the COG conversion (compression of the final tiles). It runs after the block pass,
 #: when no worker competes for the cores: 1.7x faster on 2 cores than one thread (same page).
 COG_THREADS = "ALL_CPUS"
+#: Every temporary file peatburn creates beside an output carries this marker in its name
+#: (``.<output name>.peatburn-tmp.<8 random characters>...``); only such files are ever deleted
+#: as debris of a killed run, never a file by its suffix alone (issue 26).
+TEMP_MARKER = "peatburn-tmp"
+_TEMP_NAME = re.compile(r"^\..+\." + TEMP_MARKER + r"\.[A-Za-z0-9_]{8}.*(\.part|\.tiled\.tif)$")
+
+
+def is_own_temporary(path: Path | str) -> bool:
+    """True for a regular file (not a folder, not a link) named like one of peatburn's temporaries."""
+    p = Path(path)
+    return bool(_TEMP_NAME.match(p.name)) and p.is_file() and not p.is_symlink()
+
+
+def _temp_prefix(final: Path) -> str:
+    return f".{final.name}.{TEMP_MARKER}."
 
 
 def _file_mode() -> int:
@@ -48,7 +64,7 @@ def atomic_path(final: Path | str, suffix: str = ""):
     """
     final = Path(final)
     final.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{final.name}.", suffix=suffix + ".part", dir=final.parent)
+    fd, tmp = tempfile.mkstemp(prefix=_temp_prefix(final), suffix=suffix + ".part", dir=final.parent)
     os.close(fd)
     tmp = Path(tmp)
     try:
@@ -140,7 +156,7 @@ class BlockRasterWriter:
         self.final = Path(final)
         self.grid = grid
         self.final.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(prefix=f".{self.final.name}.", suffix=".tiled.tif", dir=self.final.parent)
+        fd, tmp = tempfile.mkstemp(prefix=_temp_prefix(self.final), suffix=".tiled.tif", dir=self.final.parent)
         os.close(fd)
         self._tiled = Path(tmp)
         bs = 256 if block_size % 256 else min(block_size, 512)
@@ -187,6 +203,7 @@ class BlockRasterWriter:
                                          BLOCKSIZE="512", BIGTIFF="IF_SAFER", OVERVIEWS="AUTO",
                                          NUM_THREADS=COG_THREADS,
                                          RESAMPLING="NEAREST" if np.dtype(self.dtype).kind != "f" else "AVERAGE")
+                    check_space(tmp.parent)  # GDAL only prints a failed write: never rename a cut file
         finally:
             with contextlib.suppress(FileNotFoundError):
                 self._tiled.unlink()
@@ -196,6 +213,24 @@ class BlockRasterWriter:
 
     def __exit__(self, exc_type, exc, tb):
         self.close(ok=exc_type is None)
+
+
+#: Below this many free bytes a file system counts as full: GDAL reports a failed write (ENOSPC) on
+#: stderr without raising, so a COG cut short would otherwise be renamed onto its final name.
+FULL_DISK_BYTES = 64 * 1024
+
+
+def free_bytes(folder) -> int:
+    st = os.statvfs(folder)
+    return st.f_bavail * st.f_frsize
+
+
+def check_space(folder) -> None:
+    """Raise ``OSError(ENOSPC)`` if the file system of ``folder`` is (all but) full."""
+    import errno
+
+    if free_bytes(folder) < FULL_DISK_BYTES:
+        raise OSError(errno.ENOSPC, "No space left on device", str(folder))
 
 
 def sha256_of(path, chunk: int = 1 << 20) -> str:
