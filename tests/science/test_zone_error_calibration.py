@@ -12,8 +12,11 @@ A calibrated model gives predicted / realised near 1 (the patch-size check of Ro
 Measured (seed below, 1.6 km scene, 2 m pixels, zones 20-200 m): white + Gaussian 20 m, with or
 without a residual shift on textured terrain: ratio 1.0-1.2 (slightly wide, not 19x). A long-range
 part (a 0.3 m tilt, or a 5 cm field correlated over 300 m) that one spherical range cannot hold:
-ratio 0.4-0.6 at 200 m zones (too narrow). The failing cases are marked xfail(strict=True): they
-turn into passes when a multi-range model lands (Hugonnet et al. 2022).
+ratio 0.4-0.6 at 200 m zones (too narrow); marked xfail(strict=True). The two-range fit
+(:func:`peatburn.science.variogram.fit_spherical_sum`, Hugonnet et al. 2022) gives 0.8-1.35 on all
+four. Over scene seeds 1-3 the two-range ratios spread over 0.67-1.54 (the 200 m zones are 64 per
+scene and share long-range error, so their realised RMS is itself uncertain); seed 1 is the one
+tested, not chosen for the result (the first one tried).
 """
 
 import math
@@ -67,6 +70,31 @@ def _ratios(kind):
     return out
 
 
+def _ratios_two_range(kind):
+    """As :func:`_ratios` with the two-range fit: the zone variance is the sum of the components'
+    Rolstad et al. (2009) variances plus the nugget over the zone's pixels (Hugonnet et al. 2022)."""
+    e, rng = _scene(kind)
+    yy, xx = np.mgrid[0:N, 0:N] * PIX
+    idx = rng.choice(N * N, 50_000, replace=False)
+    x, y, r = xx.ravel()[idx], yy.ravel()[idx], e.ravel()[idx]
+    lags, gam, cnt = vg.empirical_variogram(x, y, r, max_lag=N * PIX / 3)
+    nug, *parts = vg.fit_spherical_sum(lags, gam, cnt)
+
+    def sd(area):
+        var = nug["nugget"] / max(area / PIX**2, 1.0)
+        for p in parts:
+            var += float(unc.correlated_sum_sd(math.sqrt(p["partial_sill"]), p["range_m"], area)) ** 2
+        return math.sqrt(var)
+
+    bias = sd((N * PIX) ** 2)
+    out = {}
+    for z in (10, 25, 50, 100):
+        k = N // z
+        means = e[:k * z, :k * z].reshape(k, z, k, z).mean(axis=(1, 3))
+        out[z * PIX] = math.hypot(sd((z * PIX) ** 2), bias) / float(np.sqrt(np.mean(means**2)))
+    return out
+
+
 @pytest.mark.parametrize("kind", ["white_gauss", "shift_on_texture"])
 def test_zone_sd_calibrated_on_short_range_errors(kind):
     for size, ratio in _ratios(kind).items():
@@ -77,4 +105,11 @@ def test_zone_sd_calibrated_on_short_range_errors(kind):
 @pytest.mark.parametrize("kind", ["tilt", "long_range"])
 def test_zone_sd_calibrated_on_long_range_errors(kind):
     for size, ratio in _ratios(kind).items():
+        assert 0.67 <= ratio <= 1.5, f"{kind}, {size:.0f} m zones: predicted/realised = {ratio:.2f}"
+
+
+@pytest.mark.parametrize("kind", ["white_gauss", "shift_on_texture", "tilt", "long_range"])
+def test_two_range_zone_sd_calibrated(kind):
+    """The two-range sum holds short- and long-range error alike (Hugonnet et al. 2022)."""
+    for size, ratio in _ratios_two_range(kind).items():
         assert 0.67 <= ratio <= 1.5, f"{kind}, {size:.0f} m zones: predicted/realised = {ratio:.2f}"
