@@ -105,3 +105,17 @@ def test_two_range_zone_sd_calibrated(kind):
     """The two-range sum holds short- and long-range error alike (Hugonnet et al. 2022)."""
     for size, ratio in _ratios(kind, two_ranges=True).items():
         assert 0.67 <= ratio <= 1.5, f"{kind}, {size:.0f} m zones: predicted/realised = {ratio:.2f}"
+
+
+@pytest.mark.parametrize("kind", ["white_gauss", "tilt"])
+def test_patch_check_measures_the_realised_zone_error(kind):
+    """The user's calibration check (random stable-ground patches of a zone's size) finds the RMS of
+    the tiled zone means built here, so its ratio to a predicted sd is the calibration ratio."""
+    from peatburn.science import patches
+
+    e, _ = _scene(kind)
+    for z in (25, 100):
+        k = N // z
+        realised = float(np.sqrt(np.mean(e[:k * z, :k * z].reshape(k, z, k, z).mean(axis=(1, 3)) ** 2)))
+        m = patches.patch_means(e, np.ones(e.shape, bool), z, n_patches=400, seed=2)
+        assert patches.calibration_ratio(m, realised) == pytest.approx(1.0, abs=0.2), f"{kind}, {z} px"
