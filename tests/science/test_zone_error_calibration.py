@@ -1,0 +1,121 @@
+"""Issue 16, item 1 (reproduction): does the survey-error model predict the spread of zone-mean
+errors on synthetic survey differences with a known truth?
+
+The truth is built here: a difference field (several error structures, not only the model's own
+spherical one), co-registered by its median, cut into square zones; the realised RMS of the zone
+means is computed with numpy. The prediction is the run's chain: NMAD sigma, the spherical
+variogram fitted on a stable-ground sample (:mod:`peatburn.science.variogram`), the Rolstad et al.
+(2009) zone average (:func:`correlated_sum_sd`) and the residual bias (:func:`residual_bias_sd`).
+A calibrated model gives predicted / realised near 1 (the patch-size check of Rolstad et al. 2009
+§4 and Hugonnet et al. 2022, recalled, unchecked).
+
+Measured (seed below, 1.6 km scene, 2 m pixels, zones 20-200 m): white + Gaussian 20 m, with or
+without a residual shift on textured terrain: ratio 1.0-1.2 (slightly wide, not 19x). A long-range
+part (a 0.3 m tilt, or a 5 cm field correlated over 300 m) that one spherical range cannot hold:
+ratio 0.4-0.6 at 200 m zones (too narrow); marked xfail(strict=True). The two-range fit
+(:func:`peatburn.science.variogram.fit_spherical_sum`, Hugonnet et al. 2022) gives 0.8-1.35 on all
+four. Over scene seeds 1-3 the two-range ratios spread over 0.67-1.54 (the 200 m zones are 64 per
+scene and share long-range error, so their realised RMS is itself uncertain); seed 1 is the one
+tested, not chosen for the result (the first one tried).
+"""
+
+import math
+
+import numpy as np
+import pytest
+import scipy.ndimage as ndi
+
+from peatburn.science import uncertainty as unc
+from peatburn.science import variogram as vg
+
+N, PIX = 800, 2.0  # 1.6 km square, 2 m pixels
+
+
+def _gauss_field(rng, sd, length_m):
+    f = ndi.gaussian_filter(rng.standard_normal((N, N)), length_m / PIX / math.sqrt(2), mode="wrap")
+    return f / f.std() * sd
+
+
+def _scene(kind):
+    rng = np.random.default_rng(1)
+    err = rng.standard_normal((N, N)) * 0.10 + _gauss_field(rng, 0.10, 20.0)
+    if kind == "shift_on_texture":
+        terrain = _gauss_field(rng, 1.0, 6.0) + _gauss_field(rng, 3.0, 100.0)
+        gy, gx = np.gradient(terrain, PIX)
+        err = err + 0.3 * gx + 0.2 * gy  # dz = residual shift . terrain gradient (Nuth & Kääb 2011)
+    elif kind == "tilt":
+        err = err + (np.arange(N)[None, :] / N - 0.5) * 0.3
+    elif kind == "long_range":
+        err = err + _gauss_field(rng, 0.05, 300.0)
+    return err - np.median(err), rng
+
+
+def _ratios(kind, two_ranges=False):
+    """Predicted / realised sd of square zone means, per zone side [m]. With ``two_ranges`` the
+    zone variance is the sum of the two spherical components' Rolstad et al. (2009) variances plus
+    the nugget over the zone's pixels (Hugonnet et al. 2022); the residual bias is the same sum
+    over the whole (stable) scene, like a mean."""
+    e, rng = _scene(kind)
+    yy, xx = np.mgrid[0:N, 0:N] * PIX
+    idx = rng.choice(N * N, 50_000, replace=False)  # the run keeps 50,000 stable-ground residuals
+    x, y, r = xx.ravel()[idx], yy.ravel()[idx], e.ravel()[idx]
+    lags, gam, cnt = vg.empirical_variogram(x, y, r, max_lag=N * PIX / 3)
+    if two_ranges:
+        nug, *parts = vg.fit_spherical_sum(lags, gam, cnt)
+
+        def sd(area):
+            var = nug["nugget"] / max(area / PIX**2, 1.0)
+            for p in parts:
+                var += float(unc.correlated_sum_sd(math.sqrt(p["partial_sill"]), p["range_m"], area)) ** 2
+            return math.sqrt(var)
+
+        bias = sd((N * PIX) ** 2)
+    else:
+        sigma = 1.482602 * float(np.median(np.abs(r - np.median(r))))
+        fit = vg.fit_spherical(lags, gam, cnt)
+        nu = fit["nugget"] / fit["sill"]
+
+        def sd(area):
+            return float(unc.correlated_sum_sd(sigma, fit["range_m"], area, nu, pixel_area_m2=PIX**2))
+
+        bias = unc.residual_bias_sd(sigma, fit["range_m"], (N * PIX) ** 2, nugget_fraction=nu, pixel_area_m2=PIX**2)
+    out = {}
+    for z in (10, 25, 50, 100):
+        k = N // z
+        means = e[:k * z, :k * z].reshape(k, z, k, z).mean(axis=(1, 3))
+        out[z * PIX] = math.hypot(sd((z * PIX) ** 2), bias) / float(np.sqrt(np.mean(means**2)))
+    return out
+
+
+@pytest.mark.parametrize("kind", ["white_gauss", "shift_on_texture"])
+def test_zone_sd_calibrated_on_short_range_errors(kind):
+    for size, ratio in _ratios(kind).items():
+        assert 0.67 <= ratio <= 1.5, f"{kind}, {size:.0f} m zones: predicted/realised = {ratio:.2f}"
+
+
+@pytest.mark.xfail(strict=True, reason="one spherical range misses long-range error (issue 16: multi-range model)")
+@pytest.mark.parametrize("kind", ["tilt", "long_range"])
+def test_zone_sd_calibrated_on_long_range_errors(kind):
+    for size, ratio in _ratios(kind).items():
+        assert 0.67 <= ratio <= 1.5, f"{kind}, {size:.0f} m zones: predicted/realised = {ratio:.2f}"
+
+
+@pytest.mark.parametrize("kind", ["white_gauss", "shift_on_texture", "tilt", "long_range"])
+def test_two_range_zone_sd_calibrated(kind):
+    """The two-range sum holds short- and long-range error alike (Hugonnet et al. 2022)."""
+    for size, ratio in _ratios(kind, two_ranges=True).items():
+        assert 0.67 <= ratio <= 1.5, f"{kind}, {size:.0f} m zones: predicted/realised = {ratio:.2f}"
+
+
+@pytest.mark.parametrize("kind", ["white_gauss", "tilt"])
+def test_patch_check_measures_the_realised_zone_error(kind):
+    """The user's calibration check (random stable-ground patches of a zone's size) finds the RMS of
+    the tiled zone means built here, so its ratio to a predicted sd is the calibration ratio."""
+    from peatburn.science import patches
+
+    e, _ = _scene(kind)
+    for z in (25, 100):
+        k = N // z
+        realised = float(np.sqrt(np.mean(e[:k * z, :k * z].reshape(k, z, k, z).mean(axis=(1, 3)) ** 2)))
+        m = patches.patch_means(e, np.ones(e.shape, bool), z, n_patches=400, seed=2)
+        assert patches.calibration_ratio(m, realised) == pytest.approx(1.0, abs=0.2), f"{kind}, {z} px"
