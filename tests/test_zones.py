@@ -9,7 +9,7 @@ from rasterio.features import rasterize
 from rasterio.transform import from_origin
 
 from peatburn.grid import RunGrid
-from peatburn.zones import ZoneLayerIndex, accumulate, overlap_passes
+from peatburn.engine.zones import ZoneLayerIndex, accumulate, overlap_passes
 
 GRID = RunGrid(CRS.from_epsg(32749), from_origin(0, 100, 1, 1), 100, 100)
 

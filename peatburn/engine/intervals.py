@@ -14,11 +14,11 @@ import os
 
 import numpy as np
 
-from .factors import list_factor_sets
-from .outputs.tables import OUTSIDE, TOTAL_LAYER
+from ..factors import list_factor_sets
+from ..outputs.tables import OUTSIDE, TOTAL_LAYER
 from .pipeline import SCAR_LAYER
-from .science import uncertainty as unc
-from .science import variogram
+from ..science import uncertainty as unc
+from ..science import variogram
 
 #: pipeline sum -> uncertainty-model sum
 SUM_MAP = {

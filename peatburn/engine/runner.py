@@ -12,13 +12,13 @@ import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from . import __version__
-from .config import RunConfig
-from .errors import OutputExistsError
+from .. import __version__
+from ..config import RunConfig
+from ..errors import OutputExistsError
 from .executors import BLOCK_GROUP, map_blocks
-from .factors import load_factor_set, load_gwp_set
-from .io.writers import BlockRasterWriter, BlockWrites, write_csv, write_json
-from .outputs import provenance, tables
+from ..factors import load_factor_set, load_gwp_set
+from ..io.writers import BlockRasterWriter, BlockWrites, write_csv, write_json
+from ..outputs import provenance, tables
 from .pipeline import (METHOD_CODES, SCAR_LAYER, Sums, build_plan, compute_block, coregister, fit_models, open_inputs,
                        process_block, read_block, window_group)
 
@@ -76,7 +76,7 @@ def prepare_out_dir(out_dir: Path, overwrite: bool) -> None:
 
 
 def load_factors(cfg: RunConfig) -> Factors:
-    from .science import flaming
+    from ..science import flaming
 
     fl = cfg.flaming
     return Factors(
@@ -97,8 +97,8 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
     """Run ``cfg`` and write zones.csv, totals.json, inventory.csv/json, daily.csv, burn_depth.tif,
     carbon_smouldering.tif, depth_method.tif, provenance.json and report.html into ``out_dir``.
 
-    GDAL's block cache is bounded for the whole run (:func:`peatburn.executors.gdal_env`, sized
-    by :func:`peatburn.executors.run_cache_bytes`): peak memory depends on the block size and the
+    GDAL's block cache is bounded for the whole run (:func:`peatburn.engine.executors.gdal_env`, sized
+    by :func:`peatburn.engine.executors.run_cache_bytes`): peak memory depends on the block size and the
     grid's width (up to a bound), not on the raster's area (docs/performance.md).
     ``scheduler`` (an address) is connected to before any input is read, so a wrong address fails
     at once; a :class:`distributed.Client` may be passed instead and is left open.
@@ -239,7 +239,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
                      f"({checks['effective_carbon_fraction']:.3f}); its gases overstate the carbon burned")
     flame_checks = None
     if flame is not None:
-        from .science import gases
+        from ..science import gases
 
         ef = factors.flaming.ef
         closure = float(gases.carbon_closure(ef, factors.vegetation_carbon_fraction))
@@ -256,11 +256,11 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     converting.result()  # the rasters are complete from here on (field plots sample them)
     plots = None
     if inputs.plots is not None:
-        from .plots import validate_plots
+        from ..plots import validate_plots
 
         plots = validate_plots(inputs, plan, out_dir)
 
-    from .outputs import timeline
+    from ..outputs import timeline
 
     scar_acc = next(acc for name, _, acc in sums.layers if name == SCAR_LAYER)
     n_scars = len(inputs.scars.frame)
@@ -312,7 +312,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
                                                       "depth_method.tif", "report.html"])})
     files["provenance"] = write_json(out_dir / "provenance.json", prov)
     result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv)
-    from .outputs import report
+    from ..outputs import report
 
     zone_layers = [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones]  # not read a second time
     files["report"] = report.write_report(out_dir / "report.html", result, cfg, prov, factors, zone_layers)
@@ -348,7 +348,7 @@ def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
 
 def factor_checks(factor_set, total: dict) -> dict:
     """MCE of the set and its carbon closure at the run's effective carbon fraction (carbon / dry mass)."""
-    from .science import gases
+    from ..science import gases
 
     ef = factor_set.ef
     mce = float(gases.modified_combustion_efficiency(ef["co2"], ef["co"])) if "co" in ef else None
