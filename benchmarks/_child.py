@@ -80,8 +80,8 @@ def _timed_generator(owner, name, phase):
 
 
 def _env_for(gdal_env):
-    """``gdal_env``: False (GDAL defaults), True (peatburn.executors.gdal_env()) or a cache size [MiB]."""
-    from peatburn.executors import gdal_env as _env
+    """``gdal_env``: False (GDAL defaults), True (peatburn.engine.executors.gdal_env()) or a cache size [MiB]."""
+    from peatburn.engine.executors import gdal_env as _env
 
     if gdal_env is False or gdal_env is None:
         return contextlib.nullcontext()
@@ -95,7 +95,7 @@ def task_run(config, out, workers=1, gdal_env=False, scheduler=None, block_cache
     import peatburn.io.writers as writers
     import peatburn.outputs.provenance as provenance
     import peatburn.outputs.report as report
-    import peatburn.runner as runner
+    import peatburn.engine.runner as runner
     _timed(runner, "open_inputs", "open inputs")
     _timed(runner, "coregister", "co-registration")
     _timed(runner, "build_plan", "plan")
@@ -106,7 +106,7 @@ def task_run(config, out, workers=1, gdal_env=False, scheduler=None, block_cache
     _timed(writers.BlockRasterWriter, "close", "COG conversion")
     _timed(provenance, "build", "provenance (hashes)")
     _timed(report, "write_report", "report")
-    import peatburn.intervals as intervals
+    import peatburn.engine.intervals as intervals
 
     _timed(intervals, "add_intervals", "intervals (analytic, and draws when asked)")
     if block_cache_mib:
@@ -122,7 +122,7 @@ def task_run(config, out, workers=1, gdal_env=False, scheduler=None, block_cache
 
         runner.coregister = coregister_then_shrink
     if cli_malloc:
-        from peatburn.executors import tune_malloc
+        from peatburn.engine.executors import tune_malloc
 
         tune_malloc()  # as `peatburn run` does (peatburn/cli/run.py)
     cfg = peatburn.load_config(config)
@@ -170,8 +170,8 @@ def task_blocks(config, workers=1, cold=True, early=True):
     """``early``: start the worker processes before the co-registration, as a run does (their
     start-up then is not in the time); else they start inside the timed block pass."""
     import peatburn
-    from peatburn.executors import BLOCK_GROUP, WorkerPool, map_blocks
-    from peatburn.pipeline import Sums, build_plan, coregister, open_inputs, process_block, window_group
+    from peatburn.engine.executors import BLOCK_GROUP, WorkerPool, map_blocks
+    from peatburn.engine.pipeline import Sums, build_plan, coregister, open_inputs, process_block, window_group
 
     cfg = peatburn.load_config(config)
     inputs = open_inputs(cfg)
@@ -222,9 +222,9 @@ def task_main_writes(config, out, repeat=3):
     import pickle
 
     import peatburn
-    from peatburn.executors import BLOCK_GROUP, gdal_env, map_blocks, run_cache_bytes
+    from peatburn.engine.executors import BLOCK_GROUP, gdal_env, map_blocks, run_cache_bytes
     from peatburn.io.writers import BlockRasterWriter, BlockWrites
-    from peatburn.pipeline import (Sums, build_plan, compute_block, coregister, open_inputs, process_block,
+    from peatburn.engine.pipeline import (Sums, build_plan, compute_block, coregister, open_inputs, process_block,
                                    read_block, window_group)
 
     cfg = peatburn.load_config(config)

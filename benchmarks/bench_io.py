@@ -30,7 +30,7 @@ def main(argv=None) -> dict:
     print(f"[1] survey-only run vs I/O floor, {a.scene}")
     cfg = c.scene(a.scene)
     c.warm(cfg)
-    # the floor runs under the GDAL settings a run uses (peatburn.runner.run wraps itself in gdal_env)
+    # the floor runs under the GDAL settings a run uses (peatburn.engine.runner.run wraps itself in gdal_env)
     floor, run, pairs = c.best_of_pairs(a.repeat, ("floor", dict(config=str(cfg), out=c.out_dir("floor"), gdal_env=True)),
                                         ("run", dict(config=str(cfg), out=c.out_dir("run"))))
     truth = c.truth_carbon_t(a.scene)

@@ -15,8 +15,8 @@ from .errors import PeatburnError  # noqa: E402
 
 
 def run(cfg, out_dir, **kwargs):
-    """Run a configuration (a :class:`RunConfig` or a path to a TOML file); see :func:`peatburn.runner.run`."""
-    from .runner import run as _run
+    """Run a configuration (a :class:`RunConfig` or a path to a TOML file); see :func:`peatburn.engine.runner.run`."""
+    from .engine.runner import run as _run
 
     if not isinstance(cfg, RunConfig):
         cfg = load_config(cfg)

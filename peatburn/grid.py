@@ -93,7 +93,7 @@ class RunGrid:
         ``group`` 1 gives row-major order. ``group`` g > 1 orders the blocks in squares of g x g
         blocks (the squares row-major, the blocks of a square row-major; squares at the right and
         bottom edges are cut): g*g consecutive windows then cover a compact square, so a worker given
-        them decodes each input tile they share once (see :data:`peatburn.executors.BLOCK_GROUP`).
+        them decodes each input tile they share once (see :data:`peatburn.engine.executors.BLOCK_GROUP`).
         """
         group = max(1, int(group))
         rows = range(0, self.height, block_size)

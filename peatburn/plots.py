@@ -13,7 +13,7 @@ import math
 import numpy as np
 import rasterio
 
-from .pipeline import METHOD_CODES, sample_points
+from .engine.pipeline import METHOD_CODES, sample_points
 
 
 def _sample(path, x, y):

@@ -23,7 +23,7 @@ def calibrate_cmd(config, out_json, plot_png, overwrite):
     field plots when there is no survey), fits depth = a + b x water-table depth robustly, and
     writes the fit as JSON that `peatburn run` can reuse, with a scatter plot.
     """
-    from ..calibration import calibrate, write_fit, write_scatter
+    from ..engine.calibrate import calibrate, write_fit, write_scatter
     from ..config import load_config
 
     out = Path(out_json)

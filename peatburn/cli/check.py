@@ -17,7 +17,7 @@ def check_cmd(config, against):
     from ..config import load_config
     from ..factors import load_factor_set, load_gwp_set
     from ..outputs.provenance import check_against
-    from ..pipeline import open_inputs
+    from ..engine.pipeline import open_inputs
 
     cfg = load_config(config)
     sm = load_factor_set(cfg.factors.smouldering, "smouldering")

@@ -25,7 +25,7 @@ def demo_cmd(out_dir, inputs_dir, overwrite, workers, pdf, quiet):
     """
     from ..config import load_config
     from ..demo import make_demo_region
-    from ..runner import prepare_out_dir, run
+    from ..engine.runner import prepare_out_dir, run
     from .summary import print_summary
 
     if pdf:
@@ -35,8 +35,8 @@ def demo_cmd(out_dir, inputs_dir, overwrite, workers, pdf, quiet):
     out = Path(out_dir)
     prepare_out_dir(out, overwrite)
     region = make_demo_region(Path(inputs_dir) if inputs_dir else out / "inputs")
-    from ..executors import tune_malloc
-    from ..progress import progress_bar
+    from ..engine.executors import tune_malloc
+    from ..engine.progress import progress_bar
 
     tune_malloc()  # block-sized numpy temporaries reuse the heap (docs/performance.md)
     result = run(load_config(region.config_path), out / "results", overwrite=True, workers=workers,

@@ -24,9 +24,9 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
     refused unless --overwrite is given.
     """
     from ..config import load_config
-    from ..executors import tune_malloc
-    from ..progress import progress_bar
-    from ..runner import run
+    from ..engine.executors import tune_malloc
+    from ..engine.progress import progress_bar
+    from ..engine.runner import run
     from .summary import print_summary
 
     if pdf:

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import click
 
-from ..runner import CAUTIONS
+from ..engine.runner import CAUTIONS
 
 
 def _n(v) -> str:

@@ -112,7 +112,7 @@ def _rows(layer: str, zones: list[str], q: dict) -> list[dict]:
 
 def zone_rows(result_sums, factors, flame_sums=None) -> list[dict]:
     """One row per zone of each layer, one "outside" row per layer, then the run total."""
-    from ..pipeline import SCAR_LAYER
+    from ..engine.pipeline import SCAR_LAYER
 
     rows = []
     for li, (name, ids, acc) in enumerate(result_sums.layers):

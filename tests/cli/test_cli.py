@@ -106,12 +106,12 @@ def test_calibrate_writes_fit_and_plot_that_run_reuses(runner, tmp_path):
 
 
 def test_unforeseen_error_is_one_line(runner, scene, tmp_path, monkeypatch):
-    import peatburn.runner
+    import peatburn.engine.runner
 
     def boom(*a, **k):
         raise RuntimeError("disk on fire\nsecond line")
 
-    monkeypatch.setattr(peatburn.runner, "run", boom)
+    monkeypatch.setattr(peatburn.engine.runner, "run", boom)
     res = runner.invoke(cli, ["run", str(scene.config), "--out", str(tmp_path / "o")])
     assert res.exit_code == 1
     assert "unexpected error: RuntimeError: disk on fire" in res.output and "second line" not in res.output

@@ -29,7 +29,7 @@ from peatburn.config import load_config
 from peatburn.demo import make_demo_region
 from peatburn.outputs import report
 from peatburn.outputs.tables import INTERVAL_COLUMNS
-from peatburn.runner import load_factors
+from peatburn.engine.runner import load_factors
 
 SECTIONS = ["headline", "cautions", "maps", "zones", "timeline", "methods", "qa", "field-plots", "uncertainty",
             "inventory", "sources", "notes", "provenance"]

@@ -1,4 +1,4 @@
-"""Executors run a per-block function (:func:`peatburn.pipeline.process_block`) over block windows.
+"""Executors run a per-block function (:func:`peatburn.engine.pipeline.process_block`) over block windows.
 
 Three ways, one contract (:func:`map_blocks`): results come back **in window order**, so the caller
 adds sums in the same order whatever the executor and the totals equal the serial run's.
@@ -24,7 +24,7 @@ workers on N cores do not oversubscribe the machine or multiply GDAL's default c
 RAM per process), and glibc's malloc keeps block-sized arrays in its heap (:func:`tune_malloc`).
 :func:`gdal_env` gives the matching GDAL settings for the main process.
 
-Open datasets are kept per thread (:func:`peatburn.pipeline._state`), so dask workers may run
+Open datasets are kept per thread (:func:`peatburn.engine.pipeline._state`), so dask workers may run
 several threads; one single-threaded worker process per core runs fastest (see :func:`_dask_task`):
 ``dask worker ADDRESS --nworkers N --nthreads 1``.
 """
@@ -43,7 +43,7 @@ import threading
 from concurrent.futures import ProcessPoolExecutor
 from typing import Callable, Iterable, Iterator
 
-from .errors import ExecutorError
+from ..errors import ExecutorError
 
 #: GDAL block cache of one worker process [bytes]. A block touches at most 4 input tiles of each of
 #: up to 6 input rasters (24 MiB with 512 x 512 float32 tiles); 128 MiB leaves room for a row of tiles.
@@ -197,7 +197,7 @@ def _mp_context():
     methods = multiprocessing.get_all_start_methods()
     if "forkserver" in methods and sys.platform != "darwin":
         ctx = multiprocessing.get_context("forkserver")
-        ctx.set_forkserver_preload(["peatburn.pipeline"])
+        ctx.set_forkserver_preload(["peatburn.engine.pipeline"])
         return ctx
     return multiprocessing.get_context("spawn")
 

@@ -23,12 +23,12 @@ import numpy as np
 import shapely
 
 from .pipeline import SCAR_LAYER
-from .science import flaming
+from ..science import flaming
 
 
 @dataclass
 class FlamingSums:
-    """Per zone-layer arrays (same bins as :class:`peatburn.pipeline.Sums`) and the run total."""
+    """Per zone-layer arrays (same bins as :class:`peatburn.engine.pipeline.Sums`) and the run total."""
 
     route: str
     total: dict
@@ -64,7 +64,7 @@ def flaming_sums(cfg, inputs, sums) -> FlamingSums | None:
         return FlamingSums("burned area x biomass x combustion factor (IPCC 2006 Eq. 2.27)", total, layers,
                            parameters={"combustion_factor": cf})
 
-    from .io.detections import read_detections
+    from ..io.detections import read_detections
 
     det = read_detections(fl.detections, inputs.grid.crs, crs=fl.crs, columns=fl.columns or None,
                           bounds=inputs.grid.bounds)

@@ -9,7 +9,7 @@ from rasterio.features import rasterize
 from rasterio.transform import from_origin
 
 from peatburn.grid import RunGrid
-from peatburn.zones import ZoneLayerIndex, accumulate, overlap_passes
+from peatburn.engine.zones import ZoneLayerIndex, accumulate, overlap_passes
 
 GRID = RunGrid(CRS.from_epsg(32749), from_origin(0, 100, 1, 1), 100, 100)
 
@@ -77,7 +77,7 @@ def test_nan_values_contribute_nothing():
 
 def test_coverage_count_of_overlapping_polygons():
     """Two squares overlapping on one column of pixels (hand-drawn 1 x 3 grid): cover counts 1, 2, 1."""
-    from peatburn.zones import coverage_count
+    from peatburn.engine.zones import coverage_count
 
     passes = [np.array([1, 1, 0]), np.array([0, 2, 2])]
     outside = np.array([0, 0, 0])

@@ -124,7 +124,7 @@ def test_coregistration_on_sample_windows(scene, monkeypatch, min_stable):
     blocks (or, when those hold too little stable ground, on a decimated view of the whole grid)
     and still recovers the synthetic georeferencing error and datum offset (tests/conftest.py
     truth; tolerances as in test_recovers_shift_offset_and_total)."""
-    from peatburn import pipeline
+    from peatburn.engine import pipeline
 
     monkeypatch.setattr(pipeline, "SAMPLE_PIXELS", 64 * 64 * 6)
     monkeypatch.setattr(pipeline, "MIN_WINDOW_STABLE", min_stable)

@@ -19,10 +19,10 @@ from rasterio.features import rasterize
 from rasterio.windows import Window
 
 import peatburn
-import peatburn.runner as runner
+import peatburn.engine.runner as runner
 from peatburn.io import writers
 from peatburn.io.writers import BlockRasterWriter
-from peatburn.pipeline import Sums
+from peatburn.engine.pipeline import Sums
 
 
 @pytest.fixture(scope="module")
@@ -225,7 +225,7 @@ def test_window_group_follows_the_inputs_tiling(tmp_path, layout, pixel, epsg, e
 
     from peatburn.grid import RunGrid
     from peatburn.io.rasters import inspect_raster
-    from peatburn.pipeline import window_group
+    from peatburn.engine.pipeline import window_group
 
     n = int(200 / pixel)
     path = tmp_path / "in.tif"

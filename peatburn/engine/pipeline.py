@@ -18,12 +18,12 @@ import shapely
 from affine import Affine
 from rasterio.windows import Window
 
-from .config import RasterRef, RunConfig
-from .errors import GridError
-from .grid import RunGrid
-from .io.rasters import GridReader, RasterSource, check_overlap, grid_from_raster, inspect_raster, read_on_grid
-from .io.vectors import WindowRasterizer, read_polygons, zone_ids
-from .science import coregistration, peat, survey
+from ..config import RasterRef, RunConfig
+from ..errors import GridError
+from ..grid import RunGrid
+from ..io.rasters import GridReader, RasterSource, check_overlap, grid_from_raster, inspect_raster, read_on_grid
+from ..io.vectors import WindowRasterizer, read_polygons, zone_ids
+from ..science import coregistration, peat, survey
 from .zones import ZoneLayerIndex, accumulate_stacked, coverage_count
 
 #: Pixel budget of the co-registration sample (evenly spread full-resolution windows). 2 Mpx
@@ -78,7 +78,7 @@ def open_inputs(cfg: RunConfig) -> Inputs:
     if len(scars.frame) == 0:
         raise GridError(f"burned_area.path: {cfg.burned_area} holds no polygon; nothing burned to estimate")
     if cfg.fire_count_field and cfg.fire_count_field not in scars.frame.columns:
-        from .errors import ZoneError
+        from ..errors import ZoneError
 
         fields = [c for c in scars.frame.columns if c != scars.frame.geometry.name]
         raise ZoneError(f"burned_area.fire_count_field: {cfg.burned_area} has no field {cfg.fire_count_field!r}; "
@@ -100,7 +100,7 @@ def open_inputs(cfg: RunConfig) -> Inputs:
     stations = plots = None
     wt = cfg.water_table
     if wt is not None and wt.stations is not None:
-        from .io.points import read_points
+        from ..io.points import read_points
 
         stations = read_points(wt.stations, grid.crs, value_column=wt.value_column, crs=wt.crs,
                                date_column=wt.date_column, bounds=grid.bounds, drop_outside=False,
@@ -109,12 +109,12 @@ def open_inputs(cfg: RunConfig) -> Inputs:
             notes.append(f"water-table stations: {stations.n_outside} station(s) outside the run grid "
                          f"(kept for interpolation near the edge)")
         _note_rejected(notes, "water-table stations", stations)
-        from .science.water_table import check_water_table
+        from ..science.water_table import check_water_table
 
         notes += [f"water table: {w}" for w in check_water_table(stations.frame["value"].to_numpy(),
                                                                   "depth.water_table.depth")]
     if cfg.plots is not None:
-        from .io.points import read_points
+        from ..io.points import read_points
 
         plots = read_points(cfg.plots.path, grid.crs, value_column=cfg.plots.value_column, crs=cfg.plots.crs,
                             date_column=cfg.plots.date_column, bounds=grid.bounds, what="depth.plots.path")
@@ -179,7 +179,7 @@ def _run_grid(cfg: RunConfig, rasters: dict, notes: list) -> RunGrid:
         maxx, maxy = math.ceil(maxx / r) * r, math.ceil(maxy / r) * r
         from affine import Affine as _A
 
-        from .grid import normalise_crs
+        from ..grid import normalise_crs
 
         return RunGrid(normalise_crs(cfg.crs, "run.crs"), _A(r, 0, minx, 0, -r, maxy),
                        max(1, int(round((maxx - minx) / r))), max(1, int(round((maxy - miny) / r))))
@@ -538,7 +538,7 @@ class RunPlan:
 def tier1_default_fuel() -> float:
     """IPCC 2013 Wetlands Supplement default fuel consumption for wildfire on tropical organic soil
     [t d.m./ha] (see :mod:`peatburn.science.tier1`)."""
-    from .science import tier1
+    from ..science import tier1
 
     return float(tier1.DEFAULT_FUEL_CONSUMPTION_T_HA)
 
@@ -609,7 +609,7 @@ def fill_values(inputs: Inputs) -> dict:
     than :data:`MIN_FILL_SAMPLES` valid values, :data:`DEFAULT_FILL_CV` (assumption). Constants
     have no holes.
     """
-    from .errors import ConfigError
+    from ..errors import ConfigError
 
     cfg, grid = inputs.config, inputs.grid
     out = {"rho_fill": float("nan"), "cf_fill": float("nan"), "fill_cv": 0.0}
@@ -802,7 +802,7 @@ def _idw_at(plan: RunPlan, window: Window, where: np.ndarray) -> np.ndarray:
     n = int(np.count_nonzero(where))
     if plan.stations is None or n == 0:
         return np.full(n, np.nan)
-    from .science.water_table import idw
+    from ..science.water_table import idw
 
     shape = where.shape
     x, y = plan.grid.pixel_centres(window)
@@ -885,7 +885,7 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     """The method on the burned pixels of one window read by :func:`read_block` (arithmetic only).
 
     Everything is computed on 1-D vectors of the burned pixels; the summed quantities are rows of
-    one matrix reduced per zone pass by ``bincount`` (:func:`peatburn.zones.accumulate_stacked`).
+    one matrix reduced per zone pass by ``bincount`` (:func:`peatburn.engine.zones.accumulate_stacked`).
     """
     window, burned = data.window, data.burned
     shape = (int(window.height), int(window.width))
@@ -1080,7 +1080,7 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
 
 def _model_depth(plan: RunPlan, wt: np.ndarray, thick, fire_count) -> np.ndarray:
     """Modelled depth from the water table (1-D, with ``thick`` and ``fire_count`` at the same pixels)."""
-    from .science.water_table import predict_depth
+    from ..science.water_table import predict_depth
 
     m = plan.models
     if fire_count is not None:
@@ -1141,7 +1141,7 @@ def plot_samples(inputs: Inputs, plan: RunPlan):
     obs = f["value"].to_numpy(dtype=float)
     wt = sample_points(plan, "water_table", x, y) if plan.water_table is not None else None
     if wt is None and plan.stations is not None:
-        from .science.water_table import idw
+        from ..science.water_table import idw
 
         power, k, dmax = plan.idw
         sx, sy, sv = plan.stations
@@ -1173,7 +1173,7 @@ def sample_points(plan: RunPlan, name: str, x, y) -> np.ndarray | None:
 def fit_models(inputs: Inputs, plan: RunPlan, notes: list) -> DepthModels:
     """The water-table depth models of a run: fitted on surveyed scars (separately for first and repeat
     fires when both have enough samples), else on field plots, else user or default coefficients."""
-    from .science import water_table as wtm
+    from ..science import water_table as wtm
 
     cfg = inputs.config.water_table
     if cfg.model == "user":
@@ -1219,8 +1219,8 @@ def load_models(path) -> DepthModels:
     """Depth models from a JSON written by ``peatburn calibrate``."""
     import json
 
-    from .errors import ConfigError
-    from .science import water_table as wtm
+    from ..errors import ConfigError
+    from ..science import water_table as wtm
 
     try:
         data = json.loads(Path(path).read_text(encoding="utf-8"))

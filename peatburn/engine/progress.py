@@ -1,6 +1,6 @@
 """A tiny progress bar over blocks for long runs (no dependency).
 
-:func:`progress_bar` returns a callable ``progress(done, total)`` for :func:`peatburn.runner.run`.
+:func:`progress_bar` returns a callable ``progress(done, total)`` for :func:`peatburn.engine.runner.run`.
 It draws on stderr with a carriage return, only when stderr is a terminal and not ``quiet``, and
 only once the run has lasted ``delay`` seconds (short runs print nothing). Otherwise it does nothing.
 """

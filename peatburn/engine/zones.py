@@ -14,8 +14,8 @@ from dataclasses import dataclass
 import numpy as np
 import shapely
 
-from .grid import RunGrid
-from .io.vectors import WindowRasterizer
+from ..grid import RunGrid
+from ..io.vectors import WindowRasterizer
 
 
 def overlap_passes(geometries) -> list[np.ndarray]:

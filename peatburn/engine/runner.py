@@ -14,13 +14,13 @@ import numpy as np
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from . import __version__
-from .config import RunConfig
-from .errors import OutputExistsError
+from .. import __version__
+from ..config import RunConfig
+from ..errors import OutputExistsError
 from .executors import BLOCK_GROUP, map_blocks
-from .factors import load_factor_set, load_gwp_set
-from .io.writers import BlockRasterWriter, BlockWrites, is_own_temporary, write_csv, write_json
-from .outputs import provenance, tables
+from ..factors import load_factor_set, load_gwp_set
+from ..io.writers import BlockRasterWriter, BlockWrites, is_own_temporary, write_csv, write_json
+from ..outputs import provenance, tables
 from .pipeline import (METHOD_CODES, SCAR_LAYER, Sums, build_plan, compute_block, coregister, fit_models, open_inputs,
                        process_block, read_block, window_group)
 
@@ -77,7 +77,7 @@ def prepare_out_dir(out_dir: Path, overwrite: bool) -> None:
 
 
 def load_factors(cfg: RunConfig) -> Factors:
-    from .science import flaming
+    from ..science import flaming
 
     fl = cfg.flaming
     return Factors(
@@ -98,8 +98,8 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
     """Run ``cfg`` and write zones.csv, totals.json, inventory.csv/json, daily.csv, burn_depth.tif,
     carbon_smouldering.tif, depth_method.tif, provenance.json and report.html into ``out_dir``.
 
-    GDAL's block cache is bounded for the whole run (:func:`peatburn.executors.gdal_env`, sized
-    by :func:`peatburn.executors.run_cache_bytes`): peak memory depends on the block size and the
+    GDAL's block cache is bounded for the whole run (:func:`peatburn.engine.executors.gdal_env`, sized
+    by :func:`peatburn.engine.executors.run_cache_bytes`): peak memory depends on the block size and the
     grid's width (up to a bound), not on the raster's area (docs/performance.md).
     ``scheduler`` (an address) is connected to before any input is read, so a wrong address fails
     at once; a :class:`distributed.Client` may be passed instead and is left open.
@@ -116,7 +116,7 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
 
 
 def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, scheduler) -> RunResult:
-    from .io.lock import output_lock
+    from ..io.lock import output_lock
 
     out_dir = Path(out_dir)
     with output_lock(out_dir):  # one run at a time per output folder (issue 22)
@@ -132,8 +132,8 @@ def _raise_if_disk_full(out_dir: Path, exc: BaseException) -> None:
     """Turn an error of a full file system (GDAL's read of a cut temporary, ENOSPC) into one line."""
     import errno
 
-    from .errors import DiskFullError
-    from .io.writers import FULL_DISK_BYTES, free_bytes
+    from ..errors import DiskFullError
+    from ..io.writers import FULL_DISK_BYTES, free_bytes
 
     if isinstance(exc, DiskFullError) or not out_dir.exists():
         return
@@ -227,7 +227,7 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
 
 def run_notes(cfg) -> list[str]:
     """Notes a run's configuration alone calls for (method scope, what a setting does or not do)."""
-    from .config import RasterRef
+    from ..config import RasterRef
 
     notes = []
     if cfg.tier1_only:
@@ -308,7 +308,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
                      f"({checks['effective_carbon_fraction']:.3f}); its gases overstate the carbon burned")
     flame_checks = None
     if flame is not None:
-        from .science import gases
+        from ..science import gases
 
         ef = factors.flaming.ef
         closure = float(gases.carbon_closure(ef, factors.vegetation_carbon_fraction))
@@ -317,7 +317,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
         if closure > 1.0:
             notes.append(f"emission factors: the flaming set {factors.flaming.name} puts {closure:.3f} times the "
                          f"vegetation's carbon (fraction {factors.vegetation_carbon_fraction:g}) into CO2+CO+CH4")
-    from .outputs import fires, timeline
+    from ..outputs import fires, timeline
 
     periods = timeline.scar_periods(inputs.scars.frame, cfg.start_field, cfg.end_field)
     scar_sums = scar_layer_sums(sums, len(inputs.scars.frame))
@@ -331,7 +331,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     converting.result()  # the rasters are complete from here on (field plots sample them)
     plots = None
     if inputs.plots is not None:
-        from .plots import validate_plots
+        from ..plots import validate_plots
 
         plots = validate_plots(inputs, plan, out_dir)
 
@@ -379,7 +379,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
                                                       "depth_method.tif", "report.html"])})
     files["provenance"] = write_json(out_dir / "provenance.json", prov)
     result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv)
-    from .outputs import report
+    from ..outputs import report
 
     zone_layers = [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones]  # not read a second time
     files["report"] = report.write_report(out_dir / "report.html", result, cfg, prov, factors, zone_layers)
@@ -395,8 +395,8 @@ def scar_layer_sums(sums, n_scars: int) -> dict:
 
 
 def fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums) -> list[dict]:
-    """Rows of fires.csv (intervals are filled in later by :func:`peatburn.intervals.add_intervals`)."""
-    from .outputs import fires
+    """Rows of fires.csv (intervals are filled in later by :func:`peatburn.engine.intervals.add_intervals`)."""
+    from ..outputs import fires
 
     ids, _ = fires.fire_ids(inputs.scars.frame, cfg.id_field)
     n = len(ids)
@@ -436,7 +436,7 @@ def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
 
 def factor_checks(factor_set, total: dict) -> dict:
     """MCE of the set and its carbon closure at the run's effective carbon fraction (carbon / dry mass)."""
-    from .science import gases
+    from ..science import gases
 
     ef = factor_set.ef
     mce = float(gases.modified_combustion_efficiency(ef["co2"], ef["co"])) if "co" in ef else None

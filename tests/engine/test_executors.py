@@ -17,10 +17,10 @@ import rasterio
 from rasterio.windows import Window
 
 import peatburn
-from peatburn import executors
+from peatburn.engine import executors
 from peatburn.errors import ExecutorError, GridError
-from peatburn.executors import map_blocks
-from peatburn.progress import Progress, progress_bar
+from peatburn.engine.executors import map_blocks
+from peatburn.engine.progress import Progress, progress_bar
 
 WINDOWS = [Window(c, r, 10, 10) for r in range(0, 40, 10) for c in range(0, 30, 10)]  # 12 windows
 
@@ -78,7 +78,7 @@ def test_processes_keep_window_order_and_send_plan_once_per_worker():
 
 
 def test_pool_started_before_the_plan_serves_two_plans_and_cleans_up():
-    from peatburn.executors import WorkerPool
+    from peatburn.engine.executors import WorkerPool
 
     with WorkerPool(2) as pool:
         first = list(map_blocks(_slow_block, CountingPlan(3), WINDOWS, pool=pool))
@@ -178,7 +178,7 @@ def test_run_with_unreachable_scheduler_fails_before_reading_inputs(scene, tmp_p
     national survey is not wasted on a typo in the address)."""
     from click.testing import CliRunner
 
-    import peatburn.runner as runner
+    import peatburn.engine.runner as runner
     from peatburn.cli.main import cli
 
     monkeypatch.setattr(executors, "CONNECT_TIMEOUT", 1)

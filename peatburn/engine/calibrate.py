@@ -12,9 +12,9 @@ from pathlib import Path
 
 import numpy as np
 
-from . import __version__
-from .errors import ConfigError
-from .io.writers import atomic_path, write_json
+from .. import __version__
+from ..errors import ConfigError
+from ..io.writers import atomic_path, write_json
 from .pipeline import DepthModels, build_plan, coregister, depth_samples, fit_models, open_inputs, plot_samples
 
 
@@ -60,7 +60,7 @@ def write_scatter(path, calib: Calibration, max_points: int = 5000) -> Path:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from .science.water_table import predict_depth
+    from ..science.water_table import predict_depth
 
     wt, d = calib.water_table, calib.depth
     if wt.size > max_points:

@@ -14,12 +14,12 @@ import os
 
 import numpy as np
 
-from .factors import list_factor_sets
-from .outputs.tables import OUTSIDE, TOTAL_LAYER
+from ..factors import list_factor_sets
+from ..outputs.tables import OUTSIDE, TOTAL_LAYER
 from .pipeline import SCAR_LAYER
-from .science import uncertainty as unc
-from .science import variogram
-from .science.tier1 import TIER1_FUEL_RELATIVE_SD
+from ..science import uncertainty as unc
+from ..science import variogram
+from ..science.tier1 import TIER1_FUEL_RELATIVE_SD
 
 #: pipeline sum -> uncertainty-model sum
 SUM_MAP = {
@@ -65,7 +65,7 @@ def subsidence_map_sd(cfg) -> float:
     tropical peat, Hooijer et al. 2012 through a secondary summary, taken as one sd: an
     assumption); else (one constant rate, or none) 0: a constant cancels.
     """
-    from .config import RasterRef
+    from ..config import RasterRef
 
     sv, u = cfg.survey, cfg.uncertainty
     if sv is None:
