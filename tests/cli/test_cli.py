@@ -52,6 +52,7 @@ def test_factors_lists_sets_with_citations(runner):
     assert res.exit_code == 0
     assert "smouldering_akagi2011" in res.output and "Akagi" in res.output
     assert "AR6" in res.output and "AR5" in res.output
+    assert "NOx 1.6" in res.output and "NOX" not in res.output   # flaming_ipcc2006_tropical_forest.csv
 
 
 def test_bad_input_is_one_line(runner, tmp_path):
