@@ -145,8 +145,8 @@ def test_missing_required_columns(tmp_path):
 
 def test_date_and_time_of_day_columns(tmp_path):
     # Two columns: a date and HHMM digits (542 = 05:42) or HH:MM, UTC.
-    p = _write(tmp_path / "d.csv", "lon;lat;acq_date;acq_time;frp\n111;0;2031-09-14;542;3\n111;0;2031-09-14;17:05;4\n")
-    d = read_detections(p, RUN, columns={"time": ["acq_date", "acq_time"], "frp_mw": "frp"})
+    p = _write(tmp_path / "d.csv", "lon;lat;obs_date;obs_clock;power\n111;0;2031-09-14;542;3\n111;0;2031-09-14;17:05;4\n")
+    d = read_detections(p, RUN, columns={"time": ["obs_date", "obs_clock"], "frp_mw": "power"})
     assert d.frame["t_s"].tolist() == [_epoch(2031, 9, 14, 5, 42), _epoch(2031, 9, 14, 17, 5)]
 
 
