@@ -125,7 +125,7 @@ class FlamingConfig:
 
 @dataclass(frozen=True)
 class RunConfig:
-    """A validated run description (see DESIGN.md, "The run configuration")."""
+    """A validated run description (every key: docs/configuration.md)."""
 
     source: Path | None
     name: str
