@@ -204,7 +204,7 @@ def task_write(n, out, gdal_env=False):
     from peatburn.grid import RunGrid
     from peatburn.io.writers import BlockRasterWriter
 
-    grid = RunGrid(CRS.from_epsg(32749), Affine(1, 0, 500000, 0, -1, 9800000), n, n)
+    grid = RunGrid(CRS.from_epsg(32749), Affine(1, 0, 500000, 0, -1, 8650000), n, n)
     base = np.random.default_rng(0).normal(0, 0.1, (512, 512)).astype("float32")
     t = time.perf_counter()
     with _env_for(gdal_env):

@@ -131,7 +131,7 @@ class FlamingConfig:
 
 @dataclass(frozen=True)
 class RunConfig:
-    """A validated run description (see DESIGN.md, "The run configuration")."""
+    """A validated run description (every key: docs/configuration.md)."""
 
     source: Path | None
     name: str
@@ -253,8 +253,19 @@ def _check_keys(table: dict, section: str, where: str):
             raise ConfigError(f"{where}: unknown key {full!r}{hint}")
 
 
+#: What a missing top-level table should hold (the message names the table and what to add).
+_TABLE_HINTS = {
+    "burned_area": "add [burned_area] with `path` = the burn-scar polygons",
+    "depth": "add a [depth.survey] table (`pre`, `post`: two elevation surveys) or a [depth.water_table] "
+             "table (`depth`: water-table depths at fire time)",
+    "peat": "add [peat] with `bulk_density` and `carbon_fraction`",
+}
+
+
 def _require(table: dict, key: str, section: str, where: str):
     if key not in table:
+        if not section:  # a top-level table
+            raise ConfigError(f"{where}: no [{key}] table; {_TABLE_HINTS.get(key, f'add [{key}]')}")
         raise ConfigError(f"{where}: [{section}] needs `{key}`")
     return table[key]
 

@@ -2,14 +2,15 @@
 
 :func:`make_demo_region` writes, into a folder, every input a peatburn run needs (two elevation
 surveys, a subsidence-rate raster, peat thickness and bulk density, burn scars, zone layers) plus
-inputs for later work (water table at fire time, active-fire detections, field plots), a
-``config.toml`` that follows the run-configuration contract of ``DESIGN.md``, and ``truth.json``
+the water table at fire time, active-fire detections and field plots, a ``config.toml`` that
+uses every one of them (the keys are described in ``docs/configuration.md``), and ``truth.json``
 with the true answer computed on the noise-free, unshifted fields.
 
 Everything here is invented: the region, its place names, the concession names, the districts,
-the fires and every number. No real place, company or person is represented. The origin of the
-grid lies in UTM zone 49S (EPSG:32749) only so that coordinates look like those of a tropical peat
-area; nothing at those coordinates is described.
+the fires and every number. No real place, company or person is represented. The grid is in
+UTM zone 49S (EPSG:32749), placed in the open Indian Ocean at about 12.2 deg S, 111.2 deg E,
+some 440 km south of the nearest coast: the coordinates are plainly not land, so nothing real
+is drawn over (see ``demo_region/README.md``).
 
 What is deliberately in the data (see ``demo_region/README.md``):
 
@@ -56,7 +57,8 @@ __all__ = ["DemoRegion", "make_demo_region", "DEMO_FILES"]
 # Fixed settings of the scenario (invented; the same for every seed, so the README can state them)
 
 CRS_EPSG = 32749                      # WGS 84 / UTM zone 49S
-ORIGIN_XY = (741_300.0, 9_716_900.0)  # upper-left corner [m]; invented, merely plausible coordinates
+ORIGIN_XY = (520_000.0, 8_650_000.0)  # upper-left corner [m]: about 12.21 deg S, 111.18 deg E (pyproj),
+#                                       open ocean far from any island (a test keeps it there)
 NODATA = -9999.0
 BLOCK = 256
 MIN_SIDE_PX = 96                      # smallest grid side on which every feature (islands, margins) fits
@@ -108,15 +110,15 @@ _CANALS = (
     ((0.00, 0.27), (0.40, 0.00)),
 )
 
-#: Concessions (id field ``name``): invented names built on made-up place words.
+#: Concessions (id field ``name``): wholly invented words (a test keeps real place words out).
 _CONCESSIONS = (
-    ("Rimba Xelora Timber", ((0.02, 0.40), (0.36, 0.44), (0.33, 0.75), (0.30, 0.97), (0.04, 0.93))),
-    ("Telaga Quenti Plantation", ((0.37, 0.18), (0.60, 0.08), (0.63, 0.45), (0.45, 0.56), (0.31, 0.62))),
-    ("Padang Zorava Estate", ((0.81, 0.30), (0.99, 0.26), (0.99, 0.95), (0.86, 0.90), (0.91, 0.55))),
+    ("Xelora Timber", ((0.02, 0.40), (0.36, 0.44), (0.33, 0.75), (0.30, 0.97), (0.04, 0.93))),
+    ("Quenti Plantation", ((0.37, 0.18), (0.60, 0.08), (0.63, 0.45), (0.45, 0.56), (0.31, 0.62))),
+    ("Zorava Estate", ((0.81, 0.30), (0.99, 0.26), (0.99, 0.95), (0.86, 0.90), (0.91, 0.55))),
 )
 
 #: Districts (id field ``district``): split along a wiggly north-south border.
-_DISTRICT_NAMES = ("Zarendi Hulu", "Zarendi Hilir")
+_DISTRICT_NAMES = ("Upper Zarendi", "Lower Zarendi")
 _DISTRICT_BORDER = ((0.621, 1.0), (0.603, 0.797), (0.577, 0.551), (0.561, 0.337), (0.523, 0.0))
 
 #: Files written by :func:`make_demo_region` (relative to the folder).

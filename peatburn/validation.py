@@ -357,7 +357,7 @@ def synthetic_survey_scene(folder, *, shape=(140, 180), pixel=2.0, noise=0.05, o
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     rng = np.random.default_rng(seed)
-    epsg, x0, y0 = 32749, 500_000.0, 9_800_000.0
+    epsg, x0, y0 = 32749, 500_000.0, 8_650_000.0   # open Indian Ocean (about 12.2 S, 111 E): not land
     h, w = shape
     transform = from_origin(x0, y0, pixel, pixel)
     cols, rows = np.meshgrid(np.arange(w) + 0.5, np.arange(h) + 0.5)

@@ -10,7 +10,7 @@ from rasterio.enums import Resampling
 from rasterio.warp import calculate_default_transform, reproject
 
 import peatburn
-from conftest import make_scene
+from conftest import X0, Y0, make_scene
 from peatburn.cli.main import cli
 
 
@@ -126,7 +126,7 @@ def test_water_table_with_wrong_sign_is_refused(tmp_path):
         w = csv.writer(fh)
         w.writerow(["x", "y", "water_table_m"])
         for i in range(6):
-            w.writerow([500_100 + 50 * i, 9_799_800 - 40 * i, -0.4 - 0.05 * i])
+            w.writerow([X0 + 100 + 50 * i, Y0 - 200 - 40 * i, -0.4 - 0.05 * i])
     s.config.write_text(s.config.read_text() + '\n[depth.water_table]\ndepth = "stations.csv"\ncrs = "EPSG:32749"\n')
     res = _run_cli("run", s.config, "--out", tmp_path / "o")
     assert res.exit_code == 2

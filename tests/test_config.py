@@ -53,6 +53,28 @@ def test_unknown_key_suggests(tmp_path):
         load_config(p)
 
 
+def test_missing_depth_table_is_a_tier1_only_run(tmp_path):
+    # no survey and no water table: accepted as an IPCC Tier 1 run (issue 14), not an error
+    p = _cfg(tmp_path)
+    kept = [block for block in p.read_text().split("\n[") if not block.startswith("depth")]
+    p.write_text("\n[".join(kept))
+    assert load_config(p).tier1_only
+
+
+@pytest.mark.parametrize("table, what_to_add", [
+    ("burned_area", "add [burned_area] with `path`"),
+    ("peat", "add [peat] with `bulk_density` and `carbon_fraction`"),
+])
+def test_missing_table_is_named_with_what_to_add(tmp_path, table, what_to_add):
+    p = _cfg(tmp_path)
+    kept = [block for block in p.read_text().split("\n[") if not block.startswith(table)]
+    p.write_text("\n[".join(kept))
+    with pytest.raises(ConfigError) as err:
+        load_config(p)
+    msg = str(err.value)
+    assert f"no [{table}] table" in msg and what_to_add in msg and "[]" not in msg, msg
+
+
 def test_toml_syntax_error_names_line(tmp_path):
     p = tmp_path / "c.toml"
     p.write_text("[run]\nname = \"a\nyear = 2030\n")

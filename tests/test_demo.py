@@ -250,3 +250,90 @@ def test_default_region_matches_the_brief(tmp_path):
     assert 0.08 - 1e-6 <= bd["min"] and bd["max"] <= 0.14 + 1e-6
     assert t["scars"]["VX-03"]["capped_pixels"] > 100
     assert not math.isclose(t["totals"]["mean_burn_depth_m"], 0.0)
+
+
+# ------------------------------------------------------------------------------------------------
+# The demo is plainly invented: off real land, and no real place words in its names.
+
+#: Boxes (lon min, lon max, lat min, lat max) [deg] drawn generously around the large islands and
+#: land masses of the region, read from the map (common knowledge, recalled, unchecked).
+LAND_BOXES = {
+    "Sumatra": (95.0, 106.2, -6.2, 6.0),
+    "Malay Peninsula": (98.0, 104.6, 1.2, 13.0),
+    "Indochina": (97.3, 109.5, 8.4, 23.5),
+    "Borneo": (108.5, 119.4, -4.3, 7.1),
+    "Java, Madura and Bali": (105.0, 115.8, -8.9, -5.8),
+    "Lesser Sunda Islands": (115.8, 127.4, -11.1, -7.6),
+    "Sulawesi": (118.7, 125.3, -5.7, 1.9),
+    "Maluku and Halmahera": (124.0, 135.0, -8.5, 3.0),
+    "New Guinea": (130.8, 151.0, -10.8, -0.3),
+    "Philippines": (116.9, 126.7, 4.5, 21.2),
+    "Australia": (112.9, 153.7, -39.2, -10.6),
+    "Christmas Island": (105.5, 105.8, -10.6, -10.4),
+}
+MARGIN_DEG = 1.0        # about 110 km of sea kept around every box
+
+#: Real place words of the region (places, rivers, the district pattern "<river> Hulu / Hilir",
+#: words common in real company names) that must not appear in the demo's names.
+REAL_WORDS = {
+    "padang", "rimba", "hulu", "hilir", "sungai", "kalimantan", "riau", "jambi", "telaga", "tanjung",
+    "pulau", "bukit", "kuala", "kota", "muara", "kampung", "desa", "kabupaten", "kecamatan", "sumatra",
+    "sumatera", "borneo", "jawa", "java", "papua", "sarawak", "sabah", "palangka", "raya", "pekanbaru",
+    "pontianak", "banjarmasin", "sampit", "kapuas", "kahayan", "sebangau", "siak", "musi", "ogan", "hutan",
+    "sawit", "jaya", "makmur", "sejahtera", "lestari", "abadi", "nusantara", "indah", "mas", "sinar",
+    "agro", "lahan", "gambut", "indonesia", "malaysia", "brunei",
+}
+
+
+def _on_land(lon: float, lat: float) -> list[str]:
+    return [name for name, (x0, x1, y0, y1) in LAND_BOXES.items()
+            if x0 - MARGIN_DEG <= lon <= x1 + MARGIN_DEG and y0 - MARGIN_DEG <= lat <= y1 + MARGIN_DEG]
+
+
+def _corners_lonlat(crs, bounds) -> list[tuple[float, float]]:
+    from pyproj import Transformer
+
+    left, bottom, right, top = bounds
+    to_ll = Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
+    pts = [(left, bottom), (left, top), (right, bottom), (right, top), ((left + right) / 2, (bottom + top) / 2)]
+    return [to_ll.transform(x, y) for x, y in pts]
+
+
+def test_land_boxes_catch_the_places_the_demo_used_to_sit():
+    # the boxes are not empty or mis-ordered: the former demo origin (741300 E, 9716900 N) and the
+    # former test-scene origin (500000 E, 9800000 N) in EPSG:32749 both lie on Borneo (pyproj)
+    for xy in [(741_300.0, 9_716_900.0), (500_000.0, 9_800_000.0)]:
+        assert any("Borneo" in _on_land(*ll) for ll in _corners_lonlat("EPSG:32749", (*xy, *xy)))
+
+
+def test_demo_and_test_scenes_lie_in_open_sea(demo, tmp_path):
+    from conftest import EPSG, X0, Y0
+
+    from peatburn import demo as demo_module
+    from peatburn.validation import synthetic_survey_scene
+
+    with rasterio.open(demo.folder / "survey_pre.tif") as ds:
+        places = {"demo (small)": (ds.crs, ds.bounds)}
+    x0, y0 = demo_module.ORIGIN_XY
+    places["demo (default 1200 x 1500 of 2 m)"] = (f"EPSG:{demo_module.CRS_EPSG}", (x0, y0 - 2400.0, x0 + 3000.0, y0))
+    places["tests/conftest.py scene"] = (f"EPSG:{EPSG}", (X0, Y0 - 600.0, X0 + 600.0, Y0))
+    cfg = tomllib.loads(Path(synthetic_survey_scene(tmp_path / "v")["config"]).read_text())
+    with rasterio.open(tmp_path / "v" / cfg["depth"]["survey"]["pre"]) as ds:
+        places["validation scene"] = (ds.crs, ds.bounds)
+    for what, (crs, bounds) in places.items():
+        for lon, lat in _corners_lonlat(crs, bounds):
+            assert not _on_land(lon, lat), (what, lon, lat, _on_land(lon, lat))
+            assert -14.0 < lat < -10.0 and 109.0 < lon < 114.0, (what, lon, lat)   # the sea south of Java
+
+
+def test_demo_names_are_wholly_invented(demo):
+    from peatburn import demo as demo_module
+
+    names = [demo_module.REGION_NAME, demo_module.SCAR_ID_PREFIX]
+    for file, layer, field in [("concessions.gpkg", "concessions", "name"), ("districts.gpkg", "districts", "district"),
+                               ("scars.gpkg", "scars", "scar_id")]:
+        names += [str(v) for v in gpd.read_file(demo.folder / file, layer=layer)[field]]
+    names.append(tomllib.loads((demo.folder / "config.toml").read_text())["run"]["name"])
+    words = {w.lower() for n in names for w in n.replace("-", " ").replace(":", " ").split()}
+    assert {"xelora", "quenti", "zorava", "zarendi", "vexarin"} <= words
+    assert not words & REAL_WORDS, words & REAL_WORDS

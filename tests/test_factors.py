@@ -1,7 +1,7 @@
 """Tests of the emission-factor and GWP loader (peatburn.factors).
 
 Published values are written in the tests with their source; "checked" means compared with the
-publication, "recalled" means the value in the shipped file is as recalled in DESIGN.md and is
+publication, "recalled" means the value in the shipped file is as written from memory (docs/sources.md) and is
 still to be compared with the publication (the test then only guards the file against edits).
 """
 

@@ -2,6 +2,7 @@ from __future__ import annotations
 
 import click
 
+from ..factors import gas_label
 from .options import handle_errors
 
 
@@ -14,10 +15,10 @@ def factors_cmd():
     for fs in list_factor_sets():
         click.echo(f"{fs.name}  [{fs.phase}]")
         click.echo(f"    {fs.citation}")
-        vals = ", ".join(f"{g.upper()} {v:g}" for g, v in fs.ef.items())
+        vals = ", ".join(f"{gas_label(g)} {v:g}" for g, v in fs.ef.items())
         click.echo(f"    g/kg dry matter: {vals}")
     click.echo("")
     for gs in list_gwp_sets():
-        vals = ", ".join(f"{g.upper()} {v:g}" for g, v in gs.gwp.items())
+        vals = ", ".join(f"{gas_label(g)} {v:g}" for g, v in gs.gwp.items())
         click.echo(f"{gs.name}  [GWP-100]  {vals}")
         click.echo(f"    {gs.citation}")

@@ -47,6 +47,7 @@ __all__ = [
     "DEFAULT_FLAMING",
     "DEFAULT_GWP",
     "PHASES",
+    "gas_label",
 ]
 
 #: Default smouldering set: the IPCC Tier 1 defaults for fires on tropical organic soil, the
@@ -444,3 +445,15 @@ def load_gwp_set(name: str) -> GWPSet:
             if key.lower() == name.strip().lower():
                 return gwp_set
     raise FactorSetError(f"unknown GWP set {name!r}; built-in GWP sets are: {', '.join(table)}")
+
+
+#: Display labels where the upper-cased code is not the usual notation (common practice).
+_GAS_LABELS = {"nox": "NOx", "pm25": "PM2.5", "pm2_5": "PM2.5", "co2_c": "CO2-C"}
+
+
+def gas_label(code: str) -> str:
+    """The usual written form of a lower-case gas code: ``"nox"`` -> ``"NOx"``, ``"ch4"`` -> ``"CH4"``.
+
+    Upper case with ``_`` written as ``-`` unless the code has a label of its own (NOx, PM2.5).
+    """
+    return _GAS_LABELS.get(code.lower(), code.upper().replace("_", "-"))

@@ -21,7 +21,7 @@ Accepted files
 
 ``columns`` maps our names (``x``, ``y``, ``lon``, ``lat``, ``time``, ``frp_mw``) onto the file's
 column names, for example ``{"time": "obs_time", "frp_mw": "power"}``. ``time`` may also map to
-two columns, a date and a time of day: ``{"time": ["acq_date", "acq_time"]}``, the time of day
+two columns, a date and a time of day: ``{"time": ["obs_date", "obs_clock"]}``, the time of day
 as ``HH:MM[:SS]`` or as ``HHMM`` digits (``542`` is 05:42), UTC. Unmapped names fall back to our
 default names, matched exactly first and then ignoring case.
 

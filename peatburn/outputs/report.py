@@ -31,6 +31,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..factors import gas_label
 from ..io.writers import write_text
 from .tables import OUTSIDE, TOTAL_LAYER
 
@@ -827,7 +828,7 @@ def _factor_set(fs, role: str, used: bool) -> dict:
         "role": role, "used": used, "name": getattr(fs, "name", "?"), "citation": getattr(fs, "citation", ""),
         "doi": getattr(fs, "doi", None) or "", "notes": getattr(fs, "notes", "") or "",
         "source_path": getattr(fs, "source_path", None) or "", "mce": mce,
-        "rows": [{"gas": g.upper().replace("_", "-"), "ef": fmt_plain(v), "sd": fmt_plain(sd.get(g)),
+        "rows": [{"gas": gas_label(g), "ef": fmt_plain(v), "sd": fmt_plain(sd.get(g)),
                   "citation": cites.get(g, ""), "status": status.get(g, "")} for g, v in ef.items()],
         "any_recalled": any(s == "recalled" for s in status.values()),
     }
@@ -977,7 +978,7 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
         "factor_sets": factor_sets,
         "gwp": {"name": getattr(gwp, "name", ""), "citation": getattr(gwp, "citation", ""),
                 "status": getattr(gwp, "status", ""),
-                "table": [(g.upper(), fmt_plain(v)) for g, v in (getattr(gwp, "gwp", {}) or {}).items()]},
+                "table": [(gas_label(g), fmt_plain(v)) for g, v in (getattr(gwp, "gwp", {}) or {}).items()]},
         "references": REFERENCES,
         "provenance": {"inputs": inputs, "versions": versions, "grid": _grid(prov.get("grid") or {}),
                        "config_file": prov.get("config_file") or "", "outputs": prov.get("outputs") or [],

@@ -11,6 +11,7 @@ import math
 
 import numpy as np
 
+from ..factors import gas_label
 from ..science import gases
 
 GASES = ("co2", "ch4", "co")
@@ -140,7 +141,7 @@ UNITS = {
 }
 for _g in GASES:
     for _p in PHASES + ("tier1",):
-        UNITS[f"{_g}_{_p}_t"] = f"t {_g.upper()}"
+        UNITS[f"{_g}_{_p}_t"] = f"t {gas_label(_g)}"
 for _c in INTERVAL_COLUMNS:
     UNITS[f"{_c}_lo"] = UNITS[_c]
     UNITS[f"{_c}_hi"] = UNITS[_c]
@@ -158,7 +159,7 @@ def inventory_rows(total: dict, year_shares: dict, gwp_name: str) -> list[dict]:
     for phase in PHASES:
         for yr, share in sorted(year_shares[phase].items(), key=lambda kv: str(kv[0])):
             for g in GASES:
-                rows.append(_inv(yr, phase, g.upper(), total, f"{g}_{phase}_t", share))
+                rows.append(_inv(yr, phase, gas_label(g), total, f"{g}_{phase}_t", share))
             rows.append(_inv(yr, phase, "CO2-C", total, f"co2_{phase}_t", share * float(gases.co2_to_carbon(1.0))))
             rows.append(_inv(yr, phase, f"CO2e ({gwp_name})", total, f"co2e_{phase}_t", share))
     return rows

@@ -1,6 +1,7 @@
 """The command line end to end with click's runner."""
 
 import json
+from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
@@ -52,6 +53,7 @@ def test_factors_lists_sets_with_citations(runner):
     assert res.exit_code == 0
     assert "smouldering_akagi2011" in res.output and "Akagi" in res.output
     assert "AR6" in res.output and "AR5" in res.output
+    assert "NOx 1.6" in res.output and "NOX" not in res.output   # flaming_ipcc2006_tropical_forest.csv
 
 
 def test_bad_input_is_one_line(runner, tmp_path):
@@ -82,6 +84,15 @@ def test_demo_end_to_end(runner, tmp_path):
         if float(row["area_survey_ha"]) < 0.99 * t["burned_area_ha"]:
             continue  # partly in the survey gap: estimated by another method
         assert float(row["carbon_smouldering_t"]) == pytest.approx(t["carbon_smouldering_t"], rel=0.02)
+    # every file the run wrote is named by `peatburn run --help` and by the README's demo paragraph
+    help_text = " ".join(runner.invoke(cli, ["run", "--help"]).output.split())
+    readme = " ".join((Path(__file__).parents[2] / "README.md").read_text(encoding="utf-8").split())
+    demo_paragraph = readme[readme.index("`make demo` leaves"):][:600]
+    written = sorted(p.name for p in results.iterdir())
+    assert {"inventory.json", "daily.csv", "depth_method.tif"} <= set(written)
+    for name in written:
+        assert name in help_text, name
+        assert name in demo_paragraph, name
 
 
 def test_calibrate_writes_fit_and_plot_that_run_reuses(runner, tmp_path):

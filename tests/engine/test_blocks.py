@@ -170,7 +170,7 @@ def test_killed_writer_leaves_no_file(tmp_path):
         from rasterio.crs import CRS
         from peatburn.grid import RunGrid
         from peatburn.io.writers import BlockRasterWriter
-        grid = RunGrid(CRS.from_epsg(32749), Affine(2, 0, 500000, 0, -2, 9800000), 300, 240)
+        grid = RunGrid(CRS.from_epsg(32749), Affine(2, 0, 500000, 0, -2, 8650000), 300, 240)
         with BlockRasterWriter({str(final)!r}, grid, block_size=64) as w:
             for i, win in enumerate(grid.windows(64)):
                 w.write(win, np.ones((int(win.height), int(win.width))))
@@ -230,12 +230,12 @@ def test_window_group_follows_the_inputs_tiling(tmp_path, layout, pixel, epsg, e
     n = int(200 / pixel)
     path = tmp_path / "in.tif"
     with rasterio.open(path, "w", driver="GTiff", width=n, height=n, count=1, dtype="float32",
-                       crs=CRS.from_epsg(epsg), transform=from_origin(500_000, 9_800_000, pixel, pixel),
+                       crs=CRS.from_epsg(epsg), transform=from_origin(500_000, 8_650_000, pixel, pixel),
                        **layout) as ds:
         ds.write(np.zeros((1, n, n), "float32"))
     info = inspect_raster(path)
     if not layout.get("tiled"):
         assert info.block_shapes[0] == (4, n)  # GDAL's strips span the width
-    grid = RunGrid(CRS.from_epsg(32749), from_origin(500_000, 9_800_000, 2.0, 2.0), 100, 100)
+    grid = RunGrid(CRS.from_epsg(32749), from_origin(500_000, 8_650_000, 2.0, 2.0), 100, 100)
     inputs = SimpleNamespace(grid=grid, rasters={"depth.survey.pre": info})
     assert window_group(inputs, 8, 4) == expected

@@ -30,11 +30,11 @@ def _epoch(*args, tz=dt.timezone.utc):
 
 
 def test_xy_csv_in_the_run_crs(tmp_path):
-    p = _write(tmp_path / "d.csv", "x,y,time,frp_mw\n743000.5,9715000.25,2031-09-14T05:42:00Z,12.5\n")
+    p = _write(tmp_path / "d.csv", "x,y,time,frp_mw\n743000.5,8715000.25,2031-09-14T05:42:00Z,12.5\n")
     d = read_detections(p, RUN, crs=RUN)
     assert len(d.frame) == 1
     g = d.frame.geometry.iloc[0]
-    assert (g.x, g.y) == (743000.5, 9715000.25)
+    assert (g.x, g.y) == (743000.5, 8715000.25)
     assert d.frame["frp_mw"].iloc[0] == 12.5
     # Python datetime: 2031-09-14 05:42:00 UTC in seconds since 1970-01-01 UTC.
     assert d.frame["t_s"].iloc[0] == _epoch(2031, 9, 14, 5, 42)
@@ -73,9 +73,9 @@ def test_missing_file(tmp_path):
 def test_times_naive_is_utc_and_offsets_are_converted(tmp_path):
     p = _write(tmp_path / "d.csv", "\n".join([
         "x,y,time,frp_mw",
-        "743000,9715000,2031-09-14 05:42,1",            # naive -> UTC
-        "743000,9715000,2031-09-14T12:42:00+07:00,1",   # +07:00 -> 05:42 UTC
-        "743000,9715000,2031-09-14,1",                  # date only -> midnight UTC
+        "743000,8715000,2031-09-14 05:42,1",            # naive -> UTC
+        "743000,8715000,2031-09-14T12:42:00+07:00,1",   # +07:00 -> 05:42 UTC
+        "743000,8715000,2031-09-14,1",                  # date only -> midnight UTC
     ]) + "\n")
     d = read_detections(p, RUN, crs=RUN)
     assert d.frame["t_s"].tolist() == [_epoch(2031, 9, 14, 5, 42), _epoch(2031, 9, 14, 5, 42), _epoch(2031, 9, 14)]
@@ -85,19 +85,19 @@ def test_times_naive_is_utc_and_offsets_are_converted(tmp_path):
 def test_bad_rows_are_counted_by_reason(tmp_path):
     p = _write(tmp_path / "d.csv", "\n".join([
         "x,y,time,frp_mw",
-        "743000,9715000,2031-09-14T05:42:00Z,10",   # 0 good
-        "743000,9715000,,10",                        # 1 no time
-        "743000,9715000,yesterday,10",               # 2 bad time
-        "743000,9715000,2031-13-40T00:00:00Z,10",    # 3 bad time (month 13)
-        "743000,9715000,2031-09-14T05:42:00Z,-1",    # 4 negative FRP
-        "743000,9715000,2031-09-14T05:42:00Z,",      # 5 missing FRP
-        "743000,9715000,2031-09-14T05:42:00Z,ten",   # 6 missing FRP (not a number)
-        ",9715000,2031-09-14T05:42:00Z,10",          # 7 no position
-        "750000,9715000,2031-09-14T05:42:00Z,10",    # 8 outside run area
-        "744000,9716000,2031-09-14T05:42:00Z,0",     # 9 good (zero FRP is allowed), on the bounds' corner
+        "743000,8715000,2031-09-14T05:42:00Z,10",   # 0 good
+        "743000,8715000,,10",                        # 1 no time
+        "743000,8715000,yesterday,10",               # 2 bad time
+        "743000,8715000,2031-13-40T00:00:00Z,10",    # 3 bad time (month 13)
+        "743000,8715000,2031-09-14T05:42:00Z,-1",    # 4 negative FRP
+        "743000,8715000,2031-09-14T05:42:00Z,",      # 5 missing FRP
+        "743000,8715000,2031-09-14T05:42:00Z,ten",   # 6 missing FRP (not a number)
+        ",8715000,2031-09-14T05:42:00Z,10",          # 7 no position
+        "750000,8715000,2031-09-14T05:42:00Z,10",    # 8 outside run area
+        "744000,8716000,2031-09-14T05:42:00Z,0",     # 9 good (zero FRP is allowed), on the bounds' corner
         ",,,",                                       # 10 no time (first check that fails)
     ]) + "\n")
-    d = read_detections(p, RUN, crs=RUN, bounds=(742_000, 9_714_000, 744_000, 9_716_000))
+    d = read_detections(p, RUN, crs=RUN, bounds=(742_000, 8_714_000, 744_000, 8_716_000))
     assert d.rejected == {"no time": 2, "bad time": 2, "negative or missing FRP": 3, "no position": 1,
                           "not a point": 0, "outside run area": 1}
     assert d.n_read == 11 and d.n_rejected == 9
@@ -114,7 +114,7 @@ def test_latitude_out_of_range_is_no_position(tmp_path):
 
 
 def test_columns_mapping(tmp_path):
-    p = _write(tmp_path / "d.csv", "E,N,obs_time,power,sensor\n743000,9715000,2031-09-14T05:42:00Z,7.5,A\n")
+    p = _write(tmp_path / "d.csv", "E,N,obs_time,power,sensor\n743000,8715000,2031-09-14T05:42:00Z,7.5,A\n")
     d = read_detections(p, RUN, crs=RUN, columns={"x": "E", "y": "N", "time": "obs_time", "frp_mw": "power"})
     assert d.frame["frp_mw"].tolist() == [7.5]
     assert d.frame.geometry.iloc[0].x == 743000.0
@@ -145,8 +145,8 @@ def test_missing_required_columns(tmp_path):
 
 def test_date_and_time_of_day_columns(tmp_path):
     # Two columns: a date and HHMM digits (542 = 05:42) or HH:MM, UTC.
-    p = _write(tmp_path / "d.csv", "lon;lat;acq_date;acq_time;frp\n111;0;2031-09-14;542;3\n111;0;2031-09-14;17:05;4\n")
-    d = read_detections(p, RUN, columns={"time": ["acq_date", "acq_time"], "frp_mw": "frp"})
+    p = _write(tmp_path / "d.csv", "lon;lat;obs_date;obs_clock;power\n111;0;2031-09-14;542;3\n111;0;2031-09-14;17:05;4\n")
+    d = read_detections(p, RUN, columns={"time": ["obs_date", "obs_clock"], "frp_mw": "power"})
     assert d.frame["t_s"].tolist() == [_epoch(2031, 9, 14, 5, 42), _epoch(2031, 9, 14, 17, 5)]
 
 
@@ -169,7 +169,7 @@ def test_point_geopackage_reprojected_and_non_points_counted(tmp_path):
 @pytest.mark.filterwarnings("ignore:'crs' was not provided")
 def test_vector_without_crs_needs_crs(tmp_path):
     gdf = gpd.GeoDataFrame({"time": ["2031-09-14T05:42:00Z"], "frp_mw": [5.0]},
-                           geometry=[shapely.Point(743000.0, 9715000.0)])
+                           geometry=[shapely.Point(743000.0, 8715000.0)])
     # A shapefile without a .prj has no CRS (GeoJSON would not do: GDAL reads it as EPSG:4326).
     shp = tmp_path / "d.shp"
     gdf.to_file(shp)
@@ -183,7 +183,7 @@ def test_typed_datetime_field_of_a_geopackage(tmp_path):
     # A GeoPackage DateTime field comes back typed; 05:42+07:00 is 22:42 UTC the day before.
     times = gpd.pd.to_datetime(["2031-09-14T05:42:00+07:00", None], utc=True)
     gdf = gpd.GeoDataFrame({"time": times, "frp_mw": [5.0, 6.0]},
-                           geometry=[shapely.Point(743000.0, 9715000.0)] * 2, crs=RUN)
+                           geometry=[shapely.Point(743000.0, 8715000.0)] * 2, crs=RUN)
     p = tmp_path / "d.gpkg"
     gdf.to_file(p, layer="detections")
     d = read_detections(p, RUN)

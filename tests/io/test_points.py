@@ -18,7 +18,7 @@ from peatburn.errors import ConfigError, CRSError, InputFileError, MissingInputE
 from peatburn.io.points import REJECT_REASONS, read_points
 
 RUN = "EPSG:32749"  # UTM zone 49 south: central meridian 6 x 49 - 183 = 111 deg E
-BOUNDS = (499_000.0, 9_699_000.0, 501_000.0, 9_701_000.0)
+BOUNDS = (499_000.0, 8_699_000.0, 501_000.0, 8_701_000.0)
 
 
 def _write(path, text):
@@ -27,11 +27,11 @@ def _write(path, text):
 
 
 def test_xy_csv_in_the_run_crs(tmp_path):
-    p = _write(tmp_path / "wt.csv", "x,y,water_table_m\n500000.5,9700000.25,0.45\n500010,9700010,0.6\n")
+    p = _write(tmp_path / "wt.csv", "x,y,water_table_m\n500000.5,8700000.25,0.45\n500010,8700010,0.6\n")
     pts = read_points(p, RUN, value_column="water_table_m", crs=RUN)
     assert len(pts.frame) == 2
     g = pts.frame.geometry.iloc[0]
-    assert (g.x, g.y) == (500000.5, 9700000.25)
+    assert (g.x, g.y) == (500000.5, 8700000.25)
     assert pts.frame["value"].tolist() == [0.45, 0.6]
     assert pts.frame["source_row"].tolist() == [0, 1]
     assert pts.rejected == {r: 0 for r in REJECT_REASONS}
@@ -53,13 +53,13 @@ def test_lon_lat_csv_is_epsg4326_and_reprojected(tmp_path):
 
 
 def test_custom_coordinate_names_semicolon_and_case_insensitive_value(tmp_path):
-    p = _write(tmp_path / "plots.csv", "E;N;Burn_Depth_M\n500000;9700000;0.31\n")
+    p = _write(tmp_path / "plots.csv", "E;N;Burn_Depth_M\n500000;8700000;0.31\n")
     pts = read_points(p, RUN, value_column="burn_depth_m", crs=RUN, x="E", y="N")
     assert pts.frame["value"].tolist() == [0.31]
 
 
 def test_missing_value_column_names_the_file_the_column_and_the_columns(tmp_path):
-    p = _write(tmp_path / "wt.csv", "x,y,gwl_cm\n500000,9700000,-30\n")
+    p = _write(tmp_path / "wt.csv", "x,y,gwl_cm\n500000,8700000,-30\n")
     with pytest.raises(ConfigError) as err:
         read_points(p, RUN, value_column="water_table_m", crs=RUN, what="depth.water_table.depth")
     msg = str(err.value)
@@ -69,19 +69,19 @@ def test_missing_value_column_names_the_file_the_column_and_the_columns(tmp_path
 
 
 def test_missing_date_column_names_the_columns(tmp_path):
-    p = _write(tmp_path / "wt.csv", "x,y,wt\n500000,9700000,0.3\n")
+    p = _write(tmp_path / "wt.csv", "x,y,wt\n500000,8700000,0.3\n")
     with pytest.raises(ConfigError, match=r"no date column 'obs_date'.*x, y, wt"):
         read_points(p, RUN, value_column="wt", crs=RUN, date_column="obs_date")
 
 
 def test_xy_without_crs_is_a_crs_error(tmp_path):
-    p = _write(tmp_path / "wt.csv", "x,y,wt\n500000,9700000,0.3\n")
+    p = _write(tmp_path / "wt.csv", "x,y,wt\n500000,8700000,0.3\n")
     with pytest.raises(CRSError, match="no CRS"):
         read_points(p, RUN, value_column="wt")
 
 
 def test_no_position_columns(tmp_path):
-    p = _write(tmp_path / "wt.csv", "easting,northing,wt\n500000,9700000,0.3\n")
+    p = _write(tmp_path / "wt.csv", "easting,northing,wt\n500000,8700000,0.3\n")
     with pytest.raises(ConfigError, match="no position columns.*easting, northing, wt"):
         read_points(p, RUN, value_column="wt", crs=RUN)
 
@@ -99,13 +99,13 @@ def test_bad_rows_counted_by_reason_once_each(tmp_path):
     # row 5 empty date; row 6 outside the grid; row 7 no value AND no position -> counted as "no value".
     text = (
         "x,y,wt,date\n"
-        "500000,9700000,0.5,2031-09-01\n"
-        "500100,9700100,,2031-09-01\n"
-        "500100,9700100,n/a,2031-09-01\n"
-        ",9700100,0.3,2031-09-01\n"
-        "500200,9700200,0.7,first of September\n"
-        "500200,9700200,0.7,\n"
-        "900000,9700200,0.8,2031-09-02\n"
+        "500000,8700000,0.5,2031-09-01\n"
+        "500100,8700100,,2031-09-01\n"
+        "500100,8700100,n/a,2031-09-01\n"
+        ",8700100,0.3,2031-09-01\n"
+        "500200,8700200,0.7,first of September\n"
+        "500200,8700200,0.7,\n"
+        "900000,8700200,0.8,2031-09-02\n"
         ",,,2031-09-02\n"
     )
     p = _write(tmp_path / "wt.csv", text)
@@ -120,7 +120,7 @@ def test_bad_rows_counted_by_reason_once_each(tmp_path):
 
 def test_points_outside_the_grid_can_be_kept_and_flagged(tmp_path):
     # stations beyond the edge still inform interpolation near it: kept, flagged, reported
-    p = _write(tmp_path / "wt.csv", "x,y,wt\n500000,9700000,0.5\n502500,9700000,0.9\n")
+    p = _write(tmp_path / "wt.csv", "x,y,wt\n500000,8700000,0.5\n502500,8700000,0.9\n")
     pts = read_points(p, RUN, value_column="wt", crs=RUN, bounds=BOUNDS, drop_outside=False)
     assert len(pts.frame) == 2
     assert pts.frame["outside"].tolist() == [False, True]
@@ -129,14 +129,14 @@ def test_points_outside_the_grid_can_be_kept_and_flagged(tmp_path):
 
 
 def test_grid_edges_count_as_inside(tmp_path):
-    p = _write(tmp_path / "wt.csv", "x,y,wt\n499000,9699000,0.5\n501000,9701000,0.6\n")
+    p = _write(tmp_path / "wt.csv", "x,y,wt\n499000,8699000,0.5\n501000,8701000,0.6\n")
     pts = read_points(p, RUN, value_column="wt", crs=RUN, bounds=BOUNDS)
     assert len(pts.frame) == 2 and pts.n_outside == 0
 
 
 def test_dates_are_parsed_as_utc(tmp_path):
     p = _write(tmp_path / "plots.csv",
-               "x,y,d,when\n500000,9700000,0.3,2031-09-14\n500000,9700000,0.4,2031-09-14T12:00+07:00\n")
+               "x,y,d,when\n500000,8700000,0.3,2031-09-14\n500000,8700000,0.4,2031-09-14T12:00+07:00\n")
     pts = read_points(p, RUN, value_column="d", crs=RUN, date_column="when")
     t = pts.frame["date"]
     assert t.iloc[0] == dt.datetime(2031, 9, 14, tzinfo=dt.timezone.utc)
@@ -156,7 +156,7 @@ def test_vector_points_in_another_crs(tmp_path):
 
 def test_vector_non_points_are_no_position(tmp_path):
     f = gpd.GeoDataFrame({"wt": [0.3, 0.4]},
-                         geometry=[shapely.Point(500000, 9700000), shapely.box(0, 0, 1, 1)], crs=RUN)
+                         geometry=[shapely.Point(500000, 8700000), shapely.box(0, 0, 1, 1)], crs=RUN)
     path = tmp_path / "mixed.geojson"
     f.to_file(path, driver="GeoJSON")
     pts = read_points(path, RUN, value_column="wt")

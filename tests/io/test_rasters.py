@@ -93,9 +93,9 @@ def test_windowed_warp_matches_whole_array_reproject(tmp_path):
     (the reference: GDAL's warper run once on everything)."""
     yy, xx = np.mgrid[0:60, 0:70]
     arr = (np.sin(xx / 5.0) + np.cos(yy / 7.0)).astype("float32")
-    src_t = from_origin(500_000, 9_800_000, 3, 3)
+    src_t = from_origin(500_000, 8_650_000, 3, 3)
     _write(tmp_path / "s.tif", arr, src_t)
-    grid = RunGrid(CRS.from_epsg(32749), from_origin(500_010.5, 9_799_990.5, 2, 2), 80, 70)
+    grid = RunGrid(CRS.from_epsg(32749), from_origin(500_010.5, 8_649_990.5, 2, 2), 80, 70)
     with GridReader(RasterSource(str(tmp_path / "s.tif"), "s", resampling="bilinear"), grid) as r:
         got = _blocks(r, grid, 32)
     ref = np.full(grid.shape, np.nan, "float64")
@@ -108,10 +108,10 @@ def test_windowed_warp_matches_whole_array_reproject(tmp_path):
 
 def test_reprojected_read_from_geographic(tmp_path):
     arr = np.full((50, 50), 7.0, "float32")
-    _write(tmp_path / "g.tif", arr, from_origin(113.0, -2.0, 0.001, 0.001), crs="EPSG:4326")
+    _write(tmp_path / "g.tif", arr, from_origin(113.0, -12.0, 0.001, 0.001), crs="EPSG:4326")
     from pyproj import Transformer
 
-    x, y = Transformer.from_crs(4326, 32749, always_xy=True).transform(113.02, -2.02)  # inside the lon/lat box
+    x, y = Transformer.from_crs(4326, 32749, always_xy=True).transform(113.02, -12.02)  # inside the lon/lat box (open sea)
     grid = RunGrid(CRS.from_epsg(32749), from_origin(x, y, 10, 10), 4, 4)
     with GridReader(RasterSource(str(tmp_path / "g.tif"), "g"), grid) as r:
         got = r.read(Window(0, 0, 4, 4))
@@ -144,10 +144,10 @@ def test_translated_read_equals_gdal_warper(tmp_path, shift):
     arr = rng.normal(10, 2, (45, 60)).astype("float32")
     arr[10:14, 20:25] = -9999  # a nodata hole
     arr[30, 40] = -9999
-    t = from_origin(500_000, 9_800_000, 2, 2)
+    t = from_origin(500_000, 8_650_000, 2, 2)
     _write(tmp_path / "p.tif", arr, t)
-    moved = from_origin(500_000 + shift[0], 9_800_000 + shift[1], 2, 2)
-    grid = RunGrid(CRS.from_epsg(32749), from_origin(499_990, 9_800_010, 2, 2), 70, 55)  # overhangs the file
+    moved = from_origin(500_000 + shift[0], 8_650_000 + shift[1], 2, 2)
+    grid = RunGrid(CRS.from_epsg(32749), from_origin(499_990, 8_650_010, 2, 2), 70, 55)  # overhangs the file
     src = RasterSource(str(tmp_path / "p.tif"), "p", src_transform=moved)
     with GridReader(src, grid) as r:
         assert r._translation is not None

@@ -217,6 +217,8 @@ def test_sources_name_every_set_with_status_and_the_methods(page, demo):
     assert "recalled" in src and "checked" in src
     # AR6 GWP-100 of CH4 (non-fossil) is 27.0: IPCC AR6 WG1 Table 7.15 (docs/sources.md, checked)
     assert "AR6" in src and "27" in src and "273" in src
+    # the flaming set's nitrogen oxides in the usual notation (NOx; IUPAC/IPCC writing), not upper-cased
+    assert "nox" in f.flaming.ef and "NOx" in src and "NOX" not in src
 
 
 def test_provenance_shows_sha256_prefixes_versions_and_seed(page, demo):

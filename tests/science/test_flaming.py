@@ -199,7 +199,7 @@ def test_events_by_hand():
 
 def test_events_with_large_projected_coordinates():
     # UTM-sized coordinates: 743 000 and 744 000 m are exactly 1000 m apart -> linked.
-    ev = flaming.assign_events([743_000.0, 744_000.0, 745_000.5], [9_715_000.0] * 3, [0.0, 10.0, 20.0])
+    ev = flaming.assign_events([743_000.0, 744_000.0, 745_000.5], [8_715_000.0] * 3, [0.0, 10.0, 20.0])
     assert ev.tolist() == [0, 0, 1]
 
 

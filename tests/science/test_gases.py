@@ -183,7 +183,7 @@ def test_mce_flaming_set_and_edge_cases():
 
 
 def test_wetlands_supplement_co2_c_equals_akagi_co2_times_12_over_44():
-    # DESIGN.md claim: the 2013 Wetlands Supplement's 464 g CO2-C/kg (recalled) is Akagi et al.
+    # The claim (docs/sources.md, the 464.45 row): the 2013 Wetlands Supplement's 464 g CO2-C/kg (recalled) is Akagi et al.
     # (2011)'s 1703 g CO2/kg (recalled) x 12/44 = 464.45, i.e. 464 after rounding.
     assert round(1703 * 12 / 44) == 464
     # With the IUPAC ratio 12.011/44.009 it would be 464.79 -> 465: the claim holds for 12/44 only,
