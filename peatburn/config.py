@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .errors import ConfigError, PhysicalRangeError, UnitError
+from .names import check_layer_name, printable
 from .units import DOCUMENTED_UNITS, conversion_factor, to_magnitude
 
 
@@ -394,7 +395,9 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         _check_keys(z, "zones", where)
         zp = _path(_require(z, "path", f"[zones] #{i + 1}", where), base, f"zones[{i}].path", where)
         zid = _require(z, "id", f"[zones] #{i + 1}", where)
-        zones.append(ZoneLayerConfig(path=zp, id=str(zid), name=str(z.get("name", zp.stem)), layer=z.get("layer")))
+        zname = printable(z.get("name", zp.stem))
+        check_layer_name(zname, f"{where}: [[zones]] #{i + 1}")
+        zones.append(ZoneLayerConfig(path=zp, id=str(zid), name=zname, layer=z.get("layer")))
     names = [z.name for z in zones]
     if len(set(names)) != len(names):
         raise ConfigError(f"{where}: two [[zones]] layers share the name {names}; give each a distinct `name`")
@@ -419,7 +422,7 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
     flaming = _flaming(raw["flaming"], base, where, force) if "flaming" in raw else None
 
     return RunConfig(
-        source=source, name=str(run.get("name", source.stem if source else "peatburn run")), year=year,
+        source=source, name=printable(run.get("name", source.stem if source else "peatburn run")), year=year,
         crs=run.get("crs"), burned_area=burned, burned_area_layer=ba.get("layer"), survey=survey, peat=peat,
         factors=factors, zones=tuple(zones), uncertainty=unc, block_size=block_size,
         water_table=water_table, plots=plots, tier1=tier1, flaming=flaming, fire_count_field=fire_count_field,

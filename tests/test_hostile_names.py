@@ -1,0 +1,116 @@
+"""Names a careless or hostile user may give: labels reserved for the tool's own rows, spreadsheet
+formulas, control characters. Expected texts are written by hand; the formula rule is the OWASP
+advice for CSV files ("CSV Injection": prefix text beginning with = + - @ tab CR with an apostrophe)."""
+
+import csv
+
+import geopandas as gpd
+import pytest
+from click.testing import CliRunner
+
+import peatburn
+from conftest import make_scene
+from peatburn import names
+from peatburn.cli.main import cli
+from peatburn.io.writers import spreadsheet_safe, write_csv
+
+FORMULA = '=HYPERLINK("http://x","y")'
+ESCAPED = "West\x1b[31mBlock\x00\u202e"
+
+
+def _run_cli(*args):
+    return CliRunner().invoke(cli, list(map(str, args)))
+
+
+def _rename_zones(scene, ids):
+    z = gpd.read_file(scene.folder / "zones.gpkg")
+    z["name"] = ids
+    z.to_file(scene.folder / "zones.gpkg", driver="GPKG")
+
+
+# --------------------------------------------------------------------------- units
+
+@pytest.mark.parametrize("text, expected", [
+    ("=1+1", "'=1+1"), ("+SUM(A1)", "'+SUM(A1)"), ("-2+3", "'-2+3"), ("@cmd", "'@cmd"),
+    ("\tx", "'\tx"), ("\rx", "'\rx"),
+    ("-5", "-5"), ("+1.5e3", "+1.5e3"), ("-.25", "-.25"),  # plain numbers: never formulas
+    ("West Block", "West Block"), ("a=b", "a=b"), ("", ""),
+])
+def test_spreadsheet_safe(text, expected):
+    assert spreadsheet_safe(text) == expected
+
+
+def test_csv_neutralises_text_but_not_numbers(tmp_path):
+    rows = [{"zone": FORMULA, "v": -1.5, "n": -3}, {"zone": "@x", "v": 2.0, "n": 4}]
+    write_csv(tmp_path / "t.csv", rows, ["zone", "v", "n"])
+    got = list(csv.reader(open(tmp_path / "t.csv", newline="")))
+    assert got == [["zone", "v", "n"], ["'" + FORMULA, "-1.5", "-3"], ["'@x", "2.0", "4"]]
+
+
+@pytest.mark.parametrize("text, expected", [
+    ("West\x1b[31mBlock\x00", "West[31mBlock"), ("a\tb\nc\r", "a b c "), ("ok\u202egnp", "okgnp"),
+    ("\x7fdel\x9bcsi", "delcsi"), ("Zarendi Hulu", "Zarendi Hulu"), ("é ü 漢", "é ü 漢"),
+])
+def test_printable(text, expected):
+    assert names.printable(text) == expected
+
+
+def test_reserved_scar_layer_matches_the_pipeline():
+    from peatburn.pipeline import SCAR_LAYER
+
+    assert names.SCAR_LAYER == SCAR_LAYER
+
+
+# --------------------------------------------------------------------------- runs
+
+def test_formula_and_control_characters_in_zone_ids(tmp_path):
+    s = make_scene(tmp_path / "s")
+    _rename_zones(s, [FORMULA, ESCAPED])
+    res = _run_cli("run", s.config, "--out", tmp_path / "o")
+    assert res.exit_code == 0, res.output
+    assert "\x1b" not in res.output
+    rows = list(csv.DictReader(open(tmp_path / "o" / "zones.csv", newline="", encoding="utf-8")))
+    zones = [r["zone"] for r in rows if r["layer"] == "zones"]
+    assert zones == ["'" + FORMULA, "West[31mBlock", "(outside every zone)"]
+    html = (tmp_path / "o" / "report.html").read_text(encoding="utf-8")
+    assert "\x1b" not in html and "\x00" not in html and "\u202e" not in html
+    # the API keeps the text as given (without the control characters)
+    r = peatburn.run(s.config, tmp_path / "o2")
+    assert [z["zone"] for z in r.zones if z["layer"] == "zones"][:2] == [FORMULA, "West[31mBlock"]
+
+
+@pytest.mark.parametrize("layer_name", ["total", " Total ", "__scars__"])
+def test_zone_layer_may_not_take_a_reserved_name(tmp_path, layer_name):
+    s = make_scene(tmp_path / "s")
+    s.config.write_text(s.config.read_text().replace('id = "name"\n', f'id = "name"\nname = "{layer_name}"\n'))
+    res = _run_cli("check", s.config)
+    assert res.exit_code == 2 and len(res.output.strip().splitlines()) == 1
+    assert "is reserved for the run total" in res.output and "another `name`" in res.output
+
+
+def test_zone_id_may_not_take_the_outside_label(tmp_path):
+    s = make_scene(tmp_path / "s")
+    s.config.write_text(s.config.read_text().replace('id = "name"\n', 'id = "name"\nname = "total_zones"\n'))
+    _rename_zones(s, ["all", "(Outside every zone)"])
+    res = _run_cli("run", s.config, "--out", tmp_path / "o")
+    assert res.exit_code == 2 and len(res.output.strip().splitlines()) == 1
+    assert "reserved for the area outside every zone" in res.output
+
+
+def test_total_row_is_unique_with_a_zone_named_all(tmp_path):
+    s = make_scene(tmp_path / "s")
+    _rename_zones(s, ["all", "total"])
+    r = peatburn.run(s.config, tmp_path / "o")
+    rows = list(csv.DictReader(open(tmp_path / "o" / "zones.csv", newline="")))
+    assert [(x["layer"], x["zone"]) for x in rows].count(("total", "all")) == 1
+    assert [(x["layer"], x["zone"]) for x in r.zones][-1] == ("total", "all")
+
+
+def test_run_name_with_control_characters(tmp_path):
+    s = make_scene(tmp_path / "s")
+    text = s.config.read_text()
+    assert 'name = "synthetic scene"' in text
+    s.config.write_text(text.replace('name = "synthetic scene"', 'name = "fire\\u001b]0;owned\\u0007 season"', 1))
+    res = _run_cli("check", s.config)
+    assert res.exit_code == 0, res.output
+    assert "\x1b" not in res.output and "\x07" not in res.output and "fire]0;owned season" in res.output
