@@ -56,6 +56,18 @@ class FactorsConfig:
     gwp: str
 
 
+#: Largest ``uncertainty.draws`` accepted. JCGM 101:2008 (GUM Supplement 1), §7.2, gives
+#: 10^6 Monte Carlo trials as usually enough for a 95 % coverage interval correct to one or two
+#: significant digits (recalled, unchecked); more only costs time (about 10 ns per draw, zone and
+#: quantity on this machine, docs/uncertainty.md) and memory (the draws hold about
+#: 8 x 16 x draws float64 per thread at least: 1 GiB per thread at this bound).
+MAX_DRAWS = 1_000_000
+#: Largest ``run.block_size`` [px]: a 4096 x 4096 block already holds 16.8 million pixels in each
+#: of the block's arrays (64 MiB per float32 array, and a block holds dozens); larger blocks only
+#: raise the memory of a run (common practice: blocks of a few hundred to a few thousand pixels).
+MAX_BLOCK_SIZE = 4096
+
+
 @dataclass(frozen=True)
 class ZoneLayerConfig:
     path: Path
@@ -325,8 +337,9 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
     if not isinstance(force, bool):
         raise ConfigError(f"{where}: `run.force_ranges` must be true or false, got {force!r}")
     block_size = run.get("block_size", 512)
-    if not isinstance(block_size, int) or block_size < 16:
-        raise ConfigError(f"{where}: `run.block_size` must be an integer >= 16, got {block_size!r}")
+    if not isinstance(block_size, int) or isinstance(block_size, bool) or not 16 <= block_size <= MAX_BLOCK_SIZE:
+        raise ConfigError(f"{where}: `run.block_size` must be an integer from 16 to {MAX_BLOCK_SIZE} pixels, got "
+                          f"{block_size!r}; 512 (the default) suits most runs")
 
     ba = _require(raw, "burned_area", "", where)
     if not isinstance(ba, dict):
@@ -408,6 +421,9 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
     seed = un.get("seed", 1)
     if not isinstance(draws, int) or isinstance(draws, bool) or draws < 0:
         raise ConfigError(f"{where}: `uncertainty.draws` must be a whole number >= 0, got {draws!r}")
+    if draws > MAX_DRAWS:
+        raise ConfigError(f"{where}: `uncertainty.draws` = {draws} is more than the {MAX_DRAWS:,} accepted (a 95 % "
+                          f"interval is already stable to a digit or two with that many); use 10000 for most runs")
     if not isinstance(seed, int) or isinstance(seed, bool):
         raise ConfigError(f"{where}: `uncertainty.seed` must be an integer, got {seed!r}")
     unc = UncertaintyConfig(

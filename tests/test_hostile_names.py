@@ -114,3 +114,38 @@ def test_run_name_with_control_characters(tmp_path):
     res = _run_cli("check", s.config)
     assert res.exit_code == 0, res.output
     assert "\x1b" not in res.output and "\x07" not in res.output and "fire]0;owned season" in res.output
+
+
+# --------------------------------------------------------------------------- absurd sizes
+
+@pytest.mark.parametrize("section, line, words", [
+    ("[uncertainty]", "draws = 1000000000", "`uncertainty.draws` = 1000000000 is more than the 1,000,000"),
+    ("[run]", "block_size = 100000", "`run.block_size` must be an integer from 16 to 4096"),
+])
+def test_absurd_sizes_are_refused_before_any_pixel(tmp_path, section, line, words):
+    s = make_scene(tmp_path / "s")
+    text = s.config.read_text()
+    if section == "[run]":
+        text = text.replace("block_size = 64", line)
+    else:
+        text += f"\n{section}\n{line}\n"
+    s.config.write_text(text)
+    for args in (("check", s.config), ("run", s.config, "--out", tmp_path / "o")):
+        res = _run_cli(*args)
+        assert res.exit_code == 2 and len(res.output.strip().splitlines()) == 1, res.output
+        assert words in res.output
+    assert not (tmp_path / "o").exists()
+
+
+def test_check_states_the_cost_of_the_draws(tmp_path):
+    # 3 zone rows (2 zones and the remainder) + the total = 4; 1,000,000 draws: at 61 ns per draw
+    # and zone, 0.244 s on one thread; memory: 8 arrays x 16 zones x 1e6 draws x 8 B = 1.024e9 B
+    # per thread (hand arithmetic).
+    s = make_scene(tmp_path / "s")
+    s.config.write_text(s.config.read_text() + "\n[uncertainty]\ndraws = 1000000\n")
+    res = _run_cli("check", s.config)
+    assert res.exit_code == 0, res.output
+    assert "uncertainty: 1,000,000 draws x 4 zone rows: about 0 s and " in res.output
+    from peatburn.intervals import draw_cost
+
+    assert draw_cost(1_000_000, 4, threads=1) == pytest.approx((0.244, 1.024e9))

@@ -33,6 +33,13 @@ def check_cmd(config, against):
     click.echo(f"burn scars: {len(inputs.scars.frame)} polygons from {cfg.burned_area}")
     for z, layer, ids in inputs.zones:
         click.echo(f"zones {z.name}: {len(ids)} polygons, id field {z.id!r}")
+    if cfg.uncertainty.draws:
+        from ..intervals import draw_cost
+
+        n_rows = sum(len(ids) + 1 for _, _, ids in inputs.zones) + 1
+        seconds, memory = draw_cost(cfg.uncertainty.draws, n_rows)
+        click.echo(f"uncertainty: {cfg.uncertainty.draws:,} draws x {n_rows:,} zone rows: about {seconds:.0f} s and "
+                   f"{memory / 2**20:.0f} MiB for the intervals (after the block pass)")
     if cfg.survey is not None:
         sv = cfg.survey
         sub = "raster" if hasattr(sv.subsidence_rate, "path") else sv.subsidence_rate
