@@ -127,7 +127,7 @@ SECONDS_PER_DRAW_ZONE = 6.1 / (10_000 * 10_000)
 
 
 def draw_cost(draws: int, n_zones: int, threads: int | None = None) -> tuple[float, float]:
-    """Rough time [s] and memory [bytes] of a run's zone draws, known before any pixel is read.
+    """Rough time [s] and largest memory [bytes] of a run's zone draws, known before any pixel is read.
 
     ``n_zones`` counts every row that gets an interval (each layer's zones and remainder, and the
     run total). Time: :data:`SECONDS_PER_DRAW_ZONE` x draws x zones / threads. Memory: the draws

@@ -38,8 +38,8 @@ def check_cmd(config, against):
 
         n_rows = sum(len(ids) + 1 for _, _, ids in inputs.zones) + 1
         seconds, memory = draw_cost(cfg.uncertainty.draws, n_rows)
-        click.echo(f"uncertainty: {cfg.uncertainty.draws:,} draws x {n_rows:,} zone rows: about {seconds:.0f} s and "
-                   f"{memory / 2**20:.0f} MiB for the intervals (after the block pass)")
+        click.echo(f"uncertainty: {cfg.uncertainty.draws:,} draws x {n_rows:,} zone rows: about {seconds:.0f} s "
+                   f"and at most {memory / 2**20:.0f} MiB for the intervals (after the block pass)")
     if cfg.survey is not None:
         sv = cfg.survey
         sub = "raster" if hasattr(sv.subsidence_rate, "path") else sv.subsidence_rate
