@@ -326,16 +326,24 @@ def _linked_components(x, y, t, distance_m, gap_s) -> np.ndarray:
     edge_a, edge_b = _cell_links(cells, split, split)
     label = _components(cells.n_nodes, edge_a, edge_b)
     edge_a, edge_b = _star(label)
+    pending_a, pending_b = [], []
     for offset in offsets:
         a = np.arange(n_cells)
         b = cells.neighbour(offset)
         keep = b >= 0
         a, b = a[keep], b[keep]
+        # ``label`` may lag behind the edges found since (it is a finer partition): it only
+        # skips pairs of cells known to be joined.
         same = cells.whole[a] & cells.whole[b] & (label[a] == label[b])
         new_a, new_b = _cell_links(cells, a[~same], b[~same])
-        if new_a.size:
-            label = _components(cells.n_nodes, np.r_[edge_a, new_a], np.r_[edge_b, new_b])
+        pending_a.append(new_a)
+        pending_b.append(new_b)
+        if sum(e.size for e in pending_a) > max(64, cells.n_nodes // 64):  # worth a new partition
+            label = _components(cells.n_nodes, np.concatenate([edge_a, *pending_a]),
+                                np.concatenate([edge_b, *pending_b]))
             edge_a, edge_b = _star(label)
+            pending_a, pending_b = [], []
+    label = _components(cells.n_nodes, np.concatenate([edge_a, *pending_a]), np.concatenate([edge_b, *pending_b]))
     return label[cells.node]
 
 
