@@ -243,9 +243,13 @@ class _Cells:
     def neighbour(self, offset) -> np.ndarray:
         """For each cell, the cell at ``offset`` (dx, dy, dt in cells), -1 where none."""
         ox, oy, ot = offset
-        rxy = _lookup(self.uxy, (self.ix + ox) * self.ny + self.iy + oy)
-        key = np.where(rxy >= 0, rxy * self.nt + self.it + ot, -1)
-        return _lookup(self.ukey, key)
+        if getattr(self, "_last_xy", (None,))[0] != (ox, oy):  # consecutive offsets often share dx, dy
+            rxy = _lookup(self.uxy, (self.ix + ox) * self.ny + self.iy + oy)
+            self._last_xy = ((ox, oy), np.flatnonzero(rxy >= 0), rxy[rxy >= 0])
+        _, where, rxy = self._last_xy
+        out = np.full(self.ix.size, -1, dtype=np.int64)
+        out[where] = _lookup(self.ukey, rxy * self.nt + self.it[where] + ot)
+        return out
 
     def linked(self, i, j) -> np.ndarray:
         """The rule of :func:`assign_events` for detection pairs (i, j) (cell-sorted positions)."""
@@ -319,7 +323,8 @@ def _linked_components(x, y, t, distance_m, gap_s) -> np.ndarray:
     cells = _Cells(x, y, t, distance_m, gap_s)
     offsets = [(ox, oy, ot) for ot in range(-cells.t_reach, cells.t_reach + 1)
                for ox in range(-2, 3) for oy in range(-2, 3) if (ot, ox, oy) > (0, 0, 0)]
-    offsets.sort(key=lambda o: (abs(o[2]), max(abs(o[0]), abs(o[1])), abs(o[0]) + abs(o[1])))
+    # Nearest in space first; the time offsets of one (dx, dy) together (they share a look-up).
+    offsets.sort(key=lambda o: (max(abs(o[0]), abs(o[1])), abs(o[0]) + abs(o[1]), o[0], o[1], abs(o[2])))
     n_cells = cells.count.size
     # Cells that are not whole: their detections are compared with each other too.
     split = np.flatnonzero(~cells.whole)
