@@ -66,6 +66,9 @@ MAX_DRAWS = 1_000_000
 #: of the block's arrays (64 MiB per float32 array, and a block holds dozens); larger blocks only
 #: raise the memory of a run (common practice: blocks of a few hundred to a few thousand pixels).
 MAX_BLOCK_SIZE = 4096
+#: Smallest ``run.resolution`` [m]: 1 cm, finer than the elevation grids of airborne or drone
+#: surveys (common practice: decimetres to a metre); a finer pixel only multiplies the pixels.
+MIN_RESOLUTION_M = 0.01
 
 
 @dataclass(frozen=True)
@@ -374,6 +377,9 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
     resolution = run.get("resolution")
     if resolution is not None:
         resolution = to_magnitude(resolution, "m", "run.resolution")
+        if not MIN_RESOLUTION_M <= resolution < float("inf"):
+            raise ConfigError(f"{where}: `run.resolution` = {resolution:g} m; it must be at least {MIN_RESOLUTION_M:g} m "
+                              f"(finer than any survey grid); give the pixel size in metres, such as 1 or \"2 m\"")
 
     peat_raw = _require(raw, "peat", "", where)
     _check_keys(peat_raw, "peat", where)

@@ -149,3 +149,21 @@ def test_check_states_the_cost_of_the_draws(tmp_path):
     from peatburn.intervals import draw_cost
 
     assert draw_cost(1_000_000, 4, threads=1) == pytest.approx((0.244, 1.024e9))
+
+
+def test_absurd_resolution_is_refused(tmp_path):
+    s = make_scene(tmp_path / "s")
+    s.config.write_text(s.config.read_text().replace("block_size = 64", 'block_size = 64\nresolution = "1 um"'))
+    res = _run_cli("check", s.config)
+    assert res.exit_code == 2 and "`run.resolution` = 1e-06 m; it must be at least 0.01 m" in res.output
+
+
+def test_grid_side_beyond_the_geotiff_limit_is_refused():
+    from affine import Affine
+    from rasterio.crs import CRS
+
+    from peatburn.errors import GridError
+    from peatburn.grid import RunGrid
+
+    with pytest.raises(GridError, match="2147483647"):  # 2^31 - 1, GDAL's int raster sizes
+        RunGrid(CRS.from_epsg(32749), Affine(1e-3, 0, 0, 0, -1e-3, 0), 2**31, 10)
