@@ -126,6 +126,14 @@ def _threads() -> int:
 SECONDS_PER_DRAW_ZONE = 6.1 / (10_000 * 10_000)
 
 
+def _draw_threads(draws: int) -> int:
+    """Threads for the zone draws: every core (:func:`_threads`), but no more than keep the draws
+    within ``MAX_FLOATS`` when each thread holds its smallest chunk (8 arrays of 16 zones x draws):
+    with many draws, a machine of many cores would otherwise multiply the memory by its cores. The
+    result does not depend on the threads."""
+    return max(1, min(_threads(), unc.MAX_FLOATS // max(8 * 16 * draws, 1)))
+
+
 def draw_cost(draws: int, n_zones: int, threads: int | None = None) -> tuple[float, float]:
     """Rough time [s] and largest memory [bytes] of a run's zone draws, known before any pixel is read.
 
@@ -134,7 +142,7 @@ def draw_cost(draws: int, n_zones: int, threads: int | None = None) -> tuple[flo
     hold at most ``MAX_FLOATS`` float64 (science.uncertainty), or, when the draws are too many for
     that, 8 arrays of 16 zones x draws per thread.
     """
-    threads = threads or _threads()
+    threads = threads or _draw_threads(draws)
     seconds = SECONDS_PER_DRAW_ZONE * draws * max(n_zones, 1) / threads
     memory = 8.0 * max(unc.MAX_FLOATS, 8 * 16 * draws * threads) if draws else 0.0
     return seconds, memory
@@ -154,7 +162,7 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid) -> d
         idx = np.arange(1, len(ids) + 2)  # zones, then the outside bin
         fl = flame.layers[li][1] if flame else None
         ms = _model_sums(acc, idx, fl, frp, factors.vegetation_carbon_fraction)
-        iv = unc.intervals(ms, params, draws=draws, seed=seed, workers=_threads(), quantities=_WITH_COLUMN)
+        iv = unc.intervals(ms, params, draws=draws, seed=seed, workers=_draw_threads(draws), quantities=_WITH_COLUMN)
         con = unc.contributions(ms, params, quantity="carbon_kg")
         for k in range(len(idx)):
             _fill(rows[row_i + k], iv, k)

@@ -167,3 +167,16 @@ def test_grid_side_beyond_the_geotiff_limit_is_refused():
 
     with pytest.raises(GridError, match="2147483647"):  # 2^31 - 1, GDAL's int raster sizes
         RunGrid(CRS.from_epsg(32749), Affine(1e-3, 0, 0, 0, -1e-3, 0), 2**31, 10)
+
+
+def test_draw_memory_does_not_grow_with_the_cores(monkeypatch):
+    # On a 64-core machine each thread would hold 8 arrays of 16 zones x draws: with 1,000,000
+    # draws 64 x 1.024e9 B. The threads are capped so that the draws stay within 50 million floats
+    # or one thread's least (hand arithmetic: 5e7 // (8 x 16 x 1e4) = 39 threads at 10,000 draws).
+    from peatburn import intervals
+
+    monkeypatch.setattr(intervals, "_threads", lambda: 64)
+    assert intervals._draw_threads(1_000_000) == 1
+    assert intervals._draw_threads(10_000) == 39
+    assert intervals._draw_threads(100) == 64
+    assert intervals.draw_cost(1_000_000, 10)[1] == pytest.approx(1.024e9)
