@@ -15,6 +15,7 @@ from .options import config_argument, handle_errors
 def check_cmd(config, against):
     """Validate CONFIG and its inputs and print what a run would do, without running it."""
     from ..config import load_config
+    from ..names import printable
     from ..factors import load_factor_set, load_gwp_set
     from ..outputs.provenance import check_against
     from ..pipeline import open_inputs
@@ -55,7 +56,7 @@ def check_cmd(config, against):
         click.echo(f"flaming: {cfg.flaming.method} route")
     click.echo(f"smouldering factors: {sm.name} ({sm.citation}); GWP: {gwp.name}")
     for n in inputs.notes:
-        click.echo(f"note: {n}")
+        click.echo(f"note: {printable(n)}")  # notes may quote names from input files
     if against:
         with open(against, encoding="utf-8") as fh:
             record = json.load(fh)
