@@ -227,9 +227,9 @@ class _Cells:
         self.start = np.r_[0, np.cumsum(self.count)[:-1]]
         first = self.order[self.start]
         self.ix, self.iy, self.it = ix[first], iy[first], it[first]
-        # A cell is "whole" when its detections are all linked to each other: its bounding box
-        # meets the rule. Floating-point subtraction and hypot are monotonic, so every pair inside
-        # then passes the same test as in _linked (always, but for rounding at the bounds).
+        # A cell is "whole" when its bounding box meets the rule: floating-point subtraction and
+        # hypot are monotonic, so every pair inside then passes the test of ``linked``. By the
+        # choice of the sides every cell is whole, but for rounding at the bounds.
         xs, ys, ts = x[self.order], y[self.order], t[self.order]
         span = [np.maximum.reduceat(v, self.start) - np.minimum.reduceat(v, self.start) for v in (xs, ys, ts)]
         self.whole = (np.hypot(span[0], span[1]) <= distance_m) & (span[2] <= gap_s)
@@ -239,11 +239,12 @@ class _Cells:
         self.node = cell.copy()
         self.node[split_point] = n_cells + np.arange(int(split_point.sum()))
         self.n_nodes = n_cells + int(split_point.sum())
+        self._last_xy = (None, None, None)  # the latest (dx, dy) look-up (see neighbour)
 
     def neighbour(self, offset) -> np.ndarray:
         """For each cell, the cell at ``offset`` (dx, dy, dt in cells), -1 where none."""
         ox, oy, ot = offset
-        if getattr(self, "_last_xy", (None,))[0] != (ox, oy):  # consecutive offsets often share dx, dy
+        if self._last_xy[0] != (ox, oy):  # consecutive offsets often share dx, dy
             rxy = _lookup(self.uxy, (self.ix + ox) * self.ny + self.iy + oy)
             self._last_xy = ((ox, oy), np.flatnonzero(rxy >= 0), rxy[rxy >= 0])
         _, where, rxy = self._last_xy
