@@ -177,6 +177,10 @@ _PAIR_BUDGET = 1 << 19
 #: cells): in dense detections one of them almost always links the two cells, so the full test of
 #: every pair is rarely needed. The result does not depend on it.
 _SAMPLE = 8
+#: Whether a cell whose bounding box meets the rule is joined at once (False: every cell is
+#: treated as one that fails the check, its detections tested pair by pair; for the tests of
+#: that path, which rounding alone rarely reaches). The result does not depend on it.
+_WHOLE_CELLS = True
 
 
 def _lookup(sorted_unique: np.ndarray, values: np.ndarray) -> np.ndarray:
@@ -232,7 +236,7 @@ class _Cells:
         # choice of the sides every cell is whole, but for rounding at the bounds.
         xs, ys, ts = x[self.order], y[self.order], t[self.order]
         span = [np.maximum.reduceat(v, self.start) - np.minimum.reduceat(v, self.start) for v in (xs, ys, ts)]
-        self.whole = (np.hypot(span[0], span[1]) <= distance_m) & (span[2] <= gap_s)
+        self.whole = (np.hypot(span[0], span[1]) <= distance_m) & (span[2] <= gap_s) & _WHOLE_CELLS
         # Graph nodes: one per whole cell, one per detection of a cell that is not whole.
         n_cells = self.count.size
         split_point = ~self.whole[cell]
@@ -350,7 +354,8 @@ def _linked_components(x, y, t, distance_m, gap_s) -> np.ndarray:
             edge_a, edge_b = _star(label)
             pending_a, pending_b = [], []
     label = _components(cells.n_nodes, np.concatenate([edge_a, *pending_a]), np.concatenate([edge_b, *pending_b]))
-    return label[cells.node]
+    # numbered 0..k-1 over the detections (the node of a cell that is not whole holds none)
+    return np.unique(label[cells.node], return_inverse=True)[1].reshape(-1)
 
 
 def _components(n: int, i: np.ndarray, j: np.ndarray) -> np.ndarray:

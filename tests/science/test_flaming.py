@@ -226,15 +226,15 @@ class _budget:
     """Set the pair budget and sample size of the event grouping for one block (results must not
     depend on them)."""
 
-    def __init__(self, budget, sample):
-        self.new = (budget, sample)
+    def __init__(self, budget, sample, whole=True):
+        self.new = (budget, sample, whole)
 
     def __enter__(self):
-        self.old = (flaming._PAIR_BUDGET, flaming._SAMPLE)
-        flaming._PAIR_BUDGET, flaming._SAMPLE = self.new
+        self.old = (flaming._PAIR_BUDGET, flaming._SAMPLE, flaming._WHOLE_CELLS)
+        flaming._PAIR_BUDGET, flaming._SAMPLE, flaming._WHOLE_CELLS = self.new
 
     def __exit__(self, *exc):
-        flaming._PAIR_BUDGET, flaming._SAMPLE = self.old
+        flaming._PAIR_BUDGET, flaming._SAMPLE, flaming._WHOLE_CELLS = self.old
 
 
 def _scipy_components(x, y, t, d, g):
@@ -257,8 +257,10 @@ def _same_partition(a, b) -> bool:
 @settings(max_examples=40, deadline=None)
 @given(st.integers(0, 2**32 - 1), st.integers(1, 400), st.sampled_from([50.0, 1000.0, 5000.0]),
        st.sampled_from([0.0, 600.0, DAY]), st.sampled_from(["dense", "spread", "clumps"]),
-       st.sampled_from([(1, 1), (5, 3), (1 << 19, 8)]))
+       st.sampled_from([(1, 1, True), (5, 3, True), (1 << 19, 8, True), (7, 2, False), (1 << 19, 8, False)]))
 def test_events_match_scipy_on_the_brute_force_graph(seed, n, d, g, layout, budget_sample):
+    # (pair budget, sample, whole cells): False tests every cell's detections pair by pair, the
+    # path of cells that fail the bounding-box check through rounding.
     # Float positions and times (no lattice), three layouts: all packed in a few cells, spread
     # over a large area (many singletons), and clumps lying close to the distance bound.
     rng = np.random.default_rng(seed)
