@@ -11,6 +11,8 @@ blocks   the CPU-bound part alone: map_blocks(process_block) over every window, 
          and dropped (no writing), after the plan is built (worker processes started before the
          co-registration, as in a run, unless early=False).
 write    one float32 raster written by BlockRasterWriter (memory of the writer alone).
+events   the grouping of active-fire detections into events and their FRE alone, on a CSV of
+         detections (x, y in metres, time, frp_mw).
 main_writes  the main process's work per block in a parallel run (unpickle, sums, three raster
          writes), one raster after another and through the writing threads.
 """
@@ -257,8 +259,27 @@ def task_main_writes(config, out, repeat=3):
             "one_after_another_s": times[False], "threads_s": times[True]}
 
 
+def task_events(path):
+    import numpy as np
+    import pandas as pd
+
+    from peatburn.science import flaming
+
+    f = pd.read_csv(path)
+    t_s = (pd.to_datetime(f["time"], utc=True) - pd.Timestamp(0, tz="UTC")).dt.total_seconds().to_numpy()
+    x, y = f["x"].to_numpy(float), f["y"].to_numpy(float)
+    read_mib = _hwm()
+    t = time.perf_counter()
+    ev = flaming.assign_events(x, y, t_s)
+    grouping = time.perf_counter() - t
+    energy = flaming.detection_energy(t_s, f["frp_mw"].to_numpy(float), ev)
+    return {"wall_s": time.perf_counter() - t, "grouping_s": grouping, "n": int(len(f)),
+            "events": int(ev.max()) + 1, "fre_mj": float(np.sum(energy)), "read_mib": read_mib,
+            "hwm_mib": _hwm()}
+
+
 if __name__ == "__main__":
     task, kwargs = sys.argv[1], json.loads(sys.argv[2])
     res = {"run": task_run, "floor": task_floor, "blocks": task_blocks, "write": task_write,
-           "main_writes": task_main_writes}[task](**kwargs)
+           "main_writes": task_main_writes, "events": task_events}[task](**kwargs)
     print(json.dumps(res))

@@ -1,13 +1,13 @@
 """Run every benchmark of the scale work and print the ratios (``make bench``).
 
-    python benchmarks/run_all.py [--only io,memory,workers,zones,draws,writes]
+    python benchmarks/run_all.py [--only io,memory,workers,zones,draws,writes,detections]
 
 Synthetic scenes are made on first use in $PEATBURN_BENCH_DIR (default /tmp/peatburn-bench,
 about 0.5 GB for the 67 Mpx pair) and reused. Takes about 6.5 minutes on 2 cores (each
 benchmark under 2). Timings keep the fastest of 2 or 3 runs and wait for the machine to be idle.
 The results are also written to $PEATBURN_BENCH_DIR/results.json. The five benchmarks of the
 scale issue are io (1), memory (2), workers (3), zones (4) and draws (5); writes times the main
-process's share of a parallel run.
+process's share of a parallel run; detections (7) groups a million dense active-fire detections.
 """
 
 from __future__ import annotations
@@ -24,7 +24,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import _common as c  # noqa: E402
 
 BENCHES = {"io": "bench_io", "memory": "bench_memory", "workers": "bench_workers", "zones": "bench_zones",
-           "draws": "bench_draws", "writes": "bench_writes"}
+           "draws": "bench_draws", "writes": "bench_writes", "detections": "bench_detections"}
 
 
 def main(argv=None):

@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .errors import ConfigError, PhysicalRangeError, UnitError
+from .names import check_layer_name, printable
 from .units import DOCUMENTED_UNITS, conversion_factor, to_magnitude
 
 
@@ -59,6 +60,21 @@ class FactorsConfig:
     smouldering: str
     flaming: str
     gwp: str
+
+
+#: Largest ``uncertainty.draws`` accepted. JCGM 101:2008 (GUM Supplement 1), §7.2, gives
+#: 10^6 Monte Carlo trials as usually enough for a 95 % coverage interval correct to one or two
+#: significant digits (recalled, unchecked); more only costs time (about 10 ns per draw, zone and
+#: quantity on this machine, docs/uncertainty.md) and memory (the draws hold about
+#: 8 x 16 x draws float64 per thread at least: 1 GiB per thread at this bound).
+MAX_DRAWS = 1_000_000
+#: Largest ``run.block_size`` [px]: a 4096 x 4096 block already holds 16.8 million pixels in each
+#: of the block's arrays (64 MiB per float32 array, and a block holds dozens); larger blocks only
+#: raise the memory of a run (common practice: blocks of a few hundred to a few thousand pixels).
+MAX_BLOCK_SIZE = 4096
+#: Smallest ``run.resolution`` [m]: 1 cm, finer than the elevation grids of airborne or drone
+#: surveys (common practice: decimetres to a metre); a finer pixel only multiplies the pixels.
+MIN_RESOLUTION_M = 0.01
 
 
 @dataclass(frozen=True)
@@ -349,8 +365,9 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
     if not isinstance(force, bool):
         raise ConfigError(f"{where}: `run.force_ranges` must be true or false, got {force!r}")
     block_size = run.get("block_size", 512)
-    if not isinstance(block_size, int) or block_size < 16:
-        raise ConfigError(f"{where}: `run.block_size` must be an integer >= 16, got {block_size!r}")
+    if not isinstance(block_size, int) or isinstance(block_size, bool) or not 16 <= block_size <= MAX_BLOCK_SIZE:
+        raise ConfigError(f"{where}: `run.block_size` must be an integer from 16 to {MAX_BLOCK_SIZE} pixels, got "
+                          f"{block_size!r}; 512 (the default) suits most runs")
 
     ba = _require(raw, "burned_area", "", where)
     if not isinstance(ba, dict):
@@ -386,6 +403,9 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
     resolution = run.get("resolution")
     if resolution is not None:
         resolution = to_magnitude(resolution, "m", "run.resolution")
+        if not MIN_RESOLUTION_M <= resolution < float("inf"):
+            raise ConfigError(f"{where}: `run.resolution` = {resolution:g} m; it must be at least {MIN_RESOLUTION_M:g} m "
+                              f"(finer than any survey grid); give the pixel size in metres, such as 1 or \"2 m\"")
 
     peat_raw = _require(raw, "peat", "", where)
     _check_keys(peat_raw, "peat", where)
@@ -423,7 +443,9 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         _check_keys(z, "zones", where)
         zp = _path(_require(z, "path", f"[zones] #{i + 1}", where), base, f"zones[{i}].path", where)
         zid = _require(z, "id", f"[zones] #{i + 1}", where)
-        zones.append(ZoneLayerConfig(path=zp, id=str(zid), name=str(z.get("name", zp.stem)), layer=z.get("layer")))
+        zname = printable(z.get("name", zp.stem))
+        check_layer_name(zname, f"{where}: [[zones]] #{i + 1}")
+        zones.append(ZoneLayerConfig(path=zp, id=str(zid), name=zname, layer=z.get("layer")))
     names = [z.name for z in zones]
     if len(set(names)) != len(names):
         raise ConfigError(f"{where}: two [[zones]] layers share the name {names}; give each a distinct `name`")
@@ -434,6 +456,9 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
     seed = un.get("seed", 1)
     if not isinstance(draws, int) or isinstance(draws, bool) or draws < 0:
         raise ConfigError(f"{where}: `uncertainty.draws` must be a whole number >= 0, got {draws!r}")
+    if draws > MAX_DRAWS:
+        raise ConfigError(f"{where}: `uncertainty.draws` = {draws} is more than the {MAX_DRAWS:,} accepted (a 95 % "
+                          f"interval is already stable to a digit or two with that many); use 10000 for most runs")
     if not isinstance(seed, int) or isinstance(seed, bool):
         raise ConfigError(f"{where}: `uncertainty.seed` must be an integer, got {seed!r}")
     unc = UncertaintyConfig(
@@ -448,7 +473,7 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
     flaming = _flaming(raw["flaming"], base, where, force) if "flaming" in raw else None
 
     return RunConfig(
-        source=source, name=str(run.get("name", source.stem if source else "peatburn run")), year=year,
+        source=source, name=printable(run.get("name", source.stem if source else "peatburn run")), year=year,
         crs=run.get("crs"), burned_area=burned, burned_area_layer=ba.get("layer"), survey=survey, peat=peat,
         factors=factors, zones=tuple(zones), uncertainty=unc, block_size=block_size,
         water_table=water_table, plots=plots, tier1=tier1, flaming=flaming, fire_count_field=fire_count_field,

@@ -18,6 +18,10 @@ from rasterio.windows import Window
 
 from .errors import CRSError
 
+#: Largest side of a run grid [px]: GDAL holds raster sizes in a C int (2^31 - 1; common
+#: practice), so no GeoTIFF output can be wider.
+MAX_SIDE_PX = 2**31 - 1
+
 
 def normalise_crs(value, what: str = "input") -> CRS:
     """Return a :class:`rasterio.crs.CRS` for any CRS input: EPSG code, "EPSG:…" string, WKT, PROJ
@@ -59,6 +63,13 @@ class RunGrid:
     transform: Affine
     width: int
     height: int
+
+    def __post_init__(self):
+        if not (1 <= self.width <= MAX_SIDE_PX and 1 <= self.height <= MAX_SIDE_PX):
+            from .errors import GridError
+
+            raise GridError(f"run grid of {self.width} x {self.height} pixels: each side must be 1 to {MAX_SIDE_PX} "
+                            f"pixels (the GeoTIFF outputs' limit); set a coarser run.resolution or a smaller area")
 
     @property
     def shape(self) -> tuple[int, int]:

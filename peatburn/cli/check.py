@@ -15,6 +15,7 @@ from .options import config_argument, handle_errors
 def check_cmd(config, against):
     """Validate CONFIG and its inputs and print what a run would do, without running it."""
     from ..config import load_config
+    from ..names import printable
     from ..factors import load_factor_set, load_gwp_set
     from ..outputs.provenance import check_against
     from ..engine.pipeline import open_inputs
@@ -33,6 +34,13 @@ def check_cmd(config, against):
     click.echo(f"burn scars: {len(inputs.scars.frame)} polygons from {cfg.burned_area}")
     for z, layer, ids in inputs.zones:
         click.echo(f"zones {z.name}: {len(ids)} polygons, id field {z.id!r}")
+    if cfg.uncertainty.draws:
+        from ..engine.intervals import draw_cost
+
+        n_rows = sum(len(ids) + 1 for _, _, ids in inputs.zones) + 1
+        seconds, memory = draw_cost(cfg.uncertainty.draws, n_rows)
+        click.echo(f"uncertainty: {cfg.uncertainty.draws:,} draws x {n_rows:,} zone rows: about {seconds:.0f} s "
+                   f"and at most {memory / 2**20:.0f} MiB for the intervals (after the block pass)")
     if cfg.survey is not None:
         sv = cfg.survey
         sub = "raster" if hasattr(sv.subsidence_rate, "path") else sv.subsidence_rate
@@ -55,7 +63,7 @@ def check_cmd(config, against):
         click.echo(f"flaming: {cfg.flaming.method} route")
     click.echo(f"smouldering factors: {sm.name} ({sm.citation}); GWP: {gwp.name}")
     for n in inputs.notes:
-        click.echo(f"note: {n}")
+        click.echo(f"note: {printable(n)}")  # notes may quote names from input files
     if against:
         with open(against, encoding="utf-8") as fh:
             record = json.load(fh)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import click
 
 from ..engine.runner import CAUTIONS
+from ..names import printable
 
 
 def _n(v) -> str:
@@ -29,7 +30,7 @@ def print_summary(result) -> None:
     cols = [("layer", "layer"), ("zone", "zone"), ("burned_area_ha", "area [ha]"),
             ("mean_burn_depth_m", "depth [m]"), ("carbon_smouldering_t", "C below ground [t]"),
             ("co2e_smouldering_t", "CO2e below [t]"), ("carbon_flaming_t", "C flaming [t]")]
-    rows = [[str(r[k]) if k in ("layer", "zone") else (_iv(r, k) if k.endswith("_t") else _n(r[k]))
+    rows = [[printable(r[k]) if k in ("layer", "zone") else (_iv(r, k) if k.endswith("_t") else _n(r[k]))
              for k, _ in cols] for r in result.zones]
     head = [h for _, h in cols]
     widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(head)]
@@ -60,7 +61,7 @@ def print_summary(result) -> None:
     else:
         click.echo("intervals: none (uncertainty.draws = 0): central estimates only")
     for n in result.totals.get("notes", []):
-        click.echo(f"note: {n}")
+        click.echo(f"note: {printable(n)}")  # notes may quote names from input files
     click.echo("")
     for c in CAUTIONS:
         click.echo(f"caution: {c}")

@@ -148,6 +148,33 @@ def _threads() -> int:
         return max(1, os.cpu_count() or 1)
 
 
+#: Time of the zone draws per draw and zone [s] on one thread, for the quantities a run draws:
+#: 6.1 s for 10,000 draws x 10,000 zones on the 2-core machine of docs/uncertainty.md (measured).
+SECONDS_PER_DRAW_ZONE = 6.1 / (10_000 * 10_000)
+
+
+def _draw_threads(draws: int) -> int:
+    """Threads for the zone draws: every core (:func:`_threads`), but no more than keep the draws
+    within ``MAX_FLOATS`` when each thread holds its smallest chunk (8 arrays of 16 zones x draws):
+    with many draws, a machine of many cores would otherwise multiply the memory by its cores. The
+    result does not depend on the threads."""
+    return max(1, min(_threads(), unc.MAX_FLOATS // max(8 * 16 * draws, 1)))
+
+
+def draw_cost(draws: int, n_zones: int, threads: int | None = None) -> tuple[float, float]:
+    """Rough time [s] and largest memory [bytes] of a run's zone draws, known before any pixel is read.
+
+    ``n_zones`` counts every row that gets an interval (each layer's zones and remainder, and the
+    run total). Time: :data:`SECONDS_PER_DRAW_ZONE` x draws x zones / threads. Memory: the draws
+    hold at most ``MAX_FLOATS`` float64 (science.uncertainty), or, when the draws are too many for
+    that, 8 arrays of 16 zones x draws per thread.
+    """
+    threads = threads or _draw_threads(draws)
+    seconds = SECONDS_PER_DRAW_ZONE * draws * max(n_zones, 1) / threads
+    memory = 8.0 * max(unc.MAX_FLOATS, 8 * 16 * draws * threads) if draws else 0.0
+    return seconds, memory
+
+
 def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire_rows=None, fill_cv=0.0) -> dict:
     """Fill ``<col>_lo``/``<col>_hi`` of every interval column in ``rows`` (in place), and of the
     smouldering carbon in ``fire_rows`` (fires.csv, one per burn-scar polygon, when given), and
@@ -166,7 +193,7 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
         idx = np.arange(1, len(ids) + 2)  # zones, then the outside bin
         fl = flame.layers[li][1] if flame else None
         ms = _model_sums(acc, idx, fl, frp, factors.vegetation_carbon_fraction)
-        iv = unc.intervals(ms, params, draws=draws, seed=seed, workers=_threads(), quantities=_WITH_COLUMN)
+        iv = unc.intervals(ms, params, draws=draws, seed=seed, workers=_draw_threads(draws), quantities=_WITH_COLUMN)
         con = unc.contributions(ms, params, quantity="carbon_kg")
         for k in range(len(idx)):
             _fill(rows[row_i + k], iv, k)
@@ -202,7 +229,7 @@ def _fill_fires(fire_rows, acc, flame_layer, params, draws, seed, frp, vegetatio
     the scar layer's sums (shared pixels of repeat burns split between their fires)."""
     idx = np.arange(1, len(fire_rows) + 1)
     ms = _model_sums(acc, idx, flame_layer, frp, vegetation_cf)
-    iv = unc.intervals(ms, params, draws=draws, seed=seed, workers=_threads(), quantities={"carbon_kg"})
+    iv = unc.intervals(ms, params, draws=draws, seed=seed, workers=_draw_threads(draws), quantities={"carbon_kg"})
     for k, row in enumerate(fire_rows):
         _fill(row, iv, k)
 

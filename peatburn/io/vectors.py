@@ -18,6 +18,7 @@ from rasterio.windows import Window
 
 from ..errors import CRSError, InputFileError, MissingInputError, ZoneError
 from ..grid import RunGrid, normalise_crs
+from ..names import check_zone_id, printable
 
 
 @dataclass
@@ -120,12 +121,15 @@ class WindowRasterizer:
 
 
 def zone_ids(layer: PolygonLayer, id_field: str) -> list[str]:
-    """The zone ids of ``layer`` as strings; errors name the fields that exist and duplicates."""
+    """The zone ids of ``layer`` as strings without control characters (:func:`peatburn.names.printable`);
+    errors name the fields that exist, duplicates and an id reserved for the tool's own rows."""
     fields = [c for c in layer.frame.columns if c != layer.frame.geometry.name]
     if id_field not in layer.frame.columns:
         raise ZoneError(f"{layer.what}: {layer.path} has no field {id_field!r}; fields are: {', '.join(fields)}; "
                         f"set `id` to one of them")
-    ids = layer.frame[id_field].astype(str).tolist()
+    ids = [printable(i) for i in layer.frame[id_field].astype(str).tolist()]
+    for i in ids:
+        check_zone_id(i, layer.what, layer.path, id_field)
     seen, dup = set(), []
     for i in ids:
         if i in seen:

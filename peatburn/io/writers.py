@@ -91,7 +91,8 @@ def write_csv(final, rows: list[dict], columns: list[str]) -> Path:
     """Write ``rows`` (dicts; keys outside ``columns`` are ignored, missing ones are empty) as CSV.
 
     Floats are rounded to 9 decimals and written in their shortest form (``repr``); NaN, infinities
-    and None are written as empty fields. Lines end in CRLF (RFC 4180), so that a text field holding
+    and None are written as empty fields; text that a spreadsheet would run as a formula is
+    neutralised (:func:`spreadsheet_safe`). Lines end in CRLF (RFC 4180), so that a text field holding
     a carriage return is quoted (with a bare LF ending, the csv module leaves it unquoted and a
     reader splits the row there).
     """
@@ -124,7 +125,29 @@ def _fmt(v):
         if not math.isfinite(v):
             return ""
         return repr(float(round(float(v), 9)))
+    if isinstance(v, str):
+        return spreadsheet_safe(v)
     return "" if v is None else v
+
+
+#: First characters with which a spreadsheet reads a text field as a formula: = + - @, and tab
+#: and carriage return (OWASP, "CSV Injection"; common practice).
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+_PLAIN_NUMBER = re.compile(r"[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?")
+
+
+def spreadsheet_safe(text: str) -> str:
+    """A CSV text field that a spreadsheet shows as text, never runs as a formula.
+
+    A field beginning with ``=``, ``+``, ``-``, ``@``, tab or carriage return gets a leading
+    apostrophe (the OWASP advice for CSV files opened in spreadsheets; common practice), unless
+    it is a plain number such as ``-5`` or ``+1.5e3``, which no spreadsheet reads as a formula.
+    Only text fields pass here: numbers are written by :func:`write_csv` as numbers. The
+    GeoPackage and JSON outputs keep the text as given.
+    """
+    if text.startswith(_FORMULA_START) and not _PLAIN_NUMBER.fullmatch(text):
+        return "'" + text
+    return text
 
 
 def _jsonable(obj):

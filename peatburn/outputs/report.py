@@ -33,6 +33,7 @@ import numpy as np
 
 from ..factors import gas_label
 from ..io.writers import write_text
+from ..names import printable
 from .tables import OUTSIDE, TOTAL_LAYER
 
 #: The Okabe-Ito palette (Okabe & Ito 2008), by colour name.
@@ -859,7 +860,7 @@ def _zone_frames(cfg, crs) -> list:
         try:
             layer = read_polygons(z.path, crs, z.name, z.layer)
             frame = layer.frame
-            ids = frame[z.id].astype(str).tolist() if z.id in frame.columns else None
+            ids = [printable(i) for i in frame[z.id].astype(str)] if z.id in frame.columns else None
             out.append((z.name, frame, ids))
         except Exception:  # a map without outlines is still a map
             continue

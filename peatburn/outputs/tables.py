@@ -12,6 +12,7 @@ import math
 import numpy as np
 
 from ..factors import gas_label
+from ..names import OUTSIDE, TOTAL_LAYER, TOTAL_ZONE  # noqa: F401  (reserved labels, see peatburn.names)
 from ..science import gases
 
 GASES = ("co2", "ch4", "co")
@@ -37,8 +38,6 @@ INTERVAL_COLUMNS = [
     "co2e_smouldering_t", "carbon_flaming_t", "co2_flaming_t", "ch4_flaming_t", "co_flaming_t", "co2e_flaming_t",
 ]
 
-OUTSIDE = "(outside every zone)"
-TOTAL_LAYER, TOTAL_ZONE = "total", "all"
 
 HA_PER_M2 = 1e-4  # exact
 T_PER_KG = 1e-3  # exact

@@ -38,7 +38,6 @@ from collections.abc import Mapping
 import numpy as np
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
-from scipy.spatial import cKDTree
 
 from ..errors import PhysicalRangeError
 from .gases import gas_emissions
@@ -171,55 +170,205 @@ def _event_ids(event, n: int) -> np.ndarray:
 # ----------------------------------------------------------------------------- events
 
 
-#: Detections handled per k-d tree query in :func:`assign_events` (bounds the memory of the
-#: candidate pairs; the result does not depend on it).
-_CHUNK = 10_000
+#: Point pairs tested at once by :func:`assign_events` when it looks for links between two
+#: neighbouring grid cells (bounds the memory of the search; the result does not depend on it).
+_PAIR_BUDGET = 1 << 19
+#: Points of each cell tried first, spread through the cell (``_SAMPLE`` squared pairs per pair of
+#: cells): in dense detections one of them almost always links the two cells, so the full test of
+#: every pair is rarely needed. The result does not depend on it.
+_SAMPLE = 8
+#: Whether a cell whose bounding box meets the rule is joined at once (False: every cell is
+#: treated as one that fails the check, its detections tested pair by pair; for the tests of
+#: that path, which rounding alone rarely reaches). The result does not depend on it.
+_WHOLE_CELLS = True
+
+
+def _lookup(sorted_unique: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """Position of each value in ``sorted_unique``, -1 where it is absent."""
+    if sorted_unique.size == 0:
+        return np.full(values.shape, -1, dtype=np.int64)
+    pos = np.minimum(np.searchsorted(sorted_unique, values), sorted_unique.size - 1)
+    return np.where(sorted_unique[pos] == values, pos, -1)
+
+
+def _compact(index: np.ndarray, reach: int) -> np.ndarray:
+    """Integer cell indices with every gap wider than ``reach`` shortened to ``reach + 1``.
+
+    Two indices differ by at most ``reach`` after the change exactly when they did before, and
+    the values stay below ``(reach + 1) x`` (number of distinct indices), so keys built from
+    them cannot overflow however far apart the detections lie.
+    """
+    uniq, inv = np.unique(index, return_inverse=True)
+    steps = np.minimum(np.diff(uniq), reach + 1)
+    return np.r_[0, np.cumsum(steps)][inv].astype(np.int64)
+
+
+class _Cells:
+    """Detections binned on a space-time grid, sorted by cell (see :func:`_linked_components`)."""
+
+    def __init__(self, x, y, t, distance_m, gap_s):
+        self.x, self.y, self.t, self.d, self.g = x, y, t, distance_m, gap_s
+        # Side D / sqrt(2) in space and G in time (each widened by a few units in the last place,
+        # so that two linked detections are never more than 2 cells apart in space or 1 in time,
+        # whatever the rounding). With G = 0 each distinct time is its own time cell.
+        big = max(float(np.abs(x).max()), float(np.abs(y).max()))
+        side = distance_m / np.sqrt(2.0) + 8.0 * np.spacing(big)
+        ix = _compact(np.floor((x - x.min()) / side).astype(np.int64), 2)
+        iy = _compact(np.floor((y - y.min()) / side).astype(np.int64), 2)
+        if gap_s > 0:
+            side_t = gap_s * (1.0 + 1e-9) + 8.0 * np.spacing(float(np.abs(t).max()))
+            it = _compact(np.floor((t - t.min()) / side_t).astype(np.int64), 1)
+            self.t_reach = 1
+        else:
+            it = np.unique(t, return_inverse=True)[1].astype(np.int64)
+            self.t_reach = 0
+        self.ny, self.nt = int(iy.max()) + 3, int(it.max()) + 2  # room for the offsets
+        kxy = ix * self.ny + iy
+        self.uxy, rxy = np.unique(kxy, return_inverse=True)
+        self.ukey, cell = np.unique(rxy * self.nt + it, return_inverse=True)
+        self.order = np.argsort(cell, kind="stable")  # detections sorted by cell
+        self.count = np.bincount(cell)
+        self.start = np.r_[0, np.cumsum(self.count)[:-1]]
+        first = self.order[self.start]
+        self.ix, self.iy, self.it = ix[first], iy[first], it[first]
+        # A cell is "whole" when its bounding box meets the rule: floating-point subtraction and
+        # hypot are monotonic, so every pair inside then passes the test of ``linked``. By the
+        # choice of the sides every cell is whole, but for rounding at the bounds.
+        xs, ys, ts = x[self.order], y[self.order], t[self.order]
+        span = [np.maximum.reduceat(v, self.start) - np.minimum.reduceat(v, self.start) for v in (xs, ys, ts)]
+        self.whole = (np.hypot(span[0], span[1]) <= distance_m) & (span[2] <= gap_s) & _WHOLE_CELLS
+        # Graph nodes: one per whole cell, one per detection of a cell that is not whole.
+        n_cells = self.count.size
+        split_point = ~self.whole[cell]
+        self.node = cell.copy()
+        self.node[split_point] = n_cells + np.arange(int(split_point.sum()))
+        self.n_nodes = n_cells + int(split_point.sum())
+        self._last_xy = (None, None, None)  # the latest (dx, dy) look-up (see neighbour)
+
+    def neighbour(self, offset) -> np.ndarray:
+        """For each cell, the cell at ``offset`` (dx, dy, dt in cells), -1 where none."""
+        ox, oy, ot = offset
+        if self._last_xy[0] != (ox, oy):  # consecutive offsets often share dx, dy
+            rxy = _lookup(self.uxy, (self.ix + ox) * self.ny + self.iy + oy)
+            self._last_xy = ((ox, oy), np.flatnonzero(rxy >= 0), rxy[rxy >= 0])
+        _, where, rxy = self._last_xy
+        out = np.full(self.ix.size, -1, dtype=np.int64)
+        out[where] = _lookup(self.ukey, rxy * self.nt + self.it[where] + ot)
+        return out
+
+    def linked(self, i, j) -> np.ndarray:
+        """The rule of :func:`assign_events` for detection pairs (i, j) (cell-sorted positions)."""
+        i, j = self.order[i], self.order[j]
+        x, y, t = self.x, self.y, self.t
+        return (np.hypot(x[i] - x[j], y[i] - y[j]) <= self.d) & (np.abs(t[i] - t[j]) <= self.g)
+
+
+def _cell_links(cells: _Cells, a: np.ndarray, b: np.ndarray):
+    """Graph edges (node pairs) between the cells ``a[k]`` and ``b[k]``: one edge for two whole
+    cells with any linked pair of detections, every linked pair when a cell is not whole."""
+    out_a, out_b = [], []
+    whole = cells.whole[a] & cells.whole[b]
+    # 1. A sample of pairs, spread through both cells, for pairs of whole cells.
+    aw, bw = a[whole], b[whole]
+    k = _SAMPLE
+    u = np.arange(k)
+    found = np.zeros(aw.size, dtype=bool)
+    step = max(1, _PAIR_BUDGET // (k * k))
+    for s in range(0, aw.size, step):
+        ca, cb = aw[s:s + step], bw[s:s + step]
+        i = cells.start[ca][:, None, None] + (u[None, :, None] * cells.count[ca][:, None, None]) // k
+        j = cells.start[cb][:, None, None] + (u[None, None, :] * cells.count[cb][:, None, None]) // k
+        i, j = np.broadcast_arrays(i, j)
+        found[s:s + step] = cells.linked(i.reshape(-1), j.reshape(-1)).reshape(ca.size, k * k).any(axis=1)
+    out_a.append(aw[found])
+    out_b.append(bw[found])
+    # 2. Every pair, in pieces of at most _PAIR_BUDGET pairs; a pair of whole cells stops at its first link.
+    a = np.r_[aw[~found], a[~whole]]
+    b = np.r_[bw[~found], b[~whole]]
+    any_only = np.r_[np.ones(int((~found).sum()), dtype=bool), np.zeros(int((~whole).sum()), dtype=bool)]
+    total = cells.count[a].astype(np.int64) * cells.count[b]
+    done = np.zeros(a.size, dtype=np.int64)
+    while a.size:
+        rest = total - done
+        before = np.r_[0, np.cumsum(rest)[:-1]]
+        take = np.clip(_PAIR_BUDGET - before, 0, rest)
+        pk = np.repeat(np.arange(a.size), take)
+        r = done[pk] + np.arange(pk.size) - np.repeat(np.cumsum(take) - take, take)
+        nb = cells.count[b][pk]
+        i = cells.start[a][pk] + r // nb
+        j = cells.start[b][pk] + r % nb
+        hit = cells.linked(i, j)
+        hit_any = np.bincount(pk[hit], minlength=a.size) > 0
+        first = hit_any & any_only
+        out_a.append(a[first])
+        out_b.append(b[first])
+        every = hit & ~any_only[pk] & (i != j)
+        out_a.append(cells.node[cells.order[i[every]]])
+        out_b.append(cells.node[cells.order[j[every]]])
+        done += take
+        keep = (done < total) & ~first
+        a, b, any_only, total, done = a[keep], b[keep], any_only[keep], total[keep], done[keep]
+    return np.concatenate(out_a), np.concatenate(out_b)
 
 
 def _linked_components(x, y, t, distance_m, gap_s) -> np.ndarray:
-    """Connected components of the space-time link graph (see :func:`assign_events`)."""
-    n = x.shape[0]
-    # Candidates: Chebyshev distance <= 1 in scaled space, i.e. |dx|, |dy| <= D and |dt| <= G.
-    # Coordinates are shifted to their minimum first, so large values lose no precision when
-    # scaled. With gap_s = 0 only equal times link: time is then scaled by half the smallest
-    # non-zero time step, so that any two different times are more than 1 apart.
-    t_rel = t - t.min()
-    if gap_s > 0:
-        t_scale = gap_s
-    else:
-        steps = np.diff(np.unique(t_rel))
-        t_scale = steps.min() / 2.0 if steps.size else 1.0
-    pts = np.column_stack([(x - x.min()) / distance_m, (y - y.min()) / distance_m, t_rel / t_scale])
-    tree = cKDTree(pts)
-    by_time = np.argsort(t, kind="stable")  # chunks compact in time: small sub-trees
-    rows: list[np.ndarray] = []
-    cols: list[np.ndarray] = []
-    held = 0
+    """Connected components of the space-time link graph (see :func:`assign_events`).
 
-    def components(rows, cols):
-        i = np.concatenate(rows) if rows else np.zeros(0, dtype=np.int64)
-        j = np.concatenate(cols) if cols else np.zeros(0, dtype=np.int64)
-        graph = coo_matrix((np.ones(i.shape[0], dtype=np.int8), (i, j)), shape=(n, n))
-        return connected_components(graph, directed=False)[1]
+    Detections are binned on a grid of cells of side ``distance_m / sqrt(2)`` in space and
+    ``gap_s`` in time, so that the detections of one cell are all linked to each other (checked
+    on the cell's bounding box; a cell that fails the check keeps its detections apart and has
+    every pair tested). Linked detections lie at most 2 cells apart in space and 1 in time, so
+    only the cells at those offsets are compared, one offset at a time, nearest first; two
+    cells already in the same component are skipped, and a pair of cells stops at its first
+    link. Memory is proportional to the number of detections (plus ``_PAIR_BUDGET`` pairs at a
+    time), however dense they are; the time is that of sorting the detections, plus the pair
+    tests between cells that turn out not to be linked (few, except for dense groups of
+    detections lying just beyond ``distance_m`` or ``gap_s`` of each other).
+    """
+    cells = _Cells(x, y, t, distance_m, gap_s)
+    offsets = [(ox, oy, ot) for ot in range(-cells.t_reach, cells.t_reach + 1)
+               for ox in range(-2, 3) for oy in range(-2, 3) if (ot, ox, oy) > (0, 0, 0)]
+    # Nearest in space first; the time offsets of one (dx, dy) together (they share a look-up).
+    offsets.sort(key=lambda o: (max(abs(o[0]), abs(o[1])), abs(o[0]) + abs(o[1]), o[0], o[1], abs(o[2])))
+    n_cells = cells.count.size
+    # Cells that are not whole: their detections are compared with each other too.
+    split = np.flatnonzero(~cells.whole)
+    edge_a, edge_b = _cell_links(cells, split, split)
+    label = _components(cells.n_nodes, edge_a, edge_b)
+    edge_a, edge_b = _star(label)
+    pending_a, pending_b = [], []
+    for offset in offsets:
+        a = np.arange(n_cells)
+        b = cells.neighbour(offset)
+        keep = b >= 0
+        a, b = a[keep], b[keep]
+        # ``label`` may lag behind the edges found since (it is a finer partition): it only
+        # skips pairs of cells known to be joined.
+        same = cells.whole[a] & cells.whole[b] & (label[a] == label[b])
+        new_a, new_b = _cell_links(cells, a[~same], b[~same])
+        pending_a.append(new_a)
+        pending_b.append(new_b)
+        if sum(e.size for e in pending_a) > max(64, cells.n_nodes // 64):  # worth a new partition
+            label = _components(cells.n_nodes, np.concatenate([edge_a, *pending_a]),
+                                np.concatenate([edge_b, *pending_b]))
+            edge_a, edge_b = _star(label)
+            pending_a, pending_b = [], []
+    label = _components(cells.n_nodes, np.concatenate([edge_a, *pending_a]), np.concatenate([edge_b, *pending_b]))
+    # numbered 0..k-1 over the detections (the node of a cell that is not whole holds none)
+    return np.unique(label[cells.node], return_inverse=True)[1].reshape(-1)
 
-    for start in range(0, n, _CHUNK):
-        idx = by_time[start:start + _CHUNK]
-        # A relative margin so that pairs exactly at the bounds are kept; the exact tests follow.
-        found = cKDTree(pts[idx]).sparse_distance_matrix(tree, 1.0 + 1e-9, p=np.inf, output_type="ndarray")
-        i = idx[found["i"]]
-        j = found["j"].astype(np.int64)
-        keep = (i < j) & (np.hypot(x[i] - x[j], y[i] - y[j]) <= distance_m) & (np.abs(t[i] - t[j]) <= gap_s)
-        rows.append(i[keep])
-        cols.append(j[keep])
-        held += int(keep.sum())
-        if held > 4 * n:  # compress the edges found so far into one star per component
-            labels = components(rows, cols)
-            first = np.unique(labels, return_index=True)[1]  # lowest node of each component
-            rep = first[labels]
-            star = rep != np.arange(n)
-            rows, cols = [np.flatnonzero(star)], [rep[star]]
-            held = int(star.sum())
-    return components(rows, cols)
+
+def _components(n: int, i: np.ndarray, j: np.ndarray) -> np.ndarray:
+    graph = coo_matrix((np.ones(i.shape[0], dtype=np.int8), (i, j)), shape=(n, n))
+    return connected_components(graph, directed=False)[1]
+
+
+def _star(label: np.ndarray):
+    """The fewest edges that keep ``label``'s components: each node to its component's first node."""
+    first = np.unique(label, return_index=True)[1]
+    rep = first[label]
+    star = rep != np.arange(label.size)
+    return np.flatnonzero(star), rep[star]
 
 
 def assign_events(x_m, y_m, t_s, *, distance_m=DEFAULT_EVENT_DISTANCE_M, gap_s=DEFAULT_EVENT_GAP_S):
@@ -235,11 +384,12 @@ def assign_events(x_m, y_m, t_s, *, distance_m=DEFAULT_EVENT_DISTANCE_M, gap_s=D
     assumption chosen for this tool (common practice in spirit: fire-event clustering of active-fire
     detections by space-time proximity); it has no single published source.
 
-    Candidate pairs are found with k-d trees (``scipy.spatial.cKDTree``, Chebyshev distance on
-    coordinates scaled by ``distance_m`` and ``gap_s``, queried in time-ordered chunks so memory
-    stays bounded), then filtered by the exact rule; events are the connected components
-    (``scipy.sparse.csgraph.connected_components``). Cost: O(n log n) plus the number of
-    candidate pairs.
+    Detections are binned on a space-time grid (cells of side ``distance_m / sqrt(2)`` and
+    ``gap_s``, whose detections are all linked to each other); only neighbouring cells are
+    compared, a pair of cells stops at its first link and cells already joined are skipped; events
+    are the connected components (``scipy.sparse.csgraph.connected_components``) of the cells.
+    Memory is proportional to the number of detections however dense they are (a million
+    detections packed over a few square kilometres: see ``benchmarks/bench_detections.py``).
 
     Parameters
     ----------
@@ -265,7 +415,7 @@ def assign_events(x_m, y_m, t_s, *, distance_m=DEFAULT_EVENT_DISTANCE_M, gap_s=D
     References
     ----------
     .. [1] Virtanen, P. et al. (2020). SciPy 1.0: fundamental algorithms for scientific computing
-       in Python. Nature Methods 17, 261-272 (cKDTree, connected_components).
+       in Python. Nature Methods 17, 261-272 (connected_components).
     """
     x = _finite_1d(x_m, "x_m")
     y = _finite_1d(y_m, "y_m")

@@ -210,20 +210,114 @@ def test_gap_zero_links_only_equal_times():
 
 @settings(max_examples=30, deadline=None)
 @given(st.lists(st.tuples(st.integers(0, 30), st.integers(0, 30), st.integers(0, 12)), min_size=1, max_size=60),
-       st.sampled_from([3, 7, 1000]))
-def test_events_match_a_brute_force_oracle(points, chunk):
+       st.sampled_from([(1, 1), (7, 2), (1 << 19, 8)]))
+def test_events_match_a_brute_force_oracle(points, budget_sample):
     # Coordinates on a 400 m lattice and times on a 6-h lattice: many exact ties with the
-    # 1000 m / 1 day bounds. A small _CHUNK exercises the chunked query and edge compression.
+    # 1000 m / 1 day bounds. A tiny pair budget and sample exercise the piecewise pair tests.
     x = [p[0] * 400.0 for p in points]
     y = [p[1] * 400.0 for p in points]
     t = [p[2] * 6 * HOUR for p in points]
-    old = flaming._CHUNK
-    flaming._CHUNK = chunk
-    try:
+    with _budget(*budget_sample):
         got = flaming.assign_events(x, y, t)
-    finally:
-        flaming._CHUNK = old
     assert got.tolist() == _oracle_events(x, y, t, 1000.0, DAY)
+
+
+class _budget:
+    """Set the pair budget and sample size of the event grouping for one block (results must not
+    depend on them)."""
+
+    def __init__(self, budget, sample, whole=True):
+        self.new = (budget, sample, whole)
+
+    def __enter__(self):
+        self.old = (flaming._PAIR_BUDGET, flaming._SAMPLE, flaming._WHOLE_CELLS)
+        flaming._PAIR_BUDGET, flaming._SAMPLE, flaming._WHOLE_CELLS = self.new
+
+    def __exit__(self, *exc):
+        flaming._PAIR_BUDGET, flaming._SAMPLE, flaming._WHOLE_CELLS = self.old
+
+
+def _scipy_components(x, y, t, d, g):
+    """Reference: scipy's connected_components on the brute-force link graph (every pair)."""
+    from scipy.sparse import csr_matrix
+    from scipy.sparse.csgraph import connected_components
+
+    x, y, t = (np.asarray(v, dtype=float) for v in (x, y, t))
+    linked = ((np.hypot(x[:, None] - x[None, :], y[:, None] - y[None, :]) <= d)
+              & (np.abs(t[:, None] - t[None, :]) <= g))
+    return connected_components(csr_matrix(linked), directed=False)[1]
+
+
+def _same_partition(a, b) -> bool:
+    a, b = np.asarray(a), np.asarray(b)
+    pairs = np.unique(np.column_stack([a, b]), axis=0)
+    return len(pairs) == len(np.unique(a)) == len(np.unique(b))
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.integers(0, 2**32 - 1), st.integers(1, 400), st.sampled_from([50.0, 1000.0, 5000.0]),
+       st.sampled_from([0.0, 600.0, DAY]), st.sampled_from(["dense", "spread", "clumps"]),
+       st.sampled_from([(1, 1, True), (5, 3, True), (1 << 19, 8, True), (7, 2, False), (1 << 19, 8, False)]))
+def test_events_match_scipy_on_the_brute_force_graph(seed, n, d, g, layout, budget_sample):
+    # (pair budget, sample, whole cells): False tests every cell's detections pair by pair, the
+    # path of cells that fail the bounding-box check through rounding.
+    # Float positions and times (no lattice), three layouts: all packed in a few cells, spread
+    # over a large area (many singletons), and clumps lying close to the distance bound.
+    rng = np.random.default_rng(seed)
+    if layout == "dense":
+        x, y = rng.uniform(0, 2 * d, n) + 743_000.0, rng.uniform(0, 2 * d, n) + 9_715_000.0
+        t = rng.choice(np.arange(4) * 12 * HOUR, n) + rng.uniform(0, 300, n)
+    elif layout == "spread":
+        x, y = rng.uniform(0, 200 * d, n), rng.uniform(-100 * d, 100 * d, n)
+        t = rng.uniform(0, 40 * DAY, n)
+    else:
+        centres = rng.uniform(0, 10 * d, (5, 2))
+        k = rng.integers(0, 5, n)
+        x = centres[k, 0] + rng.normal(0, 0.4 * d, n)
+        y = centres[k, 1] + rng.normal(0, 0.4 * d, n)
+        t = np.round(rng.uniform(0, 5 * DAY, n) / HOUR) * HOUR
+    with _budget(*budget_sample):
+        got = flaming.assign_events(x, y, t, distance_m=d, gap_s=g)
+    ref = _scipy_components(x, y, t, d, g)
+    assert _same_partition(got, ref)
+    # Numbering: by first detection time, ties in input order.
+    order = np.lexsort((np.arange(n), t))
+    firsts = got[order][np.sort(np.unique(got[order], return_index=True)[1])]
+    assert firsts.tolist() == list(range(got.max() + 1))
+
+
+def test_events_in_cells_on_the_bounds():
+    # Detections exactly D / sqrt(2) apart on both axes (the cell's own diagonal: exactly D,
+    # linked) and exactly one gap apart in time, at large coordinates: the grid must not link
+    # any pair the rule does not, nor miss one (reference: scipy on the brute-force graph).
+    s = 1000.0 / math.sqrt(2.0)
+    k = np.arange(6)
+    x = 743_000.0 + np.r_[k * s, k * s + 0.25]
+    y = 9_715_000.0 + np.r_[k * s, -k * s]
+    t = np.r_[k * DAY, k * DAY + 1.0]
+    got = flaming.assign_events(x, y, t)
+    assert _same_partition(got, _scipy_components(x, y, t, 1000.0, DAY))
+
+
+def test_dense_detections_group_in_bounded_memory():
+    # 12,000 detections within 300 m and one hour: every pair is linked (one event). Listing the
+    # 72 million linked pairs, as a pair search does, takes gigabytes; the grouping must stay
+    # within memory proportional to the detections (peak traced by tracemalloc, which numpy
+    # reports to; generous bound: 32 MiB against about 0.4 MiB of input).
+    import tracemalloc
+
+    rng = np.random.default_rng(3)
+    n = 12_000
+    x, y = 743_000.0 + rng.uniform(0, 300, n), 9_715_000.0 + rng.uniform(0, 300, n)
+    t = rng.uniform(0, HOUR, n)
+    tracemalloc.start()
+    try:
+        ev = flaming.assign_events(x, y, t)
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    assert ev.tolist() == [0] * n
+    assert peak < 32 * 2**20
 
 
 def test_events_refuse_bad_input():
