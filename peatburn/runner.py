@@ -16,7 +16,7 @@ from . import __version__
 from .config import RunConfig
 from .errors import OutputExistsError
 from .executors import BLOCK_GROUP, map_blocks
-from .factors import load_factor_set, load_gwp_set
+from .factors import load_factor_set, load_gwp_set, require_gases
 from .io.writers import BlockRasterWriter, BlockWrites, write_csv, write_json
 from .outputs import provenance, tables
 from .pipeline import (METHOD_CODES, SCAR_LAYER, Sums, build_plan, compute_block, coregister, fit_models, open_inputs,
@@ -80,8 +80,8 @@ def load_factors(cfg: RunConfig) -> Factors:
 
     fl = cfg.flaming
     return Factors(
-        smouldering=load_factor_set(cfg.factors.smouldering, "smouldering"),
-        flaming=load_factor_set(cfg.factors.flaming, "flaming"),
+        smouldering=require_gases(load_factor_set(cfg.factors.smouldering, "smouldering"), "smouldering"),
+        flaming=require_gases(load_factor_set(cfg.factors.flaming, "flaming"), "flaming"),
         tier1=load_factor_set(TIER1_FACTOR_SET, "smouldering"),
         gwp=load_gwp_set(cfg.factors.gwp),
         vegetation_carbon_fraction=(fl.vegetation_carbon_fraction if fl and fl.vegetation_carbon_fraction
@@ -231,6 +231,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
         notes += flame.notes
     rows = tables.zone_rows(sums, factors, flame)
     total = rows[-1]
+    run_gases = tables.run_gases(factors)
     qa = qa_summary(sums.total, alignment)
     checks = factor_checks(factors.smouldering, sums.total)
     if checks["carbon_closure"] is not None and checks["carbon_closure"] > 1.0:
@@ -243,7 +244,8 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
 
         ef = factors.flaming.ef
         closure = float(gases.carbon_closure(ef, factors.vegetation_carbon_fraction))
-        flame_checks = {"mce": float(gases.modified_combustion_efficiency(ef["co2"], ef["co"])),
+        flame_checks = {"mce": (float(gases.modified_combustion_efficiency(ef["co2"], ef["co"]))
+                                if "co" in ef else None),
                         "vegetation_carbon_fraction": factors.vegetation_carbon_fraction, "carbon_closure": closure}
         if closure > 1.0:
             notes.append(f"emission factors: the flaming set {factors.flaming.name} puts {closure:.3f} times the "
@@ -279,12 +281,13 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
         notes.append(f"timeline: {sum(p[0] is None for p in periods)} scar(s) without a fire date "
                      f"({cfg.start_field}); their emissions count in run.year ({cfg.year}) and are not in daily.csv")
 
+    unit_of = tables.units(run_gases)
     totals = {
         "run": cfg.name, "year": cfg.year, "tool_version": __version__,
-        "quantities": {k: {"value": total[k], "unit": tables.UNITS.get(k, ""),
+        "quantities": {k: {"value": total[k], "unit": unit_of.get(k, ""),
                            **({"lo": total.get(f"{k}_lo"), "hi": total.get(f"{k}_hi")}
                               if f"{k}_lo" in total else {})}
-                       for k in tables.ZONE_COLUMNS[2:]},
+                       for k in tables.zone_columns(run_gases)[2:]},
         "method": {**method_summary(cfg, total, factors, alignment, models, flame),
                    "smouldering_factor_checks": checks, "flaming_factor_checks": flame_checks},
         "qa": qa,
@@ -294,15 +297,16 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
         "notes": notes,
         "cautions": CAUTIONS,
     }
-    columns = list(tables.ZONE_COLUMNS)
+    columns = tables.zone_columns(run_gases)
     if uncertainty:
-        for c in tables.INTERVAL_COLUMNS:
-            columns += [f"{c}_lo", f"{c}_hi"]
+        for c in tables.interval_columns(run_gases):
+            if c in tables.INTERVAL_COLUMNS or f"{c}_lo" in total:
+                columns += [f"{c}_lo", f"{c}_hi"]
     files = {}
     files["zones"] = write_csv(out_dir / "zones.csv", rows, columns)
     files["totals"] = write_json(out_dir / "totals.json", totals)
-    inv = tables.inventory_rows(total, shares, factors.gwp.name)
-    files["daily"] = write_csv(out_dir / "daily.csv", daily, timeline.DAILY_COLUMNS)
+    inv = tables.inventory_rows(total, shares, factors.gwp.name, run_gases)
+    files["daily"] = write_csv(out_dir / "daily.csv", daily, timeline.daily_columns(run_gases))
     files["inventory"] = write_csv(out_dir / "inventory.csv", inv, tables.INVENTORY_COLUMNS)
     files["inventory_json"] = write_json(out_dir / "inventory.json", {"unit": "Gg", "rows": inv})
     prov = provenance.build(cfg, grid, alignment, factors, models,

@@ -47,6 +47,8 @@ __all__ = [
     "DEFAULT_FLAMING",
     "DEFAULT_GWP",
     "PHASES",
+    "REQUIRED_GASES",
+    "require_gases",
 ]
 
 #: Default smouldering set: the IPCC Tier 1 defaults for fires on tropical organic soil, the
@@ -58,6 +60,9 @@ DEFAULT_FLAMING = "flaming_ipcc2006_tropical_forest"
 DEFAULT_GWP = "AR6"
 
 PHASES = ("smouldering", "flaming")
+#: Gases every factor set of a run must hold: CO2 gives the CO2-C inventory line and the bulk of
+#: CO2e. Every other gas is optional and reported only where the set has it.
+REQUIRED_GASES = ("co2",)
 _STATUSES = ("checked", "recalled")
 _GWP_FILE = "gwp_sets.csv"
 _EF_COLUMNS = ("gas", "ef_g_per_kg", "sd_g_per_kg", "citation", "status")
@@ -423,6 +428,37 @@ def _read_gwp_table() -> dict[str, GWPSet]:
         )
         for name, e in rows.items()
     }
+
+
+def require_gases(factor_set: FactorSet, role: str, needed=REQUIRED_GASES) -> FactorSet:
+    """Refuse a set that lacks a gas the run needs (called before any pixel is read).
+
+    Parameters
+    ----------
+    factor_set : FactorSet
+    role : str
+        What the set is used for in the run (``"smouldering"``, ``"flaming"``), for the message.
+    needed : sequence of str
+        Gas names the run needs (default :data:`REQUIRED_GASES`).
+
+    Returns
+    -------
+    FactorSet
+        The set, unchanged.
+
+    Raises
+    ------
+    FactorSetError
+        One line naming the set (and its file), the missing gas(es) and the fix.
+    """
+    missing = [g for g in needed if g not in factor_set.ef]
+    if missing:
+        where = factor_set.source_path or f"built-in factor set {factor_set.name!r}"
+        raise FactorSetError(
+            f"{where}: the {role} set has no row for {', '.join(missing)}; a run needs "
+            f"{', '.join(needed)} in every set: add the row(s) (gas,ef_g_per_kg)"
+        )
+    return factor_set
 
 
 def list_gwp_sets() -> list[GWPSet]:

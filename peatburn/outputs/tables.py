@@ -8,32 +8,59 @@ to the sum equals summing per pixel). CO2-equivalent uses the chosen GWP-100 set
 from __future__ import annotations
 
 import math
+import re
 
 import numpy as np
 
 from ..science import gases
 
+#: Gases every run reports (the Tier 1 set has all three); a factor set's other gases follow them.
 GASES = ("co2", "ch4", "co")
 PHASES = ("smouldering", "flaming")
 METHODS = ("survey", "water_table", "tier1")
 
-ZONE_COLUMNS = [
-    "layer", "zone", "burned_area_ha", "estimated_area_ha", "unestimated_area_ha", "below_lod_area_ha",
-    "mean_burn_depth_m", "peat_burned_t", "carbon_smouldering_t",
-    "co2_smouldering_t", "ch4_smouldering_t", "co_smouldering_t",
-    "carbon_flaming_t", "co2_flaming_t", "ch4_flaming_t", "co_flaming_t",
-    "co2e_smouldering_t", "co2e_flaming_t",
-    "area_survey_ha", "area_water_table_ha", "area_tier1_ha",
-    "carbon_share_survey", "carbon_share_water_table", "carbon_share_tier1",
-    "carbon_tier1_t", "co2_tier1_t", "ch4_tier1_t", "co_tier1_t", "co2e_tier1_t",
-    "fre_mj", "n_detections", "carbon_frp_only_t", "smouldering_to_frp_ratio",
-]
 
-#: Columns that get _lo and _hi when Monte Carlo draws are made.
-INTERVAL_COLUMNS = [
-    "peat_burned_t", "carbon_smouldering_t", "co2_smouldering_t", "ch4_smouldering_t", "co_smouldering_t",
-    "co2e_smouldering_t", "carbon_flaming_t", "co2_flaming_t", "ch4_flaming_t", "co_flaming_t", "co2e_flaming_t",
-]
+def gas_key(gas: str) -> str:
+    """Column stem of a gas: its lower-case name with characters other than letters, digits and
+    ``_`` replaced by ``_`` (``pm2.5`` -> ``pm2_5``)."""
+    return re.sub(r"[^a-z0-9_]", "_", gas.lower())
+
+
+def run_gases(factors) -> tuple[str, ...]:
+    """The gases of a run: :data:`GASES`, then every other gas of the smouldering, Tier 1 and
+    flaming sets in the order they first appear (so a set's N2O, NOx or PM2.5 reach the tables)."""
+    out = [*GASES]
+    for fs in (factors.smouldering, factors.tier1, factors.flaming):
+        out += [g for g in fs.ef if g not in out]
+    return tuple(out)
+
+
+def zone_columns(gases=GASES) -> list[str]:
+    """zones.csv columns for the run's ``gases`` (see :func:`run_gases`)."""
+    def per(phase):
+        return [f"{gas_key(g)}_{phase}_t" for g in gases]
+
+    return [
+        "layer", "zone", "burned_area_ha", "estimated_area_ha", "unestimated_area_ha", "below_lod_area_ha",
+        "mean_burn_depth_m", "peat_burned_t", "carbon_smouldering_t", *per("smouldering"),
+        "carbon_flaming_t", *per("flaming"),
+        "co2e_smouldering_t", "co2e_flaming_t",
+        "area_survey_ha", "area_water_table_ha", "area_tier1_ha",
+        "carbon_share_survey", "carbon_share_water_table", "carbon_share_tier1",
+        "carbon_tier1_t", *per("tier1"), "co2e_tier1_t",
+        "fre_mj", "n_detections", "carbon_frp_only_t", "smouldering_to_frp_ratio",
+    ]
+
+
+def interval_columns(gases=GASES) -> list[str]:
+    """Columns that get _lo and _hi when Monte Carlo draws are made."""
+    return ["peat_burned_t", "carbon_smouldering_t", *(f"{gas_key(g)}_smouldering_t" for g in gases),
+            "co2e_smouldering_t", "carbon_flaming_t", *(f"{gas_key(g)}_flaming_t" for g in gases), "co2e_flaming_t"]
+
+
+ZONE_COLUMNS = zone_columns()
+#: Columns that get _lo and _hi when Monte Carlo draws are made (the gases every run reports).
+INTERVAL_COLUMNS = interval_columns()
 
 OUTSIDE = "(outside every zone)"
 TOTAL_LAYER, TOTAL_ZONE = "total", "all"
@@ -65,26 +92,17 @@ def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
             "peat_burned_t": peat_kg * t,
             "carbon_smouldering_t": carbon * t,
         }
-        sm = {g: gases.gas_emissions(peat_kg, factors.smouldering.ef[g]) * t for g in GASES}
-        for g in GASES:
-            out[f"{g}_smouldering_t"] = sm[g]
-        out["co2e_smouldering_t"] = gases.co2_equivalent(sm, factors.gwp.gwp)
+        _phase_gases(out, "smouldering", peat_kg, factors.smouldering, factors)
         for m in METHODS:
             out[f"area_{m}_ha"] = s[f"area_m2_{m}"] * ha
             out[f"carbon_share_{m}"] = np.where(carbon != 0, s[f"carbon_kg_{m}"] / carbon, np.nan)
         t1_dm = s["tier1_all_peat_kg"]
         out["carbon_tier1_t"] = s["tier1_all_carbon_kg"] * t
-        t1 = {g: gases.gas_emissions(t1_dm, factors.tier1.ef[g]) * t for g in GASES}
-        for g in GASES:
-            out[f"{g}_tier1_t"] = t1[g]
-        out["co2e_tier1_t"] = gases.co2_equivalent(t1, factors.gwp.gwp)
+        _phase_gases(out, "tier1", t1_dm, factors.tier1, factors)
         # flaming, apart
         dm = np.asarray(flame["dry_matter_kg"], dtype="float64") if flame else np.zeros_like(peat_kg)
-        fl = {g: gases.gas_emissions(dm, factors.flaming.ef[g]) * t for g in GASES}
         out["carbon_flaming_t"] = dm * factors.vegetation_carbon_fraction * t
-        for g in GASES:
-            out[f"{g}_flaming_t"] = fl[g]
-        out["co2e_flaming_t"] = gases.co2_equivalent(fl, factors.gwp.gwp)
+        _phase_gases(out, "flaming", dm, factors.flaming, factors)
         has_fre = flame is not None and factors.frp_route
         nan = np.full(np.shape(peat_kg), np.nan)
         if has_fre:
@@ -99,6 +117,17 @@ def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
         else:
             out["fre_mj"] = out["n_detections"] = out["carbon_frp_only_t"] = out["smouldering_to_frp_ratio"] = nan
     return out
+
+
+def _phase_gases(out: dict, phase: str, dry_matter_kg, factor_set, factors) -> None:
+    """Gas masses [t] of one phase for every gas of the run (IPCC 2006 Vol. 4 Eq. 2.27), and
+    their CO2e over the gases that have a GWP-100 in the run's set. A gas of the run that this
+    phase's set lacks is NaN (written empty: not estimated), not zero."""
+    masses = {g: gases.gas_emissions(dry_matter_kg, ef) * T_PER_KG for g, ef in factor_set.ef.items()}
+    nan = np.full(np.shape(dry_matter_kg), np.nan)
+    for g in run_gases(factors):
+        out[f"{gas_key(g)}_{phase}_t"] = masses.get(g, nan)
+    out[f"co2e_{phase}_t"] = gases.co2_equivalent(masses, factors.gwp.gwp)
 
 
 def _rows(layer: str, zones: list[str], q: dict) -> list[dict]:
@@ -125,7 +154,18 @@ def zone_rows(result_sums, factors, flame_sums=None) -> list[dict]:
     return rows
 
 
-UNITS = {
+def units(gases=GASES) -> dict:
+    """Unit of each zones.csv column (and of its _lo / _hi)."""
+    out = dict(_BASE_UNITS)
+    for g in gases:
+        for p in PHASES + ("tier1",):
+            out[f"{gas_key(g)}_{p}_t"] = f"t {g.upper()}"
+    for c in interval_columns(gases):
+        out[f"{c}_lo"] = out[f"{c}_hi"] = out[c]
+    return out
+
+
+_BASE_UNITS = {
     "burned_area_ha": "ha", "estimated_area_ha": "ha", "unestimated_area_ha": "ha", "below_lod_area_ha": "ha",
     "mean_burn_depth_m": "m", "peat_burned_t": "t dry matter", "carbon_smouldering_t": "t C",
     "carbon_flaming_t": "t C", "co2e_smouldering_t": "t CO2e", "co2e_flaming_t": "t CO2e",
@@ -134,27 +174,26 @@ UNITS = {
     "carbon_tier1_t": "t C", "co2e_tier1_t": "t CO2e", "fre_mj": "MJ", "n_detections": "1",
     "carbon_frp_only_t": "t C", "smouldering_to_frp_ratio": "1",
 }
-for _g in GASES:
-    for _p in PHASES + ("tier1",):
-        UNITS[f"{_g}_{_p}_t"] = f"t {_g.upper()}"
-for _c in INTERVAL_COLUMNS:
-    UNITS[f"{_c}_lo"] = UNITS[_c]
-    UNITS[f"{_c}_hi"] = UNITS[_c]
+UNITS = units()
 
 
-def inventory_rows(total: dict, year_shares: dict, gwp_name: str) -> list[dict]:
+def inventory_rows(total: dict, year_shares: dict, gwp_name: str, gases_of_run=GASES) -> list[dict]:
     """Emissions by year, phase and gas in Gg (1 Gg = 1000 t), the lines an inventory adds.
 
     ``year_shares`` maps phase -> {year: share of the phase's run total}; from the scars' fire dates
     (smouldering) and the detection times (flaming), or all in ``[run] year``. CO2 is also given as
     CO2-C (x 12.011/44.009) and the CO2e line names its GWP set. ``_lo`` and ``_hi`` are the run
     interval scaled by the year's share (the years of one run share their uncertain parameters).
+    Every gas of ``gases_of_run`` that the phase's set has (a finite total) gets a line; a gas the
+    set lacks gets none.
     """
     rows = []
     for phase in PHASES:
         for yr, share in sorted(year_shares[phase].items(), key=lambda kv: str(kv[0])):
-            for g in GASES:
-                rows.append(_inv(yr, phase, g.upper(), total, f"{g}_{phase}_t", share))
+            for g in gases_of_run:
+                key = f"{gas_key(g)}_{phase}_t"
+                if math.isfinite(total.get(key, math.nan)):
+                    rows.append(_inv(yr, phase, g.upper(), total, key, share))
             rows.append(_inv(yr, phase, "CO2-C", total, f"co2_{phase}_t", share * float(gases.co2_to_carbon(1.0))))
             rows.append(_inv(yr, phase, f"CO2e ({gwp_name})", total, f"co2e_{phase}_t", share))
     return rows
