@@ -290,6 +290,8 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
                        for k in tables.zone_columns(run_gases)[2:]},
         "method": {**method_summary(cfg, total, factors, alignment, models, flame),
                    "smouldering_factor_checks": checks, "flaming_factor_checks": flame_checks},
+        "smouldering_factor_sensitivity": tables.factor_set_sensitivity(
+            sums.total["peat_kg"], _sensitivity_sets(factors.smouldering), factors.gwp, factors.smouldering.name),
         "qa": qa,
         "water_table_model": models.to_dict() if models else None,
         "field_plots": plots,
@@ -348,6 +350,14 @@ def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
         "uncertainty": (f"Monte Carlo, {cfg.uncertainty.draws} draws at zone level, seed {cfg.uncertainty.seed}"
                         if cfg.uncertainty.draws else "no Monte Carlo draws (uncertainty.draws = 0)"),
     }
+
+
+def _sensitivity_sets(chosen) -> list:
+    """Every shipped smouldering set, and the run's own set where it is a user file."""
+    from .factors import list_factor_sets
+
+    shipped = list_factor_sets("smouldering")
+    return shipped + ([chosen] if chosen.name not in {s.name for s in shipped} else [])
 
 
 def factor_checks(factor_set, total: dict) -> dict:

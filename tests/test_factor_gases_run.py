@@ -111,3 +111,23 @@ def test_daily_rows_carry_each_phase_own_gases():
     assert flam["n2o_t"] == pytest.approx(2e-4)
     assert "n2o_t" not in smoul  # written empty: Akagi 2011's peat column has no N2O row
     assert flam["co2e_t"] == pytest.approx((EF_CO2 + EF_CH4 * AR6_CH4 + EF_N2O * AR6_N2O) * 1e-3)
+
+
+def test_sensitivity_table_has_every_shipped_smouldering_set(scene_run):
+    from peatburn.factors import list_factor_sets
+
+    rows = scene_run.totals["smouldering_factor_sensitivity"]
+    shipped = {s.name for s in list_factor_sets("smouldering")}
+    assert {r["set"] for r in rows} == shipped
+    peat_t = scene_run.total["peat_burned_t"]
+    by = {r["set"]: r for r in rows}
+    # Nara et al. 2017 (Tellus B 69:1399047, abstract): CH4 7.6 g/kg; Akagi et al. 2011 peatland CH4 20.8 g/kg
+    assert by["smouldering_sumatra_shipboard2017"]["ch4_t"] == pytest.approx(peat_t * 7.6 / 1000, rel=1e-9)
+    chosen = by["smouldering_akagi2011"]
+    assert chosen["chosen"] and chosen["co2e_vs_chosen"] == pytest.approx(1.0)
+    assert chosen["co2e_t"] == pytest.approx(scene_run.total["co2e_smouldering_t"], rel=1e-9)
+    # the field set's lower CH4 (7.6 vs 20.8 g/kg) x GWP 27 and lower CO2 give a lower CO2e
+    expect = (1663 + 7.6 * AR6_CH4) / (1703 + 20.8 * AR6_CH4)
+    assert by["smouldering_sumatra_shipboard2017"]["co2e_vs_chosen"] == pytest.approx(expect, rel=1e-9)
+    html = (scene_run.out_dir / "report.html").read_text()
+    assert "Sensitivity to the smouldering emission factors" in html and "smouldering_sumatra_shipboard2017" in html

@@ -937,6 +937,11 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
         "frp_table": _table(result.zones, FRP_TABLE) if frp_route else None,
         "daily_days": len({r["date"] for r in result.daily or []}),
         "depth_methods": depth_methods, "unestimated": fmt_num(method.get("unestimated_area_ha")),
+        "factor_sensitivity": [{"set": r.get("set", ""), "chosen": bool(r.get("chosen")), "status": r.get("status", ""),
+                                "co2": fmt_num(r.get("co2_t")), "ch4": fmt_num(r.get("ch4_t")),
+                                "co": fmt_num(r.get("co_t")), "co2e": fmt_num(r.get("co2e_t")),
+                                "ratio": fmt_num(r.get("co2e_vs_chosen"))}
+                               for r in totals.get("smouldering_factor_sensitivity") or []],
         "tier1_comparison": {"carbon": fmt_num(total.get("carbon_tier1_t")), "co2e": fmt_num(total.get("co2e_tier1_t")),
                              "ours": fmt_num(total.get("carbon_smouldering_t"))},
         "flaming": {"estimated": flaming_estimated, "route": flaming_text, "params": flaming_params,

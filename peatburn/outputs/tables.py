@@ -130,6 +130,37 @@ def _phase_gases(out: dict, phase: str, dry_matter_kg, factor_set, factors) -> N
     out[f"co2e_{phase}_t"] = gases.co2_equivalent(masses, factors.gwp.gwp)
 
 
+def factor_set_sensitivity(peat_kg: float, factor_sets, gwp, chosen: str) -> list[dict]:
+    """The run's smouldering gases under each factor set, side by side.
+
+    Same dry matter burned (``peat_kg``, the run's total), each set's emission factors (IPCC 2006
+    Vol. 4 Eq. 2.27 form) and the run's GWP-100 set. Every gas any of the sets has gets a key
+    (None where a set lacks it). ``co2e_vs_chosen`` is the set's CO2e over the chosen set's.
+
+    Returns
+    -------
+    list of dict
+        ``set``, ``chosen`` (bool), ``status`` (``checked`` when every row of the set was compared
+        with its publication, else ``recalled`` / ``user-supplied``), ``{gas}_t``, ``co2e_t``,
+        ``co2e_vs_chosen``.
+    """
+    names = list(GASES)
+    for fs in factor_sets:
+        names += [g for g in fs.ef if g not in names]
+    rows = []
+    for fs in factor_sets:
+        masses = {g: float(gases.gas_emissions(peat_kg, ef)) * T_PER_KG for g, ef in fs.ef.items()}
+        statuses = set(fs.status.values())
+        rows.append({"set": fs.name, "chosen": fs.name == chosen,
+                     "status": statuses.pop() if len(statuses) == 1 else "recalled",
+                     **{f"{gas_key(g)}_t": masses.get(g) for g in names},
+                     "co2e_t": float(gases.co2_equivalent(masses, gwp.gwp))})
+    ref = next((r["co2e_t"] for r in rows if r["chosen"]), None)
+    for r in rows:
+        r["co2e_vs_chosen"] = r["co2e_t"] / ref if ref else None
+    return rows
+
+
 def _rows(layer: str, zones: list[str], q: dict) -> list[dict]:
     """Rows (dicts of Python floats) from quantities of ``len(zones)`` zones."""
     cols = {k: np.broadcast_to(v, (len(zones),)).tolist() for k, v in q.items()}
