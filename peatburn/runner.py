@@ -330,8 +330,12 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
 def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
     depth = {}
     tiers = {
-        "survey": "Tier 3: burn depth measured by differencing two bare-earth surveys",
-        "water_table": "Tier 3 (modelled): burn depth from the water-table depth, model calibrated on surveys or plots",
+        # IPCC terms: measured activity data with default emission factors is not Tier 3 outright
+        # (Tier 3 also needs country-specific factors or models; IPCC 2006 Vol. 1 Ch. 1, recalled)
+        "survey": ("measured activity data with default emission factors: burn depth measured by differencing "
+                   "two bare-earth surveys"),
+        "water_table": ("modelled activity data with default emission factors: burn depth from the water-table "
+                        "depth, model calibrated on surveys or plots"),
         "tier1": "Tier 1: IPCC 2013 Wetlands Supplement default fuel consumption",
     }
     for m in METHOD_CODES:

@@ -131,3 +131,9 @@ def test_sensitivity_table_has_every_shipped_smouldering_set(scene_run):
     assert by["smouldering_sumatra_shipboard2017"]["co2e_vs_chosen"] == pytest.approx(expect, rel=1e-9)
     html = (scene_run.out_dir / "report.html").read_text()
     assert "Sensitivity to the smouldering emission factors" in html and "smouldering_sumatra_shipboard2017" in html
+
+
+def test_report_headline_says_whether_co2e_is_the_unfccc_convention(scene_run):
+    html = (scene_run.out_dir / "report.html").read_text()
+    # the scene runs with AR6: the headline must say it is not the AR5 set of UNFCCC reporting
+    assert "not the AR5 values of UNFCCC reporting" in html

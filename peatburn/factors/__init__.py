@@ -48,6 +48,7 @@ __all__ = [
     "DEFAULT_GWP",
     "PHASES",
     "REQUIRED_GASES",
+    "GWP_PRESETS",
     "require_gases",
 ]
 
@@ -60,6 +61,12 @@ DEFAULT_FLAMING = "flaming_ipcc2006_tropical_forest"
 DEFAULT_GWP = "AR6"
 
 PHASES = ("smouldering", "flaming")
+#: Reporting presets for ``[emission_factors] gwp``: ``"UNFCCC"`` selects AR5 (GWP-100 without
+#: climate-carbon feedbacks), the values the Paris Agreement's enhanced transparency framework uses.
+#: That decision 18/CMA.1 sets the modalities, procedures and guidelines of that framework was
+#: checked (a public summary of the decision); that its annex (para. 37) names the AR5 GWP-100
+#: values is recalled, unchecked.
+GWP_PRESETS = {"unfccc": "AR5"}
 #: Gases every factor set of a run must hold: CO2 gives the CO2-C inventory line and the bulk of
 #: CO2e. Every other gas is optional and reported only where the set has it.
 REQUIRED_GASES = ("co2",)
@@ -467,7 +474,8 @@ def list_gwp_sets() -> list[GWPSet]:
 
 
 def load_gwp_set(name: str) -> GWPSet:
-    """Load a built-in GWP-100 set by name (case-insensitive: ``"ar6"`` finds ``"AR6"``).
+    """Load a built-in GWP-100 set by name (case-insensitive: ``"ar6"`` finds ``"AR6"``), or a
+    reporting preset of :data:`GWP_PRESETS` (``"UNFCCC"`` gives the AR5 set).
 
     Raises
     ------
@@ -476,7 +484,9 @@ def load_gwp_set(name: str) -> GWPSet:
     """
     table = _read_gwp_table()
     if isinstance(name, str):
+        name = GWP_PRESETS.get(name.strip().lower(), name)
         for key, gwp_set in table.items():
             if key.lower() == name.strip().lower():
                 return gwp_set
-    raise FactorSetError(f"unknown GWP set {name!r}; built-in GWP sets are: {', '.join(table)}")
+    raise FactorSetError(f"unknown GWP set {name!r}; built-in GWP sets are: {', '.join(table)} "
+                         f"(or the preset UNFCCC, which selects AR5)")
