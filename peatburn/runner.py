@@ -310,7 +310,9 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     inv = tables.inventory_rows(total, shares, factors.gwp.name, run_gases)
     files["daily"] = write_csv(out_dir / "daily.csv", daily, timeline.daily_columns(run_gases))
     files["inventory"] = write_csv(out_dir / "inventory.csv", inv, tables.INVENTORY_COLUMNS)
-    files["inventory_json"] = write_json(out_dir / "inventory.json", {"unit": "Gg", "rows": inv})
+    files["inventory_json"] = write_json(out_dir / "inventory.json", {"unit": "Gg", "gwp": factors.gwp.name,
+                                                                          "conventions": tables.INVENTORY_CONVENTIONS,
+                                                                          "rows": inv})
     prov = provenance.build(cfg, grid, alignment, factors, models,
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
                                    "outputs": sorted(["zones.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",

@@ -137,3 +137,13 @@ def test_report_headline_says_whether_co2e_is_the_unfccc_convention(scene_run):
     html = (scene_run.out_dir / "report.html").read_text()
     # the scene runs with AR6: the headline must say it is not the AR5 set of UNFCCC reporting
     assert "not the AR5 values of UNFCCC reporting" in html
+
+
+def test_inventory_names_the_wetlands_fire_loss_term(scene_run):
+    import json
+
+    inv = json.loads((scene_run.out_dir / "inventory.json").read_text())
+    assert "L_fire" in inv["conventions"]["smouldering"] and "Wetlands Supplement" in inv["conventions"]["smouldering"]
+    assert "carbon-stock change" in inv["conventions"]["flaming"]
+    html = (scene_run.out_dir / "report.html").read_text()
+    assert "Wetlands Supplement" in html and "L_fire" in html

@@ -32,7 +32,7 @@ from pathlib import Path
 import numpy as np
 
 from ..io.writers import write_text
-from .tables import OUTSIDE, TOTAL_LAYER
+from .tables import INVENTORY_CONVENTIONS, OUTSIDE, TOTAL_LAYER
 
 #: The Okabe-Ito palette (Okabe & Ito 2008), by colour name.
 OKABE_ITO_NAMED = {
@@ -958,6 +958,7 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
                         "quantity": _quantity_label(unc), "by_zone": _contributions_by_zone(unc),
                         "sources": _uncertainty_sources(unc), "facts": unc_items, "texts": unc_texts},
         "inventory": inventory,
+        "inventory_conventions": [(k, v) for k, v in INVENTORY_CONVENTIONS.items() if k != "flaming" or flaming_estimated],
         "factor_sets": factor_sets,
         "gwp": {"name": getattr(gwp, "name", ""), "citation": getattr(gwp, "citation", ""),
                 "status": getattr(gwp, "status", ""),

@@ -239,4 +239,17 @@ def _inv(year, phase, gas, total, key, scale):
     return row
 
 
+#: What each phase's lines are in inventory terms (inventory.json and the report).
+INVENTORY_CONVENTIONS = {
+    "smouldering": (
+        "Fire loss from drained (or rewetted) organic soil: the L_fire term of the 2013 IPCC Wetlands "
+        "Supplement, Chapter 2 (Eq. 2.8 form, L_fire = A x M_B x C_f x G_ef x 10^-3, with M_B x C_f "
+        "replaced by the measured or modelled peat burned; equation numbers recalled, unchecked). Report "
+        "under the organic-soil fire line, apart from above-ground biomass burning."),
+    "flaming": (
+        "Above-ground biomass burning (IPCC 2006 Vol. 4 Ch. 2 Eq. 2.27). On forest land the CO2 of this "
+        "line may already be counted in the carbon-stock change of the biomass pool (IPCC 2006 Vol. 4 "
+        "Ch. 2, recalled, unchecked): add only its non-CO2 gases in that case, so the CO2 is not counted twice."),
+}
+
 INVENTORY_COLUMNS = ["year", "phase", "gas", "emissions_gg", "emissions_gg_lo", "emissions_gg_hi"]
