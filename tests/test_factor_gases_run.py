@@ -147,3 +147,29 @@ def test_inventory_names_the_wetlands_fire_loss_term(scene_run):
     assert "carbon-stock change" in inv["conventions"]["flaming"]
     html = (scene_run.out_dir / "report.html").read_text()
     assert "Wetlands Supplement" in html and "L_fire" in html
+
+
+def test_fre_ratio_left_empty_for_zones_smaller_than_three_fire_pixels():
+    from types import SimpleNamespace
+
+    import numpy as np
+
+    from peatburn.factors import load_factor_set, load_gwp_set
+    from peatburn.outputs import tables
+
+    f = SimpleNamespace(smouldering=load_factor_set("smouldering_akagi2011"),
+                        flaming=load_factor_set("flaming_ipcc2006_tropical_forest"),
+                        tier1=load_factor_set("smouldering_ipcc2013_wetlands"), gwp=load_gwp_set("AR6"),
+                        vegetation_carbon_fraction=0.47, coefficient=0.368, frp_route=True)
+    ha = Q_(1, "hectare").to("m**2").magnitude  # pint: 1 ha = 1e4 m2
+    area = np.array([20.0, 299.0, 301.0, 5000.0]) * ha  # a 20 ha concession ... a 50 km2 block
+    z = np.zeros(4)
+    sums = {"burned_area_m2": area, "estimated_area_m2": area, "unestimated_area_m2": z, "below_lod_area_m2": z,
+            "volume_m3": area * 0.3, "depth_area_m2": area, "peat_kg": area * 30.0, "carbon_kg": area * 16.5,
+            "tier1_all_peat_kg": z, "tier1_all_carbon_kg": z,
+            **{f"area_m2_{m}": z for m in tables.METHODS}, **{f"carbon_kg_{m}": z for m in tables.METHODS}}
+    q = tables.quantities(sums, f, {"dry_matter_kg": z, "fre_mj": np.full(4, 1e6), "n_detections": np.ones(4)})
+    # three 1 km pixels (MODIS nominal footprint at nadir, 100 ha each): 300 ha
+    assert np.isnan(q["smouldering_to_frp_ratio"][:2]).all()
+    frp_c = 1e6 * 0.368 * 0.47 / 1000  # t C: FRE x C_e (Wooster et al. 2005) x f_C
+    assert q["smouldering_to_frp_ratio"][2:] == pytest.approx(area[2:] * 16.5 / 1000 / frp_c)

@@ -32,7 +32,7 @@ from pathlib import Path
 import numpy as np
 
 from ..io.writers import write_text
-from .tables import INVENTORY_CONVENTIONS, OUTSIDE, TOTAL_LAYER
+from .tables import INVENTORY_CONVENTIONS, MIN_AREA_FOR_FRE_RATIO_HA, OUTSIDE, TOTAL_LAYER
 
 #: The Okabe-Ito palette (Okabe & Ito 2008), by colour name.
 OKABE_ITO_NAMED = {
@@ -78,9 +78,9 @@ GAS_TABLE = [
 FRP_TABLE = [
     ("n_detections", "Active-fire detections", "count"),
     ("fre_mj", "Fire radiative energy", "MJ"),
-    ("carbon_frp_only_t", "Carbon an FRP-only method counts", "t C"),
+    ("carbon_frp_only_t", "Carbon from FRE with the stated conversion", "t C"),
     ("carbon_smouldering_t", "Carbon, below ground", "t C"),
-    ("smouldering_to_frp_ratio", "Below ground ÷ FRP-only", "ratio"),
+    ("smouldering_to_frp_ratio", "Below-ground carbon ÷ carbon from FRE", "ratio"),
 ]
 
 #: Methods and their sources, as printed in the report (statuses as in docs/method.md and docs/sources.md).
@@ -935,6 +935,7 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
         "zone_table": _table(result.zones, [c for c in ZONE_TABLE if flaming_estimated or "flaming" not in c[0]]),
         "gas_table": _table(result.zones, [c for c in GAS_TABLE if flaming_estimated or "flaming" not in c[0]]),
         "frp_table": _table(result.zones, FRP_TABLE) if frp_route else None,
+        "frp_min_area": fmt_num(MIN_AREA_FOR_FRE_RATIO_HA),
         "daily_days": len({r["date"] for r in result.daily or []}),
         "depth_methods": depth_methods, "unestimated": fmt_num(method.get("unestimated_area_ha")),
         "factor_sensitivity": [{"set": r.get("set", ""), "chosen": bool(r.get("chosen")), "status": r.get("status", ""),

@@ -66,6 +66,11 @@ OUTSIDE = "(outside every zone)"
 TOTAL_LAYER, TOTAL_ZONE = "total", "all"
 
 HA_PER_M2 = 1e-4  # exact
+#: Smallest burned area [ha] of a zone whose below-ground / FRE-carbon ratio is given: three
+#: footprints of a 1 km active-fire pixel at nadir (100 ha each; MODIS, Giglio et al. 2003,
+#: recalled, unchecked). Below it the detections cannot be placed inside the zone, so the ratio is
+#: left empty (the FRE and the carbon are still given).
+MIN_AREA_FOR_FRE_RATIO_HA = 300.0
 T_PER_KG = 1e-3  # exact
 
 
@@ -113,7 +118,8 @@ def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
             out["fre_mj"] = fre
             out["n_detections"] = np.asarray(flame["n_detections"], dtype="float64")
             out["carbon_frp_only_t"] = frp_c
-            out["smouldering_to_frp_ratio"] = np.where(frp_c > 0, out["carbon_smouldering_t"] / frp_c, np.nan)
+            big = out["burned_area_ha"] >= MIN_AREA_FOR_FRE_RATIO_HA
+            out["smouldering_to_frp_ratio"] = np.where((frp_c > 0) & big, out["carbon_smouldering_t"] / frp_c, np.nan)
         else:
             out["fre_mj"] = out["n_detections"] = out["carbon_frp_only_t"] = out["smouldering_to_frp_ratio"] = nan
     return out
