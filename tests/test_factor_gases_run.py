@@ -2,6 +2,7 @@
 what the run needs is refused before any pixel is read (issues 17 item 1, 25 item 1)."""
 
 import csv
+import json
 
 import pytest
 from click.testing import CliRunner
@@ -24,17 +25,21 @@ def _rows(path):
     return list(csv.DictReader(open(path, newline="")))
 
 
+BIOMASS_T_HA, COMBUSTION_FACTOR = 150.0, 0.4
+
+
 def test_flaming_n2o_and_nox_flow_to_every_table(tmp_path):
     s = make_scene(tmp_path / "s", zones=False)
-    s.config.write_text(s.config.read_text() + '\n[flaming]\nmethod = "biomass"\nbiomass = "200 t/ha"\n'
-                        'combustion_factor = 0.36\n')
-    r = peatburn.run(s.config, tmp_path / "o")
+    flaming = f'[flaming]\nmethod = "biomass"\nbiomass = "{BIOMASS_T_HA} t/ha"\ncombustion_factor = {COMBUSTION_FACTOR}\n'
+    s.config.write_text(s.config.read_text() + "\n" + flaming)
+    total = peatburn.run(s.config, tmp_path / "o").total
     # IPCC 2006 Eq. 2.27: dry matter = A x M_B x C_f; gas = dry matter x EF
-    dm_t = r.total["burned_area_ha"] * 200 * 0.36
-    assert r.total["n2o_flaming_t"] == pytest.approx(dm_t * EF_N2O / 1000, rel=1e-9)
-    assert r.total["nox_flaming_t"] == pytest.approx(dm_t * EF_NOX / 1000, rel=1e-9)
-    co2e = dm_t * (EF_CO2 + EF_CH4 * AR6_CH4 + EF_N2O * AR6_N2O) / 1000  # CO and NOx have no GWP-100
-    assert r.total["co2e_flaming_t"] == pytest.approx(co2e, rel=1e-9)
+    dm_t = total["burned_area_ha"] * BIOMASS_T_HA * COMBUSTION_FACTOR
+    expected = {"n2o": dm_t * EF_N2O / 1000, "nox": dm_t * EF_NOX / 1000,
+                "co2e": dm_t * (EF_CO2 + EF_CH4 * AR6_CH4 + EF_N2O * AR6_N2O) / 1000}  # CO, NOx: no GWP-100
+    for key, value in expected.items():
+        assert total[f"{key}_flaming_t"] == pytest.approx(value, rel=1e-9), key
+    totals = json.loads((tmp_path / "o" / "totals.json").read_text())
     zones = _rows(tmp_path / "o" / "zones.csv")
     total = next(z for z in zones if z["layer"] == "total")
     assert float(total["n2o_flaming_t"]) == pytest.approx(dm_t * EF_N2O / 1000, rel=1e-6)
@@ -43,11 +48,11 @@ def test_flaming_n2o_and_nox_flow_to_every_table(tmp_path):
     inv = _rows(tmp_path / "o" / "inventory.csv")
     gg_per_t = Q_(1, "t").to("Gg").magnitude  # pint
     n2o = sum(float(x["emissions_gg"]) for x in inv if x["phase"] == "flaming" and x["gas"] == "N2O")
-    assert n2o == pytest.approx(dm_t * EF_N2O / 1000 * gg_per_t, rel=1e-6)
+    assert n2o == pytest.approx(dm_t * EF_N2O / 1000 * gg_per_t, rel=1e-6, abs=1e-9)  # CSV: 9 decimals
     assert not [x for x in inv if x["phase"] == "smouldering" and x["gas"] == "N2O"]
     header = next(csv.reader(open(tmp_path / "o" / "daily.csv", newline="")))
     assert "n2o_t" in header and "nox_t" in header
-    assert r.totals["quantities"]["n2o_flaming_t"]["unit"] == "t N2O"
+    assert totals["quantities"]["n2o_flaming_t"]["unit"] == "t N2O"
 
 
 def _user_set(path, rows):
