@@ -178,3 +178,13 @@ def test_fre_ratio_left_empty_for_zones_smaller_than_three_fire_pixels():
     assert np.isnan(q["smouldering_to_frp_ratio"][:2]).all()
     frp_c = 1e6 * 0.368 * 0.47 / 1000  # t C: FRE x C_e (Wooster et al. 2005) x f_C
     assert q["smouldering_to_frp_ratio"][2:] == pytest.approx(area[2:] * 16.5 / 1000 / frp_c)
+
+
+def test_interval_columns_follow_any_gas_of_the_draws():
+    from peatburn.intervals import _column
+
+    assert _column("n2o_flaming_kg") == "n2o_flaming_t"
+    assert _column("pm2.5_smouldering_kg") == "pm2_5_smouldering_t"
+    assert _column("co_smouldering_kg") == "co_smouldering_t"
+    assert _column("carbon_kg") == "carbon_smouldering_t"
+    assert _column("volume_m3") is None  # a helper quantity, no column
