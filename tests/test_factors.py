@@ -224,3 +224,23 @@ def test_minimal_user_csv_takes_phase_from_argument_and_converts_co2_c(tmp_path)
     assert fs.ef["co"] == 100.0 and fs.status["co"] == "user-supplied"
     assert "minimal.csv" in fs.citation
     assert load_factor_set(str(path)).phase == "unspecified"
+
+
+def test_unfccc_preset_is_ar5():
+    # IPCC AR5 WG1 Table 8.7, GWP-100 without climate-carbon feedbacks: CH4 28, N2O 265
+    from peatburn.factors import load_gwp_set as _load
+
+    s = _load("UNFCCC")
+    assert s.name == "AR5" and s.gwp["ch4"] == 28 and s.gwp["n2o"] == 265
+
+
+def test_require_gases_names_the_file_and_the_gas(tmp_path):
+    from peatburn.factors import load_factor_set as _load
+    from peatburn.factors import require_gases
+
+    p = tmp_path / "mine.csv"
+    p.write_text("gas,ef_g_per_kg\nco,200\nch4,10\n")
+    with pytest.raises(FactorSetError, match=r"mine\.csv: the flaming set has no row for co2"):
+        require_gases(_load(p, "flaming"), "flaming")
+    ok = _load("smouldering_akagi2011")
+    assert require_gases(ok, "smouldering") is ok

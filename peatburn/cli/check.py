@@ -15,13 +15,14 @@ from .options import config_argument, handle_errors
 def check_cmd(config, against):
     """Validate CONFIG and its inputs and print what a run would do, without running it."""
     from ..config import load_config
+    from ..factors import load_factor_set, load_gwp_set, require_gases
     from ..names import printable
-    from ..factors import load_factor_set, load_gwp_set
     from ..outputs.provenance import check_against
     from ..engine.pipeline import open_inputs
 
     cfg = load_config(config)
-    sm = load_factor_set(cfg.factors.smouldering, "smouldering")
+    sm = require_gases(load_factor_set(cfg.factors.smouldering, "smouldering"), "smouldering")
+    fl = require_gases(load_factor_set(cfg.factors.flaming, "flaming"), "flaming")
     gwp = load_gwp_set(cfg.factors.gwp)
     inputs = open_inputs(cfg)
     g = inputs.grid
@@ -62,6 +63,8 @@ def check_cmd(config, against):
     if cfg.flaming is not None:
         click.echo(f"flaming: {cfg.flaming.method} route")
     click.echo(f"smouldering factors: {sm.name} ({sm.citation}); GWP: {gwp.name}")
+    click.echo(f"flaming factors: {fl.name}; gases reported: smouldering {', '.join(sm.gases)}; "
+               f"flaming {', '.join(fl.gases)}")
     for n in inputs.notes:
         click.echo(f"note: {printable(n)}")  # notes may quote names from input files
     if against:

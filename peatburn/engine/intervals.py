@@ -15,7 +15,7 @@ import os
 import numpy as np
 
 from ..factors import list_factor_sets
-from ..outputs.tables import OUTSIDE, TOTAL_LAYER
+from ..outputs.tables import OUTSIDE, TOTAL_LAYER, gas_key
 from .pipeline import SCAR_LAYER
 from ..science import uncertainty as unc
 from ..science import variogram
@@ -249,9 +249,9 @@ def _column(q: str) -> str | None:
         if col.startswith("("):
             continue
         if "{gas}" in pattern:
-            for g in ("co2", "ch4", "co"):
-                if q == pattern.format(gas=g):
-                    return col.format(gas=g)
+            head, tail = pattern.split("{gas}")
+            if q.startswith(head) and q.endswith(tail) and len(q) > len(head) + len(tail):
+                return col.format(gas=gas_key(q[len(head):len(q) - len(tail)]))
         elif q == pattern:
             return col
     return None

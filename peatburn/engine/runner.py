@@ -18,7 +18,7 @@ from .. import __version__
 from ..config import RunConfig
 from ..errors import OutputExistsError
 from .executors import BLOCK_GROUP, map_blocks
-from ..factors import load_factor_set, load_gwp_set
+from ..factors import load_factor_set, load_gwp_set, require_gases
 from ..io.writers import BlockRasterWriter, BlockWrites, is_own_temporary, write_csv, write_json
 from ..outputs import provenance, tables
 from .pipeline import (METHOD_CODES, SCAR_LAYER, Sums, build_plan, compute_block, coregister, fit_models, open_inputs,
@@ -81,8 +81,8 @@ def load_factors(cfg: RunConfig) -> Factors:
 
     fl = cfg.flaming
     return Factors(
-        smouldering=load_factor_set(cfg.factors.smouldering, "smouldering"),
-        flaming=load_factor_set(cfg.factors.flaming, "flaming"),
+        smouldering=require_gases(load_factor_set(cfg.factors.smouldering, "smouldering"), "smouldering"),
+        flaming=require_gases(load_factor_set(cfg.factors.flaming, "flaming"), "flaming"),
         tier1=load_factor_set(TIER1_FACTOR_SET, "smouldering"),
         gwp=load_gwp_set(cfg.factors.gwp),
         vegetation_carbon_fraction=(fl.vegetation_carbon_fraction if fl and fl.vegetation_carbon_fraction
@@ -299,6 +299,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
         notes += flame.notes
     rows = tables.zone_rows(sums, factors, flame)
     total = rows[-1]
+    run_gases = tables.run_gases(factors)
     qa = qa_summary(sums.total, alignment)
     notes += fill_notes(cfg, plan, sums.total)
     checks = factor_checks(factors.smouldering, sums.total)
@@ -312,7 +313,8 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
 
         ef = factors.flaming.ef
         closure = float(gases.carbon_closure(ef, factors.vegetation_carbon_fraction))
-        flame_checks = {"mce": float(gases.modified_combustion_efficiency(ef["co2"], ef["co"])),
+        flame_checks = {"mce": (float(gases.modified_combustion_efficiency(ef["co2"], ef["co"]))
+                                if "co" in ef else None),
                         "vegetation_carbon_fraction": factors.vegetation_carbon_fraction, "carbon_closure": closure}
         if closure > 1.0:
             notes.append(f"emission factors: the flaming set {factors.flaming.name} puts {closure:.3f} times the "
@@ -345,14 +347,17 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
         notes.append(f"timeline: {sum(p[0] is None for p in periods)} scar(s) without a fire date "
                      f"({cfg.start_field}); their emissions count in run.year ({cfg.year}) and are not in daily.csv")
 
+    unit_of = tables.units(run_gases)
     totals = {
         "run": cfg.name, "year": cfg.year, "tool_version": __version__,
-        "quantities": {k: {"value": total[k], "unit": tables.UNITS.get(k, ""),
+        "quantities": {k: {"value": total[k], "unit": unit_of.get(k, ""),
                            **({"lo": total.get(f"{k}_lo"), "hi": total.get(f"{k}_hi")}
                               if f"{k}_lo" in total else {})}
-                       for k in tables.ZONE_COLUMNS[2:]},
+                       for k in tables.zone_columns(run_gases)[2:]},
         "method": {**method_summary(cfg, total, factors, alignment, models, flame),
                    "smouldering_factor_checks": checks, "flaming_factor_checks": flame_checks},
+        "smouldering_factor_sensitivity": tables.factor_set_sensitivity(
+            sums.total["peat_kg"], _sensitivity_sets(factors.smouldering), factors.gwp, factors.smouldering.name),
         "qa": qa,
         "water_table_model": models.to_dict() if models else None,
         "field_plots": plots,
@@ -360,18 +365,21 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
         "notes": notes,
         "cautions": CAUTIONS,
     }
-    columns = list(tables.ZONE_COLUMNS)
+    columns = tables.zone_columns(run_gases)
     if uncertainty:
-        for c in tables.INTERVAL_COLUMNS:
-            columns += [f"{c}_lo", f"{c}_hi"]
+        for c in tables.interval_columns(run_gases):
+            if c in tables.INTERVAL_COLUMNS or f"{c}_lo" in total:
+                columns += [f"{c}_lo", f"{c}_hi"]
     files = {}
     files["zones"] = write_csv(out_dir / "zones.csv", rows, columns)
     files["fires"] = write_csv(out_dir / "fires.csv", fire_rows, fires.fire_columns(bool(uncertainty)))
     files["totals"] = write_json(out_dir / "totals.json", totals)
-    inv = tables.inventory_rows(total, shares, factors.gwp.name)
-    files["daily"] = write_csv(out_dir / "daily.csv", daily, timeline.DAILY_COLUMNS)
+    inv = tables.inventory_rows(total, shares, factors.gwp.name, run_gases)
+    files["daily"] = write_csv(out_dir / "daily.csv", daily, timeline.daily_columns(run_gases))
     files["inventory"] = write_csv(out_dir / "inventory.csv", inv, tables.INVENTORY_COLUMNS)
-    files["inventory_json"] = write_json(out_dir / "inventory.json", {"unit": "Gg", "rows": inv})
+    files["inventory_json"] = write_json(out_dir / "inventory.json", {"unit": "Gg", "gwp": factors.gwp.name,
+                                                                          "conventions": tables.INVENTORY_CONVENTIONS,
+                                                                          "rows": inv})
     prov = provenance.build(cfg, grid, alignment, factors, models,
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
                                    "outputs": sorted(["zones.csv", "fires.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
@@ -410,8 +418,12 @@ def fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums) -> list[di
 def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
     depth = {}
     tiers = {
-        "survey": "Tier 3: burn depth measured by differencing two bare-earth surveys",
-        "water_table": "Tier 3 (modelled): burn depth from the water-table depth, model calibrated on surveys or plots",
+        # IPCC terms: measured activity data with default emission factors is not Tier 3 outright
+        # (Tier 3 also needs country-specific factors or models; IPCC 2006 Vol. 1 Ch. 1, recalled)
+        "survey": ("measured activity data with default emission factors: burn depth measured by differencing "
+                   "two bare-earth surveys"),
+        "water_table": ("modelled activity data with default emission factors: burn depth from the water-table "
+                        "depth, model calibrated on surveys or plots"),
         "tier1": "Tier 1: IPCC 2013 Wetlands Supplement default fuel consumption",
     }
     for m in METHOD_CODES:
@@ -432,6 +444,14 @@ def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
         "uncertainty": (f"Monte Carlo, {cfg.uncertainty.draws} draws at zone level, seed {cfg.uncertainty.seed}"
                         if cfg.uncertainty.draws else "no Monte Carlo draws (uncertainty.draws = 0)"),
     }
+
+
+def _sensitivity_sets(chosen) -> list:
+    """Every shipped smouldering set, and the run's own set where it is a user file."""
+    from ..factors import list_factor_sets
+
+    shipped = list_factor_sets("smouldering")
+    return shipped + ([chosen] if chosen.name not in {s.name for s in shipped} else [])
 
 
 def factor_checks(factor_set, total: dict) -> dict:

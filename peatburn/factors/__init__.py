@@ -48,6 +48,9 @@ __all__ = [
     "DEFAULT_GWP",
     "PHASES",
     "gas_label",
+    "REQUIRED_GASES",
+    "GWP_PRESETS",
+    "require_gases",
 ]
 
 #: Default smouldering set: the IPCC Tier 1 defaults for fires on tropical organic soil, the
@@ -59,6 +62,15 @@ DEFAULT_FLAMING = "flaming_ipcc2006_tropical_forest"
 DEFAULT_GWP = "AR6"
 
 PHASES = ("smouldering", "flaming")
+#: Reporting presets for ``[emission_factors] gwp``: ``"UNFCCC"`` selects AR5 (GWP-100 without
+#: climate-carbon feedbacks), the values the Paris Agreement's enhanced transparency framework uses.
+#: That decision 18/CMA.1 sets the modalities, procedures and guidelines of that framework was
+#: checked (a public summary of the decision); that its annex (para. 37) names the AR5 GWP-100
+#: values is recalled, unchecked.
+GWP_PRESETS = {"unfccc": "AR5"}
+#: Gases every factor set of a run must hold: CO2 gives the CO2-C inventory line and the bulk of
+#: CO2e. Every other gas is optional and reported only where the set has it.
+REQUIRED_GASES = ("co2",)
 _STATUSES = ("checked", "recalled")
 _GWP_FILE = "gwp_sets.csv"
 _EF_COLUMNS = ("gas", "ef_g_per_kg", "sd_g_per_kg", "citation", "status")
@@ -426,13 +438,45 @@ def _read_gwp_table() -> dict[str, GWPSet]:
     }
 
 
+def require_gases(factor_set: FactorSet, role: str, needed=REQUIRED_GASES) -> FactorSet:
+    """Refuse a set that lacks a gas the run needs (called before any pixel is read).
+
+    Parameters
+    ----------
+    factor_set : FactorSet
+    role : str
+        What the set is used for in the run (``"smouldering"``, ``"flaming"``), for the message.
+    needed : sequence of str
+        Gas names the run needs (default :data:`REQUIRED_GASES`).
+
+    Returns
+    -------
+    FactorSet
+        The set, unchanged.
+
+    Raises
+    ------
+    FactorSetError
+        One line naming the set (and its file), the missing gas(es) and the fix.
+    """
+    missing = [g for g in needed if g not in factor_set.ef]
+    if missing:
+        where = factor_set.source_path or f"built-in factor set {factor_set.name!r}"
+        raise FactorSetError(
+            f"{where}: the {role} set has no row for {', '.join(missing)}; a run needs "
+            f"{', '.join(needed)} in every set: add the row(s) (gas,ef_g_per_kg)"
+        )
+    return factor_set
+
+
 def list_gwp_sets() -> list[GWPSet]:
     """All built-in GWP-100 sets, in file order."""
     return list(_read_gwp_table().values())
 
 
 def load_gwp_set(name: str) -> GWPSet:
-    """Load a built-in GWP-100 set by name (case-insensitive: ``"ar6"`` finds ``"AR6"``).
+    """Load a built-in GWP-100 set by name (case-insensitive: ``"ar6"`` finds ``"AR6"``), or a
+    reporting preset of :data:`GWP_PRESETS` (``"UNFCCC"`` gives the AR5 set).
 
     Raises
     ------
@@ -441,10 +485,13 @@ def load_gwp_set(name: str) -> GWPSet:
     """
     table = _read_gwp_table()
     if isinstance(name, str):
+        name = GWP_PRESETS.get(name.strip().lower(), name)
         for key, gwp_set in table.items():
             if key.lower() == name.strip().lower():
                 return gwp_set
-    raise FactorSetError(f"unknown GWP set {name!r}; built-in GWP sets are: {', '.join(table)}")
+    raise FactorSetError(f"unknown GWP set {name!r}; built-in GWP sets are: {', '.join(table)} "
+                         f"(or the preset UNFCCC, which selects AR5)")
+
 
 
 #: Display labels where the upper-cased code is not the usual notation (common practice).

@@ -34,7 +34,7 @@ import numpy as np
 from ..factors import gas_label
 from ..io.writers import write_text
 from ..names import printable
-from .tables import OUTSIDE, TOTAL_LAYER
+from .tables import INVENTORY_CONVENTIONS, MIN_AREA_FOR_FRE_RATIO_HA, OUTSIDE, TOTAL_LAYER
 
 #: The Okabe-Ito palette (Okabe & Ito 2008), by colour name.
 OKABE_ITO_NAMED = {
@@ -82,9 +82,9 @@ GAS_TABLE = [
 FRP_TABLE = [
     ("n_detections", "Active-fire detections", "count"),
     ("fre_mj", "Fire radiative energy", "MJ"),
-    ("carbon_frp_only_t", "Carbon an FRP-only method counts", "t C"),
+    ("carbon_frp_only_t", "Carbon from FRE with the stated conversion", "t C"),
     ("carbon_smouldering_t", "Carbon, below ground", "t C"),
-    ("smouldering_to_frp_ratio", "Below ground ÷ FRP-only", "ratio"),
+    ("smouldering_to_frp_ratio", "Below-ground carbon ÷ carbon from FRE", "ratio"),
 ]
 
 #: Methods and their sources, as printed in the report (statuses as in docs/method.md and docs/sources.md).
@@ -957,9 +957,15 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
         "zone_table": _table(result.zones, [c for c in ZONE_TABLE if flaming_estimated or "flaming" not in c[0]]),
         "gas_table": _table(result.zones, [c for c in GAS_TABLE if flaming_estimated or "flaming" not in c[0]]),
         "frp_table": _table(result.zones, FRP_TABLE) if frp_route else None,
+        "frp_min_area": fmt_num(MIN_AREA_FOR_FRE_RATIO_HA),
         "daily_days": len({r["date"] for r in result.daily or []}),
         "depth_methods": depth_methods, "unestimated": fmt_num(method.get("unestimated_area_ha")),
         "mineral": fmt_num(method.get("mineral_soil_area_ha")), "tier1_only": bool(method.get("tier1_only")),
+        "factor_sensitivity": [{"set": r.get("set", ""), "chosen": bool(r.get("chosen")), "status": r.get("status", ""),
+                                "co2": fmt_num(r.get("co2_t")), "ch4": fmt_num(r.get("ch4_t")),
+                                "co": fmt_num(r.get("co_t")), "co2e": fmt_num(r.get("co2e_t")),
+                                "ratio": fmt_num(r.get("co2e_vs_chosen"))}
+                               for r in totals.get("smouldering_factor_sensitivity") or []],
         "tier1_comparison": {"carbon": fmt_num(total.get("carbon_tier1_t")), "co2e": fmt_num(total.get("co2e_tier1_t")),
                              "ours": fmt_num(total.get("carbon_smouldering_t"))},
         "flaming": {"estimated": flaming_estimated, "route": flaming_text, "params": flaming_params,
@@ -976,6 +982,7 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
                         "quantity": _quantity_label(unc), "by_zone": _contributions_by_zone(unc),
                         "sources": _uncertainty_sources(unc), "facts": unc_items, "texts": unc_texts},
         "inventory": inventory,
+        "inventory_conventions": [(k, v) for k, v in INVENTORY_CONVENTIONS.items() if k != "flaming" or flaming_estimated],
         "factor_sets": factor_sets,
         "gwp": {"name": getattr(gwp, "name", ""), "citation": getattr(gwp, "citation", ""),
                 "status": getattr(gwp, "status", ""),

@@ -8,6 +8,7 @@ to the sum equals summing per pixel). CO2-equivalent uses the chosen GWP-100 set
 from __future__ import annotations
 
 import math
+import re
 
 import numpy as np
 
@@ -15,31 +16,62 @@ from ..factors import gas_label
 from ..names import OUTSIDE, TOTAL_LAYER, TOTAL_ZONE  # noqa: F401  (reserved labels, see peatburn.names)
 from ..science import gases
 
+#: Gases every run reports (the Tier 1 set has all three); a factor set's other gases follow them.
 GASES = ("co2", "ch4", "co")
 PHASES = ("smouldering", "flaming")
 METHODS = ("survey", "water_table", "tier1")
 
-ZONE_COLUMNS = [
-    "layer", "zone", "burned_area_ha", "estimated_area_ha", "unestimated_area_ha", "below_lod_area_ha",
-    "mineral_soil_area_ha",
-    "mean_burn_depth_m", "peat_burned_t", "carbon_smouldering_t",
-    "co2_smouldering_t", "ch4_smouldering_t", "co_smouldering_t",
-    "carbon_flaming_t", "co2_flaming_t", "ch4_flaming_t", "co_flaming_t",
-    "co2e_smouldering_t", "co2e_flaming_t",
-    "area_survey_ha", "area_water_table_ha", "area_tier1_ha",
-    "carbon_share_survey", "carbon_share_water_table", "carbon_share_tier1",
-    "carbon_tier1_t", "co2_tier1_t", "ch4_tier1_t", "co_tier1_t", "co2e_tier1_t",
-    "fre_mj", "n_detections", "carbon_frp_only_t", "smouldering_to_frp_ratio",
-]
 
-#: Columns that get _lo and _hi when Monte Carlo draws are made.
-INTERVAL_COLUMNS = [
-    "peat_burned_t", "carbon_smouldering_t", "co2_smouldering_t", "ch4_smouldering_t", "co_smouldering_t",
-    "co2e_smouldering_t", "carbon_flaming_t", "co2_flaming_t", "ch4_flaming_t", "co_flaming_t", "co2e_flaming_t",
-]
+def gas_key(gas: str) -> str:
+    """Column stem of a gas: its lower-case name with characters other than letters, digits and
+    ``_`` replaced by ``_`` (``pm2.5`` -> ``pm2_5``)."""
+    return re.sub(r"[^a-z0-9_]", "_", gas.lower())
+
+
+def run_gases(factors) -> tuple[str, ...]:
+    """The gases of a run: :data:`GASES`, then every other gas of the smouldering, Tier 1 and
+    flaming sets in the order they first appear (so a set's N2O, NOx or PM2.5 reach the tables)."""
+    out = [*GASES]
+    for fs in (factors.smouldering, factors.tier1, factors.flaming):
+        out += [g for g in fs.ef if g not in out]
+    return tuple(out)
+
+
+def zone_columns(gases=GASES) -> list[str]:
+    """zones.csv columns for the run's ``gases`` (see :func:`run_gases`)."""
+    def per(phase):
+        return [f"{gas_key(g)}_{phase}_t" for g in gases]
+
+    return [
+        "layer", "zone", "burned_area_ha", "estimated_area_ha", "unestimated_area_ha", "below_lod_area_ha",
+        "mineral_soil_area_ha",
+        "mean_burn_depth_m", "peat_burned_t", "carbon_smouldering_t", *per("smouldering"),
+        "carbon_flaming_t", *per("flaming"),
+        "co2e_smouldering_t", "co2e_flaming_t",
+        "area_survey_ha", "area_water_table_ha", "area_tier1_ha",
+        "carbon_share_survey", "carbon_share_water_table", "carbon_share_tier1",
+        "carbon_tier1_t", *per("tier1"), "co2e_tier1_t",
+        "fre_mj", "n_detections", "carbon_frp_only_t", "smouldering_to_frp_ratio",
+    ]
+
+
+def interval_columns(gases=GASES) -> list[str]:
+    """Columns that get _lo and _hi when Monte Carlo draws are made."""
+    return ["peat_burned_t", "carbon_smouldering_t", *(f"{gas_key(g)}_smouldering_t" for g in gases),
+            "co2e_smouldering_t", "carbon_flaming_t", *(f"{gas_key(g)}_flaming_t" for g in gases), "co2e_flaming_t"]
+
+
+ZONE_COLUMNS = zone_columns()
+#: Columns that get _lo and _hi when Monte Carlo draws are made (the gases every run reports).
+INTERVAL_COLUMNS = interval_columns()
 
 
 HA_PER_M2 = 1e-4  # exact
+#: Smallest burned area [ha] of a zone whose below-ground / FRE-carbon ratio is given: three
+#: footprints of a 1 km active-fire pixel at nadir (100 ha each; MODIS, Giglio et al. 2003,
+#: recalled, unchecked). Below it the detections cannot be placed inside the zone, so the ratio is
+#: left empty (the FRE and the carbon are still given).
+MIN_AREA_FOR_FRE_RATIO_HA = 300.0
 T_PER_KG = 1e-3  # exact
 
 
@@ -68,26 +100,17 @@ def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
             "peat_burned_t": peat_kg * t,
             "carbon_smouldering_t": carbon * t,
         }
-        sm = {g: gases.gas_emissions(peat_kg, factors.smouldering.ef[g]) * t for g in GASES}
-        for g in GASES:
-            out[f"{g}_smouldering_t"] = sm[g]
-        out["co2e_smouldering_t"] = gases.co2_equivalent(sm, factors.gwp.gwp)
+        _phase_gases(out, "smouldering", peat_kg, factors.smouldering, factors)
         for m in METHODS:
             out[f"area_{m}_ha"] = s[f"area_m2_{m}"] * ha
             out[f"carbon_share_{m}"] = np.where(carbon != 0, s[f"carbon_kg_{m}"] / carbon, np.nan)
         t1_dm = s["tier1_all_peat_kg"]
         out["carbon_tier1_t"] = s["tier1_all_carbon_kg"] * t
-        t1 = {g: gases.gas_emissions(t1_dm, factors.tier1.ef[g]) * t for g in GASES}
-        for g in GASES:
-            out[f"{g}_tier1_t"] = t1[g]
-        out["co2e_tier1_t"] = gases.co2_equivalent(t1, factors.gwp.gwp)
+        _phase_gases(out, "tier1", t1_dm, factors.tier1, factors)
         # flaming, apart
         dm = np.asarray(flame["dry_matter_kg"], dtype="float64") if flame else np.zeros_like(peat_kg)
-        fl = {g: gases.gas_emissions(dm, factors.flaming.ef[g]) * t for g in GASES}
         out["carbon_flaming_t"] = dm * factors.vegetation_carbon_fraction * t
-        for g in GASES:
-            out[f"{g}_flaming_t"] = fl[g]
-        out["co2e_flaming_t"] = gases.co2_equivalent(fl, factors.gwp.gwp)
+        _phase_gases(out, "flaming", dm, factors.flaming, factors)
         has_fre = flame is not None and factors.frp_route
         nan = np.full(np.shape(peat_kg), np.nan)
         if has_fre:
@@ -98,10 +121,53 @@ def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
             out["fre_mj"] = fre
             out["n_detections"] = np.asarray(flame["n_detections"], dtype="float64")
             out["carbon_frp_only_t"] = frp_c
-            out["smouldering_to_frp_ratio"] = np.where(frp_c > 0, out["carbon_smouldering_t"] / frp_c, np.nan)
+            big = out["burned_area_ha"] >= MIN_AREA_FOR_FRE_RATIO_HA
+            out["smouldering_to_frp_ratio"] = np.where((frp_c > 0) & big, out["carbon_smouldering_t"] / frp_c, np.nan)
         else:
             out["fre_mj"] = out["n_detections"] = out["carbon_frp_only_t"] = out["smouldering_to_frp_ratio"] = nan
     return out
+
+
+def _phase_gases(out: dict, phase: str, dry_matter_kg, factor_set, factors) -> None:
+    """Gas masses [t] of one phase for every gas of the run (IPCC 2006 Vol. 4 Eq. 2.27), and
+    their CO2e over the gases that have a GWP-100 in the run's set. A gas of the run that this
+    phase's set lacks is NaN (written empty: not estimated), not zero."""
+    masses = {g: gases.gas_emissions(dry_matter_kg, ef) * T_PER_KG for g, ef in factor_set.ef.items()}
+    nan = np.full(np.shape(dry_matter_kg), np.nan)
+    for g in run_gases(factors):
+        out[f"{gas_key(g)}_{phase}_t"] = masses.get(g, nan)
+    out[f"co2e_{phase}_t"] = gases.co2_equivalent(masses, factors.gwp.gwp)
+
+
+def factor_set_sensitivity(peat_kg: float, factor_sets, gwp, chosen: str) -> list[dict]:
+    """The run's smouldering gases under each factor set, side by side.
+
+    Same dry matter burned (``peat_kg``, the run's total), each set's emission factors (IPCC 2006
+    Vol. 4 Eq. 2.27 form) and the run's GWP-100 set. Every gas any of the sets has gets a key
+    (None where a set lacks it). ``co2e_vs_chosen`` is the set's CO2e over the chosen set's.
+
+    Returns
+    -------
+    list of dict
+        ``set``, ``chosen`` (bool), ``status`` (``checked`` when every row of the set was compared
+        with its publication, else ``recalled`` / ``user-supplied``), ``{gas}_t``, ``co2e_t``,
+        ``co2e_vs_chosen``.
+    """
+    names = list(GASES)
+    for fs in factor_sets:
+        names += [g for g in fs.ef if g not in names]
+    rows = []
+    for fs in factor_sets:
+        masses = {g: float(gases.gas_emissions(peat_kg, ef)) * T_PER_KG for g, ef in fs.ef.items()}
+        statuses = set(fs.status.values())
+        rows.append({"set": fs.name, "chosen": fs.name == chosen,
+                     "status": statuses.pop() if len(statuses) == 1 else "recalled",
+                     **{f"{gas_key(g)}_t": masses.get(g) for g in names},
+                     "co2e_t": float(gases.co2_equivalent(masses, gwp.gwp))})
+    ref = next((r["co2e_t"] for r in rows if r["chosen"]), None)
+    for r in rows:
+        r["co2e_vs_chosen"] = r["co2e_t"] / ref if ref else None
+    return rows
 
 
 def _rows(layer: str, zones: list[str], q: dict) -> list[dict]:
@@ -128,7 +194,18 @@ def zone_rows(result_sums, factors, flame_sums=None) -> list[dict]:
     return rows
 
 
-UNITS = {
+def units(gases=GASES) -> dict:
+    """Unit of each zones.csv column (and of its _lo / _hi)."""
+    out = dict(_BASE_UNITS)
+    for g in gases:
+        for p in PHASES + ("tier1",):
+            out[f"{gas_key(g)}_{p}_t"] = f"t {gas_label(g)}"
+    for c in interval_columns(gases):
+        out[f"{c}_lo"] = out[f"{c}_hi"] = out[c]
+    return out
+
+
+_BASE_UNITS = {
     "burned_area_ha": "ha", "estimated_area_ha": "ha", "unestimated_area_ha": "ha", "below_lod_area_ha": "ha",
     "mineral_soil_area_ha": "ha",
     "mean_burn_depth_m": "m", "peat_burned_t": "t dry matter", "carbon_smouldering_t": "t C",
@@ -138,27 +215,26 @@ UNITS = {
     "carbon_tier1_t": "t C", "co2e_tier1_t": "t CO2e", "fre_mj": "MJ", "n_detections": "1",
     "carbon_frp_only_t": "t C", "smouldering_to_frp_ratio": "1",
 }
-for _g in GASES:
-    for _p in PHASES + ("tier1",):
-        UNITS[f"{_g}_{_p}_t"] = f"t {gas_label(_g)}"
-for _c in INTERVAL_COLUMNS:
-    UNITS[f"{_c}_lo"] = UNITS[_c]
-    UNITS[f"{_c}_hi"] = UNITS[_c]
+UNITS = units()
 
 
-def inventory_rows(total: dict, year_shares: dict, gwp_name: str) -> list[dict]:
+def inventory_rows(total: dict, year_shares: dict, gwp_name: str, gases_of_run=GASES) -> list[dict]:
     """Emissions by year, phase and gas in Gg (1 Gg = 1000 t), the lines an inventory adds.
 
     ``year_shares`` maps phase -> {year: share of the phase's run total}; from the scars' fire dates
     (smouldering) and the detection times (flaming), or all in ``[run] year``. CO2 is also given as
     CO2-C (x 12.011/44.009) and the CO2e line names its GWP set. ``_lo`` and ``_hi`` are the run
     interval scaled by the year's share (the years of one run share their uncertain parameters).
+    Every gas of ``gases_of_run`` that the phase's set has (a finite total) gets a line; a gas the
+    set lacks gets none.
     """
     rows = []
     for phase in PHASES:
         for yr, share in sorted(year_shares[phase].items(), key=lambda kv: str(kv[0])):
-            for g in GASES:
-                rows.append(_inv(yr, phase, gas_label(g), total, f"{g}_{phase}_t", share))
+            for g in gases_of_run:
+                key = f"{gas_key(g)}_{phase}_t"
+                if math.isfinite(total.get(key, math.nan)):
+                    rows.append(_inv(yr, phase, gas_label(g), total, key, share))
             rows.append(_inv(yr, phase, "CO2-C", total, f"co2_{phase}_t", share * float(gases.co2_to_carbon(1.0))))
             rows.append(_inv(yr, phase, f"CO2e ({gwp_name})", total, f"co2e_{phase}_t", share))
     return rows
@@ -172,5 +248,18 @@ def _inv(year, phase, gas, total, key, scale):
         row[f"emissions_gg_{s}"] = v * scale * 1e-3 if v is not None else math.nan
     return row
 
+
+#: What each phase's lines are in inventory terms (inventory.json and the report).
+INVENTORY_CONVENTIONS = {
+    "smouldering": (
+        "Fire loss from drained (or rewetted) organic soil: the L_fire term of the 2013 IPCC Wetlands "
+        "Supplement, Chapter 2 (Eq. 2.8 form, L_fire = A x M_B x C_f x G_ef x 10^-3, with M_B x C_f "
+        "replaced by the measured or modelled peat burned; equation numbers recalled, unchecked). Report "
+        "under the organic-soil fire line, apart from above-ground biomass burning."),
+    "flaming": (
+        "Above-ground biomass burning (IPCC 2006 Vol. 4 Ch. 2 Eq. 2.27). On forest land the CO2 of this "
+        "line may already be counted in the carbon-stock change of the biomass pool (IPCC 2006 Vol. 4 "
+        "Ch. 2, recalled, unchecked): add only its non-CO2 gases in that case, so the CO2 is not counted twice."),
+}
 
 INVENTORY_COLUMNS = ["year", "phase", "gas", "emissions_gg", "emissions_gg_lo", "emissions_gg_hi"]

@@ -17,8 +17,16 @@ import numpy as np
 import pandas as pd
 
 from ..science import gases
+from .tables import GASES, gas_key
 
-DAILY_COLUMNS = ["date", "phase", "dry_matter_t", "carbon_t", "co2_t", "ch4_t", "co_t", "co2e_t"]
+
+def daily_columns(gas_names=GASES) -> list[str]:
+    """daily.csv columns for the run's gases (:func:`peatburn.outputs.tables.run_gases`); a gas
+    the phase's set lacks is left empty on that phase's rows."""
+    return ["date", "phase", "dry_matter_t", "carbon_t", *(f"{gas_key(g)}_t" for g in gas_names), "co2e_t"]
+
+
+DAILY_COLUMNS = daily_columns()
 
 
 def _dates(frame, field: str | None):
@@ -68,9 +76,9 @@ def daily_rows(scar_sums: dict, periods: list[tuple], flame_daily: dict, factors
     rows = []
     for (phase, day), (dm, c) in sorted(acc.items(), key=lambda kv: (kv[0][1], kv[0][0])):
         fs = factors.smouldering if phase == "smouldering" else factors.flaming
-        masses = {g: float(gases.gas_emissions(dm, fs.ef[g])) * 1e-3 for g in ("co2", "ch4", "co")}
+        masses = {g: float(gases.gas_emissions(dm, ef)) * 1e-3 for g, ef in fs.ef.items()}
         rows.append({"date": day.isoformat(), "phase": phase, "dry_matter_t": dm * 1e-3, "carbon_t": c * 1e-3,
-                     "co2_t": masses["co2"], "ch4_t": masses["ch4"], "co_t": masses["co"],
+                     **{f"{gas_key(g)}_t": m for g, m in masses.items()},
                      "co2e_t": float(gases.co2_equivalent(masses, factors.gwp.gwp))})
     return rows
 

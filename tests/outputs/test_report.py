@@ -195,8 +195,9 @@ def test_every_zone_and_unit_is_in_the_tables(page, demo):
 
 def test_method_tiers_qa_and_field_plots(page, demo):
     methods = page.section("methods")
-    for tier in ("Tier 3", "Tier 1"):
+    for tier in ("measured activity data with default emission factors", "Tier 1"):
         assert tier in methods
+    assert "Tier 3" not in methods  # issue 17: the survey route is not Tier 3 outright
     share = demo[1].total["carbon_share_survey"]
     assert f"{100 * share:.3g} %" in methods  # e.g. 0.882 -> "88.2 %"
     qa = page.section("qa")
