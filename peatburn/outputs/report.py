@@ -664,9 +664,18 @@ def _water_table(models) -> list[dict]:
             "range": fmt_range(rng[0], rng[1]) if len(rng) == 2 else "",
             "method": str(m.get("method", "")), "confidence": str(m.get("confidence", "")),
             "basis": str(m.get("basis") or ""), "se_method": str(m.get("se_method") or ""),
+            "estimator": str(m.get("estimator") or ""),
+            "cv_bias": _pct(m.get("cv_bias")), "cv_rmse": _pct(m.get("cv_rmse")),
+            "cv_method": str(m.get("cv_method") or ""),
             "notes": [str(n) for n in (m.get("notes") or [])],
         })
     return out
+
+
+def _pct(v) -> str:
+    """A relative error [-] as a signed percentage with one decimal, '' when missing."""
+    f = _finite(v)
+    return "" if f is None else f"{100 * f:+.1f}"
 
 
 def _field_plots(plots) -> dict | None:
