@@ -51,6 +51,17 @@ def survey_error_model(alignment, pixel_area_m2: float, range_override: float | 
             "stable_area_m2": stable_area, "variogram": {k: float(v) for k, v in fit.items()}}
 
 
+def wt_prediction_sd_m(model, total: dict) -> float | None:
+    """The water-table model's leave-scar-out error as a depth error [m]: the relative RMSE of scar
+    carbon (``model.cv_rmse``) times the model's depth at the mean water table of the modelled
+    (unclipped) pixels; None when the model was not cross-validated or no pixel was modelled."""
+    rel = getattr(model, "cv_rmse", float("nan"))
+    area = total.get("wt_area", 0.0)
+    if rel is None or not math.isfinite(rel) or not area > 0:
+        return None
+    return float(rel) * max(model.intercept + model.slope * total["wt_area_wt"] / area, 0.0)
+
+
 def build_params(cfg, factors, alignment, models, sums, grid) -> tuple[dict, list, dict]:
     pix = float(np.mean(grid.pixel_area(grid.windows(cfg.block_size)[0])))
     u = cfg.uncertainty
@@ -62,12 +73,18 @@ def build_params(cfg, factors, alignment, models, sums, grid) -> tuple[dict, lis
         cov = m.covariance_matrix()
         if np.all(np.isfinite(cov)):
             kw["wt_coef_cov"] = cov
-        rs = getattr(m, "residual_nmad", float("nan"))
-        kw["wt_residual_sd_m"] = float(rs) if rs is not None and math.isfinite(rs) else 0.0
-        # pixel scatter about the fitted line decorrelates like the survey error it largely is; the
-        # scar-to-scar departures of the relation are in the coefficients' cluster-bootstrap covariance
-        if survey is not None:
-            kw["wt_residual_range_m"] = survey["range_m"]
+        cv_sd = wt_prediction_sd_m(m, sums.total)
+        if cv_sd is not None:
+            # the leave-scar-out error of a scar's carbon, as a depth error over the modelled pixels, fully
+            # correlated within a zone (no range): a scar-scale error, conservative for zones of many scars
+            kw["wt_residual_sd_m"] = cv_sd
+        else:
+            rs = getattr(m, "residual_nmad", float("nan"))
+            kw["wt_residual_sd_m"] = float(rs) if rs is not None and math.isfinite(rs) else 0.0
+            # pixel scatter about the fitted line decorrelates like the survey error it largely is; the
+            # scar-to-scar departures of the relation are in the coefficients' cluster-bootstrap covariance
+            if survey is not None:
+                kw["wt_residual_range_m"] = survey["range_m"]
     fl = cfg.flaming
     sources = unc.default_sources(
         survey_bias_sd_m=survey["bias_sd_m"] if survey else 0.0,

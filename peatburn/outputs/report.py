@@ -640,6 +640,15 @@ def _qa_rows(qa: dict) -> list[tuple[str, str]]:
     ]
     if qa.get("tilt_coefficients"):
         rows.insert(3, ("planar tilt removed (coefficients)", ", ".join(fmt_num(c) for c in qa["tilt_coefficients"])))
+    if qa.get("water_table_fit"):
+        rows.append(("water-table model fit", str(qa["water_table_fit"])))
+    if _finite(qa.get("water_table_cv_rmse")) is not None:
+        rows.append(("water-table model, leave-scar-out bias / RMSE of scar carbon [%]",
+                     f"{_pct(qa.get('water_table_cv_bias'))} / {_pct(qa.get('water_table_cv_rmse')).lstrip('+')}"
+                     f" ({fmt_int(qa.get('water_table_cv_scars'))} scars)"))
+    if _finite(qa.get("share_of_modelled_area_extrapolated")) is not None:
+        rows.append(("water-table-modelled area outside the fitted water-table range [%]",
+                     fmt_pct(qa.get("share_of_modelled_area_extrapolated"))))
     return rows
 
 
