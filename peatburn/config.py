@@ -90,6 +90,10 @@ class WaterTableConfig:
     fit_method: str = "theil-sen"
     fit_target: str = "mean"  # "mean" (for totals) | "median" (the plain robust line)
     error_m: float | None = None  # random error of the water table [m]: errors-in-variables fit
+    # dated station readings: each scar uses the reading of each station nearest its fire start within
+    # this many days (project choice: about two weeks, over which a dry-season water table falls by a
+    # few centimetres); 0 pools every reading as if undated
+    date_window_days: float = 15.0
     idw_power: float = 2.0
     idw_neighbours: int = 12
     idw_max_distance_m: float | None = None
@@ -199,7 +203,7 @@ _SCHEMA = {
     "depth": {"survey", "water_table", "plots", "tier1"},
     "depth.water_table": {"depth", "value_column", "crs", "date_column", "model", "intercept", "slope",
                           "fit_method", "idw_power", "idw_neighbours", "idw_max_distance_m", "units",
-                          "fit_target", "error"},
+                          "fit_target", "error", "date_window_days"},
     "depth.plots": {"path", "value_column", "crs", "date_column"},
     "depth.tier1": {"fuel_consumption"},
     "flaming": {"method", "detections", "crs", "columns", "event_distance_m", "event_gap_hours", "coefficient",
@@ -498,6 +502,8 @@ def _water_table(wt: dict, base: Path, where: str) -> WaterTableConfig:
         idw_power=_opt_number(wt, "idw_power", "depth.water_table", where, 0.5, 6) or 2.0,
         idw_neighbours=int(_opt_number(wt, "idw_neighbours", "depth.water_table", where, 1, 100) or 12),
         idw_max_distance_m=_opt_number(wt, "idw_max_distance_m", "depth.water_table", where, 0, None),
+        date_window_days=_opt_number(wt, "date_window_days", "depth.water_table", where, 0, 366) if
+        "date_window_days" in wt else 15.0,
     )
 
 
