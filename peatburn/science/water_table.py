@@ -212,6 +212,10 @@ NARROW_RANGE_M = 0.2
 
 _EXACT_PAIRS_MAX = 2_000_000
 _SAMPLED_PAIRS = 2_000_000
+#: Random pairs of a Theil-Sen line inside a cluster-bootstrap replicate (a replicate keeps at least
+#: one pixel per scar, so tens of thousands of points at national scale; the replicate's spread, not
+#: its own Monte Carlo error of about 1/sqrt(200 000), is what the bootstrap measures).
+_BOOT_SAMPLED_PAIRS = 200_000
 _DEFAULT_BOOT_SIZE = {"theil-sen": 600, "huber": 5000}
 
 
@@ -571,16 +575,17 @@ def check_water_table(values, what: str) -> list[str]:
 def _theil_sen(w, d, rng, *, pairs=None):
     """Theil-Sen slope (median of pairwise slopes) and intercept median(d - b w).
 
-    ``pairs``: (i, j) index arrays to use; default all pairs up to _EXACT_PAIRS_MAX, else
-    _SAMPLED_PAIRS random pairs.
+    ``pairs``: (i, j) index arrays to use; default (or an int: the number of random pairs) all
+    pairs up to _EXACT_PAIRS_MAX, else _SAMPLED_PAIRS (or that many) random pairs.
     """
     n = w.size
-    if pairs is None:
+    if pairs is None or isinstance(pairs, int):
         if n * (n - 1) // 2 <= _EXACT_PAIRS_MAX:
             i, j = np.triu_indices(n, 1)
         else:
-            i = rng.integers(0, n, _SAMPLED_PAIRS)
-            j = rng.integers(0, n, _SAMPLED_PAIRS)
+            m = _SAMPLED_PAIRS if pairs is None else pairs
+            i = rng.integers(0, n, m)
+            j = rng.integers(0, n, m)
     else:
         i, j = pairs
     dx = w[j] - w[i]
@@ -730,7 +735,7 @@ def _bootstrap(spec, w, d, c, rng, *, n_boot, boot_size, start):
         for _ in range(n_boot):
             pick = rng.integers(0, k, k)
             idx = np.concatenate([thinned[g] for g in pick])
-            reps.append(_estimate(spec, w[idx], d[idx], rng, start)[:2])
+            reps.append(_estimate(spec, w[idx], d[idx], rng, start, _BOOT_SAMPLED_PAIRS)[:2])
         scale = 1.0
         desc = (f"cluster bootstrap over {k} scars ({n_boot} replicates"
                 + (f", pixels thinned to {keep_share:.3g} of each scar" if keep_share < 1 else "") + ")")
