@@ -94,6 +94,9 @@ class WaterTableConfig:
     # this many days (project choice: about two weeks, over which a dry-season water table falls by a
     # few centimetres); 0 pools every reading as if undated
     date_window_days: float = 15.0
+    # burn depth tapered to the scar edge: "cv" (the taper distance chosen by leave-scar-out
+    # cross-validation, none if it does not help), a distance [m], or None (no taper, the default)
+    edge_taper: object = None
     idw_power: float = 2.0
     idw_neighbours: int = 12
     idw_max_distance_m: float | None = None
@@ -203,7 +206,7 @@ _SCHEMA = {
     "depth": {"survey", "water_table", "plots", "tier1"},
     "depth.water_table": {"depth", "value_column", "crs", "date_column", "model", "intercept", "slope",
                           "fit_method", "idw_power", "idw_neighbours", "idw_max_distance_m", "units",
-                          "fit_target", "error", "date_window_days"},
+                          "fit_target", "error", "date_window_days", "edge_taper"},
     "depth.plots": {"path", "value_column", "crs", "date_column"},
     "depth.tier1": {"fuel_consumption"},
     "flaming": {"method", "detections", "crs", "columns", "event_distance_m", "event_gap_hours", "coefficient",
@@ -504,7 +507,25 @@ def _water_table(wt: dict, base: Path, where: str) -> WaterTableConfig:
         idw_max_distance_m=_opt_number(wt, "idw_max_distance_m", "depth.water_table", where, 0, None),
         date_window_days=_opt_number(wt, "date_window_days", "depth.water_table", where, 0, 366) if
         "date_window_days" in wt else 15.0,
+        edge_taper=_edge_taper(wt, where),
     )
+
+
+def _edge_taper(wt: dict, where: str):
+    """``depth.water_table.edge_taper``: "cv", a distance [m] (number or quantity string), or absent."""
+    if "edge_taper" not in wt:
+        return None
+    v = wt["edge_taper"]
+    if v == "cv":
+        return "cv"
+    try:
+        m = to_magnitude(v, "m", "depth.water_table.edge_taper")
+    except UnitError:
+        raise ConfigError(f"{where}: `depth.water_table.edge_taper` must be \"cv\" (chosen by cross-validation) "
+                          f"or a distance such as 20 or \"20 m\", got {v!r}") from None
+    if not (0 < m <= 1000):
+        raise PhysicalRangeError(f"{where}: `depth.water_table.edge_taper` = {v!r} must be between 0 and 1000 m")
+    return float(m)
 
 
 def _flaming(fl: dict, base: Path, where: str, force: bool) -> FlamingConfig:
