@@ -9,6 +9,7 @@ layer and for the run total, and writes ``_lo``/``_hi`` into the table rows.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import os
 
@@ -105,6 +106,16 @@ def build_params(cfg, factors, alignment, models, sums, grid) -> tuple[dict, lis
         combustion_factor=fl.combustion_factor if fl and fl.combustion_factor else unc.DEFAULT_COMBUSTION_FACTOR,
         **kw,
     )
+    if models is not None and wt_prediction_sd_m(models.all, sums.total) is not None:
+        m = models.all
+        sources = [dataclasses.replace(
+            s, citation=f"leave-scar-out cross-validation of the water-table depth model of this run ({m.cv_method}): "
+                        f"RMSE {m.cv_rmse:.1%} of scar carbon, times the modelled depth at the mean water table",
+            note="Per zone over the water-table area, fully correlated within a zone (a scar-scale error applied "
+                 "to the whole zone: conservative for zones of many scars), independent between zones. Replaces "
+                 "the in-sample scatter, which understates the error of a missed scar; overlaps the coefficient "
+                 "term a little (conservative).")
+            if s.name == "water_table_residual" else s for s in sources]
     return unc.sources_to_params(sources, gwp=factors.gwp.gwp), sources, survey or {}
 
 

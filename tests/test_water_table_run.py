@@ -38,6 +38,9 @@ def test_gap_scar_estimated_by_the_water_table_model(gap_run):
     qa = result.totals["qa"]
     assert qa["water_table_cv_rmse"] == m["cv_rmse"] and "least squares" in qa["water_table_fit"]
     assert 0 <= qa["share_of_modelled_area_extrapolated"] <= 1
+    # the Monte Carlo draws that leave-scar-out error as the model term (not the in-sample scatter)
+    src = {s["name"]: s for s in result.totals["uncertainty"]["sources"]}
+    assert "leave-scar-out" in src["water_table_residual"]["citation"]
     assert row["carbon_share_water_table"] == pytest.approx(1.0)
     m = result.totals["water_table_model"]["all"]
     # the mean relation of the truth (least squares on the truth rasters, tests/conftest.py), not the
