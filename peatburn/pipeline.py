@@ -24,7 +24,6 @@ from .grid import RunGrid
 from .io.rasters import GridReader, RasterSource, check_overlap, grid_from_raster, inspect_raster, read_on_grid
 from .io.vectors import WindowRasterizer, read_polygons, zone_ids
 from .science import coregistration, peat, survey
-from .science.water_table import edge_taper as _edge_taper
 from .zones import ZoneLayerIndex, accumulate_stacked
 
 #: Pixel budget of the co-registration sample (evenly spread full-resolution windows). 2 Mpx
@@ -537,7 +536,7 @@ def stations_by_fire_date(stations: tuple, reading_dates, scar_starts, window_da
     -1 for a scar without a start date, which uses every reading), ``subsets`` the (x, y, value)
     arrays of each group, and the number of dated scars with no reading within the window.
     """
-    from .science.water_table import readings_near_date
+    from peatburn.science.water_table import readings_near_date  # absolute: the engine moves (issue 23)
 
     x, y, v = stations
     day = _days(reading_dates)
@@ -886,7 +885,11 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         if m_wt.any():
             wt, m_out = _clamp_to_fit(plan.models, wt, m_wt)
             depth = np.where(m_wt, _model_depth(plan, wt, thick, data.fire_count, data.edge), depth)
-            taper = 1.0 if data.edge is None else _edge_taper(data.edge, plan.models.all.edge_taper_m)
+            taper = 1.0
+            if data.edge is not None:
+                from peatburn.science.water_table import edge_taper  # absolute: the engine moves (issue 23)
+
+                taper = edge_taper(data.edge, plan.models.all.edge_taper_m)
             lin = (plan.models.all.intercept + plan.models.all.slope * np.where(m_wt, wt, 0.0)) * taper
             cap = np.inf if thick is None else np.where(np.isfinite(thick), thick, np.inf)
             m_lin = m_wt & (lin > 0) & (lin < cap)
