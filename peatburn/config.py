@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import datetime as dt
 import difflib
+import math
 import os
 import tomllib
 from dataclasses import dataclass, field
@@ -109,6 +110,15 @@ class WaterTableConfig:
     slope: float | None = None
     model_file: Path | None = None
     fit_method: str = "theil-sen"
+    fit_target: str = "mean"  # "mean" (for totals) | "median" (the plain robust line)
+    error_m: float | None = None  # random error of the water table [m]: errors-in-variables fit
+    # dated station readings: each scar uses the reading of each station nearest its fire start within
+    # this many days (project choice: about two weeks, over which a dry-season water table falls by a
+    # few centimetres); 0 pools every reading as if undated
+    date_window_days: float = 15.0
+    # burn depth tapered to the scar edge: "cv" (the taper distance chosen by leave-scar-out
+    # cross-validation, none if it does not help), a distance [m], or None (no taper, the default)
+    edge_taper: object = None
     idw_power: float = 2.0
     idw_neighbours: int = 12
     idw_max_distance_m: float | None = None
@@ -225,7 +235,8 @@ _SCHEMA = {
     "burned_area": {"path", "layer", "fire_count_field", "start_field", "end_field", "id_field"},
     "depth": {"survey", "water_table", "plots", "tier1"},
     "depth.water_table": {"depth", "value_column", "crs", "date_column", "model", "intercept", "slope",
-                          "fit_method", "idw_power", "idw_neighbours", "idw_max_distance_m", "units"},
+                          "fit_method", "idw_power", "idw_neighbours", "idw_max_distance_m", "units",
+                          "fit_target", "error", "date_window_days", "edge_taper"},
     "depth.plots": {"path", "value_column", "crs", "date_column"},
     "depth.tier1": {"fuel_consumption"},
     "flaming": {"method", "detections", "crs", "columns", "event_distance_m", "event_gap_hours", "coefficient",
@@ -542,14 +553,47 @@ def _water_table(wt: dict, base: Path, where: str) -> WaterTableConfig:
     fit_method = wt.get("fit_method", "theil-sen")
     if fit_method not in ("theil-sen", "huber"):
         raise ConfigError(f"{where}: `depth.water_table.fit_method` must be \"theil-sen\" or \"huber\"")
+    fit_target = wt.get("fit_target", "mean")
+    if fit_target not in ("mean", "median"):
+        raise ConfigError(f"{where}: `depth.water_table.fit_target` must be \"mean\" (for totals) or \"median\", "
+                          f"got {fit_target!r}")
+    error_m = None
+    if "error" in wt:
+        error_m = to_magnitude(wt["error"], "m", "depth.water_table.error")
+        if not (error_m >= 0 and math.isfinite(error_m)) or error_m > 2.0:
+            raise PhysicalRangeError(f"{where}: `depth.water_table.error` = {wt['error']!r} must be a standard "
+                                     f"deviation between 0 and 2 m (e.g. 0.1 or \"10 cm\")")
+        if fit_target == "median" and error_m > 0:
+            raise ConfigError(f"{where}: `depth.water_table.error` corrects the mean fit; drop it or set "
+                              f"`fit_target = \"mean\"`")
     return WaterTableConfig(
         raster=raster, stations=stations, value_column=str(wt.get("value_column", "water_table_m")),
         crs=wt.get("crs"), date_column=wt.get("date_column"), model=model, intercept=intercept, slope=slope,
-        model_file=model_file, fit_method=fit_method,
+        model_file=model_file, fit_method=fit_method, fit_target=fit_target, error_m=error_m or None,
         idw_power=_opt_number(wt, "idw_power", "depth.water_table", where, 0.5, 6) or 2.0,
         idw_neighbours=int(_opt_number(wt, "idw_neighbours", "depth.water_table", where, 1, 100) or 12),
         idw_max_distance_m=_opt_number(wt, "idw_max_distance_m", "depth.water_table", where, 0, None),
+        date_window_days=_opt_number(wt, "date_window_days", "depth.water_table", where, 0, 366) if
+        "date_window_days" in wt else 15.0,
+        edge_taper=_edge_taper(wt, where),
     )
+
+
+def _edge_taper(wt: dict, where: str):
+    """``depth.water_table.edge_taper``: "cv", a distance [m] (number or quantity string), or absent."""
+    if "edge_taper" not in wt:
+        return None
+    v = wt["edge_taper"]
+    if v == "cv":
+        return "cv"
+    try:
+        m = to_magnitude(v, "m", "depth.water_table.edge_taper")
+    except UnitError:
+        raise ConfigError(f"{where}: `depth.water_table.edge_taper` must be \"cv\" (chosen by cross-validation) "
+                          f"or a distance such as 20 or \"20 m\", got {v!r}") from None
+    if not (0 < m <= 1000):
+        raise PhysicalRangeError(f"{where}: `depth.water_table.edge_taper` = {v!r} must be between 0 and 1000 m")
+    return float(m)
 
 
 def _flaming(fl: dict, base: Path, where: str, force: bool) -> FlamingConfig:

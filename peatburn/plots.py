@@ -56,7 +56,14 @@ def validate_plots(inputs, plan, out_dir) -> dict:
             wt = idw(sx, sy, sv, x, y, power=power, k=k, max_distance=dmax)
         if wt is not None:
             thick = sample_points(plan, "thickness", x, y)
-            pred = predict_depth(plan.models.all, wt, thick)
+            edge = None
+            if getattr(plan.models.all, "edge_taper_m", 0.0) > 0:  # distance of each plot to its scar's edge [m]
+                import shapely
+
+                scars = shapely.union_all(plan.scars)
+                edge = np.where(shapely.contains_xy(scars, x, y),
+                                shapely.distance(shapely.points(x, y), shapely.boundary(scars)), 0.0)
+            pred = predict_depth(plan.models.all, wt, thick, edge)
             sel = np.isfinite(pred) & np.isfinite(obs)
             out["water_table_model_at_all_plots"] = _stats(validate_against_plots(pred[sel], obs[sel]), int(sel.sum()))
     return out

@@ -160,3 +160,25 @@ def scene_run(scene, tmp_path_factory):
 
     out = tmp_path_factory.mktemp("scene_out")
     return peatburn.run(scene.config, out, overwrite=True)
+
+
+def demo_mean_slope(region) -> float:
+    """Slope of the demo truth's conditional *mean* burn depth on the water table [m/m]: least
+    squares (numpy.polyfit) of the true burn depth on the water-table depth over the scar pixels not
+    capped by the peat thickness. The generator's core relation (slope 0.5) is clipped and thinned
+    at scar margins, islands and canals, so the mean relation over burned pixels is flatter; this is
+    what a mean-predicting fit must recover (independent of peatburn's own code)."""
+    import rasterio.features
+
+    folder = region.config_path.parent
+    with rasterio.open(folder / "truth_burn_depth.tif") as src:
+        depth, transform = src.read(1), src.transform
+    with rasterio.open(folder / "water_table.tif") as src:
+        wt = src.read(1)
+    with rasterio.open(folder / "peat_thickness.tif") as src:
+        thick = src.read(1)
+    scars = gpd.read_file(folder / "scars.gpkg")
+    inside = rasterio.features.rasterize(((g, 1) for g in scars.geometry), out_shape=depth.shape,
+                                         transform=transform, fill=0).astype(bool)
+    ok = inside & (depth < thick)
+    return float(np.polyfit(wt[ok], depth[ok], 1)[0])

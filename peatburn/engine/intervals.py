@@ -9,6 +9,7 @@ layer and for the run total, and writes ``_lo``/``_hi`` into the table rows.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import os
 
@@ -75,6 +76,17 @@ def subsidence_map_sd(cfg) -> float:
     return unc.DEFAULT_SUBSIDENCE_RATE_SD if isinstance(sv.subsidence_rate, RasterRef) else 0.0
 
 
+def wt_prediction_sd_m(model, total: dict) -> float | None:
+    """The water-table model's leave-scar-out error as a depth error [m]: the relative RMSE of scar
+    carbon (``model.cv_rmse``) times the model's depth at the mean water table of the modelled
+    (unclipped) pixels; None when the model was not cross-validated or no pixel was modelled."""
+    rel = getattr(model, "cv_rmse", float("nan"))
+    area = total.get("wt_area", 0.0)
+    if rel is None or not math.isfinite(rel) or not area > 0:
+        return None
+    return float(rel) * max(model.intercept + model.slope * total["wt_area_wt"] / area, 0.0)
+
+
 def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0.0) -> tuple[dict, list, dict]:
     pix = float(np.mean(grid.pixel_area(grid.windows(cfg.block_size)[0])))
     u = cfg.uncertainty
@@ -86,12 +98,18 @@ def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0
         cov = m.covariance_matrix()
         if np.all(np.isfinite(cov)):
             kw["wt_coef_cov"] = cov
-        rs = getattr(m, "residual_nmad", float("nan"))
-        kw["wt_residual_sd_m"] = float(rs) if rs is not None and math.isfinite(rs) else 0.0
-        # pixel scatter about the fitted line decorrelates like the survey error it largely is; the
-        # scar-to-scar departures of the relation are in the coefficients' cluster-bootstrap covariance
-        if survey is not None:
-            kw["wt_residual_range_m"] = survey["range_m"]
+        cv_sd = wt_prediction_sd_m(m, sums.total)
+        if cv_sd is not None:
+            # the leave-scar-out error of a scar's carbon, as a depth error over the modelled pixels, fully
+            # correlated within a zone (no range): a scar-scale error, conservative for zones of many scars
+            kw["wt_residual_sd_m"] = cv_sd
+        else:
+            rs = getattr(m, "residual_nmad", float("nan"))
+            kw["wt_residual_sd_m"] = float(rs) if rs is not None and math.isfinite(rs) else 0.0
+            # pixel scatter about the fitted line decorrelates like the survey error it largely is; the
+            # scar-to-scar departures of the relation are in the coefficients' cluster-bootstrap covariance
+            if survey is not None:
+                kw["wt_residual_range_m"] = survey["range_m"]
     fl = cfg.flaming
     sources = unc.default_sources(
         survey_bias_sd_m=survey["bias_sd_m"] if survey else 0.0,
@@ -115,6 +133,16 @@ def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0
         combustion_factor=fl.combustion_factor if fl and fl.combustion_factor else unc.DEFAULT_COMBUSTION_FACTOR,
         **kw,
     )
+    if models is not None and wt_prediction_sd_m(models.all, sums.total) is not None:
+        m = models.all
+        sources = [dataclasses.replace(
+            s, citation=f"leave-scar-out cross-validation of the water-table depth model of this run ({m.cv_method}): "
+                        f"RMSE {m.cv_rmse:.1%} of scar carbon, times the modelled depth at the mean water table",
+            note="Per zone over the water-table area, fully correlated within a zone (a scar-scale error applied "
+                 "to the whole zone: conservative for zones of many scars), independent between zones. Replaces "
+                 "the in-sample scatter, which understates the error of a missed scar; overlaps the coefficient "
+                 "term a little (conservative).")
+            if s.name == "water_table_residual" else s for s in sources]
     return unc.sources_to_params(sources, gwp=factors.gwp.gwp), sources, survey or {}
 
 

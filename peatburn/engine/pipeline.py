@@ -473,6 +473,8 @@ SUM_KEYS = (
     "mineral_area_m2", "repeat_area_m2", "outlier_area_m2", "rho_filled_area_m2", "cf_filled_area_m2",
     # peat and carbon of pixels whose bulk density or carbon fraction was filled (wider spread)
     "peat_kg_filled", "carbon_kg_filled",
+    # water-table-modelled pixels whose water table lies outside the fitted range (clamped to it)
+    "wt_extrapolated_area_m2",
     *(f"{k}_{m}" for m in METHODS for k in ("area_m2", "peat_kg", "carbon_kg")),
     # for zone-level Monte Carlo: mass per metre of depth over survey / water-table pixels
     "rho_area_survey", "rho_f_area_survey",
@@ -525,6 +527,9 @@ class RunPlan:
     water_table: object = None  # RasterSource | float | None
     stations: tuple | None = None  # (x, y, value) for IDW
     idw: tuple = (2.0, 12, None)  # power, neighbours, max distance [m]
+    # dated station readings: (group per scar, -1 undated; per group the (x, y, value) of the readings
+    # nearest that group's fire start within the window; window [days]; scars with no reading)
+    station_days: tuple | None = None
     models: DepthModels | None = None
     tier1_fuel_t_ha: float = 0.0
     biomass: object = None  # RasterSource | float | None [t/ha]
@@ -533,6 +538,41 @@ class RunPlan:
     cf_fill: float = float("nan")  # fallback carbon fraction for holes [-]
     fill_cv: float = 0.0  # relative spread of a filled value (uncertainty source peat_property_fill)
     token: str = field(default_factory=lambda: uuid.uuid4().hex)
+
+
+def _days(values) -> np.ndarray:
+    """Dates (anything pandas reads; UTC) as days since 1970-01-01 [d]; NaN where missing or unreadable."""
+    import pandas as pd
+
+    t = pd.to_datetime(pd.Series(list(values), dtype=object), utc=True, errors="coerce", format="mixed")
+    return ((t - pd.Timestamp("1970-01-01", tz="UTC")) / pd.Timedelta(days=1)).to_numpy(dtype="float64",
+                                                                                    na_value=np.nan)
+
+
+def stations_by_fire_date(stations: tuple, reading_dates, scar_starts, window_days: float) -> tuple:
+    """For each distinct fire start of the scars, each station's reading nearest that date within
+    ``window_days`` (:func:`peatburn.science.water_table.readings_near_date`).
+
+    Returns ``(group, subsets, window_days, n_without)``: ``group`` per scar (index into ``subsets``,
+    -1 for a scar without a start date, which uses every reading), ``subsets`` the (x, y, value)
+    arrays of each group, and the number of dated scars with no reading within the window.
+    """
+    from peatburn.science.water_table import readings_near_date  # absolute: the engine moves (issue 23)
+
+    x, y, v = stations
+    day = _days(reading_dates)
+    key = np.array([f"{a!r},{b!r}" for a, b in zip(x, y)], dtype=object)  # a station is its position
+    start = _days(scar_starts)
+    group = np.full(start.size, -1)
+    subsets = []
+    n_without = 0
+    for i, d in enumerate(np.unique(start[np.isfinite(start)])):
+        chosen = readings_near_date(key, day, d, max_days=window_days)
+        subsets.append((x[chosen], y[chosen], v[chosen]))
+        hit = start == d
+        group[hit] = i
+        n_without += int(hit.sum()) if not chosen.any() else 0
+    return group, subsets, float(window_days), n_without
 
 
 def tier1_default_fuel() -> float:
@@ -557,6 +597,11 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
     if inputs.stations is not None and len(inputs.stations.frame):
         f = inputs.stations.frame
         stations = (f.geometry.x.to_numpy(), f.geometry.y.to_numpy(), f["value"].to_numpy(dtype=float))
+    station_days = None
+    if (stations is not None and "date" in inputs.stations.frame.columns and wt.date_window_days > 0
+            and cfg.start_field in inputs.scars.frame.columns):
+        station_days = stations_by_fire_date(stations, inputs.stations.frame["date"],
+                                             inputs.scars.frame[cfg.start_field], wt.date_window_days)
     return RunPlan(
         grid=inputs.grid,
         pre=RasterSource(str(sv.pre), "depth.survey.pre") if sv else None,
@@ -575,6 +620,7 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
         water_table=_param_source(wt.raster, "depth.water_table.depth") if wt is not None and wt.raster else None,
         stations=stations,
         idw=(wt.idw_power, wt.idw_neighbours, wt.idw_max_distance_m) if wt is not None else (2.0, 12, None),
+        station_days=station_days,
         models=models,
         tier1_fuel_t_ha=cfg.tier1.fuel_consumption_t_ha or tier1_default_fuel(),
         biomass=_param_source(cfg.flaming.biomass, "flaming.biomass") if cfg.flaming else None,
@@ -793,12 +839,15 @@ def water_table_depth(st, plan: RunPlan, window: Window, where: np.ndarray) -> n
         v = _param(st, plan, "water_table", window)
         return np.broadcast_to(v, shape).astype("float64") if np.ndim(v) == 0 else v
     out = np.full(shape, np.nan)
-    out[where] = _idw_at(plan, window, where)
+    scar = st["scars"].rasterize(plan.grid, window)[where] if plan.station_days is not None else None
+    out[where] = _idw_at(plan, window, where, scar)
     return out
 
 
-def _idw_at(plan: RunPlan, window: Window, where: np.ndarray) -> np.ndarray:
-    """Water-table depth interpolated from the stations at the pixels ``where`` (1-D) [m]."""
+def _idw_at(plan: RunPlan, window: Window, where: np.ndarray, scar=None) -> np.ndarray:
+    """Water-table depth interpolated from the stations at the pixels ``where`` (1-D) [m]; with
+    dated readings (``plan.station_days``) and ``scar`` (1-based scar index at those pixels), each
+    scar's pixels use the readings nearest its fire start."""
     n = int(np.count_nonzero(where))
     if plan.stations is None or n == 0:
         return np.full(n, np.nan)
@@ -806,10 +855,19 @@ def _idw_at(plan: RunPlan, window: Window, where: np.ndarray) -> np.ndarray:
 
     shape = where.shape
     x, y = plan.grid.pixel_centres(window)
+    px, py = np.broadcast_to(x, shape)[where], np.broadcast_to(y, shape)[where]
     power, k, dmax = plan.idw
-    sx, sy, sv = plan.stations
-    return idw(sx, sy, sv, np.broadcast_to(x, shape)[where], np.broadcast_to(y, shape)[where],
-               power=power, k=k, max_distance=dmax)
+    if plan.station_days is None or scar is None:
+        sx, sy, sv = plan.stations
+        return idw(sx, sy, sv, px, py, power=power, k=k, max_distance=dmax)
+    group_of_scar, subsets = plan.station_days[0], plan.station_days[1]
+    group = np.where(scar > 0, group_of_scar[np.maximum(scar, 1) - 1], -1)
+    out = np.full(n, np.nan)
+    for g in np.unique(group):
+        sel = group == g
+        sx, sy, sv = plan.stations if g < 0 else subsets[g]
+        out[sel] = idw(sx, sy, sv, px[sel], py[sel], power=power, k=k, max_distance=dmax)
+    return out
 
 
 #: Row of each summed quantity in a block's weight matrix.
@@ -832,6 +890,8 @@ class BlockData:
     thick: object = None  # [m]
     wt: object = None  # water-table raster or constant [m]; None with stations (interpolated later)
     fire_count: np.ndarray | None = None
+    scar: np.ndarray | None = None  # 1-based scar index (only with dated station readings)
+    edge: np.ndarray | None = None  # distance to the scar edge [m] (only when the depth model tapers)
     biomass: object = None  # [t/ha]
     in_extent: np.ndarray | None = None  # inside the organic-soil extent (None: no extent given)
     zone_bins: list = field(default_factory=list)  # per layer: per pass 1-D bins
@@ -861,6 +921,8 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
         wt=at(_param(st, plan, "water_table", window)) if m is not None else None,
         fire_count=fire_count, biomass=at(_param(st, plan, "biomass", window)),
         in_extent=_in_extent(st, plan, window, burned),
+        scar=st["scars"].rasterize(grid, window)[burned] if plan.station_days is not None and m is not None else None,
+        edge=edge_distance(st, plan, window, EDGE_REACH * _taper_m(m))[burned] if _taper_m(m) > 0 else None,
         zone_bins=[[b[burned] for b in z.bin_rasters(grid, window)] for z in st["zones"]],
     )
 
@@ -918,11 +980,17 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
             wt = np.full(n, np.nan)
             need_full = np.zeros(shape, bool)
             need_full[burned] = need
-            wt[need] = _idw_at(plan, window, need_full)
+            wt[need] = _idw_at(plan, window, need_full, None if data.scar is None else data.scar[need])
         m_wt = need & np.isfinite(wt)
         if m_wt.any():
-            depth = np.where(m_wt, _model_depth(plan, wt, thick, data.fire_count), depth)
-            lin = plan.models.all.intercept + plan.models.all.slope * np.where(m_wt, wt, 0.0)
+            wt, m_out = _clamp_to_fit(plan.models, wt, m_wt)
+            depth = np.where(m_wt, _model_depth(plan, wt, thick, data.fire_count, data.edge), depth)
+            taper = 1.0
+            if data.edge is not None:
+                from ..science.water_table import edge_taper
+
+                taper = edge_taper(data.edge, plan.models.all.edge_taper_m)
+            lin = (plan.models.all.intercept + plan.models.all.slope * np.where(m_wt, wt, 0.0)) * taper
             cap = np.inf if thick is None else np.where(np.isfinite(thick), thick, np.inf)
             m_lin = m_wt & (lin > 0) & (lin < cap)
     m_t1 = ~m_survey & ~m_wt & np.isfinite(cf) & organic
@@ -1002,14 +1070,19 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         put("carbon_kg_filled", filled, carbon)
     with np.errstate(invalid="ignore"):
         put("capped_area_m2", m_survey & (raw > depth_s), area)
+    if m_wt.any():
+        put("wt_extrapolated_area_m2", m_out, area)
     if m_lin.any():
         wt_f = np.where(m_lin, wt, 0.0)
-        put("wt_area", m_lin, area)
-        put("wt_area_wt", m_lin, area * wt_f)
-        put("wt_rho_area", m_lin, rho_a)
-        put("wt_rho_area_wt", m_lin, rho_a * wt_f)
-        put("wt_rho_f_area", m_lin, rho_f_a)
-        put("wt_rho_f_area_wt", m_lin, rho_f_a * wt_f)
+        # depth = f (a + b wt) with the edge taper f (1 without): its derivatives carry f
+        f_a, f_rho_a, f_rho_f_a = (area, rho_a, rho_f_a) if data.edge is None else (
+            area * taper, rho_a * taper, rho_f_a * taper)
+        put("wt_area", m_lin, f_a)
+        put("wt_area_wt", m_lin, f_a * wt_f)
+        put("wt_rho_area", m_lin, f_rho_a)
+        put("wt_rho_area_wt", m_lin, f_rho_a * wt_f)
+        put("wt_rho_f_area", m_lin, f_rho_f_a)
+        put("wt_rho_f_area_wt", m_lin, f_rho_f_a * wt_f)
     for name, m in (("survey", m_survey), ("water_table", m_wt), ("tier1", m_t1)):
         if m.any():
             put(f"area_m2_{name}", m, area)
@@ -1078,24 +1151,71 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     return BlockResult(window, burned, depth.astype("float32"), cdens, codes, total, zsums)
 
 
-def _model_depth(plan: RunPlan, wt: np.ndarray, thick, fire_count) -> np.ndarray:
-    """Modelled depth from the water table (1-D, with ``thick`` and ``fire_count`` at the same pixels)."""
+def edge_distance(st, plan: RunPlan, window: Window, reach_m: float) -> np.ndarray:
+    """Distance from each pixel centre of ``window`` to the nearest pixel centre outside every scar [m]
+    (0 outside the scars), by :func:`scipy.ndimage.distance_transform_edt` on the scar mask of the
+    window padded by ``reach_m`` (so scars crossing the window's border are measured whole up to
+    that distance; farther distances are underestimated, and the edge taper is flat there). Pixels
+    are taken as squares of side sqrt(pixel area) (exact for square projected pixels)."""
+    from scipy.ndimage import distance_transform_edt
+
+    side = float(np.sqrt(np.mean(plan.grid.pixel_area(window))))
+    pad = int(math.ceil(reach_m / side)) + 1
+    h, w = int(window.height), int(window.width)
+    big = Window(window.col_off - pad, window.row_off - pad, w + 2 * pad, h + 2 * pad)
+    dist = distance_transform_edt(st["scars"].mask(plan.grid, big), sampling=side)
+    return dist[pad:pad + h, pad:pad + w]
+
+
+#: Reach of the edge distance [m] as a multiple of the taper distance: 1 - exp(-5) = 0.993.
+EDGE_REACH = 5.0
+
+
+def _clamp_to_fit(models: DepthModels, wt: np.ndarray, sel: np.ndarray):
+    """The water table clamped to the range the model was fitted on (no change for user or default
+    coefficients, which have none), and the mask of the pixels of ``sel`` that were outside it."""
+    lo, hi = models.all.water_table_range
+    if not (math.isfinite(lo) and math.isfinite(hi)):
+        return wt, np.zeros(wt.shape, bool)
+    with np.errstate(invalid="ignore"):
+        out = sel & ((wt < lo) | (wt > hi))
+    return (np.clip(wt, lo, hi) if out.any() else wt), out
+
+
+def _taper_m(models) -> float:
+    """The edge-taper distance of the run's depth model [m] (0: none, or no model)."""
+    return 0.0 if models is None else float(getattr(models.all, "edge_taper_m", 0.0) or 0.0)
+
+
+def _model_depth(plan: RunPlan, wt: np.ndarray, thick, fire_count, edge=None) -> np.ndarray:
+    """Modelled depth from the water table (1-D, with ``thick``, ``fire_count`` and ``edge`` at the same pixels)."""
     from ..science.water_table import predict_depth
 
     m = plan.models
     if fire_count is not None:
-        return np.where(fire_count >= 2, predict_depth(m.repeat, wt, thick), predict_depth(m.first, wt, thick))
-    return predict_depth(m.all, wt, thick)
+        return np.where(fire_count >= 2, predict_depth(m.repeat, wt, thick, edge), predict_depth(m.first, wt, thick, edge))
+    return predict_depth(m.all, wt, thick, edge)
 
 
 # --------------------------------------------------------------------------------------------
 # water-table model: samples, fit, plots
 
 def depth_samples(inputs: Inputs, plan: RunPlan, max_samples: int = 200_000, seed: int = 0):
-    """Pairs of (water-table depth, survey burn depth, fire count) on surveyed burned pixels, from
-    evenly spread sample windows [m, m, -]."""
+    """Pairs of (water-table depth, survey burn depth, fire count, scar) on surveyed burned pixels,
+    from evenly spread sample windows [m, m, -, -]; see :func:`depth_sample_table`."""
+    t = depth_sample_table(inputs, plan, max_samples, seed)
+    return t["wt"], t["depth"], t["fire_count"], t["scar"]
+
+
+def depth_sample_table(inputs: Inputs, plan: RunPlan, max_samples: int = 200_000, seed: int = 0,
+                       edge_reach_m: float = 0.0) -> dict:
+    """Surveyed burned pixels from evenly spread sample windows: ``wt`` (water-table depth [m]),
+    ``depth`` (survey burn depth, capped by the thickness [m]), ``thickness`` [m] (NaN unknown),
+    ``weight`` (bulk density x carbon fraction x pixel area [kg C per m of depth]), ``scar`` (1-based
+    scar index), ``fire_count`` (None without a fire-count field) and, with ``edge_reach_m`` > 0,
+    ``edge`` (distance to the scar edge [m], :func:`edge_distance`)."""
     st = _state(plan)
-    wts, ds, fcs, cls = [], [], [], []
+    wts, ds, fcs, cls, ths, wgs, eds = [], [], [], [], [], [], []
     grid = plan.grid
     for w in sample_windows(grid, plan.block_size):
         scar_id = st["scars"].rasterize(grid, w)  # 1-based scar index, 0 outside (last polygon wins)
@@ -1113,20 +1233,36 @@ def depth_samples(inputs: Inputs, plan: RunPlan, max_samples: int = 200_000, see
         ok &= np.isfinite(wt)
         if not ok.any():
             continue
+        shape, n_ok = ok.shape, int(np.count_nonzero(ok))
+
+        def at_ok(name, unknown):
+            v = _at(_param(st, plan, name, w), ok, shape)
+            return np.broadcast_to(unknown if v is None else v, n_ok).astype("float64")
+
+        thick = at_ok("thickness", np.nan)
+        # carbon per metre of depth [kg m-1] (density unknown: 1 per m2, so the CV weighs by area)
+        weight = (at_ok("bulk_density", 1.0 / peat.KG_M3_PER_G_CM3) * peat.KG_M3_PER_G_CM3
+                  * at_ok("carbon_fraction", 1.0) * np.broadcast_to(grid.pixel_area(w), shape)[ok])
         wts.append(wt[ok])
         ds.append(d[ok])
         cls.append(scar_id[ok])
+        ths.append(thick)
+        wgs.append(weight)
+        if edge_reach_m > 0:
+            eds.append(edge_distance(st, plan, w, edge_reach_m)[ok])
         if st["fire_count"] is not None:
             fcs.append(st["fire_count"].rasterize(grid, w, dtype="float64")[ok])
     if not wts:
-        return np.array([]), np.array([]), None, None
-    wt, d, cl = np.concatenate(wts), np.concatenate(ds), np.concatenate(cls)
-    fc = np.concatenate(fcs) if fcs else None
-    if wt.size > max_samples:
-        keep = np.random.default_rng(seed).choice(wt.size, max_samples, replace=False)
-        wt, d, cl = wt[keep], d[keep], cl[keep]
-        fc = fc[keep] if fc is not None else None
-    return wt, d, fc, cl
+        return {"wt": np.array([]), "depth": np.array([]), "fire_count": None, "scar": None,
+                "thickness": np.array([]), "weight": np.array([]), "edge": None}
+    out = {"wt": np.concatenate(wts), "depth": np.concatenate(ds), "scar": np.concatenate(cls),
+           "thickness": np.concatenate(ths), "weight": np.concatenate(wgs),
+           "fire_count": np.concatenate(fcs) if fcs else None, "edge": np.concatenate(eds) if eds else None}
+    n = out["wt"].size
+    if n > max_samples:
+        keep = np.random.default_rng(seed).choice(n, max_samples, replace=False)
+        out = {k: (v[keep] if v is not None else None) for k, v in out.items()}
+    return out
 
 
 MIN_FIT_SAMPLES = 30
@@ -1176,6 +1312,11 @@ def fit_models(inputs: Inputs, plan: RunPlan, notes: list) -> DepthModels:
     from ..science import water_table as wtm
 
     cfg = inputs.config.water_table
+    if plan.station_days is not None:
+        _, subsets, window, n_without = plan.station_days
+        notes.append(f"water table: station readings chosen per scar, nearest its fire start within {window:g} days "
+                     f"({len(subsets)} fire date(s))" + (f"; {n_without} scar(s) have no reading in that window and "
+                                                         f"get no water-table depth" if n_without else ""))
     if cfg.model == "user":
         m = wtm.DepthModel(cfg.intercept, cfg.slope, float("nan"), float("nan"), float("nan"), 0, float("nan"),
                            float("nan"), "user-given coefficients", "user")
@@ -1185,12 +1326,18 @@ def fit_models(inputs: Inputs, plan: RunPlan, notes: list) -> DepthModels:
     if cfg.model == "default":
         notes.append("water table: default depth-model coefficients used (low confidence)")
         return DepthModels(wtm.DEFAULT_MODEL)
-    wt, d, fc, cl = depth_samples(inputs, plan) if plan.pre is not None else (np.array([]), np.array([]), None, None)
+    kw = {"method": cfg.fit_method, "target": cfg.fit_target, "water_table_error_m": cfg.error_m}
+    chosen_taper = cfg.edge_taper  # "cv", a distance [m], or None
+    reach = EDGE_REACH * (max(wtm.EDGE_TAPER_CANDIDATES_M) if chosen_taper == "cv" else (chosen_taper or 0.0))
+    t = depth_sample_table(inputs, plan, edge_reach_m=reach) if plan.pre is not None else None
+    wt, d = (t["wt"], t["depth"]) if t is not None else (np.array([]), np.array([]))
+    fc, cl, th, wg, ed = ((t["fire_count"], t["scar"], t["thickness"], t["weight"], t["edge"]) if t is not None
+                          else (None,) * 5)
     source = "surveyed scars"
     if wt.size < MIN_FIT_SAMPLES:
         wt, d = plot_samples(inputs, plan)
         ok = np.isfinite(wt) & np.isfinite(d)
-        wt, d, fc, cl = wt[ok], d[ok], None, None
+        wt, d, fc, cl, th, wg, ed = wt[ok], d[ok], None, None, None, None, None
         source = "field plots"
     if wt.size < MIN_FIT_SAMPLES:
         notes.append(f"water table: too few calibration pairs ({wt.size} < {MIN_FIT_SAMPLES}) on surveyed scars or "
@@ -1198,20 +1345,55 @@ def fit_models(inputs: Inputs, plan: RunPlan, notes: list) -> DepthModels:
         return DepthModels(wtm.DEFAULT_MODEL)
     # standard errors by a bootstrap over whole scars (pixels of one scar are not independent)
     clusters = cl if cl is not None and len(np.unique(cl)) >= 3 else None
-    models = DepthModels(wtm.fit_depth_model(wt, d, method=cfg.fit_method, cluster=clusters))
-    notes.append(f"water table: depth model fitted on {wt.size} pairs from {source}")
+
+    taper = 0.0
+    if chosen_taper == "cv" and clusters is not None and ed is not None:
+        pick = wtm.select_edge_taper(wt, d, cl, ed, weight=wg, thickness_m=th, **kw)
+        taper = pick["taper_m"]
+        notes.append("water table: edge taper by leave-scar-out cross-validation (rms relative error of scar carbon "
+                     "per taper distance: " + ", ".join(f"{k:g} m {v:.1%}" for k, v in pick["rmse"].items())
+                     + f"): {'none' if not taper else f'{taper:g} m'}")
+    elif chosen_taper == "cv":
+        notes.append("water table: no edge taper: choosing one needs at least 3 surveyed scars")
+    elif chosen_taper and ed is not None:
+        taper = float(chosen_taper)
+    kw = {**kw, "edge_taper_m": taper}
+
+    def fit(sel):
+        """The model on the pairs ``sel``, with its leave-scar-out error when there are scars."""
+        c = None if clusters is None else cl[sel]
+        e = None if not taper else ed[sel]
+        m = wtm.fit_depth_model(wt[sel], d[sel], cluster=c if c is not None and len(np.unique(c)) >= 3 else None,
+                                thickness_m=None if th is None else th[sel], edge_distance_m=e, **kw)
+        if c is not None and len(np.unique(c)) >= 3:
+            cv = wtm.scar_cross_validation(wt[sel], d[sel], c, weight=wg[sel], thickness_m=th[sel],
+                                           edge_distance_m=e, **kw)
+            m = wtm.with_cross_validation(m, cv)
+        return m
+
+    every = np.ones(wt.size, bool)
+    models = DepthModels(fit(every))
+    notes.append(f"water table: depth model fitted on {wt.size} pairs from {source} ({models.all.estimator})")
+    if models.all.cv_n_scars:
+        notes.append(f"water table: leave-scar-out error of scar carbon over {models.all.cv_n_scars} scars: bias "
+                     f"{models.all.cv_bias:+.1%}, RMSE {models.all.cv_rmse:.1%}")
+    else:
+        notes.append("water table: no leave-scar-out error (fewer than 3 surveyed scars, or a fit on field plots); "
+                     "the Monte Carlo uses the in-sample scatter, which understates the error of a missed scar")
     if fc is not None:
         first, rep = fc < 2, fc >= 2
-        if first.sum() >= MIN_FIT_SAMPLES and rep.sum() >= MIN_FIT_SAMPLES:
-            def cl_of(sel):
-                return cl[sel] if clusters is not None and len(np.unique(cl[sel])) >= 3 else None
-
-            models.first = wtm.fit_depth_model(wt[first], d[first], method=cfg.fit_method, cluster=cl_of(first))
-            models.repeat = wtm.fit_depth_model(wt[rep], d[rep], method=cfg.fit_method, cluster=cl_of(rep))
-            notes.append(f"water table: separate models for first ({int(first.sum())} pairs) and repeat fires "
-                         f"({int(rep.sum())} pairs)")
+        n_first = len(np.unique(cl[first])) if cl is not None else 0
+        n_rep = len(np.unique(cl[rep])) if cl is not None else 0
+        enough = min(n_first, n_rep) >= wtm.MIN_SCARS_PER_GROUP
+        if enough and first.sum() >= MIN_FIT_SAMPLES and rep.sum() >= MIN_FIT_SAMPLES:
+            models.first = fit(first)
+            models.repeat = fit(rep)
+            notes.append(f"water table: separate models for first ({n_first} scars, {int(first.sum())} pairs) and "
+                         f"repeat fires ({n_rep} scars, {int(rep.sum())} pairs)")
         else:
-            notes.append("water table: too few repeat-fire (or first-fire) pairs for separate models; one model used")
+            notes.append(f"water table: one model for first and repeat fires: separate models need at least "
+                         f"{wtm.MIN_SCARS_PER_GROUP} surveyed scars (and {MIN_FIT_SAMPLES} pairs) of each "
+                         f"({n_first} first-fire, {n_rep} repeat-fire scars)")
     return models
 
 
@@ -1226,8 +1408,8 @@ def load_models(path) -> DepthModels:
         data = json.loads(Path(path).read_text(encoding="utf-8"))
         models = data["models"]
 
-        def mk(d):
-            return wtm.DepthModel(**{k: d[k] for k in wtm.DepthModel.__dataclass_fields__})
+        def mk(d):  # fields added since a file was written take their defaults
+            return wtm.DepthModel.from_dict(d)
 
         return DepthModels(mk(models["all"]), mk(models["first_fire"]) if "first_fire" in models else None,
                            mk(models["repeat_fire"]) if "repeat_fire" in models else None)

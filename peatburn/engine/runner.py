@@ -300,7 +300,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     rows = tables.zone_rows(sums, factors, flame)
     total = rows[-1]
     run_gases = tables.run_gases(factors)
-    qa = qa_summary(sums.total, alignment)
+    qa = qa_summary(sums.total, alignment, models)
     notes += fill_notes(cfg, plan, sums.total)
     checks = factor_checks(factors.smouldering, sums.total)
     if checks["carbon_closure"] is not None and checks["carbon_closure"] > 1.0:
@@ -466,7 +466,7 @@ def factor_checks(factor_set, total: dict) -> dict:
             "carbon_in_gases_g_per_kg": float(gases.carbon_in_emissions(ef))}
 
 
-def qa_summary(total: dict, alignment) -> dict:
+def qa_summary(total: dict, alignment, models=None) -> dict:
     est = total["area_m2_survey"]
     burned = total["burned_area_m2"]
     out = alignment.to_dict() if alignment else {"method": "no survey pair"}
@@ -482,4 +482,13 @@ def qa_summary(total: dict, alignment) -> dict:
         "carbon_fraction_filled_area_ha": total["cf_filled_area_m2"] * tables.HA_PER_M2,
         "mineral_soil_area_ha": total["mineral_area_m2"] * tables.HA_PER_M2,
     })
+    if models is not None:
+        m = models.all
+        modelled = total["area_m2_water_table"]
+        out.update({
+            "water_table_fit": m.estimator or m.method,
+            "water_table_cv_scars": m.cv_n_scars, "water_table_cv_bias": m.cv_bias, "water_table_cv_rmse": m.cv_rmse,
+            "share_of_modelled_area_extrapolated":
+                total.get("wt_extrapolated_area_m2", 0.0) / modelled if modelled else math.nan,
+        })
     return out

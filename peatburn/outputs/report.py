@@ -662,6 +662,15 @@ def _qa_rows(qa: dict) -> list[tuple[str, str]]:
     ]
     if qa.get("tilt_coefficients"):
         rows.insert(3, ("planar tilt removed (coefficients)", ", ".join(fmt_num(c) for c in qa["tilt_coefficients"])))
+    if qa.get("water_table_fit"):
+        rows.append(("water-table model fit", str(qa["water_table_fit"])))
+    if _finite(qa.get("water_table_cv_rmse")) is not None:
+        rows.append(("water-table model, leave-scar-out bias / RMSE of scar carbon [%]",
+                     f"{_pct(qa.get('water_table_cv_bias'))} / {_pct(qa.get('water_table_cv_rmse')).lstrip('+')}"
+                     f" ({fmt_int(qa.get('water_table_cv_scars'))} scars)"))
+    if _finite(qa.get("share_of_modelled_area_extrapolated")) is not None:
+        rows.append(("water-table-modelled area outside the fitted water-table range [%]",
+                     fmt_pct(qa.get("share_of_modelled_area_extrapolated"))))
     return rows
 
 
@@ -686,9 +695,18 @@ def _water_table(models) -> list[dict]:
             "range": fmt_range(rng[0], rng[1]) if len(rng) == 2 else "",
             "method": str(m.get("method", "")), "confidence": str(m.get("confidence", "")),
             "basis": str(m.get("basis") or ""), "se_method": str(m.get("se_method") or ""),
+            "estimator": str(m.get("estimator") or ""),
+            "cv_bias": _pct(m.get("cv_bias")), "cv_rmse": _pct(m.get("cv_rmse")),
+            "cv_method": str(m.get("cv_method") or ""),
             "notes": [str(n) for n in (m.get("notes") or [])],
         })
     return out
+
+
+def _pct(v) -> str:
+    """A relative error [-] as a signed percentage with one decimal, '' when missing."""
+    f = _finite(v)
+    return "" if f is None else f"{100 * f:+.1f}"
 
 
 def _field_plots(plots) -> dict | None:

@@ -34,6 +34,44 @@ and unmasked water, that ordinary least squares would follow:
   residuals, re-estimated each iteration); 1.345 gives about 95 % efficiency for normal errors
   (Holland & Welsch 1977; recalled, unchecked).
 
+**The mean, not the median.** Totals add burn depths, so the model must predict the conditional
+*mean* depth. Theil-Sen and Huber estimate the conditional *median*; burn depth given the water
+table is skewed (shallow burn at scar edges, deep pockets), so a median line is biased for totals.
+With ``target="mean"`` (the default) the robust fit only *screens* artefacts: pairs whose residual
+from the robust line lies more than :data:`SCREEN_K` robust scales (NMAD) from the median residual
+are dropped (each side of the median with its own scale, so the long tail of a skewed scatter is
+kept), and ordinary least squares on the remaining pairs gives the line. This is the
+reweighted least squares with hard rejection of Rousseeuw & Leroy (1987, ch. 1 and 5; there with a
+cutoff of 2.5 scales); peatburn uses a wider cutoff (8) so that the real tail of a skewed depth
+distribution is kept and only gross artefacts go (a choice of this project). Least squares on the
+kept pairs is unbiased for the conditional mean when the mean is linear in ``w``, whatever the
+shape of the scatter. (For a linear model on the original scale this is also what Duan's (1983)
+smearing correction of a robust line amounts to for the intercept; least squares also corrects the
+slope.) ``target="median"`` keeps the plain robust line.
+
+**Censoring.** Pixels whose observed depth was capped at the peat thickness carry a depth that is
+a lower bound, not a value; with ``thickness_m`` given they are left out of the fit (their count is
+in the notes; a selection that slightly favours shallow pixels on thin peat, far smaller than the
+bias of fitting capped values as if uncapped). Survey depths are not floored at zero
+(:mod:`peatburn.science.survey`), so no pixel is censored at zero.
+
+**Errors in the water table (regression dilution).** When the water table at the fitted pixels
+carries a random error of standard deviation ``sigma_u`` (interpolated between stations, or
+modelled), least squares flattens the slope by the reliability ratio
+``lambda = (S_ww - n sigma_u^2) / S_ww``. With ``water_table_error_m`` given, the fit divides it out
+(the method-of-moments errors-in-variables estimator, Fuller 1987, section 1.1; the limit of
+Deming regression when the error variance of ``w`` is known; recalled, unchecked):
+``b = S_wd / (S_ww - n sigma_u^2)``, ``a = mean(d) - b mean(w)``. Use it only when the water table
+where the model is *applied* is better known than where it was *fitted*: when both carry the same
+error, the attenuated slope is the right predictor of the mean depth given the water table one
+actually has (Carroll et al. 2006, ch. 2; recalled, unchecked).
+
+**Leave-scar-out cross-validation.** :func:`scar_cross_validation` refits the model with whole
+scars left out (groups of scars per fold; never single pixels, whose neighbours would leak the
+answer: Roberts et al. 2017) and compares each held-out scar's predicted and observed sum of depth
+(times a weight, e.g. density x carbon fraction x area, so carbon). Its bias and RMSE are the
+honest prediction error of a scar the survey missed.
+
 Standard errors and the intercept-slope covariance come from a case-resampling bootstrap
 (Efron & Tibshirani 1993): resampling pixels (which assumes independent pixels and is therefore
 overconfident for spatially autocorrelated scars), or, when scar labels are given, resampling
@@ -83,6 +121,14 @@ Bickel, P. J., Götze, F. & van Zwet, W. R. (1997). Resampling fewer than n obse
 Stat. Sin. 7:1-31.
 Shepard, D. (1968). A two-dimensional interpolation function for irregularly-spaced data.
 Proc. 23rd ACM National Conference, 517-524.
+Rousseeuw, P. J. & Leroy, A. M. (1987). Robust Regression and Outlier Detection. Wiley.
+Duan, N. (1983). Smearing estimate: a nonparametric retransformation method. J. Am. Stat. Assoc.
+78:605-610.
+Fuller, W. A. (1987). Measurement Error Models. Wiley.
+Carroll, R. J., Ruppert, D., Stefanski, L. A. & Crainiceanu, C. M. (2006). Measurement Error in
+Nonlinear Models, 2nd ed. Chapman & Hall/CRC.
+Roberts, D. R. et al. (2017). Cross-validation strategies for data with temporal, spatial,
+hierarchical, or phylogenetic structure. Ecography 40:913-929.
 (Bibliographic details of the statistics references are recalled, unchecked.)
 """
 
@@ -106,6 +152,11 @@ __all__ = [
     "predict_depth_grouped",
     "fit_depth_model",
     "fit_depth_models_by_group",
+    "scar_cross_validation",
+    "with_cross_validation",
+    "select_edge_taper",
+    "edge_taper",
+    "extrapolated_share",
     "user_model",
     "check_water_table",
     "idw",
@@ -133,6 +184,26 @@ NEGATIVE_SHARE_ERROR = 0.5
 #: More than this share of negative values draws a warning.
 NEGATIVE_SHARE_WARN = 0.05
 
+#: What the fit predicts: the conditional mean (for totals) or the conditional median.
+TARGETS = ("mean", "median")
+#: Screening cutoff of ``target="mean"``: pairs whose residual from the robust line lies more than
+#: this many robust scales (per side) from the median residual are treated as artefacts.
+#: Rousseeuw & Leroy (1987) reject at 2.5 scales for normal errors; burn depths are skewed and
+#: multiplicative (edge taper x deep pockets), where 5 scales still cut about 4 % of the total of a
+#: synthetic edge-tapered scene (tests/science/test_water_table_mean.py) and 8 cut under 1 %, while
+#: canal-edge artefacts of 2-4 m stay far beyond 8 scales of a 0.05-0.15 m scatter. Project choice.
+SCREEN_K = 8.0
+#: Reliability ratio below which the errors-in-variables correction is refused (the water-table
+#: error would be more than half of its spread: the corrected slope is unstable). Project choice.
+MIN_RELIABILITY = 0.5
+#: Fewest scars a group (first / repeat fire) needs for a model of its own. A bootstrap over fewer
+#: clusters underestimates the slope error badly (Cameron, Gelbach & Miller 2008, Rev. Econ. Stat.
+#: 90:414-427, on few-cluster inference; recalled, unchecked); 10 is a project choice.
+MIN_SCARS_PER_GROUP = 10
+#: Folds of :func:`scar_cross_validation` at most (leave-one-scar-out below that many scars);
+#: 10-fold is common practice (Hastie, Tibshirani & Friedman 2009, section 7.10; recalled, unchecked).
+CV_FOLDS = 10
+
 #: Fewest valid pairs :func:`fit_depth_model` accepts.
 MIN_FIT_SAMPLES = 5
 #: Fewer pairs than this, or fewer scars than :data:`MIN_CLUSTERS`, add a caution to the notes.
@@ -143,12 +214,17 @@ NARROW_RANGE_M = 0.2
 
 _EXACT_PAIRS_MAX = 2_000_000
 _SAMPLED_PAIRS = 2_000_000
+#: Random pairs of a Theil-Sen line inside a cluster-bootstrap replicate (a replicate keeps at least
+#: one pixel per scar, so tens of thousands of points at national scale; the replicate's spread, not
+#: its own Monte Carlo error of about 1/sqrt(200 000), is what the bootstrap measures).
+_BOOT_SAMPLED_PAIRS = 200_000
 _DEFAULT_BOOT_SIZE = {"theil-sen": 600, "huber": 5000}
 
 
 # ----------------------------------------------------------------------------- the model
 
-_FLOAT_FIELDS = ("intercept", "slope", "intercept_se", "slope_se", "covariance", "r2", "rmse", "residual_nmad")
+_FLOAT_FIELDS = ("intercept", "slope", "intercept_se", "slope_se", "covariance", "r2", "rmse", "residual_nmad",
+                 "water_table_error_m", "cv_bias", "cv_rmse", "edge_taper_m")
 
 
 @dataclass(frozen=True)
@@ -192,6 +268,26 @@ class DepthModel:
         Cautions found while fitting (few samples, narrow range, negative slope...).
     basis : str
         Where the coefficients come from (citation for defaults).
+    target : str
+        ``"mean"`` or ``"median"`` for fitted models (what the line predicts); ``""`` otherwise.
+    estimator : str
+        The fit in words (screened least squares, errors-in-variables, plain robust line).
+    n_screened : int
+        Pairs dropped as artefacts by the screen of ``target="mean"``.
+    n_censored : int
+        Pairs left out because their depth was capped at the peat thickness.
+    water_table_error_m : float
+        Water-table error [m] the errors-in-variables fit corrected for; NaN when none.
+    cv_n_scars : int
+        Scars in the leave-scar-out cross-validation (0 when not run).
+    cv_bias, cv_rmse : float
+        Leave-scar-out error of a scar's carbon (or depth sum), relative to the observed total:
+        ``sum(P - O) / sum(O)`` and ``sqrt(mean((P_s - O_s)^2)) / mean(O_s)`` [-]; NaN when not run.
+    cv_method : str
+        How the cross-validation was done.
+    edge_taper_m : float
+        E-folding distance [m] of the edge taper ``1 - exp(-e / L)`` that multiplies the depth
+        (:func:`edge_taper`); 0 for none.
     """
 
     intercept: float
@@ -210,6 +306,16 @@ class DepthModel:
     residual_nmad: float = math.nan
     notes: tuple[str, ...] = field(default_factory=tuple)
     basis: str = ""
+    target: str = ""
+    estimator: str = ""
+    n_screened: int = 0
+    n_censored: int = 0
+    water_table_error_m: float = math.nan
+    cv_n_scars: int = 0
+    cv_bias: float = math.nan
+    cv_rmse: float = math.nan
+    cv_method: str = ""
+    edge_taper_m: float = 0.0
 
     def __post_init__(self):
         # Accept what a JSON round trip gives back (None for NaN, lists for tuples), so
@@ -224,7 +330,8 @@ class DepthModel:
                            tuple(math.nan if v is None else float(v) for v in rng))
         object.__setattr__(self, "notes", tuple(self.notes or ()))
         object.__setattr__(self, "n", int(self.n or 0))
-        object.__setattr__(self, "n_clusters", int(self.n_clusters or 0))
+        for name in ("n_clusters", "n_screened", "n_censored", "cv_n_scars"):
+            object.__setattr__(self, name, int(getattr(self, name) or 0))
 
     @classmethod
     def from_dict(cls, data: Mapping) -> "DepthModel":
@@ -247,9 +354,9 @@ class DepthModel:
         c = 0.0 if math.isnan(self.covariance) else self.covariance
         return np.array([[sa * sa, c], [c, sb * sb]])
 
-    def predict(self, water_table_m, thickness_m=None) -> np.ndarray:
+    def predict(self, water_table_m, thickness_m=None, edge_distance_m=None) -> np.ndarray:
         """Burn depth [m]; see :func:`predict_depth`."""
-        return predict_depth(self, water_table_m, thickness_m)
+        return predict_depth(self, water_table_m, thickness_m, edge_distance_m)
 
 
 #: Default coefficients, used only when neither surveyed scars nor field plots allow a fit and
@@ -329,7 +436,7 @@ def _coefficients(model_or_a_b):
     return np.asarray(a, dtype="float64"), np.asarray(b, dtype="float64")
 
 
-def predict_depth(model_or_a_b, water_table_m, thickness_m=None) -> np.ndarray:
+def predict_depth(model_or_a_b, water_table_m, thickness_m=None, edge_distance_m=None) -> np.ndarray:
     """Burn depth from the water-table depth: ``d = clip(a + b w, 0, T)``.
 
     Parameters
@@ -342,6 +449,9 @@ def predict_depth(model_or_a_b, water_table_m, thickness_m=None) -> np.ndarray:
     thickness_m : array_like, optional
         Peat thickness [m]; the depth never exceeds it. NaN thickness means unknown (no cap), as in
         :func:`peatburn.science.peat.cap_depth`; a negative thickness is read as 0.
+    edge_distance_m : array_like, optional
+        Distance from the scar edge [m]: required when the model has an edge taper
+        (``edge_taper_m`` > 0), which multiplies ``a + b w`` by ``1 - exp(-e / L)``.
 
     Returns
     -------
@@ -356,8 +466,14 @@ def predict_depth(model_or_a_b, water_table_m, thickness_m=None) -> np.ndarray:
     """
     a, b = _coefficients(model_or_a_b)
     w = np.asarray(water_table_m, dtype="float64")
+    taper = getattr(model_or_a_b, "edge_taper_m", 0.0)
+    f = 1.0
+    if taper > 0:
+        if edge_distance_m is None:
+            raise GridError("depth model: this model tapers the depth to the scar edge; give the edge distances")
+        f = edge_taper(edge_distance_m, taper)
     with np.errstate(invalid="ignore"):
-        d = np.maximum(a + b * w, 0.0)  # NaN propagates through np.maximum
+        d = np.maximum((a + b * w) * f, 0.0)  # NaN propagates through np.maximum
         if thickness_m is not None:
             t = np.maximum(np.asarray(thickness_m, dtype="float64"), 0.0)
             d = np.where(np.isnan(t), d, np.minimum(d, t))
@@ -474,16 +590,17 @@ def check_water_table(values, what: str) -> list[str]:
 def _theil_sen(w, d, rng, *, pairs=None):
     """Theil-Sen slope (median of pairwise slopes) and intercept median(d - b w).
 
-    ``pairs``: (i, j) index arrays to use; default all pairs up to _EXACT_PAIRS_MAX, else
-    _SAMPLED_PAIRS random pairs.
+    ``pairs``: (i, j) index arrays to use; default (or an int: the number of random pairs) all
+    pairs up to _EXACT_PAIRS_MAX, else _SAMPLED_PAIRS (or that many) random pairs.
     """
     n = w.size
-    if pairs is None:
+    if pairs is None or isinstance(pairs, int):
         if n * (n - 1) // 2 <= _EXACT_PAIRS_MAX:
             i, j = np.triu_indices(n, 1)
         else:
-            i = rng.integers(0, n, _SAMPLED_PAIRS)
-            j = rng.integers(0, n, _SAMPLED_PAIRS)
+            m = _SAMPLED_PAIRS if pairs is None else pairs
+            i = rng.integers(0, n, m)
+            j = rng.integers(0, n, m)
     else:
         i, j = pairs
     dx = w[j] - w[i]
@@ -519,19 +636,110 @@ def _huber(w, d, *, c=HUBER_C, max_iter=100, tol=1e-10, start=None):
     return float(beta[0]), float(beta[1])
 
 
-def _estimate(method, w, d, rng, start=None):
-    if method == "theil-sen":
-        return _theil_sen(w, d, rng)
+@dataclass(frozen=True)
+class _Spec:
+    """How to fit: robust method, target, screening cutoff, water-table error [m] (0: none)."""
+
+    method: str
+    target: str = "mean"
+    screen_k: float = SCREEN_K
+    sigma_u: float = 0.0
+
+
+def _robust(spec, w, d, rng, start=None, pairs=None):
+    if spec.method == "theil-sen":
+        return _theil_sen(w, d, rng, pairs=pairs)
     return _huber(w, d, start=start)
 
 
-def _as_pairs(water_table_m, depth_m, cluster):
+def _least_squares(w, d, sigma_u=0.0, f=None):
+    """Least squares line; with ``sigma_u`` > 0 the method-of-moments errors-in-variables slope
+    ``S_wd / (S_ww - n sigma_u^2)`` (Fuller 1987, section 1.1). With an edge-taper factor ``f`` per
+    pair the model is ``d = f (a + b w)``: least squares on the columns (f, f w), the error variance
+    ``sigma_u^2 sum(f^2)`` taken off the (f w, f w) moment. Returns (a, b, reliability)."""
+    n = w.size
+    wm, dm = float(w.mean()), float(d.mean())
+    sww = float(np.sum((w - wm) ** 2))
+    if not sww > 0:
+        return math.nan, math.nan, math.nan
+    rel = (sww - n * sigma_u * sigma_u) / sww
+    if not rel > 0:
+        return math.nan, math.nan, rel
+    if f is not None:
+        fw = f * w
+        m = np.array([[f @ f, f @ fw], [f @ fw, fw @ fw - sigma_u * sigma_u * (f @ f)]])
+        try:
+            a, b = np.linalg.solve(m, np.array([f @ d, fw @ d]))
+        except np.linalg.LinAlgError:
+            return math.nan, math.nan, rel
+        return float(a), float(b), rel
+    b = float(np.sum((w - wm) * (d - dm))) / (sww - n * sigma_u * sigma_u)
+    return dm - b * wm, b, rel
+
+
+def _screen(w, d, a, b, k):
+    """Mask of pairs kept by the artefact screen around the robust line (a, b).
+
+    Each side of the median residual has its own robust scale (NMAD of the deviations on that
+    side), so the long side of a skewed scatter is not cut as if it were the short one; for
+    symmetric residuals both equal the NMAD. Skew-aware cutoffs follow the idea of Hubert &
+    Vandervieren (2008, Comput. Stat. Data Anal. 52:5186; recalled, unchecked); the form here is
+    this project's.
+    """
+    r = d - (a + b * w)
+    med = float(np.median(r))
+    dev = r - med
+    keep = np.ones(w.size, dtype=bool)
+    for side in (dev > 0, dev < 0):
+        if side.any():
+            s = NMAD_CONSTANT * float(np.median(np.abs(dev[side])))
+            if s > 0:
+                keep &= ~(side & (np.abs(dev) > k * s))
+    return keep
+
+
+def _estimate(spec, w, d, rng, start=None, pairs=None, f=None):
+    """(a, b, n_screened, reliability) of the fit ``spec`` on the pairs (w, d) (edge-taper factor ``f``)."""
+    a, b = _robust(spec, w, d, rng, start, pairs)
+    if spec.target == "median" or not (math.isfinite(a) and math.isfinite(b)):
+        return a, b, 0, math.nan
+    keep = _screen(w, d, a, b, spec.screen_k)
+    a, b, rel = _least_squares(w[keep], d[keep], spec.sigma_u, None if f is None else f[keep])
+    return a, b, int(w.size - keep.sum()), rel
+
+
+def edge_taper(edge_distance_m, taper_m) -> np.ndarray:
+    """Share of the full burn depth at a distance from the scar edge: ``1 - exp(-e / L)`` [-].
+
+    Burn depth tapers to zero at scar edges (shallow burn where the fire front stopped); this
+    saturating form, with the e-folding distance ``L`` [m] chosen by leave-scar-out
+    cross-validation (:func:`select_edge_taper`), is a choice of this project, not a published
+    curve. ``L = 0`` means no taper (1 everywhere); NaN distances give 1 (no information).
+    """
+    e = np.asarray(edge_distance_m, dtype="float64")
+    if not taper_m > 0:
+        return np.ones(e.shape)
+    with np.errstate(invalid="ignore"):
+        return np.where(np.isfinite(e), -np.expm1(-np.maximum(e, 0.0) / float(taper_m)), 1.0)
+
+
+def _as_pairs(water_table_m, depth_m, cluster, thickness_m=None, edge_distance_m=None):
     w = np.asarray(water_table_m, dtype="float64").ravel()
     d = np.asarray(depth_m, dtype="float64").ravel()
     if w.size != d.size:
         raise GridError(f"water-table depth fit: {w.size} water-table values but {d.size} burn depths; "
                         f"sample both on the same pixels")
     ok = np.isfinite(w) & np.isfinite(d)
+    n_censored = 0
+    if thickness_m is not None:
+        t = np.asarray(thickness_m, dtype="float64").ravel() if np.ndim(thickness_m) \
+            else np.full(w.size, float(thickness_m))
+        if t.size != w.size:
+            raise GridError(f"water-table depth fit: {t.size} peat thicknesses for {w.size} pixels; give one per pixel")
+        with np.errstate(invalid="ignore"):
+            capped = ok & np.isfinite(t) & (d >= np.maximum(t, 0.0))
+        n_censored = int(capped.sum())
+        ok &= ~capped
     c = None
     if cluster is not None:
         c = np.asarray(cluster).ravel()
@@ -540,10 +748,16 @@ def _as_pairs(water_table_m, depth_m, cluster):
         if c.dtype.kind == "f":
             ok &= np.isfinite(c)
         c = c[ok]
-    return w[ok], d[ok], c
+    e = None
+    if edge_distance_m is not None:
+        e = np.asarray(edge_distance_m, dtype="float64").ravel()
+        if e.size != w.size:
+            raise GridError(f"water-table depth fit: {e.size} edge distances for {w.size} pixels; give one per pixel")
+        e = e[ok]
+    return w[ok], d[ok], c, n_censored, e
 
 
-def _bootstrap(method, w, d, c, rng, *, n_boot, boot_size, start):
+def _bootstrap(spec, w, d, c, rng, *, n_boot, boot_size, start, f=None):
     """Bootstrap replicates of (a, b); returns (reps, scale, description, n_clusters)."""
     n = w.size
     reps = []
@@ -554,7 +768,9 @@ def _bootstrap(method, w, d, c, rng, *, n_boot, boot_size, start):
         k = 0
     if k >= 2:
         # cluster bootstrap: resample scars; thin each scar's pixels so a replicate has about boot_size
-        members = [np.flatnonzero(inverse == g) for g in range(k)]
+        inverse = inverse.ravel()
+        # each scar's pixel indices in ascending order (one sort, not one scan per scar)
+        members = np.split(np.argsort(inverse, kind="stable"), np.cumsum(np.bincount(inverse, minlength=k))[:-1])
         keep_share = min(1.0, boot_size / n)
         thinned = []
         for m in members:
@@ -563,33 +779,46 @@ def _bootstrap(method, w, d, c, rng, *, n_boot, boot_size, start):
         for _ in range(n_boot):
             pick = rng.integers(0, k, k)
             idx = np.concatenate([thinned[g] for g in pick])
-            a, b = _estimate(method, w[idx], d[idx], rng, start)
-            reps.append((a, b))
+            reps.append(_estimate(spec, w[idx], d[idx], rng, start, _BOOT_SAMPLED_PAIRS,
+                                  None if f is None else f[idx])[:2])
         scale = 1.0
         desc = (f"cluster bootstrap over {k} scars ({n_boot} replicates"
                 + (f", pixels thinned to {keep_share:.3g} of each scar" if keep_share < 1 else "") + ")")
     else:
         m = min(n, boot_size)
-        pairs = np.triu_indices(m, 1) if method == "theil-sen" and m * (m - 1) // 2 <= _EXACT_PAIRS_MAX else None
+        pairs = (np.triu_indices(m, 1) if spec.method == "theil-sen" and m * (m - 1) // 2 <= _EXACT_PAIRS_MAX
+                 else None)
         for _ in range(n_boot):
             idx = rng.integers(0, n, m)
-            if method == "theil-sen":
-                a, b = _theil_sen(w[idx], d[idx], rng, pairs=pairs)
-            else:
-                a, b = _huber(w[idx], d[idx], start=start)
-            reps.append((a, b))
+            reps.append(_estimate(spec, w[idx], d[idx], rng, start, pairs, None if f is None else f[idx])[:2])
         scale = math.sqrt(m / n)
         desc = (f"pixel bootstrap ({n_boot} replicates"
                 + (f" of {m} of {n} pixels, SE scaled by sqrt(m/n)" if m < n else "")
                 + "; assumes independent pixels, overconfident for spatially autocorrelated scars)")
-    reps = np.asarray(reps, dtype="float64")
+    reps = np.asarray(reps, dtype="float64").reshape(-1, 2)
     reps = reps[np.all(np.isfinite(reps), axis=1)]
     return reps, scale, desc, k
 
 
+def _describe(spec, taper_m: float = 0.0) -> str:
+    robust = "Theil-Sen" if spec.method == "theil-sen" else "Huber"
+    if spec.target == "median":
+        return f"{robust} line (conditional median)"
+    text = (f"least squares on pairs screened by a {robust} line at {spec.screen_k:g} NMAD "
+            f"(conditional mean; Rousseeuw & Leroy 1987)")
+    if spec.sigma_u > 0:
+        text = (f"errors-in-variables least squares (method of moments, Fuller 1987; water-table error "
+                f"{spec.sigma_u:g} m) on pairs screened by a {robust} line at {spec.screen_k:g} NMAD")
+    if taper_m > 0:
+        text += f"; depth tapered to the scar edge, x (1 - exp(-distance / {taper_m:g} m))"
+    return text
+
+
 def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_samples: int = 200_000,
-                    seed: int = 0, n_boot: int = 200, cluster=None, boot_size: int | None = None) -> DepthModel:
-    """Fit ``d = a + b w`` robustly on pixels (or plots) where both burn depth and water table exist.
+                    seed: int = 0, n_boot: int = 200, cluster=None, boot_size: int | None = None,
+                    target: str = "mean", thickness_m=None, water_table_error_m: float | None = None,
+                    screen_k: float = SCREEN_K, edge_distance_m=None, edge_taper_m: float = 0.0) -> DepthModel:
+    """Fit ``d = a + b w`` on pixels (or plots) where both burn depth and water table exist.
 
     Parameters
     ----------
@@ -600,7 +829,8 @@ def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_sa
         are dropped. Do not pre-clip the depths at zero: that biases the fit (see
         :mod:`peatburn.science.survey`).
     method : {"theil-sen", "huber"}
-        Robust estimator (module docstring).
+        Robust estimator (module docstring): the line itself with ``target="median"``, the
+        artefact screen with ``target="mean"``.
     max_samples : int
         Pairs used at most; above it a seeded random sample is drawn.
     seed : int
@@ -612,28 +842,63 @@ def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_sa
         scars, which respects the spatial correlation of pixels within a scar.
     boot_size : int, optional
         Points per bootstrap replicate at most (default 600 for Theil-Sen, 5000 for Huber).
+    target : {"mean", "median"}
+        What the line predicts (module docstring). Totals need the mean.
+    thickness_m : array_like or float, optional
+        Peat thickness per pair [m]: pairs whose depth reached it (capped, so censored) are left
+        out of the fit. NaN means unknown (not censored).
+    water_table_error_m : float, optional
+        Standard deviation of the random error of the water table at the fitted pairs [m]: the
+        slope is corrected for regression dilution (errors-in-variables, ``target="mean"`` only).
+    screen_k : float
+        Screening cutoff in NMADs of the residuals (``target="mean"``).
+    edge_distance_m : array_like, optional
+        Distance of each pair from its scar's edge [m]; needed when ``edge_taper_m`` > 0.
+    edge_taper_m : float
+        E-folding distance of the edge taper [m] (:func:`edge_taper`): the model becomes
+        ``d = (1 - exp(-e / L)) (a + b w)``, fitted by least squares on the screened pairs
+        (``target="mean"`` only). 0: no taper. Choose it with :func:`select_edge_taper`.
 
     Returns
     -------
     DepthModel
-        ``confidence="fitted"``; cautions in ``notes``.
+        ``confidence="fitted"``; the fit in words in ``estimator``; cautions in ``notes``.
 
     Raises
     ------
     GridError
-        Fewer than :data:`MIN_FIT_SAMPLES` valid pairs, or no spread in the water table.
+        Fewer than :data:`MIN_FIT_SAMPLES` valid pairs, or no spread in the water table, or a
+        water-table error so large that the corrected slope is unstable.
     PhysicalRangeError
-        Unknown ``method``.
+        Unknown ``method`` or ``target``, negative water-table error, errors-in-variables with
+        ``target="median"``.
 
     References
     ----------
-    Theil (1950); Sen (1968); Huber (1964); Holland & Welsch (1977); Efron & Tibshirani (1993);
-    Field & Welsh (2007); Bickel et al. (1997). See the module docstring.
+    Theil (1950); Sen (1968); Huber (1964); Holland & Welsch (1977); Rousseeuw & Leroy (1987);
+    Duan (1983); Fuller (1987); Efron & Tibshirani (1993); Field & Welsh (2007); Bickel et al.
+    (1997). See the module docstring.
     """
     if method not in METHODS:
         raise PhysicalRangeError(f"water-table depth fit: unknown method {method!r}; "
                                  f"choose one of {', '.join(METHODS)}")
-    w, d, c = _as_pairs(water_table_m, depth_m, cluster)
+    if target not in TARGETS:
+        raise PhysicalRangeError(f"water-table depth fit: unknown target {target!r}; "
+                                 f"choose one of {', '.join(TARGETS)}")
+    sigma_u = 0.0 if water_table_error_m is None else float(water_table_error_m)
+    if not (sigma_u >= 0 and math.isfinite(sigma_u)):
+        raise PhysicalRangeError(f"water-table depth fit: water-table error must be a number >= 0 m, "
+                                 f"got {water_table_error_m!r}")
+    if sigma_u > 0 and target == "median":
+        raise PhysicalRangeError("water-table depth fit: the errors-in-variables correction works on the "
+                                 "least-squares (mean) fit; use target=\"mean\" or give no water-table error")
+    taper = float(edge_taper_m or 0.0)
+    if taper > 0 and (target == "median" or edge_distance_m is None):
+        raise PhysicalRangeError("water-table depth fit: an edge taper needs the edge distance of every pair and "
+                                 "the mean fit (target=\"mean\")")
+    spec = _Spec(method, target, float(screen_k), sigma_u)
+    w, d, c, n_censored, e = _as_pairs(water_table_m, depth_m, cluster, thickness_m,
+                                       edge_distance_m if taper > 0 else None)
     n_valid = w.size
     if n_valid < MIN_FIT_SAMPLES:
         raise GridError(
@@ -642,10 +907,13 @@ def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_sa
         )
     rng = np.random.default_rng(seed)
     notes: list[str] = []
+    if n_censored:
+        notes.append(f"{n_censored} pair(s) capped at the peat thickness (censored) left out of the fit")
     if n_valid > max_samples:
         idx = np.sort(rng.choice(n_valid, int(max_samples), replace=False))
         w, d = w[idx], d[idx]
         c = None if c is None else c[idx]
+        e = None if e is None else e[idx]
         notes.append(f"fitted on a random sample of {int(max_samples)} of {n_valid} pairs (seed {seed})")
     lo, hi = float(w.min()), float(w.max())
     if not hi > lo:
@@ -654,8 +922,16 @@ def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_sa
             f"fitted. Give user coefficients or rely on the defaults"
         )
     start = _theil_sen(w, d, rng) if method == "huber" else None
-    a, b = _estimate(method, w, d, rng, start)
-    resid = d - (a + b * w)
+    f = edge_taper(e, taper) if taper > 0 else None
+    a, b, n_screened, rel = _estimate(spec, w, d, rng, start, None, f)
+    if sigma_u > 0 and not rel >= MIN_RELIABILITY:
+        raise GridError(
+            f"water-table depth fit: a water-table error of {sigma_u:g} m is "
+            f"{'larger than' if not rel > 0 else 'too large for'} the spread of the fitted water tables "
+            f"(reliability {rel:.2f} < {MIN_RELIABILITY:g}); the corrected slope would be unstable. Check "
+            f"the error, or fit without it"
+        )
+    resid = d - (a + b * w) * (1.0 if f is None else f)
     ss_tot = float(np.sum((d - d.mean()) ** 2))
     r2 = 1.0 - float(np.sum(resid**2)) / ss_tot if ss_tot > 0 else math.nan
     rmse = float(np.sqrt(np.mean(resid**2)))
@@ -666,11 +942,17 @@ def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_sa
     k = 0
     if n_boot > 0:
         size = int(boot_size or _DEFAULT_BOOT_SIZE[method])
-        reps, scale, se_method, k = _bootstrap(method, w, d, c, rng, n_boot=int(n_boot), boot_size=size,
-                                               start=(a, b) if method == "huber" else None)
+        reps, scale, se_method, k = _bootstrap(spec, w, d, c, rng, n_boot=int(n_boot), boot_size=size,
+                                               start=start if method == "huber" else None, f=f)
         if reps.shape[0] >= 2:
             cm = np.cov(reps.T, ddof=1) * scale**2
             se_a, se_b, cov = float(np.sqrt(cm[0, 0])), float(np.sqrt(cm[1, 1])), float(cm[0, 1])
+    if n_screened:
+        notes.append(f"{n_screened} of {w.size} pairs ({n_screened / w.size:.1%}) screened out as artefacts "
+                     f"(residual beyond {screen_k:g} NMAD of the robust line)")
+    if sigma_u > 0:
+        notes.append(f"slope corrected for a water-table error of {sigma_u:g} m (reliability {rel:.2f}): "
+                     f"right only where the model is applied to a better-known water table")
     if c is not None and 0 < k < MIN_CLUSTERS:
         notes.append(f"only {k} scar(s): the cluster bootstrap standard errors are unreliable")
     if c is None and n_boot > 0:
@@ -687,17 +969,22 @@ def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_sa
         intercept=a, slope=b, intercept_se=se_a, slope_se=se_b, covariance=cov, n=int(w.size), r2=r2,
         rmse=rmse, method=method, confidence="fitted", se_method=se_method, water_table_range=(lo, hi),
         n_clusters=int(k), residual_nmad=nmad, notes=tuple(notes),
-        basis=f"{method} fit on {w.size} pairs of burn depth and water-table depth",
+        basis=f"{_describe(spec, taper)} on {w.size} pairs of burn depth and water-table depth",
+        target=target, estimator=_describe(spec, taper), n_screened=n_screened, n_censored=n_censored,
+        water_table_error_m=sigma_u if sigma_u > 0 else math.nan, edge_taper_m=taper,
     )
 
 
 def fit_depth_models_by_group(water_table_m, depth_m, group, *, min_n: int = 200,
-                              min_range_m: float = NARROW_RANGE_M, cluster=None, **fit_kwargs) -> dict:
+                              min_range_m: float = NARROW_RANGE_M, cluster=None,
+                              min_scars: int = MIN_SCARS_PER_GROUP, **fit_kwargs) -> dict:
     """Separate coefficient sets per group (e.g. first fire vs repeat fire) where the data allow.
 
     A group gets its own fit when it has at least ``min_n`` valid pairs spanning at least
-    ``min_range_m`` of water table; otherwise it takes the pooled fit of all groups, with
-    ``method="pooled"`` and a note. Repeat fires burn peat already thinned, dried and exposed by
+    ``min_range_m`` of water table and, when scar labels are given, at least ``min_scars`` scars
+    (:data:`MIN_SCARS_PER_GROUP`: pixels of one scar are not independent, so it is the scars that
+    count; a model from 2 scars has a pixel-bootstrap slope error many times too small); otherwise
+    it takes the pooled fit of all groups, with ``method="pooled"`` and a note. Repeat fires burn peat already thinned, dried and exposed by
     earlier fires, so their relation may differ (a reason to fit them apart, not a published
     coefficient).
 
@@ -713,6 +1000,8 @@ def fit_depth_models_by_group(water_table_m, depth_m, group, *, min_n: int = 200
         Narrowest water-table range [m] for a group of its own.
     cluster : array_like, optional
         Scar labels per pair (see :func:`fit_depth_model`).
+    min_scars : int
+        Fewest scars for a group of its own (only when ``cluster`` is given).
     **fit_kwargs
         Passed to :func:`fit_depth_model` (method, seed, n_boot...).
 
@@ -735,16 +1024,245 @@ def fit_depth_models_by_group(water_table_m, depth_m, group, *, min_n: int = 200
         sel = ok & (g == label)
         n = int(sel.sum())
         span = float(w[sel].max() - w[sel].min()) if n else 0.0
-        if n >= min_n and span >= min_range_m:
+        scars = len(np.unique(c[sel])) if c is not None else None
+        if n >= min_n and span >= min_range_m and (scars is None or scars >= min_scars):
             out[label] = fit_depth_model(w[sel], d[sel], cluster=None if c is None else c[sel], **fit_kwargs)
         else:
-            why = f"{n} pairs" if n < min_n else f"a water-table range of {span:.2f} m"
+            why = (f"{n} pairs" if n < min_n else f"a water-table range of {span:.2f} m" if span < min_range_m
+                   else f"{scars} scar(s) (fewer than {min_scars})")
             out[label] = replace(
                 pooled, method="pooled",
                 notes=pooled.notes + (f"group {label!r} has {why}: it uses the pooled fit",),
                 basis=pooled.basis + f" (pooled; group {label!r} too small for its own fit)",
             )
     return out
+
+
+# ----------------------------------------------------------------------------- cross-validation
+
+
+def scar_cross_validation(water_table_m, depth_m, scar, *, weight=None, thickness_m=None,
+                          n_folds: int = CV_FOLDS, seed: int = 0, edge_distance_m=None, **fit_kwargs) -> dict:
+    """Leave-scar-out prediction error of the water-table depth model, per scar.
+
+    The scars are shuffled (seeded) and dealt into ``min(n_folds, scars)`` folds; each fold's
+    scars are predicted by a model fitted on the other folds' scars (leave-one-scar-out when
+    there are no more scars than folds). Whole scars are left out, never single pixels: pixels of
+    a scar share its conditions, so a pixel-wise split leaks the answer and understates the error
+    (Roberts et al. 2017). For each held-out scar ``s`` the predicted and observed sums
+    ``P_s = sum(weight x clip(a + b w, 0, T))`` and ``O_s = sum(weight x d)`` are compared.
+
+    Parameters
+    ----------
+    water_table_m, depth_m : array_like
+        Pairs as in :func:`fit_depth_model` [m].
+    scar : array_like
+        Scar label per pair.
+    weight : array_like, optional
+        Per-pair weight turning depth into the quantity of interest, e.g. bulk density x carbon
+        fraction x pixel area for carbon [kg m-1]; default 1 (depth sums [m]).
+    thickness_m : array_like or float, optional
+        Peat thickness [m]: caps the predictions and censors the fit (:func:`fit_depth_model`).
+    n_folds : int
+        Folds at most (:data:`CV_FOLDS`).
+    edge_distance_m : array_like, optional
+        Distance from the scar edge [m] per pair, for a model with ``edge_taper_m`` in ``fit_kwargs``.
+    seed : int
+        Seed of the fold assignment and of the fits.
+    **fit_kwargs
+        Passed to :func:`fit_depth_model` (method, target, water_table_error_m...); the
+        bootstrap is switched off inside the folds.
+
+    With ``target="mean"`` (the default), pairs that the artefact screen flags on all scars
+    (canal edges, spoil banks: :data:`SCREEN_K`) are left out of both sums, so the error is
+    measured against real burn depths.
+
+    Returns
+    -------
+    dict
+        ``n_scars``, ``n_folds``, ``n_screened`` (pairs left out of the sums as artefacts);
+        ``bias`` = sum(P - O) / sum(O) and ``rmse`` =
+        sqrt(mean((P_s - O_s)^2)) / mean(O_s), both relative [-]; ``rel_sd`` and ``rel_rmse``
+        (standard deviation and root mean square of the per-scar relative errors
+        (P_s - O_s) / O_s, each scar counting once whatever its size), ``rel_q05``, ``rel_q95``
+        (their 5th and 95th percentiles); ``scar``, ``observed``, ``predicted`` (arrays per scar); ``method``
+        (text). Scars of a fold whose training set cannot be fitted are skipped (``n_skipped``).
+
+    Raises
+    ------
+    GridError
+        Fewer than 3 scars with valid pairs, or sizes that do not match.
+
+    References
+    ----------
+    Roberts, D. R. et al. (2017). Ecography 40:913-929 (blocked cross-validation). Hastie, T.,
+    Tibshirani, R. & Friedman, J. (2009). The Elements of Statistical Learning, 2nd ed., section
+    7.10 (K-fold cross-validation; recalled, unchecked).
+    """
+    w = np.asarray(water_table_m, dtype="float64").ravel()
+    d = np.asarray(depth_m, dtype="float64").ravel()
+    g = np.asarray(scar).ravel()
+    if not (w.size == d.size == g.size):
+        raise GridError(f"scar cross-validation: {w.size} water tables, {d.size} depths and {g.size} scar labels; "
+                        f"give one of each per pixel")
+    wt_ = np.ones(w.size) if weight is None else np.broadcast_to(np.asarray(weight, dtype="float64"), w.shape).ravel()
+    t = None if thickness_m is None else np.broadcast_to(np.asarray(thickness_m, dtype="float64"), w.shape).ravel()
+    e = None if edge_distance_m is None else np.asarray(edge_distance_m, dtype="float64").ravel()
+    if e is not None and e.size != w.size:
+        raise GridError(f"scar cross-validation: {e.size} edge distances for {w.size} pixels; give one per pixel")
+    ok = np.isfinite(w) & np.isfinite(d) & np.isfinite(wt_)
+    if g.dtype.kind == "f":
+        ok &= np.isfinite(g)
+    w, d, g, wt_ = w[ok], d[ok], g[ok], wt_[ok]
+    t = None if t is None else t[ok]
+    e = None if e is None else e[ok]
+    labels, inverse = np.unique(g, return_inverse=True)
+    inverse = inverse.ravel()
+    k = labels.size
+    if k < 3:
+        raise GridError(f"scar cross-validation: {k} scar(s) with valid pairs; at least 3 are needed to leave "
+                        f"whole scars out")
+    rng = np.random.default_rng(seed)
+    folds = min(int(n_folds), k)
+    fold_of_scar = np.empty(k, dtype=int)
+    fold_of_scar[rng.permutation(k)] = np.arange(k) % folds
+    fold = fold_of_scar[inverse]
+    fit_kwargs = {**fit_kwargs, "n_boot": 0, "seed": seed}
+    # artefacts (canal edges, spoil banks) are no burn depth: the pairs the mean fit screens out on
+    # all scars are left out of the held-out sums too, so the error is against the real depths
+    artefact = np.zeros(w.size, dtype=bool)
+    if fit_kwargs.get("target", "mean") == "mean" and w.size >= MIN_FIT_SAMPLES:
+        spec = _Spec(fit_kwargs.get("method", "theil-sen"), "mean", float(fit_kwargs.get("screen_k", SCREEN_K)))
+        a0, b0 = _robust(spec, w, d, rng)
+        if math.isfinite(a0) and math.isfinite(b0):
+            artefact = ~_screen(w, d, a0, b0, spec.screen_k)
+    pred = np.full(w.size, np.nan)
+    skipped = 0
+    for f in range(folds):
+        test = fold == f
+        train = ~test
+        try:
+            m = fit_depth_model(w[train], d[train], cluster=None, thickness_m=None if t is None else t[train],
+                                edge_distance_m=None if e is None else e[train], **fit_kwargs)
+        except GridError:
+            skipped += int(np.unique(inverse[test]).size)
+            continue
+        pred[test] = predict_depth(m, w[test], None if t is None else t[test], None if e is None else e[test])
+    done = np.bincount(inverse, weights=np.isfinite(pred).astype(float), minlength=k) > 0
+    real = np.where(artefact, 0.0, wt_)
+    obs = np.bincount(inverse, weights=real * d, minlength=k)
+    prd = np.bincount(inverse, weights=real * np.nan_to_num(pred), minlength=k)
+    obs, prd, lab = obs[done], prd[done], labels[done]
+    err = prd - obs
+    out = {"n_scars": int(done.sum()), "n_folds": folds, "n_skipped": skipped, "n_screened": int(artefact.sum()),
+           "scar": lab,
+           "observed": obs, "predicted": prd,
+           "method": (f"leave-scar-out cross-validation, {folds} folds of whole scars "
+                      f"({'one scar per fold' if folds == k else f'{k} scars'}; seed {seed})")}
+    nan = math.nan
+    if obs.size == 0 or not obs.sum() != 0:
+        out.update(bias=nan, rmse=nan, rel_sd=nan, rel_rmse=nan, rel_q05=nan, rel_q95=nan)
+        return out
+    with np.errstate(invalid="ignore", divide="ignore"):
+        rel = np.where(obs > 0, err / obs, np.nan)
+    rel = rel[np.isfinite(rel)]
+    out.update(
+        bias=float(err.sum() / obs.sum()),
+        rmse=float(np.sqrt(np.mean(err**2)) / np.mean(obs)),
+        rel_sd=float(np.std(rel, ddof=1)) if rel.size > 1 else nan,
+        rel_rmse=float(np.sqrt(np.mean(rel**2))) if rel.size else nan,
+        rel_q05=float(np.quantile(rel, 0.05)) if rel.size else nan,
+        rel_q95=float(np.quantile(rel, 0.95)) if rel.size else nan,
+    )
+    return out
+
+
+#: Edge-taper distances [m] :func:`select_edge_taper` tries besides none (project choice: from
+#: about one pixel of a 10-30 m burned-area map to a few hundred metres).
+EDGE_TAPER_CANDIDATES_M = (10.0, 20.0, 40.0, 80.0, 160.0)
+#: Smallest relative drop of the leave-scar-out RMSE for which a taper is taken (project choice:
+#: a covariate must earn its place).
+MIN_CV_GAIN = 0.05
+
+
+def select_edge_taper(water_table_m, depth_m, scar, edge_distance_m, *, candidates=EDGE_TAPER_CANDIDATES_M,
+                      min_gain: float = MIN_CV_GAIN, **cv_kwargs) -> dict:
+    """Choose the edge taper of the depth model by leave-scar-out cross-validation.
+
+    Each candidate ``L`` (and no taper) is cross-validated by :func:`scar_cross_validation` with
+    the same folds; the taper with the lowest root mean square of the per-scar *relative* errors
+    (``rel_rmse``: each scar counts once, so a size-dependent bias of small scars is seen, which
+    the RMSE of absolute sums, dominated by the large scars, hides) is taken only if it lowers that
+    of the model without taper by at least ``min_gain`` (relative). Not a default: without this
+    selection the model has no taper.
+
+    Parameters
+    ----------
+    water_table_m, depth_m, scar : array_like
+        As in :func:`scar_cross_validation`.
+    edge_distance_m : array_like
+        Distance of each pair from its scar's edge [m].
+    candidates : sequence of float
+        Taper distances to try [m].
+    min_gain : float
+        Smallest relative RMSE improvement for a taper to be taken.
+    **cv_kwargs
+        Passed to :func:`scar_cross_validation` (weight, thickness_m, method...).
+
+    Returns
+    -------
+    dict
+        ``taper_m`` (0 for none), ``rmse`` (candidate -> leave-scar-out ``rel_rmse``) and
+        ``cv`` (the cross-validation of the chosen model).
+    """
+    cvs = {0.0: scar_cross_validation(water_table_m, depth_m, scar, **cv_kwargs)}
+    for cand in candidates:
+        try:
+            cvs[float(cand)] = scar_cross_validation(water_table_m, depth_m, scar, edge_distance_m=edge_distance_m,
+                                                     edge_taper_m=float(cand), **cv_kwargs)
+        except GridError:
+            continue
+    rmse = {k: v["rel_rmse"] for k, v in cvs.items()}
+    base = rmse[0.0]
+    ok = {k: r for k, r in rmse.items() if k > 0 and math.isfinite(r)}
+    best = min(ok, key=ok.get) if ok else 0.0
+    if not (best > 0 and math.isfinite(base) and ok[best] <= (1.0 - min_gain) * base):
+        best = 0.0
+    return {"taper_m": best, "rmse": rmse, "cv": cvs[best]}
+
+
+def with_cross_validation(model: DepthModel, cv: Mapping) -> DepthModel:
+    """The model with the leave-scar-out statistics of :func:`scar_cross_validation` attached."""
+    return replace(model, cv_n_scars=int(cv["n_scars"]), cv_bias=float(cv["bias"]), cv_rmse=float(cv["rmse"]),
+                   cv_method=str(cv["method"]))
+
+
+def extrapolated_share(model: DepthModel, water_table_m, weight=None) -> float:
+    """Share of ``weight`` (e.g. modelled area) whose water table lies outside the fitted range.
+
+    Parameters
+    ----------
+    model : DepthModel
+        Its ``water_table_range`` [m]; NaN range (user or default coefficients) gives NaN.
+    water_table_m : array_like
+        Water table where the model is applied [m].
+    weight : array_like, optional
+        Per-value weight (area [m2]); default 1.
+
+    Returns
+    -------
+    float
+        Share [0-1]; NaN when nothing is weighted or the range is unknown.
+    """
+    lo, hi = model.water_table_range
+    w = np.asarray(water_table_m, dtype="float64").ravel()
+    x = np.ones(w.size) if weight is None else np.broadcast_to(np.asarray(weight, dtype="float64"), w.shape).ravel()
+    ok = np.isfinite(w) & np.isfinite(x)
+    total = float(x[ok].sum())
+    if not (math.isfinite(lo) and math.isfinite(hi)) or not total > 0:
+        return math.nan
+    out = ok & ((w < lo) | (w > hi))
+    return float(x[out].sum() / total)
 
 
 # ----------------------------------------------------------------------------- interpolation
