@@ -15,6 +15,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .errors import ConfigError, PhysicalRangeError, UnitError
+from .io.mosaics import RasterInput, is_url, resolve_raster_input
 from .names import check_layer_name, printable
 from .units import DOCUMENTED_UNITS, conversion_factor, to_magnitude
 
@@ -23,7 +24,7 @@ from .units import DOCUMENTED_UNITS, conversion_factor, to_magnitude
 class RasterRef:
     """A parameter given as a raster; ``scale`` turns the file's unit into the documented unit."""
 
-    path: Path
+    path: Path | RasterInput  # one local file; tiles or a URL (peatburn.io.mosaics)
     units: str | None = None
     scale: float = 1.0
 
@@ -33,8 +34,8 @@ Value = float | RasterRef
 
 @dataclass(frozen=True)
 class SurveyConfig:
-    pre: Path
-    post: Path
+    pre: Path | RasterInput
+    post: Path | RasterInput
     interval_years: float
     subsidence_rate: Value | None = None
     stable: Path | None = None
@@ -322,9 +323,9 @@ def _value(value, base: Path, key: str, quantity: str, where: str, range_name: s
             raise ConfigError(f"{where}: `{key}` as a table takes `raster` and optional `units`, got {sorted(value)}")
         units = value.get("units")
         scale = conversion_factor(units, unit, key) if units else 1.0
-        return RasterRef(_path(value["raster"], base, key, where), units, scale)
-    if isinstance(value, str) and _looks_like_path(value):
-        return RasterRef(_path(value, base, key, where))
+        return RasterRef(_raster(value["raster"], base, key, where), units, scale)
+    if isinstance(value, list) or (isinstance(value, str) and _looks_like_path(value)):
+        return RasterRef(_raster(value, base, key, where))
     try:
         mag = to_magnitude(value, unit, key)
     except UnitError as exc:
@@ -335,7 +336,14 @@ def _value(value, base: Path, key: str, quantity: str, where: str, range_name: s
 
 
 def _looks_like_path(s: str) -> bool:
-    return s.lower().endswith((".tif", ".tiff", ".vrt", ".img", ".nc"))
+    return s.lower().endswith((".tif", ".tiff", ".vrt", ".img", ".nc")) or is_url(s)
+
+
+def _raster(value, base: Path, key: str, where: str):
+    """A raster input: one local file (Path), or tiles / a URL (:class:`peatburn.io.mosaics.RasterInput`)."""
+    if isinstance(value, str) and not value.strip():
+        return _path(value, base, key, where)
+    return resolve_raster_input(value, base, key, where)
 
 
 # --------------------------------------------------------------------------------------------
@@ -530,8 +538,8 @@ def _water_table(wt: dict, base: Path, where: str) -> WaterTableConfig:
         raster = _value(src, base, "depth.water_table.depth", "water_table_depth", where)
     elif isinstance(src, str) and src.lower().endswith(_STATION_SUFFIXES):
         stations = _path(src, base, "depth.water_table.depth", where)
-    elif isinstance(src, str):
-        raster = RasterRef(_path(src, base, "depth.water_table.depth", where), units,
+    elif isinstance(src, (str, list)):
+        raster = RasterRef(_raster(src, base, "depth.water_table.depth", where), units,
                            conversion_factor(units, "m", "depth.water_table.units") if units else 1.0)
     else:
         raise ConfigError(f"{where}: `depth.water_table.depth` must be a raster or a station file path, got {src!r}")
@@ -637,8 +645,8 @@ def _factor_ref(value, base: Path) -> str:
 
 
 def _survey(sv: dict, base: Path, where: str, force: bool = False) -> SurveyConfig:
-    pre = _path(_require(sv, "pre", "depth.survey", where), base, "depth.survey.pre", where)
-    post = _path(_require(sv, "post", "depth.survey", where), base, "depth.survey.post", where)
+    pre = _raster(_require(sv, "pre", "depth.survey", where), base, "depth.survey.pre", where)
+    post = _raster(_require(sv, "post", "depth.survey", where), base, "depth.survey.post", where)
     if "interval_years" in sv:
         try:
             interval = to_magnitude(sv["interval_years"], "yr", "depth.survey.interval_years")
