@@ -19,7 +19,7 @@ from .options import config_argument, handle_errors, out_option, overwrite_optio
 def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
     """Estimate smouldering (below-ground) peat-fire emissions for CONFIG and write the outputs.
 
-    Writes zones.csv, fires.csv, totals.json, inventory.csv, inventory.json, daily.csv, burn_depth.tif,
+    Writes zones.csv, fires.csv, results.gpkg, totals.json, inventory.csv, inventory.json, daily.csv, burn_depth.tif,
     carbon_smouldering.tif, depth_method.tif, provenance.json and report.html into --out (and
     report.pdf with --pdf). An existing, non-empty output folder is refused unless --overwrite is
     given.

@@ -373,6 +373,11 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     files = {}
     files["zones"] = write_csv(out_dir / "zones.csv", rows, columns)
     files["fires"] = write_csv(out_dir / "fires.csv", fire_rows, fires.fire_columns(bool(uncertainty)))
+    zone_layers = [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones]  # not read a second time
+    from ..outputs.gis import write_results_gpkg
+
+    files["gis"] = write_results_gpkg(out_dir / "results.gpkg", zone_layers, rows, columns, inputs.scars.frame,
+                                      fire_rows, fires.fire_columns(bool(uncertainty)))
     files["totals"] = write_json(out_dir / "totals.json", totals)
     inv = tables.inventory_rows(total, shares, factors.gwp.name, run_gases)
     files["daily"] = write_csv(out_dir / "daily.csv", daily, timeline.daily_columns(run_gases))
@@ -383,13 +388,12 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     prov = provenance.build(cfg, grid, alignment, factors, models,
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
                                    "outputs": sorted(["zones.csv", "fires.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
-                                                      "burn_depth.tif", "carbon_smouldering.tif",
+                                                      "results.gpkg", "burn_depth.tif", "carbon_smouldering.tif",
                                                       "depth_method.tif", "report.html"])})
     files["provenance"] = write_json(out_dir / "provenance.json", prov)
     result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv)
     from ..outputs import report
 
-    zone_layers = [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones]  # not read a second time
     files["report"] = report.write_report(out_dir / "report.html", result, cfg, prov, factors, zone_layers)
     for name in ("burn_depth", "carbon_smouldering", "depth_method"):
         files[name] = out_dir / f"{name}.tif"
