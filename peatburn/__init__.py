@@ -4,8 +4,11 @@ Public API::
 
     import peatburn
     cfg = peatburn.load_config("config.toml")
-    result = peatburn.run(cfg, "out/")
-    result.total["carbon_smouldering_t"]
+    report = peatburn.check(cfg)          # what a run would do (report.lines), no pixel read
+    result = peatburn.run(cfg)            # computed in memory, nothing written
+    result.frames.zones                   # pandas DataFrame, the columns of zones.csv
+    result.frames.total["carbon_smouldering_t"]
+    result.write("out/")                  # the files of `peatburn run`, when asked
 """
 
 __version__ = "0.1.0"
@@ -14,8 +17,12 @@ from .config import RunConfig, load_config  # noqa: E402
 from .errors import PeatburnError  # noqa: E402
 
 
-def run(cfg, out_dir, **kwargs):
-    """Run a configuration (a :class:`RunConfig` or a path to a TOML file); see :func:`peatburn.engine.runner.run`."""
+def run(cfg, out_dir=None, **kwargs):
+    """Run a configuration (a :class:`RunConfig` or a path to a TOML file); see :func:`peatburn.engine.runner.run`.
+
+    Without ``out_dir`` nothing is written: the result holds the tables (``result.frames``) and
+    ``result.write(out_dir)`` writes the files when asked.
+    """
     from .engine.runner import run as _run
 
     if not isinstance(cfg, RunConfig):
@@ -23,4 +30,11 @@ def run(cfg, out_dir, **kwargs):
     return _run(cfg, out_dir, **kwargs)
 
 
-__all__ = ["__version__", "load_config", "run", "RunConfig", "PeatburnError"]
+def check(cfg, against=None, **kwargs):
+    """Validate a configuration and its inputs; see :func:`peatburn.engine.check.check`."""
+    from .engine.check import check as _check
+
+    return _check(cfg, against, **kwargs)
+
+
+__all__ = ["__version__", "load_config", "run", "check", "RunConfig", "PeatburnError"]

@@ -51,17 +51,60 @@ class Factors:
 class RunResult:
     """What a run produced."""
 
-    out_dir: Path
+    out_dir: Path | None
     zones: list[dict]
     totals: dict
     qa: dict
     files: dict = field(default_factory=dict)
     daily: list = field(default_factory=list)
     inventory: list = field(default_factory=list)
+    fires: list = field(default_factory=list)
+    provenance: dict | None = None
+    #: where the rasters are: ``out_dir``, or a private temporary folder of a run without one (removed
+    #: with the result)
+    raster_dir: Path | None = None
 
     @property
     def total(self) -> dict:
         return self.zones[-1]
+
+    @property
+    def frames(self) -> "ResultFrames":
+        """The tables as pandas objects: ``zones``, ``fires``, ``daily``, ``inventory`` DataFrames (the
+        columns of the CSV files) and the run ``total`` as a Series."""
+        import pandas as pd
+
+        parts = getattr(self, "_parts", None)
+        zcols = parts.columns if parts else None
+        zones = pd.DataFrame(self.zones, columns=zcols)
+        return ResultFrames(zones=zones, fires=pd.DataFrame(self.fires, columns=parts.fire_columns if parts else None),
+                            total=zones.iloc[-1].rename("total"),
+                            daily=pd.DataFrame(self.daily, columns=parts.daily_columns if parts else None),
+                            inventory=pd.DataFrame(self.inventory, columns=tables.INVENTORY_COLUMNS))
+
+    def write(self, out_dir, *, overwrite: bool = False) -> dict:
+        """Write the result's files (tables, results.gpkg, rasters, provenance, report) into
+        ``out_dir``, as ``peatburn run`` does; an existing, non-empty folder is refused unless
+        ``overwrite``. Returns the written files by name."""
+        from ..io.lock import output_lock
+
+        if getattr(self, "_parts", None) is None or self.raster_dir is None or not Path(self.raster_dir).exists():
+            raise OutputExistsError("this result cannot be written again: its rasters are gone; run again")
+        out_dir = Path(out_dir)
+        with output_lock(out_dir):
+            prepare_out_dir(out_dir, overwrite)
+            return write_outputs(self, out_dir)
+
+
+@dataclass(frozen=True)
+class ResultFrames:
+    """A run's tables as pandas objects (:attr:`RunResult.frames`)."""
+
+    zones: object
+    fires: object
+    total: object
+    daily: object
+    inventory: object
 
 
 def prepare_out_dir(out_dir: Path, overwrite: bool) -> None:
@@ -93,10 +136,15 @@ def load_factors(cfg: RunConfig) -> Factors:
     )
 
 
-def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, progress=None,
+def run(cfg: RunConfig, out_dir=None, *, overwrite: bool = False, workers: int = 1, progress=None,
         scheduler: str | None = None) -> RunResult:
-    """Run ``cfg`` and write zones.csv, totals.json, inventory.csv/json, daily.csv, burn_depth.tif,
-    carbon_smouldering.tif, depth_method.tif, provenance.json and report.html into ``out_dir``.
+    """Run ``cfg`` and write zones.csv, fires.csv, results.gpkg, totals.json, inventory.csv/json,
+    daily.csv, burn_depth.tif, carbon_smouldering.tif, depth_method.tif, provenance.json and
+    report.html into ``out_dir``.
+
+    ``out_dir`` None computes without writing any output: the result holds the tables in memory
+    (:attr:`RunResult.frames`), the rasters wait in a private temporary folder removed with the
+    result, and :meth:`RunResult.write` writes everything when asked.
 
     GDAL's block cache is bounded for the whole run (:func:`peatburn.engine.executors.gdal_env`, sized
     by :func:`peatburn.engine.executors.run_cache_bytes`): peak memory depends on the block size and the
@@ -109,6 +157,8 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
     client = connect(scheduler) if isinstance(scheduler, str) else scheduler  # a Client or cluster: as given
     try:
         with gdal_env():
+            if out_dir is None:
+                return _compute_only(cfg, workers=workers, progress=progress, scheduler=client)
             return _run(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress, scheduler=client)
     finally:
         if client is not scheduler:
@@ -126,6 +176,22 @@ def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, sc
         except Exception as exc:
             _raise_if_disk_full(out_dir, exc)
             raise
+
+
+def _compute_only(cfg: RunConfig, *, workers: int, progress, scheduler) -> RunResult:
+    import shutil
+    import tempfile
+    import weakref
+
+    tmp = Path(tempfile.mkdtemp(prefix="peatburn-rasters-"))
+    try:
+        result = _run_locked(cfg, None, overwrite=False, workers=workers, progress=progress, scheduler=scheduler,
+                             raster_dir=tmp)
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    weakref.finalize(result, shutil.rmtree, str(tmp), True)
+    return result
 
 
 def _raise_if_disk_full(out_dir: Path, exc: BaseException) -> None:
@@ -149,8 +215,10 @@ def _raise_if_disk_full(out_dir: Path, exc: BaseException) -> None:
                         f"final names are complete)") from exc
 
 
-def _run_locked(cfg: RunConfig, out_dir: Path, *, overwrite: bool, workers: int, progress, scheduler) -> RunResult:
-    prepare_out_dir(out_dir, overwrite)
+def _run_locked(cfg: RunConfig, out_dir: Path | None, *, overwrite: bool, workers: int, progress, scheduler,
+                raster_dir: Path | None = None) -> RunResult:
+    if out_dir is not None:
+        prepare_out_dir(out_dir, overwrite)
     factors = load_factors(cfg)
 
     inputs = open_inputs(cfg)
@@ -160,24 +228,30 @@ def _run_locked(cfg: RunConfig, out_dir: Path, *, overwrite: bool, workers: int,
     pool = WorkerPool(workers) if workers > 1 and scheduler is None else None
     try:
         with gdal_env(run_cache_bytes(inputs.grid.width, cfg.block_size)):
-            return _run_inputs(cfg, out_dir, inputs, factors, progress=progress, scheduler=scheduler, pool=pool)
+            return _run_inputs(cfg, out_dir, inputs, factors, progress=progress, scheduler=scheduler, pool=pool,
+                               raster_dir=raster_dir or out_dir)
     finally:
         if pool is not None:
             pool.close()
 
 
-def _run_inputs(cfg: RunConfig, out_dir: Path, inputs, factors, *, progress, scheduler, pool) -> RunResult:
+def _run_inputs(cfg: RunConfig, out_dir: Path | None, inputs, factors, *, progress, scheduler, pool,
+                raster_dir: Path) -> RunResult:
     """The run after its inputs are open; ``pool`` (local workers, or None) is closed as soon as the
     block pass ends, so the COG conversion has the cores to itself."""
     try:
-        plan, alignment, models, sums, rasters, notes = _block_pass(cfg, out_dir, inputs, progress, scheduler, pool)
+        plan, alignment, models, sums, rasters, notes = _block_pass(cfg, raster_dir, inputs, progress, scheduler, pool)
     finally:
         if pool is not None:
             pool.close()
     # the COG conversions (GDAL, outside the GIL) run while the tables and intervals are computed
     converting = _background(_finish_rasters, rasters)
     try:
-        return _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, sums, notes, converting)
+        result = _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, factors, sums, notes,
+                                 converting)
+        if out_dir is not None:
+            write_outputs(result, out_dir)
+        return result
     finally:
         converting.wait()
 
@@ -290,7 +364,8 @@ def _finish_rasters(rasters, ok: bool = True) -> None:
         raise err
 
 
-def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, sums, notes, converting):
+def _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, factors, sums, notes, converting):
+    """Every table of the run in memory (a :class:`RunResult`), the rasters in ``raster_dir``."""
     grid = plan.grid
     from .above_ground import flaming_sums
 
@@ -335,7 +410,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     if inputs.plots is not None:
         from ..plots import validate_plots
 
-        plots = validate_plots(inputs, plan, out_dir)
+        plots = validate_plots(inputs, plan, raster_dir)
 
     # the scars' sums add up to the run's: shared pixels of repeat burns are split between their fires
     # in the block pass (outputs.fires), so no rescaling is needed and no scar lends carbon to another
@@ -370,34 +445,72 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
         for c in tables.interval_columns(run_gases):
             if c in tables.INTERVAL_COLUMNS or f"{c}_lo" in total:
                 columns += [f"{c}_lo", f"{c}_hi"]
-    files = {}
-    files["zones"] = write_csv(out_dir / "zones.csv", rows, columns)
-    files["fires"] = write_csv(out_dir / "fires.csv", fire_rows, fires.fire_columns(bool(uncertainty)))
-    zone_layers = [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones]  # not read a second time
-    from ..outputs.gis import write_results_gpkg
-
-    files["gis"] = write_results_gpkg(out_dir / "results.gpkg", zone_layers, rows, columns, inputs.scars.frame,
-                                      fire_rows, fires.fire_columns(bool(uncertainty)))
-    files["totals"] = write_json(out_dir / "totals.json", totals)
     inv = tables.inventory_rows(total, shares, factors.gwp.name, run_gases)
-    files["daily"] = write_csv(out_dir / "daily.csv", daily, timeline.daily_columns(run_gases))
-    files["inventory"] = write_csv(out_dir / "inventory.csv", inv, tables.INVENTORY_COLUMNS)
-    files["inventory_json"] = write_json(out_dir / "inventory.json", {"unit": "Gg", "gwp": factors.gwp.name,
-                                                                          "conventions": tables.INVENTORY_CONVENTIONS,
-                                                                          "rows": inv})
     prov = provenance.build(cfg, grid, alignment, factors, models,
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
                                    "outputs": sorted(["zones.csv", "fires.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
                                                       "results.gpkg", "burn_depth.tif", "carbon_smouldering.tif",
                                                       "depth_method.tif", "report.html"])})
-    files["provenance"] = write_json(out_dir / "provenance.json", prov)
-    result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv)
-    from ..outputs import report
-
-    files["report"] = report.write_report(out_dir / "report.html", result, cfg, prov, factors, zone_layers)
-    for name in ("burn_depth", "carbon_smouldering", "depth_method"):
-        files[name] = out_dir / f"{name}.tif"
+    result = RunResult(out_dir, rows, totals, qa, daily=daily, inventory=inv, fires=fire_rows, provenance=prov,
+                       raster_dir=raster_dir)
+    result._parts = _WriteParts(cfg, factors, columns, fires.fire_columns(bool(uncertainty)),
+                                timeline.daily_columns(run_gases),
+                                [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones],  # not read twice
+                                inputs.scars.frame)
     return result
+
+
+@dataclass
+class _WriteParts:
+    """What writing a computed result needs besides its tables."""
+
+    cfg: RunConfig
+    factors: Factors
+    columns: list
+    fire_columns: list
+    daily_columns: list
+    zone_layers: list
+    scars: object
+
+
+RASTER_NAMES = ("burn_depth", "carbon_smouldering", "depth_method")
+
+
+def write_outputs(result: RunResult, out_dir: Path) -> dict:
+    """Write a computed result's files into ``out_dir`` (the folder is ready and locked): the
+    rasters (copied when they were computed elsewhere), zones.csv, fires.csv, results.gpkg,
+    totals.json, inventory.csv/json, daily.csv, provenance.json, report.html."""
+    import shutil
+
+    from ..io.writers import atomic_path
+    from ..outputs import report
+    from ..outputs.gis import write_results_gpkg
+
+    parts = result._parts
+    out_dir = Path(out_dir)
+    files = result.files
+    for name in RASTER_NAMES:
+        src = Path(result.raster_dir) / f"{name}.tif"
+        if Path(result.raster_dir).resolve() != out_dir.resolve():
+            with atomic_path(out_dir / f"{name}.tif", suffix=".tif") as tmp:
+                shutil.copyfile(src, tmp)
+    files["zones"] = write_csv(out_dir / "zones.csv", result.zones, parts.columns)
+    files["fires"] = write_csv(out_dir / "fires.csv", result.fires, parts.fire_columns)
+    files["gis"] = write_results_gpkg(out_dir / "results.gpkg", parts.zone_layers, result.zones, parts.columns,
+                                      parts.scars, result.fires, parts.fire_columns)
+    files["totals"] = write_json(out_dir / "totals.json", result.totals)
+    files["daily"] = write_csv(out_dir / "daily.csv", result.daily, parts.daily_columns)
+    files["inventory"] = write_csv(out_dir / "inventory.csv", result.inventory, tables.INVENTORY_COLUMNS)
+    files["inventory_json"] = write_json(out_dir / "inventory.json",
+                                         {"unit": "Gg", "gwp": parts.factors.gwp.name,
+                                          "conventions": tables.INVENTORY_CONVENTIONS, "rows": result.inventory})
+    files["provenance"] = write_json(out_dir / "provenance.json", result.provenance)
+    result.out_dir = out_dir
+    files["report"] = report.write_report(out_dir / "report.html", result, parts.cfg, result.provenance,
+                                          parts.factors, parts.zone_layers)
+    for name in RASTER_NAMES:
+        files[name] = out_dir / f"{name}.tif"
+    return files
 
 
 def scar_layer_sums(sums, n_scars: int) -> dict:

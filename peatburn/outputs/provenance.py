@@ -128,7 +128,11 @@ def compare_inputs(record: dict, base: Path | None = None) -> list[str]:
     return problems
 
 
+def mismatch_error(problems: list[str]) -> ProvenanceMismatch:
+    return ProvenanceMismatch("inputs do not match the provenance record: " + "; ".join(problems))
+
+
 def check_against(record: dict) -> None:
     problems = compare_inputs(record)
     if problems:
-        raise ProvenanceMismatch("inputs do not match the provenance record: " + "; ".join(problems))
+        raise mismatch_error(problems)
