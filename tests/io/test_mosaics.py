@@ -170,3 +170,28 @@ def test_vrt_file_provenance_lists_its_tiles(scene, tmp_path):
         a[0, 0] -= 2.0
         ds.write(a, 1)
     assert [tiles[-1].name in p for p in compare_inputs(prov)] == [True]
+
+
+def test_cli_check_on_tiles_and_bad_tiles(scene, tmp_path):
+    from click.testing import CliRunner
+
+    from peatburn.cli.main import cli
+
+    folder = tmp_path / "s"
+    shutil.copytree(scene.folder, folder)
+    cut_tiles(folder / "pre.tif", folder / "pre_tiles", size=120, margin=4)
+    text = scene.config.read_text()
+    (folder / "config.toml").write_text(text.replace('pre = "pre.tif"', 'pre = "pre_tiles/*.tif"'))
+    r = CliRunner().invoke(cli, ["check", str(folder / "config.toml")])
+    assert r.exit_code == 0, r.output
+    assert "raster depth.survey.pre: pre_tiles/*.tif (6 tiles) (300 x 240" in r.output
+    assert "<VRTDataset" not in r.output
+    # a pattern matching nothing, and a tile in another CRS: one line, exit 2
+    (folder / "config.toml").write_text(text.replace('pre = "pre.tif"', 'pre = "pre_tilez/*.tif"'))
+    r = CliRunner().invoke(cli, ["check", str(folder / "config.toml")])
+    assert r.exit_code == 2 and "matches no file" in r.output and len(r.output.strip().splitlines()) == 1
+    with rasterio.open(folder / "pre_tiles" / "t_01_02.tif", "r+") as ds:
+        ds.crs = rasterio.crs.CRS.from_epsg(32750)
+    (folder / "config.toml").write_text(text.replace('pre = "pre.tif"', 'pre = "pre_tiles/*.tif"'))
+    r = CliRunner().invoke(cli, ["check", str(folder / "config.toml")])
+    assert r.exit_code == 2 and "different CRSs" in r.output and len(r.output.strip().splitlines()) == 1
