@@ -76,8 +76,6 @@ _RUN_WIDE = {"survey_bias", "subsidence_rate", "water_table_coefficients", "bulk
              "emission_factors_smouldering", "fre_coefficient", "biomass", "combustion_factor",
              "emission_factors_flaming", "tier1_fuel", "peat_property_fill"}
 
-#: Zone sums read by the draws (arrays over zones; absent keys count as zeros). Survey sums
-
 
 # ----------------------------------------------------------------------------- sources
 

@@ -13,6 +13,8 @@ from ...errors import ConfigError, PhysicalRangeError
 from .averaging import correlated_sum_sd
 from .sources import SOURCE_NAMES, _ef_table
 
+#: Zone sums read by the draws (arrays over zones; absent keys count as zeros). Survey sums
+#: (``area_m2``, ``rho_area``, ``rho_f_area``) cover the pixels whose depth comes from the
 #: surveys; ``volume_m3``, ``peat_kg`` and ``carbon_kg`` cover every estimated pixel. The ``wt_*``
 #: sums cover the water-table pixels where the depth model is not clipped (0 < a + b wt < peat
 #: thickness): elsewhere the depth does not respond to small changes of the coefficients, so
