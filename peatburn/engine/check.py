@@ -53,7 +53,7 @@ def check(config, against=None, *, strict: bool = True) -> CheckReport:
     from ..factors import load_factor_set, load_gwp_set, require_gases
     from ..names import printable
     from ..outputs.provenance import compare_inputs, mismatch_error
-    from .pipeline import open_inputs
+    from .inputs import open_inputs
 
     cfg = config if isinstance(config, RunConfig) else load_config(config)
     sm = require_gases(load_factor_set(cfg.factors.smouldering, "smouldering"), "smouldering")
