@@ -50,7 +50,7 @@ class PeatConfig:
     carbon_fraction: Value
     thickness: Value | None = None
     #: organic-soil extent: polygons (any vector file) or a raster (non-zero = organic soil)
-    extent: Path | None = None
+    extent: Path | RasterInput | None = None
     #: stated fallbacks for holes in the bulk-density / carbon-fraction rasters [g cm-3, -];
     #: None: the median of the run's valid values (with a note)
     bulk_density_fill: float | None = None
@@ -335,8 +335,20 @@ def _value(value, base: Path, key: str, quantity: str, where: str, range_name: s
     return mag
 
 
+_RASTER_SUFFIXES = (".tif", ".tiff", ".vrt", ".img", ".nc")
+
+
 def _looks_like_path(s: str) -> bool:
-    return s.lower().endswith((".tif", ".tiff", ".vrt", ".img", ".nc")) or is_url(s)
+    return s.lower().endswith(_RASTER_SUFFIXES) or is_url(s)
+
+
+def _extent(value, base: Path, where: str):
+    """peat.extent: a vector file (Path), or a raster given as one file, tiles or a URL."""
+    text = value if isinstance(value, str) else ""
+    raster_url = is_url(text) and text.split("?")[0].lower().endswith(_RASTER_SUFFIXES)
+    if isinstance(value, list) or raster_url or set("*?[") & set(text):
+        return _raster(value, base, "peat.extent", where)
+    return _path(value, base, "peat.extent", where)
 
 
 def _raster(value, base: Path, key: str, where: str):
@@ -435,7 +447,7 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
                                "carbon_fraction", where, force=force),
         thickness=_value(peat_raw["thickness"], base, "peat.thickness", "peat_thickness", where, "thickness", force=force)
         if "thickness" in peat_raw else None,
-        extent=_path(peat_raw["extent"], base, "peat.extent", where) if "extent" in peat_raw else None,
+        extent=_extent(peat_raw["extent"], base, where) if "extent" in peat_raw else None,
         bulk_density_fill=_fill_value(peat_raw, "bulk_density_fill", "bulk_density", base, where, force),
         carbon_fraction_fill=_fill_value(peat_raw, "carbon_fraction_fill", "carbon_fraction", base, where, force),
     )

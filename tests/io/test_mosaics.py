@@ -195,3 +195,23 @@ def test_cli_check_on_tiles_and_bad_tiles(scene, tmp_path):
     (folder / "config.toml").write_text(text.replace('pre = "pre.tif"', 'pre = "pre_tiles/*.tif"'))
     r = CliRunner().invoke(cli, ["check", str(folder / "config.toml")])
     assert r.exit_code == 2 and "different CRSs" in r.output and len(r.output.strip().splitlines()) == 1
+
+
+def test_peat_extent_as_tiles(scene, tmp_path):
+    """A peat-extent raster delivered as tiles is read as a raster, not as polygons."""
+    folder = tmp_path / "s"
+    shutil.copytree(scene.folder, folder)
+    with rasterio.open(folder / "thickness.tif") as ds:
+        prof = ds.profile
+        arr = (ds.read(1) > 1.0).astype("float32")  # organic soil where the peat is thick
+    with rasterio.open(folder / "extent.tif", "w", **prof) as dst:
+        dst.write(arr, 1)
+    cut_tiles(folder / "extent.tif", folder / "extent_tiles", size=100, margin=3)
+    text = scene.config.read_text().replace("[peat]\n", '[peat]\nextent = "extent_tiles/*.tif"\n')
+    (folder / "config.toml").write_text(text)
+    cfg = load_config(folder / "config.toml")
+    assert isinstance(cfg.peat.extent, RasterInput)
+    from peatburn.engine.inputs import open_inputs
+
+    inputs = open_inputs(cfg)
+    assert inputs.extent is None and "peat.extent" in inputs.rasters  # opened as a raster
