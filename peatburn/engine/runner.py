@@ -278,7 +278,7 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
         ("burn_depth.tif", dict(description="burn depth", units="m")),
         ("carbon_smouldering.tif", dict(description="carbon burned below ground", units="kg C m-2")),
         ("depth_method.tif", dict(description="depth method: 1 survey, 2 water-table model, 3 IPCC Tier 1 default",
-                                  units="code", dtype="uint8", nodata=0)),
+                                  units="code", dtype="uint8", nodata=0, colormap=method_colormap())),
     ]
     rasters = []
     writes = None
@@ -301,6 +301,20 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
         _finish_rasters(rasters, ok=False)
         raise
     return plan, alignment, models, sums, rasters, notes
+
+
+def method_colormap() -> dict:
+    """depth_method.tif's palette: the report's colour of each method code (Okabe & Ito's colour-blind
+    safe set, outputs/report.py), so that a GIS shows the map as the report does."""
+    from ..outputs.report import METHOD_CODES as CODES, METHOD_COLOURS, MINERAL_CODE, MINERAL_COLOUR
+
+    def rgba(hex_):
+        return tuple(int(hex_[i:i + 2], 16) for i in (1, 3, 5)) + (255,)
+
+    cmap = {0: (0, 0, 0, 0)}
+    cmap.update({code: rgba(METHOD_COLOURS[m]) for m, code in CODES.items()})
+    cmap[MINERAL_CODE] = rgba(MINERAL_COLOUR)
+    return cmap
 
 
 def run_notes(cfg) -> list[str]:

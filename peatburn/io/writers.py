@@ -175,7 +175,8 @@ class BlockRasterWriter:
     """
 
     def __init__(self, final: Path | str, grid: RunGrid, *, description: str = "", units: str = "",
-                 block_size: int = 512, dtype: str = "float32", nodata: float = RASTER_NODATA):
+                 block_size: int = 512, dtype: str = "float32", nodata: float = RASTER_NODATA,
+                 colormap: dict | None = None):
         self.final = Path(final)
         self.grid = grid
         self.final.parent.mkdir(parents=True, exist_ok=True)
@@ -197,6 +198,8 @@ class BlockRasterWriter:
         if units:
             self._ds.update_tags(1, units=units)
             self._ds.units = (units,)
+        if colormap:  # a TIFF palette (TIFF 6.0 ColorMap): value -> (r, g, b, a), for a uint8 class raster
+            self._ds.write_colormap(1, colormap)
 
     def write(self, window, array: np.ndarray):
         if np.dtype(self.dtype).kind == "f":

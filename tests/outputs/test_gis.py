@@ -55,3 +55,47 @@ def test_written_bytes_repeat(tmp_path):
     assert digests[0] == digests[1]
     z = gpd.read_file(tmp_path / "r0.gpkg", layer="zones_l")
     assert z["note"].tolist() == ["=1+1"]  # text as written: a GIS evaluates no formula
+
+
+def test_output_rasters_as_rio_info_sees_them(scene_run):
+    """Band description, units, nodata and the depth-method palette, read with rasterio's `rio info`
+    (an outside tool) from the run's COGs."""
+    import json
+
+    from click.testing import CliRunner
+    from rasterio.rio.main import main_group
+
+    want = {"burn_depth.tif": ("burn depth", "m", -9999.0), "carbon_smouldering.tif":
+            ("carbon burned below ground", "kg C m-2", -9999.0), "depth_method.tif": (None, "code", 0.0)}
+    for name, (desc, units, nodata) in want.items():
+        r = CliRunner().invoke(main_group, ["info", str(scene_run.out_dir / name)])
+        assert r.exit_code == 0, r.output
+        info = json.loads(r.output)
+        if desc:
+            assert info["descriptions"] == [desc]
+        assert info["units"] == [units] and info["nodata"] == nodata
+    import rasterio
+
+    with rasterio.open(scene_run.out_dir / "depth_method.tif") as ds:
+        cmap = ds.colormap(1)
+    # Okabe & Ito (2008) blue, orange, vermillion as the report draws them
+    assert cmap[1][:3] == (0x00, 0x72, 0xB2) and cmap[2][:3] == (0xE6, 0x9F, 0x00)
+
+
+def test_large_output_raster_has_overviews(tmp_path):
+    import numpy as np
+    import rasterio
+    from rasterio.transform import from_origin
+    from rasterio.windows import Window
+
+    from peatburn.grid import RunGrid
+    from peatburn.io.writers import BlockRasterWriter
+
+    grid = RunGrid(rasterio.crs.CRS.from_epsg(32749), from_origin(500000, 8650000, 2, 2), 1500, 1400)
+    with BlockRasterWriter(tmp_path / "big.tif", grid, description="x", units="m") as w:
+        for win in grid.windows(512):
+            w.write(win, np.ones((int(win.height), int(win.width))))
+    with rasterio.open(tmp_path / "big.tif") as ds:
+        # GDAL COG driver, OVERVIEWS=AUTO: halve until the overview fits in one 512 px block (1500 -> 750 -> 375)
+        assert ds.overviews(1) == [2, 4]
+        assert ds.read(1, window=Window(0, 0, 4, 4)).tolist() == [[1.0] * 4] * 4
