@@ -187,7 +187,8 @@ class BlockRasterWriter:
         self.dtype, self.nodata = dtype, nodata
         profile = dict(driver="GTiff", width=grid.width, height=grid.height, count=1, dtype=dtype,
                        crs=grid.crs, transform=grid.transform, nodata=nodata, tiled=True,
-                       blockxsize=bs, blockysize=bs, BIGTIFF="IF_SAFER", **TEMPORARY_COMPRESSION)
+                       blockxsize=bs, blockysize=bs, BIGTIFF="IF_SAFER", SPARSE_OK="TRUE",
+                       **TEMPORARY_COMPRESSION)
         try:
             self._ds = rasterio.open(self._tiled, "w", **profile)
         except rasterio.errors.RasterioIOError:  # a GDAL built without ZSTD
@@ -210,7 +211,11 @@ class BlockRasterWriter:
 
     def write_at(self, window, mask: np.ndarray | None, values: np.ndarray):
         """Write a window holding ``values`` at the pixels of ``mask`` and nodata elsewhere (NaN
-        values are nodata too); ``mask`` None writes a window of nodata."""
+        values are nodata too); ``mask`` None (or all False) writes nothing: the file is sparse
+        (GDAL's SPARSE_OK), a block never written reads as nodata and costs neither compression nor
+        space, in the temporary file and in the COG (most blocks of a national run hold no scar)."""
+        if mask is None or not mask.any():
+            return
         shape = (int(window.height), int(window.width))
         a = np.full(shape, self.nodata, dtype=self.dtype)
         if mask is not None:
@@ -226,7 +231,7 @@ class BlockRasterWriter:
             if ok:
                 with atomic_path(self.final, suffix=".tif") as tmp:
                     rasterio.shutil.copy(self._tiled, tmp, driver="COG", COMPRESS="DEFLATE", PREDICTOR="YES",
-                                         BLOCKSIZE="512", BIGTIFF="IF_SAFER", OVERVIEWS="AUTO",
+                                         BLOCKSIZE="512", BIGTIFF="IF_SAFER", OVERVIEWS="AUTO", SPARSE_OK="TRUE",
                                          NUM_THREADS=COG_THREADS,
                                          RESAMPLING="NEAREST" if np.dtype(self.dtype).kind != "f" else "AVERAGE")
                     check_space(tmp.parent)  # GDAL only prints a failed write: never rename a cut file
