@@ -8,10 +8,15 @@ Public API::
     result.total["carbon_smouldering_t"]
 """
 
-__version__ = "0.1.0"
+__version__ = "0.1.0"  # the one place the version is set (pyproject.toml reads it)
+
+import logging  # noqa: E402
 
 from .config import RunConfig, load_config  # noqa: E402
 from .errors import PeatburnError  # noqa: E402
+
+# a library logs and leaves the handling to the application (the CLI sets it with -v / -q)
+logging.getLogger(__name__).addHandler(logging.NullHandler())
 
 
 def run(cfg, out_dir, **kwargs):

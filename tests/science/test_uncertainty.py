@@ -121,9 +121,9 @@ def test_residual_bias_sd_of_the_median_of_correlated_fields():
 
 def _one_zone(carbon_kg, depth_m):
     """A zone whose carbon is carbon_kg at mean burn depth depth_m: rho_f_area = carbon / depth."""
-    return {"carbon_kg": np.array([carbon_kg]), "rho_f_area": np.array([carbon_kg / depth_m]),
-            "area_m2": np.array([1e9]), "volume_m3": np.array([1e9 * depth_m]),
-            "peat_kg": np.array([carbon_kg / 0.56]), "rho_area": np.array([carbon_kg / 0.56 / depth_m])}
+    return {"carbon_kg": np.array([carbon_kg]), "rho_f_area_survey": np.array([carbon_kg / depth_m]),
+            "area_m2_survey": np.array([1e9]), "volume_m3": np.array([1e9 * depth_m]),
+            "peat_kg": np.array([carbon_kg / 0.56]), "rho_area_survey": np.array([carbon_kg / 0.56 / depth_m])}
 
 
 def test_ballhorn_2009_depth_uncertainty_is_proportional():
@@ -156,9 +156,9 @@ def _zones(n=300, seed=0):
     area = rng.uniform(1e4, 5e6, n)
     area[:3] = 0.0  # empty zones (bin 0, zones without burns): constant draws
     depth, rho, f = rng.uniform(0.1, 0.5, n), 0.1, 0.56
-    return {"area_m2": area, "volume_m3": area * depth, "peat_kg": area * depth * rho * 1000,
-            "carbon_kg": area * depth * rho * f * 1000, "rho_area": area * rho * 1000,
-            "rho_f_area": area * rho * f * 1000}
+    return {"area_m2_survey": area, "volume_m3": area * depth, "peat_kg": area * depth * rho * 1000,
+            "carbon_kg": area * depth * rho * f * 1000, "rho_area_survey": area * rho * 1000,
+            "rho_f_area_survey": area * rho * f * 1000}
 
 
 PARAMS = {"survey_bias_sd_m": 0.02, "survey_sigma_m": 0.15, "survey_range_m": 100.0,
@@ -294,7 +294,7 @@ def test_run_wide_sources_add_up_across_zones_and_zone_sources_do_not():
     per zone 0.5 and 0.5."""
     area = np.full(4, 1e6)
     sz = u.correlated_sum_sd(0.1, 100.0, 1e6)
-    sums = {"area_m2": area, "carbon_kg": np.full(4, 1e7), "rho_f_area": np.full(4, 5e7)}
+    sums = {"area_m2_survey": area, "carbon_kg": np.full(4, 1e7), "rho_f_area_survey": np.full(4, 5e7)}
     params = {"survey_bias_sd_m": sz, "survey_sigma_m": 0.1, "survey_range_m": 100.0}
     c = u.contributions(sums, params, total=True)
     np.testing.assert_allclose(c["survey_bias"], [0.5, 0.5, 0.5, 0.5, 0.8], rtol=1e-12)
@@ -324,7 +324,7 @@ def test_memory_guard_and_argument_errors(monkeypatch):
     with pytest.raises(ConfigError):
         u.intervals(sums, {**PARAMS, "bulk_densty_cv": 0.1}, draws=10, seed=0)
     with pytest.raises(ConfigError):
-        u.intervals({"carbon_kg": np.ones(3), "rho_f_area": np.ones(4)}, PARAMS, draws=10, seed=0)
+        u.intervals({"carbon_kg": np.ones(3), "rho_f_area_survey": np.ones(4)}, PARAMS, draws=10, seed=0)
     with pytest.raises(ConfigError):
         u.intervals(sums, {"ef_smouldering": {"co": (210.0, float("nan"))}}, draws=10, seed=0)
     with pytest.raises(PhysicalRangeError):
@@ -416,8 +416,8 @@ def _scene(s):
     true_c = np.array([truth[r:r + 64, c:c + 56].sum() for r, c in ZONES]) * rho * f * a_px * 1000
     est_c = np.array([est[r:r + 64, c:c + 56].sum() for r, c in ZONES]) * rho * f * a_px * 1000
     n_px = 64 * 56
-    sums = {"area_m2": np.full(8, n_px * a_px), "carbon_kg": est_c,
-            "rho_f_area": np.full(8, n_px * rho * f * a_px * 1000)}
+    sums = {"area_m2_survey": np.full(8, n_px * a_px), "carbon_kg": est_c,
+            "rho_f_area_survey": np.full(8, n_px * rho * f * a_px * 1000)}
     bias = u.residual_bias_sd(sig, rng_m, stable.size * a_px, estimator="median")
     truth_all = np.append(true_c, true_c.sum())
     out = {}
@@ -491,8 +491,8 @@ def test_subsidence_map_term_is_zone_correlated():
     """The rate-map error is one value per zone: within a zone it acts on the whole surveyed area
     (sd = sd_r x T x sum rho f A, not averaged down like the pixel noise), and two zones add their
     variances (independent), unlike a run-wide source whose derivatives add before squaring."""
-    sums = {"area_m2": np.array([1e4, 2e4]), "volume_m3": np.array([4e3, 8e3]), "peat_kg": np.array([4e5, 8e5]),
-            "carbon_kg": np.array([2e5, 4e5]), "rho_area": np.array([1e6, 2e6]), "rho_f_area": np.array([5e5, 1e6])}
+    sums = {"area_m2_survey": np.array([1e4, 2e4]), "volume_m3": np.array([4e3, 8e3]), "peat_kg": np.array([4e5, 8e5]),
+            "carbon_kg": np.array([2e5, 4e5]), "rho_area_survey": np.array([1e6, 2e6]), "rho_f_area_survey": np.array([5e5, 1e6])}
     params = {"subsidence_rate_map_sd_m_per_yr": 0.01, "interval_years": 3.0}
     comp = u.variance_components(sums, params, quantity="carbon_kg", total=True)
     per = (0.01 * 3.0 * np.array([5e5, 1e6])) ** 2
