@@ -341,7 +341,7 @@ def _looks_like_path(s: str) -> bool:
 
 # --------------------------------------------------------------------------------------------
 
-def load_config(path) -> RunConfig:
+def load_config(path: str | os.PathLike) -> RunConfig:
     """Read and validate a run configuration TOML file.
 
     Raises
