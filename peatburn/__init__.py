@@ -11,13 +11,26 @@ Public API::
     result.write("out/")                  # the files of `peatburn run`, when asked
 """
 
-__version__ = "0.1.0"
+from __future__ import annotations
+
+__version__ = "0.1.0"  # the one place the version is set (pyproject.toml reads it)
+
+import logging  # noqa: E402
+import os  # noqa: E402
+from typing import TYPE_CHECKING  # noqa: E402
 
 from .config import RunConfig, load_config  # noqa: E402
 from .errors import PeatburnError  # noqa: E402
 
+if TYPE_CHECKING:
+    from .engine.check import CheckReport
+    from .engine.runner import RunResult
 
-def run(cfg, out_dir=None, **kwargs):
+# a library logs and leaves the handling to the application (the CLI sets it with -v / -q)
+logging.getLogger(__name__).addHandler(logging.NullHandler())
+
+
+def run(cfg: RunConfig | str | os.PathLike, out_dir: str | os.PathLike | None = None, **kwargs) -> RunResult:
     """Run a configuration (a :class:`RunConfig` or a path to a TOML file); see :func:`peatburn.engine.runner.run`.
 
     Without ``out_dir`` nothing is written: the result holds the tables (``result.frames``) and
@@ -30,7 +43,7 @@ def run(cfg, out_dir=None, **kwargs):
     return _run(cfg, out_dir, **kwargs)
 
 
-def check(cfg, against=None, **kwargs):
+def check(cfg: RunConfig | str | os.PathLike, against: str | os.PathLike | None = None, **kwargs) -> CheckReport:
     """Validate a configuration and its inputs; see :func:`peatburn.engine.check.check`."""
     from .engine.check import check as _check
 

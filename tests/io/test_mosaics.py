@@ -105,8 +105,6 @@ def test_empty_pattern_and_list(tmp_path):
 
 
 def test_single_file_stays_a_path(tmp_path):
-    from pathlib import Path
-
     assert resolve_raster_input("a.tif", tmp_path, "k", "w") == tmp_path / "a.tif"
     assert isinstance(resolve_raster_input("https://example.invalid/a.tif", tmp_path, "k", "w"), RasterInput)
 
