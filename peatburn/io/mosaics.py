@@ -168,9 +168,7 @@ def resolve_raster_input(value, base: Path, key: str, where: str):
         simple = False
     if simple:
         return Path(tiles[0])
-    dup = {t for t in tiles if tiles.count(t) > 1}
-    if dup:
-        tiles = list(dict.fromkeys(tiles))  # a tile named twice (a list and a pattern) is read once
+    tiles = list(dict.fromkeys(tiles))  # a tile named twice (in a list and by a pattern) is read once
     text = value if isinstance(value, str) else "[" + ", ".join(value) + "]"
     return RasterInput(text, tuple(tiles), key)
 
