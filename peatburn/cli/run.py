@@ -21,7 +21,8 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
 
     Writes zones.csv, fires.csv, totals.json, inventory.csv, inventory.json, daily.csv, burn_depth.tif,
     carbon_smouldering.tif, depth_method.tif, provenance.json and report.html into --out (and
-    report.pdf with --pdf). An existing, non-empty output folder is refused unless --overwrite is
+    report.pdf with --pdf), and dossiers/<zone>.html (and .pdf) for the burned zones of every
+    [[zones]] layer with dossiers = true. An existing, non-empty output folder is refused unless --overwrite is
     given.
     """
     from ..config import load_config
@@ -40,7 +41,11 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
                  progress=progress_bar(quiet=quiet))
     if pdf:
         result.files["report_pdf"] = print_pdf(result.files["report"])
+        result.files["dossier_pdfs"] = [print_pdf(p) for p in result.files.get("dossiers") or []]
     if not quiet:
         print_summary(result)
         if pdf:
             click.echo(f"report (PDF): {result.files['report_pdf']}")
+        if result.files.get("dossiers"):
+            click.echo(f"dossiers: {len(result.files['dossiers'])} in {result.out_dir / 'dossiers'}"
+                       f"{' (HTML and PDF)' if pdf else ''}")

@@ -384,17 +384,25 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     files["inventory_json"] = write_json(out_dir / "inventory.json", {"unit": "Gg", "gwp": factors.gwp.name,
                                                                           "conventions": tables.INVENTORY_CONVENTIONS,
                                                                           "rows": inv})
+    from ..outputs import dossiers
+
+    dossier_items = dossiers.plan(cfg, inputs, rows)  # issue 21: one page per burned zone of a layer asking
+    dossier_files = ([it.file for it in dossier_items] + [f"{dossiers.FOLDER}/index.csv"]
+                     if any(z.dossiers for z in cfg.zones) else [])
     prov = provenance.build(cfg, grid, alignment, factors, models,
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
                                    "outputs": sorted(["zones.csv", "fires.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
                                                       "burn_depth.tif", "carbon_smouldering.tif",
-                                                      "depth_method.tif", "report.html"])})
+                                                      "depth_method.tif", "report.html"] + dossier_files)})
     files["provenance"] = write_json(out_dir / "provenance.json", prov)
     result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv)
     from ..outputs import report
 
     zone_layers = [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones]  # not read a second time
     files["report"] = report.write_report(out_dir / "report.html", result, cfg, prov, factors, zone_layers)
+    if dossier_files:
+        files["dossiers"] = dossiers.write_dossiers(out_dir, dossier_items, result, cfg, prov, inputs, fire_rows,
+                                                    ignitions, flame, periods)
     for name in ("burn_depth", "carbon_smouldering", "depth_method"):
         files[name] = out_dir / f"{name}.tif"
     return result

@@ -1,0 +1,189 @@
+"""Ignition columns of fires.csv and the zone dossiers in a whole run (issue 21).
+
+The synthetic scene (tests/conftest.py) has two zones split at x = X0 + 150 m (West Block, East
+Block) and two scars (A in the west, B in the east); a third scar C is added across the split.
+Detections are placed by hand (pixel side 10 m, so a detection reaches a boundary within
+10 / sqrt(2) = 7.07 m): A first seen inside West, B inside East, C first seen in the east 15 m
+from the split and a day later in the west 10 m from it: it came into the West Block from the
+East Block. The answers follow from that drawing.
+"""
+
+from __future__ import annotations
+
+import csv
+import re
+import shutil
+from pathlib import Path
+
+import geopandas as gpd
+import pytest
+import shapely
+from conftest import X0, Y0, make_scene
+
+import peatburn
+
+DETECTIONS = [  # x, y, time, frp_mw
+    (X0 + 90, Y0 - 90, "2030-08-01T05:00:00Z", 20.0),
+    (X0 + 100, Y0 - 100, "2030-08-02T05:00:00Z", 15.0),
+    (X0 + 216, Y0 - 144, "2030-08-03T05:00:00Z", 30.0),
+    (X0 + 165, Y0 - 215, "2030-08-01T06:00:00Z", 10.0),
+    (X0 + 140, Y0 - 215, "2030-08-02T06:00:00Z", 12.0),
+]
+
+
+def _scene(base: Path, zone_names=None):
+    s = make_scene(base / "scene", shape=(120, 150), extra_config=(
+        '[flaming]\ndetections = "det.csv"\ncrs = "EPSG:32749"\nfootprint_m = 10\n\n'
+        "[uncertainty]\ndraws = 300\nseed = 5\n"))
+    scars = gpd.read_file(s.folder / "scars.gpkg")
+    c = gpd.GeoDataFrame({"scar_id": ["C"]}, geometry=[shapely.box(X0 + 130, Y0 - 230, X0 + 170, Y0 - 200)],
+                         crs=scars.crs)
+    gpd.GeoDataFrame(pd_concat([scars, c]), crs=scars.crs).to_file(s.folder / "scars.gpkg", layer="scars",
+                                                                   driver="GPKG")
+    if zone_names:
+        z = gpd.read_file(s.folder / "zones.gpkg")
+        z["name"] = zone_names
+        z.to_file(s.folder / "zones.gpkg", layer="zones", driver="GPKG")
+    rows = ["x,y,time,frp_mw"] + [f"{x},{y},{t},{f}" for x, y, t, f in DETECTIONS]
+    (s.folder / "det.csv").write_text("\n".join(rows) + "\n")
+    text = s.config.read_text().replace('id = "name"\n', 'id = "name"\ndossiers = true\n', 1)
+    s.config.write_text(text)
+    return s
+
+
+def pd_concat(frames):
+    import pandas as pd
+
+    return pd.concat(frames, ignore_index=True)
+
+
+@pytest.fixture(scope="module")
+def run_out(tmp_path_factory):
+    base = tmp_path_factory.mktemp("dossier")
+    s = _scene(base)
+    out = base / "out"
+    peatburn.run(s.config, out, overwrite=True)
+    return s, out
+
+
+def _fires(out):
+    with open(out / "fires.csv", newline="", encoding="utf-8") as f:
+        return {r["fire"]: r for r in csv.DictReader(f)}
+
+
+def test_ignition_columns(run_out):
+    _, out = run_out
+    f = _fires(out)
+    assert f["A"]["ignition_zone"] == "West Block" and f["A"]["ignition_status"] == "inside"
+    assert f["B"]["ignition_zone"] == "East Block" and f["B"]["ignition_status"] == "inside"
+    assert f["C"]["ignition_zone"] == "East Block" and f["C"]["spread_to"] == "West Block"
+    assert f["C"]["ignition_time"] == "2030-08-01T06:00:00Z"
+    # 15 m from the split at x = X0 + 150 (hand arithmetic)
+    assert float(f["C"]["ignition_boundary_distance_m"]) == pytest.approx(15.0)
+    assert float(f["C"]["ignition_x"]) == X0 + 165 and float(f["C"]["ignition_footprint_m"]) == 10.0
+    assert f["A"]["ignition_layer"] == "zones"
+
+
+def test_dossiers_written_for_burned_zones(run_out):
+    _, out = run_out
+    d = out / "dossiers"
+    # "West Block" holds a space: the stem changes, so the SHA-256 suffix keeps it apart from any "West_Block"
+    names = sorted(p.name for p in d.glob("*.html"))
+    assert len(names) == 2 and re.fullmatch(r"East_Block-[0-9a-f]{10}\.html", names[0]), names
+    assert re.fullmatch(r"West_Block-[0-9a-f]{10}\.html", names[1]), names
+    with open(d / "index.csv", newline="", encoding="utf-8") as fh:
+        index = list(csv.DictReader(fh))
+    assert [r["zone"] for r in index] == ["West Block", "East Block"]
+    west = (d / index[0]["file"]).read_text(encoding="utf-8")
+    assert "came in" in west and "started inside this zone" in west
+    assert "not a legal finding" in west and "dangerous ground" in west
+    assert "SHA-256" in west and re.search(r"[0-9a-f]{64}", west)
+    assert "data:image/png;base64," in west
+    assert "Field verification plan" in west
+    # the provenance record names the dossiers among the outputs
+    import json
+
+    prov = json.loads((out / "provenance.json").read_text())
+    assert "dossiers/index.csv" in prov["outputs"] and f"dossiers/{index[0]['file']}" in prov["outputs"]
+
+
+def test_field_plan_counts_and_plots(run_out):
+    _, out = run_out
+    d = out / "dossiers"
+    plots = sorted(d.glob("*_plots.csv"))
+    for p in plots:
+        with open(p, newline="", encoding="utf-8") as fh:
+            rows = list(csv.DictReader(fh))
+        assert rows and all(r["measure"] in ("depth pin", "depth pin + density core") for r in rows)
+        assert all(-90 <= float(r["lat"]) <= 90 for r in rows)
+
+
+def test_hostile_zone_ids_make_safe_distinct_files(tmp_path):
+    names = ["../../evil<script>alert(1)</script>", "..\\..\\evil<script>alert(1)</script>"]
+    s = _scene(tmp_path, zone_names=names)
+    out = tmp_path / "out"
+    peatburn.run(s.config, out, overwrite=True)
+    files = sorted((out / "dossiers").glob("*.html"))
+    assert len(files) == 2 and len({f.name.casefold() for f in files}) == 2
+    assert all(f.parent == out / "dossiers" for f in files)
+    assert not list(tmp_path.glob("evil*")) and not list(out.glob("evil*"))
+    for f in files:
+        text = f.read_text(encoding="utf-8")
+        assert "<script>" not in text and "&lt;script&gt;" in text
+    # a second run into the same folder with other zones leaves no stale dossier behind
+    z = gpd.read_file(s.folder / "zones.gpkg")
+    z["name"] = ["North", "South"]
+    z.to_file(s.folder / "zones.gpkg", layer="zones", driver="GPKG")
+    peatburn.run(s.config, out, overwrite=True)
+    assert sorted(p.name for p in (out / "dossiers").glob("*.html")) == ["North.html", "South.html"]
+
+
+# ----------------------------------------------------------------------------- in a real browser
+
+def _chromium_or_skip() -> str:
+    import os
+
+    exe = shutil.which("chromium") or shutil.which("chromium-browser")
+    if exe:
+        return exe
+    if os.environ.get("CI"):
+        pytest.fail("chromium is not installed but CI is set: CI must install it (apt-get install -y chromium)")
+    pytest.skip("chromium not installed (apt-get install chromium); this test runs on CI")
+
+
+def test_dossier_renders_in_chromium_and_cli_prints_pdfs(tmp_path):
+    """Chromium draws a dossier whose zone is named with markup: the DOM holds the name as escaped
+    text (WHATWG HTML serialization writes a text node's < > & as &lt; &gt; &amp;), the screenshot is
+    not blank, and ``run --pdf`` prints every dossier (a PDF starts with %PDF-, ISO 32000-1 7.5.2)."""
+    import subprocess
+
+    import matplotlib.image as mpimg
+    import numpy as np
+    from click.testing import CliRunner
+
+    from peatburn.cli.main import cli
+
+    exe = _chromium_or_skip()
+    s = _scene(tmp_path, zone_names=['<b>Bold & "Co"</b>', "East"])
+    res = CliRunner().invoke(cli, ["run", str(s.config), "--out", str(tmp_path / "o"), "--pdf", "--quiet"])
+    assert res.exit_code == 0, res.output
+    d = tmp_path / "o" / "dossiers"
+    htmls = sorted(d.glob("*.html"))
+    assert len(htmls) == 2
+    for h in htmls:
+        assert h.with_suffix(".pdf").read_bytes().startswith(b"%PDF-")
+    bold = next(h for h in htmls if h.name.startswith("b_Bold"))
+    flags = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+             "--disable-background-networking", "--disable-component-update", "--disable-sync",
+             f"--user-data-dir={tmp_path / 'profile'}"]
+    dom = subprocess.run([exe, *flags, "--dump-dom", bold.as_uri()], capture_output=True, timeout=120,
+                         stdin=subprocess.DEVNULL).stdout.decode("utf-8", errors="replace")
+    assert "</html>" in dom and "&lt;b&gt;Bold &amp;" in dom and "<b>Bold" not in dom
+    assert 'id="fires"' in dom and 'id="provenance"' in dom
+    png = tmp_path / "d.png"
+    subprocess.run([exe, *flags, "--hide-scrollbars", f"--screenshot={png}", "--window-size=1100,2000",
+                    bold.as_uri()], capture_output=True, timeout=120, stdin=subprocess.DEVNULL)
+    img = mpimg.imread(png)[..., :3]
+    sat = img.reshape(-1, 3).max(axis=1) - img.reshape(-1, 3).min(axis=1)
+    assert (sat > 0.35).mean() > 0.01  # the map's colours are drawn
+    assert len(np.unique((img * 255).astype(np.uint8).reshape(-1, 3), axis=0)) > 200
