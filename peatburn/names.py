@@ -80,35 +80,39 @@ def file_stems(names, *, reserved=("index",), key=None) -> list[str]:
     """Safe, distinct file stems (no suffix) for user names, in order: one per name.
 
     A stem keeps the ASCII letters, digits, ``.``, ``_`` and ``-`` of the name (after Unicode
-    decomposition with the accents dropped, and :func:`printable`); every other run of characters becomes one ``_``; leading
-    and trailing dots, underscores and dashes are dropped (no hidden files, no ``..``), and the stem
-    is cut to :data:`MAX_STEM` characters; a Windows device name gets ``zone-`` in front. So a stem never holds a path separator, never climbs out of
-    its folder and is never empty. A name that changed on the way, a stem that is empty, a device
-    name, a ``reserved`` stem or one already taken (compared without case, for case-insensitive file
-    systems) gets ``-`` and the first 10 hex digits of the SHA-256 of ``key(i)`` (default: the name)
-    appended; distinct keys give distinct stems (a digit is added in the astronomically unlikely case
-    of a clash).
+    decomposition with the accents dropped, and :func:`printable`); every other run of characters
+    becomes one ``_``; leading and trailing dots, underscores and dashes are dropped (no hidden
+    files, no ``..``), and the stem is cut to :data:`MAX_STEM` characters; a Windows device name gets
+    ``zone-`` in front. So a stem never holds a path separator, never climbs out of its folder.
+
+    Stems that would clash (the same without case, for case-insensitive file systems: ``"Bloc Nord"``
+    and ``"Bloc_Nord"``, ``"A"`` and ``"a"``), an empty stem and a ``reserved`` one all get ``-`` and
+    the first 10 hex digits of the SHA-256 of ``key(i)`` (default: the name) appended, whatever
+    their order; a digit is added in the astronomically unlikely case of a further clash.
     """
     import hashlib
+    from collections import Counter
 
     names = [str(n) for n in names]
+    clean = []
+    for name in names:
+        plain = "".join(c for c in unicodedata.normalize("NFKD", printable(name)) if unicodedata.category(c) != "Mn")
+        c = _UNSAFE.sub("_", plain).strip("._-")[:MAX_STEM].strip("._-")
+        clean.append(f"zone-{c}" if c.casefold().split(".")[0] in _DEVICES else c)
+    counts = Counter(c.casefold() for c in clean)
+    banned = {r.casefold() for r in reserved}
     taken: set[str] = set()
     out = []
-    for i, name in enumerate(names):
-        plain = "".join(c for c in unicodedata.normalize("NFKD", printable(name)) if unicodedata.category(c) != "Mn")
-        clean = _UNSAFE.sub("_", plain).strip("._-")[:MAX_STEM].strip("._-")
-        if clean.casefold().split(".")[0] in _DEVICES:
-            clean = f"zone-{clean}"
-        stem = clean
-        folded = stem.casefold()
-        if stem != name or not stem or folded in taken or folded in {r.casefold() for r in reserved}:
+    for i, (name, c) in enumerate(zip(names, clean)):
+        stem = c
+        if not c or counts[c.casefold()] > 1 or c.casefold() in banned:
             ident = key(i) if key is not None else name
             digest = hashlib.sha256(str(ident).encode("utf-8", "surrogatepass")).hexdigest()[:10]
-            stem = f"{clean or 'zone'}-{digest}"
-            k = 2
-            while stem.casefold() in taken:
-                stem = f"{clean or 'zone'}-{digest}-{k}"
-                k += 1
+            stem = f"{c or 'zone'}-{digest}"
+        base, k = stem, 2
+        while stem.casefold() in taken or stem.casefold() in banned:
+            stem = f"{base}-{k}"
+            k += 1
         taken.add(stem.casefold())
         out.append(stem)
     return out

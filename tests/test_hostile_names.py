@@ -199,12 +199,16 @@ def test_file_stems_are_safe_and_distinct():
     for s in stems:
         assert s and re.fullmatch(r"[A-Za-z0-9][A-Za-z0-9._-]*", s), s
         assert ".." not in s and "/" not in s and "\\" not in s
-        assert len(s) <= MAX_STEM + 11 + 3
+        assert len(s) <= len("zone-") + MAX_STEM + 11 + 3
         assert s.split(".")[0].casefold() not in {"con", "nul", "index"}
-    # a plain id keeps its name; the first of names differing in case keeps it too
-    assert stems[HOSTILE_IDS.index("Alpha")] == "Alpha"
+    # names that would clash all get the hash suffix, whatever their order; others keep a readable stem
+    assert stems[HOSTILE_IDS.index("Alpha")].startswith("Alpha-")
     assert stems[HOSTILE_IDS.index("alpha")].startswith("alpha-")
-    assert stems[HOSTILE_IDS.index("Bloc_Nord")] == "Bloc_Nord"
+    assert stems[HOSTILE_IDS.index("Bloc_Nord")].startswith("Bloc_Nord-")
+    assert stems[HOSTILE_IDS.index("-rf")] == "rf" and stems[HOSTILE_IDS.index("tab\there")] == "tab_here"
+    assert stems[HOSTILE_IDS.index("CON")] == "zone-CON" and stems[HOSTILE_IDS.index("index")].startswith("index-")
+    assert file_stems(["Bloc Nord", "Other"]) == ["Bloc_Nord", "Other"]
+    assert file_stems(list(reversed(HOSTILE_IDS))) == list(reversed(stems))
     # deterministic
     assert file_stems(HOSTILE_IDS) == stems
 

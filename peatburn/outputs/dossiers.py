@@ -228,7 +228,7 @@ def _context(it, geom, out_dir, result, cfg, inputs, fire_rows, scar_ids, scars,
     timeline = [{"date": str(np.datetime64(int(d), "D")), "n": n} for d, n in sorted(days.items())]
 
     depth, cdens, extent, mask_xy = _read_zone(Path(out_dir), geom, view)
-    fig = _map(depth, extent, geom, scars[hits] if hits else [], pts_view, firsts, inputs.grid.crs.is_geographic)
+    fig = _map(depth, extent, view, geom, scars[hits] if hits else [], pts_view, firsts, inputs.grid.crs.is_geographic)
     chart = _timeline_chart(timeline)
     plan = _field_plan(it, row, depth, cdens, mask_xy, common, inputs)
     return {**{k: v for k, v in common.items() if not k.startswith("_")},
@@ -290,11 +290,12 @@ def _read_zone(out_dir: Path, geom, view):
     return depth, cd, (b[0], b[2], b[1], b[3]), pts
 
 
-def _map(depth, extent, geom, scar_geoms, pts, firsts, geographic: bool) -> str | None:
+def _map(depth, extent, view, geom, scar_geoms, pts, firsts, geographic: bool) -> str | None:
+    """The zone's map over ``view`` (the burn depth drawn over ``extent``, the part of the raster read)."""
     import shapely
 
     with rp._style():
-        fig = rp._figure(6.4, rp._map_height(extent, geographic, width=6.4))
+        fig = rp._figure(6.4, rp._map_height(view, geographic, width=6.4))
         ax = fig.add_subplot()
         if depth is not None:
             finite = depth[np.isfinite(depth)]
@@ -328,7 +329,7 @@ def _map(depth, extent, geom, scar_geoms, pts, firsts, geographic: bool) -> str 
             ax.scatter(fx, fy, marker="*", s=120, facecolors="none", edgecolors="black", linewidths=1.0, zorder=4)
             handles.append(Line2D([], [], marker="*", linestyle="", markerfacecolor="none", markeredgecolor="black",
                                   markersize=10, label="first detection of a fire"))
-        rp._map_axes(ax, extent, geographic, [], False)
+        rp._map_axes(ax, view, geographic, [], False)
         ax.legend(handles=handles, loc="upper left", fontsize=7, framealpha=0.9)
         return rp._png(fig)
 

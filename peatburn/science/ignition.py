@@ -6,9 +6,9 @@ detections lie outside a zone and whose later detections lie inside it **came in
 This module applies that rule with the detection's footprint made explicit, so that a detection
 near a boundary is never guessed to one side:
 
-* A detection is a pixel of side ``footprint_m`` (375 m for an I-band pixel of the VIIRS sensor
-  and 1 km for MODIS, both nominal at nadir, common knowledge; pixels grow off nadir, so a larger
-  value is the cautious choice). The reported position is its centre; the fire may be anywhere in
+* A detection is a pixel of side ``footprint_m`` (375 m for an I-band pixel of the VIIRS sensor,
+  Schroeder et al. 2014, and 1 km for MODIS, both nominal; pixels grow off nadir, so a larger value
+  is the cautious choice). The reported position is its centre; the fire may be anywhere in
   the pixel, whose orientation on the ground is not known, so any point within the half-diagonal
   ``r = footprint_m / sqrt(2)`` may be the burning spot. A detection whose distance to the nearest
   zone boundary is at most ``r`` **straddles** the boundary: it is *undetermined* and says nothing
@@ -19,10 +19,16 @@ near a boundary is never guessed to one side:
 * Spread: the determined detections after the first ones, in time order, name the zones the fire
   reached after it started; a zone reached from another start zone is one the fire **came into**.
 
-What the rule cannot see (docs/method.md): a fire that burned under cloud or between overpasses
-(gaps of hours: one or two overpasses a day per sensor) is first detected where it happened to be
+What the rule cannot see (docs/method.md 7.5): a fire that burned under cloud or between overpasses
+(a sensor covers a place "every 12 h or less depending on the latitude", Schroeder et al. 2014) is first detected where it happened to be
 at the first clear overpass, not where it started; smouldering peat under a small flaming front may
 never be detected. An attribution is therefore an estimate to be verified in the field, not a finding.
+
+References
+----------
+Schroeder, W., Oliva, P., Giglio, L. & Csiszar, I. A. (2014). The New VIIRS 375 m active fire
+detection data product: algorithm description and initial assessment. Remote Sensing of Environment
+143:85-96, doi:10.1016/j.rse.2013.12.008 (375 m and the revisit checked against the abstract).
 
 Arrays in, arrays out: zone membership and boundary distances are computed by the caller
 (:mod:`peatburn.engine.ignition`) from the geometries; here only times, zone indices and distances.
@@ -56,7 +62,7 @@ STATUS = {
     5: ("no_detections", "no active-fire detection belongs to the fire"),
 }
 
-#: Default pixel side of a detection [m]: a VIIRS I-band pixel at nadir (375 m; common knowledge).
+#: Default pixel side of a detection [m]: a VIIRS I-band pixel (375 m nominal; Schroeder et al. 2014).
 DEFAULT_FOOTPRINT_M = 375.0
 #: Default tie window [s]: detections within an hour of the earliest are one first sighting (a
 #: project choice: one overpass spans minutes, two satellites of one orbit family pass tens of

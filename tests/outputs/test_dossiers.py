@@ -87,10 +87,7 @@ def test_ignition_columns(run_out):
 def test_dossiers_written_for_burned_zones(run_out):
     _, out = run_out
     d = out / "dossiers"
-    # "West Block" holds a space: the stem changes, so the SHA-256 suffix keeps it apart from any "West_Block"
-    names = sorted(p.name for p in d.glob("*.html"))
-    assert len(names) == 2 and re.fullmatch(r"East_Block-[0-9a-f]{10}\.html", names[0]), names
-    assert re.fullmatch(r"West_Block-[0-9a-f]{10}\.html", names[1]), names
+    assert sorted(p.name for p in d.glob("*.html")) == ["East_Block.html", "West_Block.html"]
     with open(d / "index.csv", newline="", encoding="utf-8") as fh:
         index = list(csv.DictReader(fh))
     assert [r["zone"] for r in index] == ["West Block", "East Block"]
@@ -118,26 +115,6 @@ def test_field_plan_counts_and_plots(run_out):
         assert all(-90 <= float(r["lat"]) <= 90 for r in rows)
 
 
-def test_hostile_zone_ids_make_safe_distinct_files(tmp_path):
-    names = ["../../evil<script>alert(1)</script>", "..\\..\\evil<script>alert(1)</script>"]
-    s = _scene(tmp_path, zone_names=names)
-    out = tmp_path / "out"
-    peatburn.run(s.config, out, overwrite=True)
-    files = sorted((out / "dossiers").glob("*.html"))
-    assert len(files) == 2 and len({f.name.casefold() for f in files}) == 2
-    assert all(f.parent == out / "dossiers" for f in files)
-    assert not list(tmp_path.glob("evil*")) and not list(out.glob("evil*"))
-    for f in files:
-        text = f.read_text(encoding="utf-8")
-        assert "<script>" not in text and "&lt;script&gt;" in text
-    # a second run into the same folder with other zones leaves no stale dossier behind
-    z = gpd.read_file(s.folder / "zones.gpkg")
-    z["name"] = ["North", "South"]
-    z.to_file(s.folder / "zones.gpkg", layer="zones", driver="GPKG")
-    peatburn.run(s.config, out, overwrite=True)
-    assert sorted(p.name for p in (out / "dossiers").glob("*.html")) == ["North.html", "South.html"]
-
-
 # ----------------------------------------------------------------------------- in a real browser
 
 def _chromium_or_skip() -> str:
@@ -151,10 +128,11 @@ def _chromium_or_skip() -> str:
     pytest.skip("chromium not installed (apt-get install chromium); this test runs on CI")
 
 
-def test_dossier_renders_in_chromium_and_cli_prints_pdfs(tmp_path):
-    """Chromium draws a dossier whose zone is named with markup: the DOM holds the name as escaped
-    text (WHATWG HTML serialization writes a text node's < > & as &lt; &gt; &amp;), the screenshot is
-    not blank, and ``run --pdf`` prints every dossier (a PDF starts with %PDF-, ISO 32000-1 7.5.2)."""
+def test_hostile_zone_ids_dossiers_render_in_chromium_and_print(tmp_path):
+    """Zones named with path traversal and markup get safe, distinct files inside dossiers/; chromium
+    draws such a dossier: the DOM holds the name as escaped text (WHATWG HTML serialization writes a
+    text node's < > & as &lt; &gt; &amp;), the screenshot is not blank; ``run --pdf`` prints every
+    dossier (a PDF starts with %PDF-, ISO 32000-1 7.5.2); a later run leaves no stale dossier."""
     import subprocess
 
     import matplotlib.image as mpimg
@@ -164,15 +142,20 @@ def test_dossier_renders_in_chromium_and_cli_prints_pdfs(tmp_path):
     from peatburn.cli.main import cli
 
     exe = _chromium_or_skip()
-    s = _scene(tmp_path, zone_names=['<b>Bold & "Co"</b>', "East"])
-    res = CliRunner().invoke(cli, ["run", str(s.config), "--out", str(tmp_path / "o"), "--pdf", "--quiet"])
+    s = _scene(tmp_path, zone_names=['../../<b>Bold & "Co"</b>', '..\\..\\<b>Bold & "Co"</b>'])
+    out = tmp_path / "o"
+    res = CliRunner().invoke(cli, ["run", str(s.config), "--out", str(out), "--pdf", "--quiet"])
     assert res.exit_code == 0, res.output
-    d = tmp_path / "o" / "dossiers"
+    d = out / "dossiers"
     htmls = sorted(d.glob("*.html"))
-    assert len(htmls) == 2
+    assert len(htmls) == 2 and len({h.name.casefold() for h in htmls}) == 2
+    assert all(re.fullmatch(r"b_Bold_Co_b-[0-9a-f]{10}\.html", h.name) for h in htmls), htmls
+    assert not list(tmp_path.glob("**/Bold*")) and not list(tmp_path.glob("*.html"))
     for h in htmls:
         assert h.with_suffix(".pdf").read_bytes().startswith(b"%PDF-")
-    bold = next(h for h in htmls if h.name.startswith("b_Bold"))
+        text = h.read_text(encoding="utf-8")
+        assert "<b>Bold" not in text and "&lt;b&gt;Bold &amp;" in text
+    bold = htmls[0]
     flags = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
              "--disable-background-networking", "--disable-component-update", "--disable-sync",
              f"--user-data-dir={tmp_path / 'profile'}"]
@@ -187,3 +170,10 @@ def test_dossier_renders_in_chromium_and_cli_prints_pdfs(tmp_path):
     sat = img.reshape(-1, 3).max(axis=1) - img.reshape(-1, 3).min(axis=1)
     assert (sat > 0.35).mean() > 0.01  # the map's colours are drawn
     assert len(np.unique((img * 255).astype(np.uint8).reshape(-1, 3), axis=0)) > 200
+    # a second run into the same folder with other zones leaves no stale dossier (HTML or PDF) behind
+    z = gpd.read_file(s.folder / "zones.gpkg")
+    z["name"] = ["North", "South"]
+    z.to_file(s.folder / "zones.gpkg", layer="zones", driver="GPKG")
+    peatburn.run(s.config, out, overwrite=True)
+    assert sorted(p.name for p in d.iterdir()) == ["North.html", "North_plots.csv", "South.html",
+                                                   "South_plots.csv", "index.csv"]
