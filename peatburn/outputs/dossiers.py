@@ -102,8 +102,13 @@ def write_dossiers(out_dir: Path, items, result, cfg, prov: dict, inputs, fire_r
         if stale.is_file() and stale.name not in keep and stale.name.endswith((".html", ".pdf", "_plots.csv")):
             stale.unlink()
     common = _common(out_dir, result, cfg, prov)
+    import shapely
+
     det = flame.detections if flame is not None and flame.detections is not None else None
     scars = np.asarray(inputs.scars.geometries, dtype=object)
+    # trees built once: a layer of thousands of zones must not test every scar and detection per zone
+    trees = {"scars": shapely.STRtree(scars),
+             "det": shapely.STRtree(shapely.points(det[0], det[1])) if det is not None and len(det[0]) else None}
     from .fires import fire_ids
 
     scar_ids, _ = fire_ids(inputs.scars.frame, cfg.id_field)
@@ -111,8 +116,8 @@ def write_dossiers(out_dir: Path, items, result, cfg, prov: dict, inputs, fire_r
     for it in items:
         _, layer, _ = inputs.zones[it.layer_index]
         geom = layer.frame.geometry.iloc[it.index]
-        ctx = _context(it, geom, out_dir, result, cfg, inputs, fire_rows, scar_ids, scars, periods,
-                       ignitions.get(it.layer), det, common)
+        ctx = _context(it, geom, out_dir, inputs, fire_rows, scar_ids, scars, trees, ignitions.get(it.layer), det,
+                       common)
         if ctx["plan"]["plots"]:
             write_csv(folder / f"{it.stem}_plots.csv", ctx["plan"]["plot_rows"], PLOT_COLUMNS)
             ctx["plan"]["csv"] = f"{it.stem}_plots.csv"
@@ -181,7 +186,7 @@ NUMBERS = [
 ]
 
 
-def _context(it, geom, out_dir, result, cfg, inputs, fire_rows, scar_ids, scars, periods, li, det, common) -> dict:
+def _context(it, geom, out_dir, inputs, fire_rows, scar_ids, scars, trees, li, det, common) -> dict:
     import shapely
 
     row = it.row
@@ -192,7 +197,7 @@ def _context(it, geom, out_dir, result, cfg, inputs, fire_rows, scar_ids, scars,
                "share": rp.fmt_pct(row.get(f"carbon_share_{m}"))} for m in rp.METHOD_CODES]
 
     # fires that reach the zone (their polygon overlaps it)
-    hits = [k for k in np.flatnonzero(shapely.intersects(scars, geom))
+    hits = [int(k) for k in np.sort(trees["scars"].query(geom, predicate="intersects"))
             if shapely.area(shapely.intersection(scars[k], geom)) > 0]
     fires, firsts = [], []
     for k in hits:
@@ -218,12 +223,12 @@ def _context(it, geom, out_dir, result, cfg, inputs, fire_rows, scar_ids, scars,
     days: dict = {}
     view = _view(geom, scars[hits] if hits else [])
     pts_view = None
-    if det is not None and len(det[0]):
+    if trees["det"] is not None:
         x, y, t = det
-        inside = shapely.contains_xy(geom, x, y)
+        inside = np.sort(trees["det"].query(geom, predicate="intersects"))
         for d in np.floor(t[inside] / 86400.0).astype(np.int64):
             days[d] = days.get(d, 0) + 1
-        in_view = (x >= view[0]) & (x <= view[1]) & (y >= view[2]) & (y <= view[3])
+        in_view = np.sort(trees["det"].query(shapely.box(view[0], view[2], view[1], view[3])))
         pts_view = (x[in_view], y[in_view], t[in_view])
     timeline = [{"date": str(np.datetime64(int(d), "D")), "n": n} for d, n in sorted(days.items())]
 
