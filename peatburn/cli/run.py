@@ -29,10 +29,10 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
     from ..engine.executors import tune_malloc
     from ..engine.progress import progress_bar
     from ..engine.runner import run
-    from .summary import print_summary
+    from .summary import echo_pdfs_and_dossiers, print_pdfs, print_summary
 
     if pdf:
-        from ..outputs.pdf import find_chromium, print_pdf
+        from ..outputs.pdf import find_chromium
 
         find_chromium()  # a missing chromium fails before the run, not after it
     cfg = load_config(config)
@@ -40,12 +40,7 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
     result = run(cfg, out_dir, overwrite=overwrite, workers=workers, scheduler=scheduler,
                  progress=progress_bar(quiet=quiet))
     if pdf:
-        result.files["report_pdf"] = print_pdf(result.files["report"])
-        result.files["dossier_pdfs"] = [print_pdf(p) for p in result.files.get("dossiers") or []]
+        print_pdfs(result)
     if not quiet:
         print_summary(result)
-        if pdf:
-            click.echo(f"report (PDF): {result.files['report_pdf']}")
-        if result.files.get("dossiers"):
-            click.echo(f"dossiers: {len(result.files['dossiers'])} in {result.out_dir / 'dossiers'}"
-                       f"{' (HTML and PDF)' if pdf else ''}")
+        echo_pdfs_and_dossiers(result, pdf)
