@@ -104,3 +104,39 @@ def test_geographic_distances_are_metres():
     _, _, along_parallel = Geod(ellps="WGS84").inv(110.1, -3.05, 110.11, -3.05)
     assert c["ignition_boundary_distance_m"][0] == pytest.approx(along_parallel, rel=2e-3)
     assert c["ignition_status"] == ["outside"] and c["ignition_x"] == [110.11]
+
+
+def _cfg_inputs(zones, dossiers=(), ignition_layer=None):
+    from types import SimpleNamespace as NS
+
+    scars, x, y, t = _scene()
+    zcfg = [NS(name=n, dossiers=n in dossiers) for n, _ in zones]
+    cfg = NS(flaming=NS(footprint_m=100.0, ignition_tie_hours=None, ignition_layer=ignition_layer), zones=zcfg)
+    inputs = NS(scars=NS(geometries=scars), grid=NS(crs=UTM),
+                zones=[(zc, NS(geometries=[g]), [n]) for zc, (n, g) in zip(zcfg, zones)])
+    return cfg, inputs, NS(detections=(x, y, t))
+
+
+def test_run_ignition_without_zone_layers_gives_place_and_time_only():
+    cfg, inputs, flame = _cfg_inputs([])
+    cols, layers = eng.run_ignition(cfg, inputs, flame, [(None, None)] * 4)
+    assert layers == {}
+    assert cols["ignition_zone"] == [""] * 4 and cols["ignition_status"] == [""] * 4
+    assert cols["ignition_x"][:3] == [500.0, 1500.0, 1030.0] and cols["ignition_x"][3] == ""
+    assert "no zone layer" in cols["ignition_note"][0]
+
+
+def test_run_ignition_layer_choice():
+    other = shapely.box(-5000, -5000, -4000, -4000)
+    # default: the first layer asking for dossiers, else the first layer; flaming.ignition_layer wins
+    cfg, inputs, flame = _cfg_inputs([("far", other), ("near", ZONE)], dossiers=("near",))
+    cols, layers = eng.run_ignition(cfg, inputs, flame, [(None, None)] * 4)
+    assert set(layers) == {"near"} and cols["ignition_layer"][0] == "near"
+    cfg, inputs, flame = _cfg_inputs([("far", other), ("near", ZONE)])
+    cols, layers = eng.run_ignition(cfg, inputs, flame, [(None, None)] * 4)
+    assert set(layers) == {"far"} and cols["ignition_zone"][0] == OUTSIDE
+    cfg, inputs, flame = _cfg_inputs([("far", other), ("near", ZONE)], dossiers=("far",), ignition_layer="near")
+    cols, layers = eng.run_ignition(cfg, inputs, flame, [(None, None)] * 4)
+    assert set(layers) == {"far", "near"} and cols["ignition_zone"][0] == "near"  # zone ids here are the layer names
+    # no detections file (biomass route): no columns
+    assert eng.run_ignition(cfg, inputs, None, [])[0] is None
