@@ -55,8 +55,8 @@ def metric(crs, x, y, geoms_list):
     if not crs.is_geographic:
         f = crs.linear_units_factor[1] if crs.linear_units else 1.0
         if f == 1.0:
-            return x, y, geoms_list, 1.0
-        return x * f, y * f, [shapely.transform(g, lambda c: c * f) for g in geoms_list], f
+            return x, y, geoms_list
+        return x * f, y * f, [shapely.transform(g, lambda c: c * f) for g in geoms_list]
     from pyproj import CRS, Transformer
     from pyproj.aoi import AreaOfInterest
     from pyproj.database import query_utm_crs_info
@@ -73,7 +73,7 @@ def metric(crs, x, y, geoms_list):
         a, b = tr.transform(c[:, 0], c[:, 1])
         return np.column_stack([a, b])
 
-    return np.asarray(mx), np.asarray(my), [shapely.transform(g, to_utm) for g in geoms_list], None
+    return np.asarray(mx), np.asarray(my), [shapely.transform(g, to_utm) for g in geoms_list]
 
 
 def detection_zones(x, y, zone_geoms):
@@ -135,7 +135,7 @@ def attribute_layer(crs, layer_name, ids, zone_geoms, scar_geoms, periods, x, y,
     detections' positions too)."""
     x = np.asarray(x, dtype="float64")
     y = np.asarray(y, dtype="float64")
-    mx, my, (zg, sg), _ = metric(crs, x, y, [np.asarray(zone_geoms, dtype=object),
+    mx, my, (zg, sg) = metric(crs, x, y, [np.asarray(zone_geoms, dtype=object),
                                              np.asarray(scar_geoms, dtype=object)])
     r = float(ign.footprint_radius(footprint_m))
     fire, det = fire_detections(mx, my, t_s, sg, periods, r)

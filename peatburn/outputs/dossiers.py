@@ -193,8 +193,9 @@ def _context(it, geom, out_dir, inputs, fire_rows, scar_ids, scars, trees, li, d
     numbers = [{"label": label, "unit": unit, **(rp._iv(row, key) if unit != "count"
                                                    else {"v": rp.fmt_int(row.get(key)), "r": ""})}
                for key, label, unit in NUMBERS if key in row]
-    shares = [{"label": rp.METHOD_LABELS[m], "colour": rp.METHOD_COLOURS[m], "area": rp.fmt_num(row.get(f"area_{m}_ha")),
-               "share": rp.fmt_pct(row.get(f"carbon_share_{m}"))} for m in rp.METHOD_CODES]
+    shares = [{"label": rp.METHOD_LABELS[m], "colour": rp.METHOD_COLOURS[m],
+               "area": rp.fmt_num(row.get(f"area_{m}_ha")), "share": rp.fmt_pct(row.get(f"carbon_share_{m}"))}
+              for m in rp.METHOD_CODES]
 
     # fires that reach the zone (their polygon overlaps it)
     hits = [int(k) for k in np.sort(trees["scars"].query(geom, predicate="intersects"))
@@ -213,7 +214,8 @@ def _context(it, geom, out_dir, inputs, fire_rows, scar_ids, scars, trees, li, d
             "id": str(scar_ids[k]), "start": fr.get("fire_start", ""), "end": fr.get("fire_end", ""),
             "area": rp.fmt_num(fr.get("burned_area_ha")), "inside": rp.fmt_pct(area_share),
             "carbon": rp._iv(fr, "carbon_smouldering_t"), "relation": RELATION_TEXT.get(rel, rel), "rel": rel,
-            "first": first, "from": (li.zone_label(int(li.result.zone[k])) if li is not None and rel == "came in" else ""),
+            "first": first,
+            "from": li.zone_label(int(li.result.zone[k])) if li is not None and rel == "came in" else "",
             "distance": (rp.fmt_num(li.result.distance_m[k]) if li is not None and li.result.first[k] >= 0
                          and math.isfinite(li.result.distance_m[k]) else "–"),
             "status": (ign.STATUS[int(li.result.status[k])][1] if li is not None else ""),

@@ -20,8 +20,8 @@ near a boundary is never guessed to one side:
   reached after it started; a zone reached from another start zone is one the fire **came into**.
 
 What the rule cannot see (docs/method.md 7.5): a fire that burned under cloud or between overpasses
-(a sensor covers a place "every 12 h or less depending on the latitude", Schroeder et al. 2014) is first detected where it happened to be
-at the first clear overpass, not where it started; smouldering peat under a small flaming front may
+(a sensor covers a place "every 12 h or less depending on the latitude", Schroeder et al. 2014) is
+first detected where it happened to be at the first clear overpass, not where it started; smouldering peat under a small flaming front may
 never be detected. An attribution is therefore an estimate to be verified in the field, not a finding.
 
 References
@@ -170,7 +170,7 @@ def attribute_ignition(fire, t_s, zone, distance_m, n_fires: int, *, footprint_m
     status = np.full(n_fires, 5, dtype=np.int64)
     d_first = np.full(n_fires, np.nan)
     n_first = np.zeros(n_fires, dtype=np.int64)
-    n_det = np.bincount(fire, minlength=n_fires)[:n_fires].astype(np.int64) if fire.size else np.zeros(n_fires, np.int64)
+    n_det = np.bincount(fire, minlength=n_fires)[:n_fires].astype(np.int64)
     reached: list = [[] for _ in range(n_fires)]
     if fire.size == 0:
         return Ignition(first, time_s, start, status, d_first, n_first, n_det, reached)
