@@ -131,11 +131,18 @@ PLOT_COLUMNS = ["plot", "measure", "x", "y", "lon", "lat", "burn_depth_m"]
 
 
 def render(context: dict) -> str:
+    """The dossier's HTML; its stylesheet is the report's own (one look for both pages, one place to
+    change it), rendered with the report's phase colours."""
     from jinja2 import Environment, StrictUndefined
 
     env = Environment(autoescape=True, undefined=StrictUndefined, trim_blocks=True, lstrip_blocks=True)
-    text = resources.files("peatburn.outputs").joinpath("templates/dossier.html").read_text(encoding="utf-8")
-    return env.from_string(text).render(**context)
+    folder = resources.files("peatburn.outputs").joinpath("templates")
+    report = folder.joinpath("report.html").read_text(encoding="utf-8")
+    css = report[report.index("<style>") + len("<style>"):report.index("</style>")]
+    style = env.from_string(css).render(palette={"smouldering": rp.PHASE_COLOURS["smouldering"],
+                                                 "flaming": rp.PHASE_COLOURS["flaming"]})
+    text = folder.joinpath("dossier.html").read_text(encoding="utf-8")
+    return env.from_string(text).render(style=style, **context)
 
 
 def _sha256(path: Path) -> str:

@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import csv
 import re
-import shutil
 from pathlib import Path
 
 import geopandas as gpd
@@ -117,17 +116,6 @@ def test_field_plan_counts_and_plots(run_out):
 
 # ----------------------------------------------------------------------------- in a real browser
 
-def _chromium_or_skip() -> str:
-    import os
-
-    exe = shutil.which("chromium") or shutil.which("chromium-browser")
-    if exe:
-        return exe
-    if os.environ.get("CI"):
-        pytest.fail("chromium is not installed but CI is set: CI must install it (apt-get install -y chromium)")
-    pytest.skip("chromium not installed (apt-get install chromium); this test runs on CI")
-
-
 def test_hostile_zone_ids_dossiers_render_in_chromium_and_print(tmp_path):
     """Zones named with path traversal and markup get safe, distinct files inside dossiers/; chromium
     draws such a dossier: the DOM holds the name as escaped text (WHATWG HTML serialization writes a
@@ -140,6 +128,8 @@ def test_hostile_zone_ids_dossiers_render_in_chromium_and_print(tmp_path):
     from click.testing import CliRunner
 
     from peatburn.cli.main import cli
+
+    from test_browser import FLAGS, _chromium_or_skip
 
     exe = _chromium_or_skip()
     s = _scene(tmp_path, zone_names=['../../<b>Bold & "Co"</b>', '..\\..\\<b>Bold & "Co"</b>'])
@@ -156,9 +146,7 @@ def test_hostile_zone_ids_dossiers_render_in_chromium_and_print(tmp_path):
         text = h.read_text(encoding="utf-8")
         assert "<b>Bold" not in text and "&lt;b&gt;Bold &amp;" in text
     bold = htmls[0]
-    flags = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-             "--disable-background-networking", "--disable-component-update", "--disable-sync",
-             f"--user-data-dir={tmp_path / 'profile'}"]
+    flags = [*FLAGS, f"--user-data-dir={tmp_path / 'profile'}"]
     dom = subprocess.run([exe, *flags, "--dump-dom", bold.as_uri()], capture_output=True, timeout=120,
                          stdin=subprocess.DEVNULL).stdout.decode("utf-8", errors="replace")
     assert "</html>" in dom and "&lt;b&gt;Bold &amp;" in dom and "<b>Bold" not in dom
