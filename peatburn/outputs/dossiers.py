@@ -223,6 +223,7 @@ def _context(it, geom, out_dir, inputs, fire_rows, scar_ids, scars, trees, li, d
             "carbon": rp._iv(fr, "carbon_smouldering_t"), "relation": RELATION_TEXT.get(rel, rel), "rel": rel,
             "first": first,
             "from": li.zone_label(int(li.result.zone[k])) if li is not None and rel == "came in" else "",
+            "later": "; ".join(li.zone_label(z) for z in li.result.reached[k]) if li is not None else "",
             "distance": (rp.fmt_num(li.result.distance_m[k]) if li is not None and li.result.first[k] >= 0
                          and math.isfinite(li.result.distance_m[k]) else "–"),
             "status": (ign.STATUS[int(li.result.status[k])][1] if li is not None else ""),
@@ -360,9 +361,11 @@ def _timeline_chart(timeline) -> str | None:
         ax.bar(mdates.date2num(days), [r["n"] for r in timeline], width=0.8, color=rp.PHASE_COLOURS["flaming"])
         ax.set_ylabel("detections\nper day")
         ax.set_xlabel("date (UTC)")
-        loc = mdates.AutoDateLocator(maxticks=8)
+        span = (days[-1] - days[0]).days
+        loc = mdates.DayLocator() if span <= 8 else mdates.AutoDateLocator(maxticks=8)
         ax.xaxis.set_major_locator(loc)
         ax.xaxis.set_major_formatter(mdates.ConciseDateFormatter(loc))
+        ax.set_xlim(mdates.date2num(days[0]) - 0.7, mdates.date2num(days[-1]) + 0.7)
         ax.yaxis.get_major_locator().set_params(integer=True)
         return rp._png(fig)
 

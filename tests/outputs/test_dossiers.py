@@ -165,3 +165,10 @@ def test_hostile_zone_ids_dossiers_render_in_chromium_and_print(tmp_path):
     peatburn.run(s.config, out, overwrite=True)
     assert sorted(p.name for p in d.iterdir()) == ["North.html", "North_plots.csv", "South.html",
                                                    "South_plots.csv", "index.csv"]
+
+
+def test_east_dossier_says_where_fire_c_went(run_out):
+    _, out = run_out
+    east = (out / "dossiers" / "East_Block.html").read_text(encoding="utf-8")
+    # fire C started in the East Block and was later detected in the West Block
+    assert "later detected in: West Block" in east
