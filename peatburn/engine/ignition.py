@@ -139,8 +139,10 @@ def attribute_layer(crs, layer_name, ids, zone_geoms, scar_geoms, periods, x, y,
                                              np.asarray(scar_geoms, dtype=object)])
     r = float(ign.footprint_radius(footprint_m))
     fire, det = fire_detections(mx, my, t_s, sg, periods, r)
-    zone, dist = detection_zones(mx, my, zg)
-    res = ign.attribute_ignition(fire, np.asarray(t_s, dtype="float64")[det], zone[det], dist[det], len(sg),
+    # zones and boundary distances only of the detections that belong to a fire (the costly step)
+    used, inv = np.unique(det, return_inverse=True)
+    zone, dist = detection_zones(mx[used], my[used], zg)
+    res = ign.attribute_ignition(fire, np.asarray(t_s, dtype="float64")[det], zone[inv], dist[inv], len(sg),
                                  footprint_m=footprint_m, tie_s=tie_s)
     res.first = np.where(res.first >= 0, det[np.maximum(res.first, 0)] if det.size else -1, -1)
     return LayerIgnition(layer_name, list(ids), res, x, y, float(footprint_m), float(tie_s))
