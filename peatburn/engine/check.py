@@ -71,7 +71,8 @@ def check(config, against=None, *, strict: bool = True) -> CheckReport:
         out.append(f"raster {key}: {info.path} ({info.width} x {info.height}, nodata {info.nodata}, {aligned})")
     out.append(f"burn scars: {len(inputs.scars.frame)} polygons from {cfg.burned_area}")
     for z, layer, ids in inputs.zones:
-        out.append(f"zones {z.name}: {len(ids)} polygons, id field {z.id!r}")
+        out.append(f"zones {z.name}: {len(ids)} polygons, id field {z.id!r}"
+                   f"{'; a dossier per burned zone (dossiers/)' if z.dossiers else ''}")
     if cfg.uncertainty.draws:
         from .intervals import draw_cost
 

@@ -426,7 +426,10 @@ def _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, f
 
     periods = timeline.scar_periods(inputs.scars.frame, cfg.start_field, cfg.end_field)
     scar_sums = scar_layer_sums(sums, len(inputs.scars.frame))
-    fire_rows = fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums)
+    from .ignition import run_ignition
+
+    ignition_cols, ignitions = run_ignition(cfg, inputs, flame, periods)
+    fire_rows = fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums, extra=ignition_cols)
     uncertainty = None
     if cfg.uncertainty.draws > 0:
         from .intervals import add_intervals
@@ -477,17 +480,23 @@ def _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, f
             if c in tables.INTERVAL_COLUMNS or f"{c}_lo" in total:
                 columns += [f"{c}_lo", f"{c}_hi"]
     inv = tables.inventory_rows(total, shares, factors.gwp.name, run_gases)
+    from ..outputs import dossiers
+
+    dossier_items = dossiers.plan(cfg, inputs, rows)  # issue 21: one page per burned zone of a layer asking
+    dossier_files = ([it.file for it in dossier_items] + [f"{dossiers.FOLDER}/index.csv"]
+                     if any(z.dossiers for z in cfg.zones) else [])
     prov = provenance.build(cfg, grid, alignment, factors, models,
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
                                    "outputs": sorted(["zones.csv", "fires.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
                                                       "results.gpkg", "burn_depth.tif", "carbon_smouldering.tif",
-                                                      "depth_method.tif", "report.html"])})
+                                                      "depth_method.tif", "report.html"] + dossier_files)})
     result = RunResult(out_dir, rows, totals, qa, daily=daily, inventory=inv, fires=fire_rows, provenance=prov,
                        raster_dir=raster_dir)
-    result._parts = _WriteParts(cfg, factors, columns, fires.fire_columns(bool(uncertainty)),
+    result._parts = _WriteParts(cfg, factors, columns, fires.fire_columns(bool(uncertainty), list(ignition_cols or ())),
                                 timeline.daily_columns(run_gases),
                                 [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones],  # not read twice
-                                inputs.scars.frame)
+                                inputs.scars.frame,
+                                (dossier_items, inputs, ignitions, flame, periods) if dossier_files else None)
     return result
 
 
@@ -502,6 +511,8 @@ class _WriteParts:
     daily_columns: list
     zone_layers: list
     scars: object
+    #: (items, inputs, ignitions, flame, periods) when a zone layer asks for dossiers (issue 21)
+    dossiers: tuple | None = None
 
 
 RASTER_NAMES = ("burn_depth", "carbon_smouldering", "depth_method")
@@ -539,6 +550,12 @@ def write_outputs(result: RunResult, out_dir: Path) -> dict:
     result.out_dir = out_dir
     files["report"] = report.write_report(out_dir / "report.html", result, parts.cfg, result.provenance,
                                           parts.factors, parts.zone_layers)
+    if parts.dossiers is not None:
+        from ..outputs import dossiers
+
+        items, inputs, ignitions, flame, periods = parts.dossiers
+        files["dossiers"] = dossiers.write_dossiers(out_dir, items, result, parts.cfg, result.provenance, inputs,
+                                                    result.fires, ignitions, flame, periods)
     for name in RASTER_NAMES:
         files[name] = out_dir / f"{name}.tif"
     return files
@@ -550,7 +567,7 @@ def scar_layer_sums(sums, n_scars: int) -> dict:
     return {k: np.asarray(v[1:n_scars + 1], dtype="float64").copy() for k, v in acc.items()}
 
 
-def fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums) -> list[dict]:
+def fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums, extra=None) -> list[dict]:
     """Rows of fires.csv (intervals are filled in later by :func:`peatburn.engine.intervals.add_intervals`)."""
     from ..outputs import fires
 
@@ -560,7 +577,7 @@ def fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums) -> list[di
     if flame is not None:
         li = [name for name, _, _ in sums.layers].index(SCAR_LAYER)
         fl = {k: np.asarray(v)[1:n + 1] for k, v in flame.layers[li][1].items()}
-    return fires.fire_rows(ids, periods, scar_sums, factors, cfg.year, flame=fl)
+    return fires.fire_rows(ids, periods, scar_sums, factors, cfg.year, flame=fl, extra=extra)
 
 
 def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
