@@ -61,6 +61,10 @@ class FactorsConfig:
     smouldering: str
     flaming: str
     gwp: str
+    #: how the gases follow the fuel: "dry_matter" (mass burned x EF, IPCC 2006 Vol. 4 Eq. 2.27, the
+    #: Tier 1 convention) or "carbon_balance" (carbon burned through the set's emission ratios,
+    #: the carbon mass-balance form; peatburn.science.gases.gases_from_carbon)
+    form: str = "dry_matter"
 
 
 #: Largest ``uncertainty.draws`` accepted. JCGM 101:2008 (GUM Supplement 1), §7.2, gives
@@ -244,7 +248,7 @@ _SCHEMA = {
     "depth.survey": {"pre", "post", "interval_years", "pre_date", "post_date", "subsidence_rate", "stable",
                      "stable_buffer_m", "tilt", "lod_t"},
     "peat": {"thickness", "bulk_density", "carbon_fraction", "extent", "bulk_density_fill", "carbon_fraction_fill"},
-    "emission_factors": {"smouldering", "flaming", "gwp"},
+    "emission_factors": {"smouldering", "flaming", "gwp", "form"},
     "zones": {"path", "id", "name", "layer"},
     "uncertainty": {"draws", "seed", "bulk_density_cv", "carbon_fraction_sd", "subsidence_rate_sd",
                     "correlation_range_m"},
@@ -444,6 +448,7 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         smouldering=_factor_ref(ef.get("smouldering", DEFAULT_SMOULDERING), base),
         flaming=_factor_ref(ef.get("flaming", DEFAULT_FLAMING), base),
         gwp=str(ef.get("gwp", DEFAULT_GWP)),
+        form=_factor_form(ef.get("form", "dry_matter"), where),
     )
 
     zones = []
@@ -625,6 +630,16 @@ def _flaming(fl: dict, base: Path, where: str, force: bool) -> FlamingConfig:
         biomass=biomass, combustion_factor=cf,
         vegetation_carbon_fraction=_opt_number(fl, "vegetation_carbon_fraction", "flaming", where, 0, 1),
     )
+
+
+def _factor_form(value, where: str) -> str:
+    from .science.gases import FORMS
+
+    if value not in FORMS:
+        raise ConfigError(f"{where}: `emission_factors.form` = {value!r}; use \"dry_matter\" (mass burned x "
+                          f"emission factor, the IPCC Tier 1 convention) or \"carbon_balance\" (carbon burned "
+                          f"through the set's emission ratios)")
+    return value
 
 
 def _factor_ref(value, base: Path) -> str:

@@ -100,17 +100,17 @@ def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
             "peat_burned_t": peat_kg * t,
             "carbon_smouldering_t": carbon * t,
         }
-        _phase_gases(out, "smouldering", peat_kg, factors.smouldering, factors)
+        _phase_gases(out, "smouldering", peat_kg, carbon, factors.smouldering, factors)
         for m in METHODS:
             out[f"area_{m}_ha"] = s[f"area_m2_{m}"] * ha
             out[f"carbon_share_{m}"] = np.where(carbon != 0, s[f"carbon_kg_{m}"] / carbon, np.nan)
         t1_dm = s["tier1_all_peat_kg"]
         out["carbon_tier1_t"] = s["tier1_all_carbon_kg"] * t
-        _phase_gases(out, "tier1", t1_dm, factors.tier1, factors)
+        _phase_gases(out, "tier1", t1_dm, None, factors.tier1, factors)
         # flaming, apart
         dm = np.asarray(flame["dry_matter_kg"], dtype="float64") if flame else np.zeros_like(peat_kg)
         out["carbon_flaming_t"] = dm * factors.vegetation_carbon_fraction * t
-        _phase_gases(out, "flaming", dm, factors.flaming, factors)
+        _phase_gases(out, "flaming", dm, dm * factors.vegetation_carbon_fraction, factors.flaming, factors)
         has_fre = flame is not None and factors.frp_route
         nan = np.full(np.shape(peat_kg), np.nan)
         if has_fre:
@@ -128,29 +128,47 @@ def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
     return out
 
 
-def _phase_gases(out: dict, phase: str, dry_matter_kg, factor_set, factors) -> None:
-    """Gas masses [t] of one phase for every gas of the run (IPCC 2006 Vol. 4 Eq. 2.27), and
+def form_of(factors, carbon_kg) -> str:
+    """The form of a phase's gases: the run's ``factors.form``, except per dry matter where no
+    carbon is given (the Tier 1 line, which is the Tier 1 convention by definition)."""
+    return getattr(factors, "form", "dry_matter") if carbon_kg is not None else "dry_matter"
+
+
+def phase_masses(dry_matter_kg, carbon_kg, factor_set, factors) -> dict:
+    """Mass [t] of each species of ``factor_set`` for one phase, in the run's form
+    (:func:`peatburn.science.gases.phase_emissions`): per dry matter (IPCC 2006 Vol. 4 Eq. 2.27) or
+    from the carbon burned by the carbon mass balance."""
+    kg = gases.phase_emissions(dry_matter_kg, carbon_kg, factor_set.ef, form_of(factors, carbon_kg))
+    return {g: m * T_PER_KG for g, m in kg.items()}
+
+
+def _phase_gases(out: dict, phase: str, dry_matter_kg, carbon_kg, factor_set, factors) -> None:
+    """Gas masses [t] of one phase for every gas of the run (:func:`phase_masses`), and
     their CO2e over the gases that have a GWP-100 in the run's set. A gas of the run that this
     phase's set lacks is NaN (written empty: not estimated), not zero."""
-    masses = {g: gases.gas_emissions(dry_matter_kg, ef) * T_PER_KG for g, ef in factor_set.ef.items()}
+    masses = phase_masses(dry_matter_kg, carbon_kg, factor_set, factors)
     nan = np.full(np.shape(dry_matter_kg), np.nan)
     for g in run_gases(factors):
         out[f"{gas_key(g)}_{phase}_t"] = masses.get(g, nan)
     out[f"co2e_{phase}_t"] = gases.co2_equivalent(masses, factors.gwp.gwp)
 
 
-def factor_set_sensitivity(peat_kg: float, factor_sets, gwp, chosen: str) -> list[dict]:
+def factor_set_sensitivity(peat_kg: float, factor_sets, gwp, chosen: str, *, carbon_kg: float | None = None,
+                           form: str = "dry_matter") -> list[dict]:
     """The run's smouldering gases under each factor set, side by side.
 
-    Same dry matter burned (``peat_kg``, the run's total), each set's emission factors (IPCC 2006
-    Vol. 4 Eq. 2.27 form) and the run's GWP-100 set. Every gas any of the sets has gets a key
-    (None where a set lacks it). ``co2e_vs_chosen`` is the set's CO2e over the chosen set's.
+    Same dry matter burned (``peat_kg``, the run's total) or, in the ``"carbon_balance"`` form, the
+    same carbon burned (``carbon_kg``), each set's emission factors (IPCC 2006 Vol. 4 Eq. 2.27 form,
+    or the set's emission ratios through the carbon mass balance) and the run's GWP-100 set. Every
+    gas any of the sets has gets a key (None where a set lacks it). ``co2e_vs_chosen`` is the set's
+    CO2e over the chosen set's.
 
     Returns
     -------
     list of dict
         ``set``, ``chosen`` (bool), ``status`` (``checked`` when every row of the set was compared
-        with its publication, else ``recalled`` / ``user-supplied``), ``{gas}_t``, ``co2e_t``,
+        with its publication, else ``recalled`` / ``user-supplied``), ``derived_from`` (the set this
+        one was rounded from, so not independent of it; None), ``{gas}_t``, ``co2e_t``,
         ``co2e_vs_chosen``.
     """
     names = list(GASES)
@@ -158,10 +176,12 @@ def factor_set_sensitivity(peat_kg: float, factor_sets, gwp, chosen: str) -> lis
         names += [g for g in fs.ef if g not in names]
     rows = []
     for fs in factor_sets:
-        masses = {g: float(gases.gas_emissions(peat_kg, ef)) * T_PER_KG for g, ef in fs.ef.items()}
+        kg = gases.phase_emissions(peat_kg, carbon_kg, fs.ef, form if carbon_kg is not None else "dry_matter")
+        masses = {g: float(m) * T_PER_KG for g, m in kg.items()}
         statuses = set(fs.status.values())
         rows.append({"set": fs.name, "chosen": fs.name == chosen,
                      "status": statuses.pop() if len(statuses) == 1 else "recalled",
+                     "derived_from": getattr(fs, "derived_from", None),
                      **{f"{gas_key(g)}_t": masses.get(g) for g in names},
                      "co2e_t": float(gases.co2_equivalent(masses, gwp.gwp))})
     ref = next((r["co2e_t"] for r in rows if r["chosen"]), None)
