@@ -188,3 +188,55 @@ def test_interval_columns_follow_any_gas_of_the_draws():
     assert _column("co_smouldering_kg") == "co_smouldering_t"
     assert _column("carbon_kg") == "carbon_smouldering_t"
     assert _column("volume_m3") is None  # a helper quantity, no column
+
+
+# carbon carried per tonne of each gas, by hand from IUPAC conventional atomic weights (C 12.011,
+# O 15.999, H 1.008): CO2 44.009, CO 28.010, CH4 16.043
+C_PER = {"co2": 12.011 / 44.009, "co": 12.011 / 28.010, "ch4": 12.011 / 16.043}
+
+
+def test_carbon_balance_form_closes_carbon_in_every_table(tmp_path):
+    s = make_scene(tmp_path / "s", extra_config="[uncertainty]\ndraws = 0\n")
+    s.config.write_text(s.config.read_text().replace('gwp = "AR6"', 'gwp = "AR6"\nform = "carbon_balance"'))
+    r = peatburn.run(s.config, tmp_path / "o")
+    zones = [z for z in _rows(tmp_path / "o" / "zones.csv") if float(z["carbon_smouldering_t"]) > 1e-6]
+    assert len(zones) >= 3
+    for z in zones:
+        gas_c = sum(float(z[f"{g}_smouldering_t"]) * k for g, k in C_PER.items())
+        assert gas_c == pytest.approx(float(z["carbon_smouldering_t"]), rel=1e-6), z["zone"]
+    # Akagi et al. 2011 peat ratios: CH4 / CO2 by mass stays 20.8 / 1703 (only the scale follows the carbon)
+    t = r.total
+    assert t["ch4_smouldering_t"] / t["co2_smouldering_t"] == pytest.approx(20.8 / 1703, rel=1e-9)
+    # the Tier 1 comparison line stays per dry matter (the Tier 1 convention): IPCC 2013 CH4 21 g/kg
+    # (dry matter = carbon / f_C with the scene's f_C; CO2 464 g C/kg x 44.009/12.011 = 1700.12 g/kg)
+    dm_t1 = t["carbon_tier1_t"] / s.truth["cf"]
+    assert dm_t1 > 0 and t["co2_tier1_t"] == pytest.approx(dm_t1 * 464 * 44.009 / 12.011 / 1000, rel=1e-6)
+    totals = json.loads((tmp_path / "o" / "totals.json").read_text())
+    assert totals["method"]["gas_form"] == "carbon_balance"
+    assert totals["method"]["smouldering_factor_checks"]["closure_of_reported_gases"] == 1.0
+    assert not any("overstate the carbon" in n for n in totals["notes"])
+    for row in totals["smouldering_factor_sensitivity"]:  # every set through the same carbon
+        gas_c = sum(row[f"{g}_t"] * k for g, k in C_PER.items())
+        assert gas_c == pytest.approx(t["carbon_smouldering_t"], rel=1e-9), row["set"]
+    for day in _rows(tmp_path / "o" / "daily.csv"):
+        if day["phase"] == "smouldering":
+            gas_c = sum(float(day[f"{g}_t"]) * k for g, k in C_PER.items())
+            assert gas_c == pytest.approx(float(day["carbon_t"]), rel=1e-6)
+
+
+def test_dry_matter_form_is_the_default_and_akagi_creates_carbon_below_057(tmp_path):
+    s = make_scene(tmp_path / "s", zones=False, extra_config="[uncertainty]\ndraws = 0\n")
+    r = peatburn.run(s.config, tmp_path / "o")
+    t = r.total
+    f = t["carbon_smouldering_t"] / t["peat_burned_t"]
+    gas_c = sum(t[f"{g}_smouldering_t"] * k for g, k in C_PER.items())
+    # Akagi et al. 2011 peatland (recalled): 570.408 g C per kg dry matter in CO2 + CO + CH4
+    assert gas_c / t["carbon_smouldering_t"] == pytest.approx(570.408 / (1000 * f), rel=1e-5)
+
+
+def test_form_key_refused_with_a_one_line_hint(tmp_path):
+    s = make_scene(tmp_path / "s", zones=False)
+    s.config.write_text(s.config.read_text().replace('gwp = "AR6"', 'gwp = "AR6"\nform = "per_carbon"'))
+    res = CliRunner().invoke(cli, ["check", str(s.config)])
+    assert res.exit_code == 2
+    assert "emission_factors.form" in res.output and "carbon_balance" in res.output
