@@ -157,6 +157,9 @@ class FlamingConfig:
     biomass: Value | None = None  # t d.m./ha
     combustion_factor: float | None = None
     vegetation_carbon_fraction: float | None = None
+    #: user's FRE-to-dry-matter conversion for peat [kg/MJ], for the comparison column
+    #: carbon_fre_peat_t only (none is shipped: no value was checked)
+    peat_coefficient_kg_per_mj: float | None = None
 
 
 @dataclass(frozen=True)
@@ -243,7 +246,7 @@ _SCHEMA = {
                           "fit_target", "error", "date_window_days", "edge_taper"},
     "depth.plots": {"path", "value_column", "crs", "date_column"},
     "depth.tier1": {"fuel_consumption"},
-    "flaming": {"method", "detections", "crs", "columns", "event_distance_m", "event_gap_hours", "coefficient",
+    "flaming": {"method", "detections", "crs", "columns", "event_distance_m", "event_gap_hours", "coefficient", "peat_coefficient",
                 "biomass", "combustion_factor", "vegetation_carbon_fraction"},
     "depth.survey": {"pre", "post", "interval_years", "pre_date", "post_date", "subsidence_rate", "stable",
                      "stable_buffer_m", "tilt", "lod_t"},
@@ -622,6 +625,12 @@ def _flaming(fl: dict, base: Path, where: str, force: bool) -> FlamingConfig:
     coef = None
     if "coefficient" in fl:
         coef = _value(fl["coefficient"], base, "flaming.coefficient", "combustion_coefficient", where, force=force)
+    peat_coef = None
+    if "peat_coefficient" in fl:
+        peat_coef = _value(fl["peat_coefficient"], base, "flaming.peat_coefficient", "combustion_coefficient", where,
+                           force=force)
+        if not isinstance(peat_coef, float):
+            raise ConfigError(f"{where}: `flaming.peat_coefficient` must be one number in kg/MJ (e.g. \"1.5 kg/MJ\")")
     gap = fl.get("event_gap_hours")
     return FlamingConfig(
         method=method, detections=detections, crs=fl.get("crs"), columns=dict(columns),
@@ -629,6 +638,7 @@ def _flaming(fl: dict, base: Path, where: str, force: bool) -> FlamingConfig:
         event_gap_hours=float(gap) if gap is not None else None, coefficient_kg_per_mj=coef,
         biomass=biomass, combustion_factor=cf,
         vegetation_carbon_fraction=_opt_number(fl, "vegetation_carbon_fraction", "flaming", where, 0, 1),
+        peat_coefficient_kg_per_mj=peat_coef,
     )
 
 

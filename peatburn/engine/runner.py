@@ -57,6 +57,8 @@ class Factors:
     frp_route: bool
     #: "dry_matter" or "carbon_balance" (config emission_factors.form); the Tier 1 line stays per dry matter
     form: str = "dry_matter"
+    #: the user's FRE-to-dry-matter conversion for peat [kg/MJ] (comparison column only), or None
+    peat_coefficient: float | None = None
 
 
 @dataclass
@@ -103,6 +105,7 @@ def load_factors(cfg: RunConfig) -> Factors:
                      else flaming.WOOSTER_2005_COEFFICIENT),
         frp_route=bool(fl and fl.method == "frp"),
         form=getattr(cfg.factors, "form", "dry_matter"),
+        peat_coefficient=fl.peat_coefficient_kg_per_mj if fl else None,
     )
 
 

@@ -86,6 +86,11 @@ FRP_TABLE = [
     ("carbon_smouldering_t", "Carbon, below ground", "t C"),
     ("smouldering_to_frp_ratio", "Below-ground carbon ÷ carbon from FRE", "ratio"),
 ]
+#: Added to FRP_TABLE when the user gave a peat FRE conversion ([flaming] peat_coefficient).
+FRP_PEAT_ROWS = [
+    ("carbon_fre_peat_t", "Carbon from FRE with the user's peat conversion", "t C"),
+    ("smouldering_to_fre_peat_ratio", "Below-ground carbon ÷ carbon from FRE (peat conversion)", "ratio"),
+]
 
 #: Methods and their sources, as printed in the report (statuses as in docs/method.md and docs/sources.md).
 REFERENCES = [
@@ -974,7 +979,9 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
         "figures": figures, "zones_cut": zones_cut, "max_chart_zones": MAX_CHART_ZONES, "max_table_zones": MAX_TABLE_ZONES,
         "zone_table": _table(result.zones, [c for c in ZONE_TABLE if flaming_estimated or "flaming" not in c[0]]),
         "gas_table": _table(result.zones, [c for c in GAS_TABLE if flaming_estimated or "flaming" not in c[0]]),
-        "frp_table": _table(result.zones, FRP_TABLE) if frp_route else None,
+        "frp_table": _table(result.zones, FRP_TABLE + (FRP_PEAT_ROWS if getattr(factors, "peat_coefficient", None)
+                                                        else [])) if frp_route else None,
+        "peat_coefficient": fmt_num(getattr(factors, "peat_coefficient", None)),
         "frp_min_area": fmt_num(MIN_AREA_FOR_FRE_RATIO_HA),
         "daily_days": len({r["date"] for r in result.daily or []}),
         "depth_methods": depth_methods, "unestimated": fmt_num(method.get("unestimated_area_ha")),

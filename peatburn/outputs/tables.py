@@ -52,6 +52,7 @@ def zone_columns(gases=GASES) -> list[str]:
         "carbon_share_survey", "carbon_share_water_table", "carbon_share_tier1",
         "carbon_tier1_t", *per("tier1"), "co2e_tier1_t",
         "fre_mj", "n_detections", "carbon_frp_only_t", "smouldering_to_frp_ratio",
+        "carbon_fre_peat_t", "smouldering_to_fre_peat_ratio",
     ]
 
 
@@ -73,6 +74,8 @@ HA_PER_M2 = 1e-4  # exact
 #: left empty (the FRE and the carbon are still given).
 MIN_AREA_FOR_FRE_RATIO_HA = 300.0
 T_PER_KG = 1e-3  # exact
+#: Carbon fraction of tropical peat where a zone burned none: 0.560 (Hu et al. 2018, abstract, checked).
+PEAT_CARBON_FRACTION = 0.56
 
 
 def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
@@ -125,6 +128,16 @@ def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
             out["smouldering_to_frp_ratio"] = np.where((frp_c > 0) & big, out["carbon_smouldering_t"] / frp_c, np.nan)
         else:
             out["fre_mj"] = out["n_detections"] = out["carbon_frp_only_t"] = out["smouldering_to_frp_ratio"] = nan
+        out["carbon_fre_peat_t"] = out["smouldering_to_fre_peat_ratio"] = nan
+        peat_coef = getattr(factors, "peat_coefficient", None)
+        if has_fre and peat_coef:
+            # the user's peat conversion: FRE x C_e,peat x the zone's peat carbon fraction (sum C / sum M;
+            # 0.56 where no peat burned, Hu et al. 2018, abstract, checked)
+            f_c = np.where(peat_kg > 0, carbon / np.where(peat_kg > 0, peat_kg, 1.0), PEAT_CARBON_FRACTION)
+            peat_c = fre * peat_coef * f_c * t
+            out["carbon_fre_peat_t"] = peat_c
+            out["smouldering_to_fre_peat_ratio"] = np.where((peat_c > 0) & big, out["carbon_smouldering_t"] / peat_c,
+                                                            np.nan)
     return out
 
 
@@ -234,6 +247,7 @@ _BASE_UNITS = {
     "carbon_share_survey": "1", "carbon_share_water_table": "1", "carbon_share_tier1": "1",
     "carbon_tier1_t": "t C", "co2e_tier1_t": "t CO2e", "fre_mj": "MJ", "n_detections": "1",
     "carbon_frp_only_t": "t C", "smouldering_to_frp_ratio": "1",
+    "carbon_fre_peat_t": "t C", "smouldering_to_fre_peat_ratio": "1",
 }
 UNITS = units()
 
