@@ -240,3 +240,30 @@ def test_form_key_refused_with_a_one_line_hint(tmp_path):
     res = CliRunner().invoke(cli, ["check", str(s.config)])
     assert res.exit_code == 2
     assert "emission_factors.form" in res.output and "carbon_balance" in res.output
+
+
+def test_pm25_of_the_field_set_and_a_user_nmoc_row_reach_every_table(tmp_path):
+    # PM2.5: Jayarathne et al. 2018 (Atmos. Chem. Phys. 18:2585, abstract): 17.3 g/kg, shipped in
+    # smouldering_kalimantan_field2015; NMOC from a user row (value invented for the test)
+    s = make_scene(tmp_path / "s", zones=False, extra_config="[uncertainty]\ndraws = 0\n")
+    (s.folder / "field_nmoc.csv").write_text(
+        "# phase: smouldering\ngas,ef_g_per_kg\nco2,1564\nco,291\nch4,9.51\npm2_5,17.3\nnmoc,30\n")
+    s.config.write_text(s.config.read_text().replace('smouldering = "smouldering_akagi2011"',
+                                                     'smouldering = "field_nmoc.csv"'))
+    r = peatburn.run(s.config, tmp_path / "o")
+    peat_t = r.total["peat_burned_t"]
+    assert r.total["pm2_5_smouldering_t"] == pytest.approx(peat_t * 17.3 / 1000, rel=1e-9)
+    assert r.total["nmoc_smouldering_t"] == pytest.approx(peat_t * 30 / 1000, rel=1e-9)
+    total = next(z for z in _rows(tmp_path / "o" / "zones.csv") if z["layer"] == "total")
+    assert float(total["pm2_5_smouldering_t"]) == pytest.approx(peat_t * 17.3 / 1000, rel=1e-6)
+    assert total["pm2_5_flaming_t"] == ""  # the flaming set has no PM2.5 row: not estimated
+    inv = _rows(tmp_path / "o" / "inventory.csv")
+    assert {"PM2.5", "NMOC"} <= {x["gas"] for x in inv if x["phase"] == "smouldering"}
+    header = next(csv.reader(open(tmp_path / "o" / "daily.csv", newline="")))
+    assert "pm2_5_t" in header and "nmoc_t" in header
+    totals = json.loads((tmp_path / "o" / "totals.json").read_text())
+    assert totals["quantities"]["pm2_5_smouldering_t"]["unit"] == "t PM2.5"
+    # PM2.5 and NMOC have no GWP-100: CO2e is CO2 + CH4 x 27.0 (AR6 non-fossil)
+    assert r.total["co2e_smouldering_t"] == pytest.approx(peat_t * (1564 + 9.51 * AR6_CH4) / 1000, rel=1e-9)
+    by = {row["set"]: row for row in totals["smouldering_factor_sensitivity"]}
+    assert by["smouldering_kalimantan_field2015"]["pm2_5_t"] == pytest.approx(peat_t * 17.3 / 1000, rel=1e-9)
