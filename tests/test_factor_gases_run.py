@@ -215,6 +215,8 @@ def test_carbon_balance_form_closes_carbon_in_every_table(tmp_path):
     assert totals["method"]["gas_form"] == "carbon_balance"
     assert totals["method"]["smouldering_factor_checks"]["closure_of_reported_gases"] == 1.0
     assert not any("overstate the carbon" in n for n in totals["notes"])
+    html = (tmp_path / "o" / "report.html").read_text()
+    assert "carbon mass balance" in html and "carbon mass-balance form" in html  # sources + sensitivity text
     for row in totals["smouldering_factor_sensitivity"]:  # every set through the same carbon
         gas_c = sum(row[f"{g}_t"] * k for g, k in C_PER.items())
         assert gas_c == pytest.approx(t["carbon_smouldering_t"], rel=1e-9), row["set"]

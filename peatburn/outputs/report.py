@@ -987,6 +987,7 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
         "depth_methods": depth_methods, "unestimated": fmt_num(method.get("unestimated_area_ha")),
         "mineral": fmt_num(method.get("mineral_soil_area_ha")), "tier1_only": bool(method.get("tier1_only")),
         "gas_form": str(method.get("gas_form") or "dry_matter"),
+        "gas_form_text": str(method.get("gas_form_text") or "gas = dry matter burned x emission factor"),
         "factor_sensitivity": [{"set": r.get("set", ""), "chosen": bool(r.get("chosen")), "status": r.get("status", ""),
                                 "derived_from": r.get("derived_from") or "",
                                 "co2": fmt_num(r.get("co2_t")), "ch4": fmt_num(r.get("ch4_t")),
