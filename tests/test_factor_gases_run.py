@@ -269,3 +269,21 @@ def test_pm25_of_the_field_set_and_a_user_nmoc_row_reach_every_table(tmp_path):
     assert r.total["co2e_smouldering_t"] == pytest.approx(peat_t * (1564 + 9.51 * AR6_CH4) / 1000, rel=1e-9)
     by = {row["set"]: row for row in totals["smouldering_factor_sensitivity"]}
     assert by["smouldering_kalimantan_field2015"]["pm2_5_t"] == pytest.approx(peat_t * 17.3 / 1000, rel=1e-9)
+
+
+def test_carbon_balance_run_draws_gas_intervals_through_the_carbon(tmp_path):
+    s = make_scene(tmp_path / "s", zones=False, extra_config="[uncertainty]\ndraws = 400\nseed = 3\n")
+    s.config.write_text(s.config.read_text().replace('gwp = "AR6"', 'gwp = "AR6"\nform = "carbon_balance"'))
+    r = peatburn.run(s.config, tmp_path / "o")
+    t = r.total
+    for g in ("co2", "co", "ch4"):
+        assert t[f"{g}_smouldering_t_lo"] < t[f"{g}_smouldering_t"] < t[f"{g}_smouldering_t_hi"], g
+    totals = json.loads((tmp_path / "o" / "totals.json").read_text())
+    notes = {src["name"]: src["note"] for src in totals["uncertainty"]["sources"]}
+    assert "carbon mass balance" in notes["emission_factors_smouldering"]
+    assert "reach" in notes["carbon_fraction"]
+    # CO2 holds about 83 % of the carbon (Akagi et al. 2011 peat, 464.8 of 570.4 g C/kg): its interval
+    # follows the carbon's, widened a little by the ratios (CO 109/210, CH4 11.4/20.8 relative spreads)
+    w_c = (t["carbon_smouldering_t_hi"] - t["carbon_smouldering_t_lo"]) / t["carbon_smouldering_t"]
+    w_co2 = (t["co2_smouldering_t_hi"] - t["co2_smouldering_t_lo"]) / t["co2_smouldering_t"]
+    assert w_c <= w_co2 < 1.5 * w_c
