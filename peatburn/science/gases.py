@@ -1,4 +1,5 @@
-"""Gases from burned dry matter: emission factors, CO2-equivalent, carbon bookkeeping and MCE.
+"""Gases from burned dry matter or carbon: emission factors, the carbon mass balance,
+CO2-equivalent, carbon bookkeeping and MCE.
 
 Pure functions: numbers or numpy arrays in, numpy arrays (or numpy scalars) out; no files, no
 printing. Gas names are lower-case formulas (``"co2"``, ``"co"``, ``"ch4"``, ``"n2o"``).
@@ -13,6 +14,9 @@ References
    Pure and Applied Chemistry 88, 265-291 (conventional atomic weights C 12.011, O 15.999,
    H 1.008, N 14.007: recalled, unchecked; consistent to three decimals with the IUPAC 1995
    standard atomic weights C 12.0107, O 15.9994, H 1.00794, N 14.00674, which were checked).
+.. [3] Akagi, S. K. et al. (2011). Atmos. Chem. Phys. 11, 4039-4072, Sect. 2, Eq. 1: the carbon
+   mass-balance form of an emission factor (after Ward and Radke 1993 and Yokelson et al. 1999;
+   equation number recalled, unchecked); see :func:`carbon_mass_balance_ef`.
 """
 
 from __future__ import annotations
