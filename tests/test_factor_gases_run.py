@@ -213,6 +213,8 @@ def test_carbon_balance_form_closes_carbon_in_every_table(tmp_path):
     assert dm_t1 > 0 and t["co2_tier1_t"] == pytest.approx(dm_t1 * 464 * 44.009 / 12.011 / 1000, rel=1e-6)
     totals = json.loads((tmp_path / "o" / "totals.json").read_text())
     assert totals["method"]["gas_form"] == "carbon_balance"
+    prov = json.loads((tmp_path / "o" / "provenance.json").read_text())
+    assert prov["emission_factors"]["tier1"]["derived_from"] == "smouldering_akagi2011"
     assert totals["method"]["smouldering_factor_checks"]["closure_of_reported_gases"] == 1.0
     assert not any("overstate the carbon" in n for n in totals["notes"])
     html = (tmp_path / "o" / "report.html").read_text()
