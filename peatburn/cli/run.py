@@ -20,9 +20,10 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
     """Estimate smouldering (below-ground) peat-fire emissions for CONFIG and write the outputs.
 
     Writes zones.csv, fires.csv, totals.json, inventory.csv, inventory.json, daily.csv, burn_depth.tif,
-    carbon_smouldering.tif, depth_method.tif, provenance.json and report.html into --out (and
-    report.pdf with --pdf). An existing, non-empty output folder is refused unless --overwrite is
-    given.
+    carbon_smouldering.tif, depth_method.tif, report.html (and report.pdf with --pdf), provenance.json
+    and SHA256SUMS into --out, as one set: the folder holds the old set or the new one, never a mix
+    (`peatburn check --outputs` verifies it). An existing, non-empty output folder is refused unless
+    --overwrite is given.
     """
     from ..config import load_config
     from ..engine.executors import tune_malloc
@@ -31,15 +32,13 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
     from .summary import print_summary
 
     if pdf:
-        from ..outputs.pdf import find_chromium, print_pdf
+        from ..outputs.pdf import find_chromium
 
         find_chromium()  # a missing chromium fails before the run, not after it
     cfg = load_config(config)
     tune_malloc()  # block-sized numpy temporaries reuse the heap (docs/performance.md)
     result = run(cfg, out_dir, overwrite=overwrite, workers=workers, scheduler=scheduler,
-                 progress=progress_bar(quiet=quiet))
-    if pdf:
-        result.files["report_pdf"] = print_pdf(result.files["report"])
+                 progress=progress_bar(quiet=quiet), pdf=pdf)  # report.pdf is part of the set
     if not quiet:
         print_summary(result)
         if pdf:
