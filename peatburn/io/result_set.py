@@ -86,7 +86,7 @@ def recover(out: Path) -> None:
             _warn(f"removed {old.name}, the previous outputs of {out} that a killed run had already replaced")
     for st in _siblings(out, STAGE):
         shutil.rmtree(st)
-        _warn(f"removed {st.name}, the unfinished outputs of a run into {out} that was killed")
+        _warn(f"removed {st.name}, left by a run into {out} that was killed (the folder keeps the set it holds)")
     remove_temporaries(out)
 
 

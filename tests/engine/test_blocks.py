@@ -156,7 +156,10 @@ def test_interrupted_run_leaves_no_raster(scene, tmp_path):
         peatburn.run(scene.config, out, progress=interrupt)
     assert not (out / "burn_depth.tif").exists()
     assert not (out / "carbon_smouldering.tif").exists()
-    assert _leftovers(out) == []
+    # issue 22: the outputs were staged beside the folder, which appears only with a complete set;
+    # the staging folder is removed (and no lock is left)
+    assert not out.exists()
+    assert [p.name for p in tmp_path.iterdir() if p.name.startswith(".out.")] == []
 
 
 def test_killed_writer_leaves_no_file(tmp_path):
