@@ -249,3 +249,26 @@ def test_demo_temporaries_carry_the_marker(tmp_path, monkeypatch):
     assert seen == [True, True, True]
     assert sorted(p.name for p in tmp_path.iterdir()) == ["a.tif", "t.txt", "v.gpkg"]
     assert len(gpd.read_file(tmp_path / "v.gpkg")) == 1
+
+
+@pytest.mark.skipif(not hasattr(os, "geteuid") or os.geteuid() != 0 or shutil.which("mount") is None,
+                    reason="mounting a tmpfs needs root")
+def test_output_folder_that_is_a_mount_point(two_sets, tmp_path):
+    """A mount point cannot be renamed: the set is staged inside it and replaced file by file,
+    checksums last, with a warning; the result is still a complete, checked set."""
+    s, new_cfg, base, ref = two_sets
+    out = tmp_path / "o"
+    out.mkdir()
+    if subprocess.run(["mount", "-t", "tmpfs", "-o", "size=8m", "tmpfs", str(out)]).returncode:
+        pytest.skip("mount -t tmpfs refused (a container without CAP_SYS_ADMIN)")
+    try:
+        (out / "notes.txt").write_text("a user's notes\n")
+        for cfg in (s.config, new_cfg):
+            with pytest.warns(UserWarning, match="is a mount point, so its outputs are replaced file by file"):
+                peatburn.run(cfg, out, overwrite=True)
+        assert check_outputs(out) == ["extra: notes.txt (not listed in SHA256SUMS: not an output of this run)"]
+        (out / "notes.txt").unlink()
+        assert _which_set(out, ref) == "new"
+        assert sorted(p.name for p in tmp_path.iterdir()) == ["o"]
+    finally:
+        subprocess.run(["umount", str(out)])
