@@ -26,7 +26,8 @@ Files in a replaced folder that are not outputs of a peatburn run (a user's note
 are hard-linked into the staging folder before the swap (no copy, nothing lost if the run is
 killed), with a warning; ``peatburn check --outputs`` lists them as extra.
 
-An output folder that is itself a mount point cannot be renamed: there the staging folder is
+An output folder that is itself a mount point cannot be renamed (nor is the process's working
+folder, or one above it, swapped away from under the user's shell): there the staging folder is
 made inside it and the files are renamed onto their names one by one, checksums last (a warning
 says so); a run killed during that swap leaves a folder without ``SHA256SUMS``, which
 ``check --outputs`` reports as not a complete set.
@@ -108,8 +109,17 @@ def remove_temporaries(folder: Path) -> None:
               f"({', '.join(names[:3])}{', ...' if len(names) > 3 else ''})")
 
 
-def _mount_point(out: Path) -> bool:
-    return out.is_dir() and (os.path.ismount(out) or out.stat().st_dev != out.parent.stat().st_dev)
+def _unmovable(out: Path) -> str | None:
+    """Why ``out`` cannot be swapped as a folder (a mount point; this process's working folder or
+    one above it, which a swap would leave the user's shell in), or None."""
+    if not out.is_dir():
+        return None
+    if os.path.ismount(out) or out.stat().st_dev != out.parent.stat().st_dev:
+        return "is a mount point"
+    cwd = Path(os.getcwd())
+    if cwd == out or out in cwd.parents:
+        return "holds the current working folder"
+    return None
 
 
 @contextlib.contextmanager
@@ -125,7 +135,7 @@ def staged(out: Path | str, overwrite: bool):
     if out.is_dir() and any(out.iterdir()) and not overwrite:
         raise OutputExistsError(f"output folder {out} exists and is not empty; choose another --out "
                                 f"or pass --overwrite")
-    inside = _mount_point(out)
+    inside = _unmovable(out)
     stage = out / f".{STAGE}-{os.getpid()}" if inside else stage_path(out)
     stage.mkdir(parents=True)
     if out.is_dir() and not inside:
@@ -133,7 +143,7 @@ def staged(out: Path | str, overwrite: bool):
     try:
         yield stage
         if inside:
-            _swap_files(stage, out)
+            _swap_files(stage, out, inside)
         else:
             _keep_other_files(out, stage)
             swap_in(stage, out)
@@ -203,29 +213,43 @@ def swap_in(stage: Path, out: Path) -> None:
             raise
         _swap_by_renames(stage, out)
         return
-    shutil.rmtree(stage)  # the staging name now holds the old set
+    _remove_old(stage)  # the staging name now holds the old set
 
 
 def _swap_by_renames(stage: Path, out: Path) -> None:
     old = out.parent / f".{out.name}.{OLD}-{os.getpid()}"
     os.rename(out, old)
-    os.rename(stage, out)
-    shutil.rmtree(old)
+    try:
+        os.rename(stage, out)
+    except BaseException:
+        os.rename(old, out)  # the old set back under its name
+        raise
+    _remove_old(old)
 
 
-def _swap_files(stage: Path, out: Path) -> None:
-    """Mount-point fallback: the old checksums go first, then each file is renamed onto its name, the
-    new checksums last; the old set's other outputs are removed."""
+def _remove_old(folder: Path) -> None:
+    """Delete a replaced set; the new one is in place, so a failure is only a warning."""
+    try:
+        shutil.rmtree(folder)
+    except OSError as exc:
+        _warn(f"the new outputs are in place, but the replaced ones could not be deleted ({folder}: {exc}); "
+              f"the next run into the folder retries")
+
+
+def _swap_files(stage: Path, out: Path, why: str) -> None:
+    """Fallback for a folder that cannot be renamed: the old checksums go first, then each file is
+    renamed onto its name, the new checksums last; the old set's other outputs are removed."""
     from ..outputs.checksums import SUMS_NAME
 
-    _warn(f"{out} is a mount point, so its outputs are replaced file by file, not swapped as one set: a run "
-          f"killed meanwhile leaves a folder that `peatburn check --outputs` reports as incomplete")
+    _warn(f"{out} {why}, so its outputs are replaced file by file, not swapped as one set: a run killed "
+          f"meanwhile leaves a folder that `peatburn check --outputs` reports as incomplete")
     new = sorted(p.name for p in stage.iterdir())
     stale = (_declared(out) & {p.name for p in out.iterdir()}) - set(new)
     with contextlib.suppress(FileNotFoundError):
         (out / SUMS_NAME).unlink()
     for name in stale:
-        (out / name).unlink()
+        with contextlib.suppress(IsADirectoryError, PermissionError, FileNotFoundError):
+            (out / name).unlink()
     for name in sorted(new, key=lambda n: n == SUMS_NAME):
         os.replace(stage / name, out / name)
     stage.rmdir()

@@ -196,7 +196,8 @@ def test_killed_writer_leaves_no_file(tmp_path):
     (tmp_path / ".thesis_draft.part").write_text("a user's draft\n")
     (tmp_path / ".scan.tiled.tif").write_bytes(b"a user's raster")
     (tmp_path / ".notes.peatburn-tmp.abcdefgh.part").mkdir()  # a folder named like a temporary
-    runner.prepare_out_dir(tmp_path, overwrite=True)
+    with pytest.warns(UserWarning, match=r"removed 1 temporary file\(s\) of a killed run .*\.depth\.tif\.peatburn-tmp\."):
+        runner.prepare_out_dir(tmp_path, overwrite=True)
     assert _leftovers(tmp_path) == [".notes.peatburn-tmp.abcdefgh.part", ".scan.tiled.tif", ".thesis_draft.part"]
     assert (tmp_path / ".thesis_draft.part").read_text() == "a user's draft\n"
 
