@@ -173,7 +173,7 @@ def seal(stage: Path, result: RunResult, pdf: bool = False) -> None:
         result.provenance["outputs"] = sorted(set(result.provenance.get("outputs", [])) | {"report.pdf"})
     result.provenance["output_sha256"] = checksums.output_records(stage)
     result.files["provenance"] = write_json(stage / checksums.PROVENANCE_NAME, result.provenance)
-    result.files["checksums"] = checksums.write_sums(stage)
+    result.files["checksums"] = checksums.write_sums(stage, known=result.provenance["output_sha256"])
 
 
 def _run_locked(cfg: RunConfig, out_dir: Path, *, workers: int, progress, scheduler) -> RunResult:

@@ -38,14 +38,18 @@ def output_records(folder: Path, exclude: tuple = (PROVENANCE_NAME, SUMS_NAME)) 
     return out
 
 
-def write_sums(folder: Path) -> Path:
-    """Write ``SHA256SUMS`` for every file in ``folder`` (sha256sum's text format); returns its path."""
+def write_sums(folder: Path, known: dict | None = None) -> Path:
+    """Write ``SHA256SUMS`` for every file in ``folder`` (sha256sum's text format); returns its path.
+    ``known`` (name -> record with ``sha256``, as from :func:`output_records`) spares reading those
+    files a second time."""
     folder = Path(folder)
+    known = known or {}
     names = sorted(p.name for p in folder.iterdir() if p.name != SUMS_NAME and p.is_file())
     bad = [n for n in names if "\n" in n or "\\" in n]
     if bad:  # sha256sum escapes such names; peatburn never writes them
         raise ValueError(f"{folder}: output names with a newline or backslash cannot be listed: {bad}")
-    return write_text(folder / SUMS_NAME, "".join(f"{sha256_of(folder / n)}  {n}\n" for n in names))
+    lines = [f"{known[n]['sha256'] if n in known else sha256_of(folder / n)}  {n}\n" for n in names]
+    return write_text(folder / SUMS_NAME, "".join(lines))
 
 
 def read_sums(path: Path) -> tuple[dict, list[str]]:
