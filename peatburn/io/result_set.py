@@ -128,12 +128,12 @@ def staged(out: Path | str, overwrite: bool):
     when the block fails (the folder then keeps what it held). Call with the folder's lock held."""
     from ..errors import OutputExistsError
 
-    out = Path(os.path.realpath(out))  # a link to a folder: the set is swapped where it points
+    given, out = Path(out), Path(os.path.realpath(out))  # a link to a folder: swapped where it points
     recover(out)
     if out.exists() and not out.is_dir():
-        raise OutputExistsError(f"output folder {out} exists and is a file; choose another --out")
+        raise OutputExistsError(f"output folder {given} exists and is a file; choose another --out")
     if out.is_dir() and any(out.iterdir()) and not overwrite:
-        raise OutputExistsError(f"output folder {out} exists and is not empty; choose another --out "
+        raise OutputExistsError(f"output folder {given} exists and is not empty; choose another --out "
                                 f"or pass --overwrite")
     inside = _unmovable(out)
     stage = out / f".{STAGE}-{os.getpid()}" if inside else stage_path(out)

@@ -262,10 +262,11 @@ def test_output_folder_that_is_a_mount_point(two_sets, tmp_path):
     if subprocess.run(["mount", "-t", "tmpfs", "-o", "size=8m", "tmpfs", str(out)]).returncode:
         pytest.skip("mount -t tmpfs refused (a container without CAP_SYS_ADMIN)")
     try:
+        for p in (base / "old").iterdir():
+            shutil.copy(p, out / p.name)
         (out / "notes.txt").write_text("a user's notes\n")
-        for cfg in (s.config, new_cfg):
-            with pytest.warns(UserWarning, match="is a mount point, so its outputs are replaced file by file"):
-                peatburn.run(cfg, out, overwrite=True)
+        with pytest.warns(UserWarning, match="is a mount point, so its outputs are replaced file by file"):
+            peatburn.run(new_cfg, out, overwrite=True)
         assert check_outputs(out) == ["extra: notes.txt (not listed in SHA256SUMS: not an output of this run)"]
         (out / "notes.txt").unlink()
         assert _which_set(out, ref) == "new"

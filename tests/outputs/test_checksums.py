@@ -14,6 +14,8 @@ import subprocess
 import pytest
 from click.testing import CliRunner
 
+import peatburn
+
 from peatburn.cli.main import cli
 from peatburn.outputs.checksums import check_outputs
 
@@ -42,7 +44,7 @@ def test_a_runs_set_is_complete_and_unaltered(out):
     assert set(prov["outputs"]) == set(names)
     if shutil.which("sha256sum"):
         assert subprocess.run(["sha256sum", "--quiet", "-c", "SHA256SUMS"], cwd=out).returncode == 0
-    assert check_outputs(out) == []
+    assert check_outputs(out) == [] and peatburn.check_outputs(out) == []
     res = _check(out)
     assert res.exit_code == 0 and res.output.startswith(f"ok: {out} is one run's complete, unaltered set")
     assert hashlib.sha256((out / "SHA256SUMS").read_bytes()).hexdigest() in res.output
