@@ -132,7 +132,7 @@ def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, sc
                 result = _run_locked(cfg, stage, workers=workers, progress=progress, scheduler=scheduler)
                 seal(stage, result, pdf)
             result.out_dir = out_dir
-            result.files = {k: out_dir / Path(v).name for k, v in result.files.items()}
+            result.files = {k: _moved(v, stage, out_dir) for k, v in result.files.items()}
             return result
         except Exception as exc:
             _raise_if_disk_full(out_dir, exc)
@@ -159,6 +159,14 @@ def _raise_if_disk_full(out_dir: Path, exc: BaseException) -> None:
                         f"{st.f_blocks * st.f_frsize / 2**20:.2f} MiB file system had ({free / 2**20:.2f} MiB free "
                         f"after its temporaries were removed); free space or choose another --out (files under their "
                         f"final names are complete)") from exc
+
+
+def _moved(path, stage: Path, out_dir: Path) -> Path:
+    """Where a file written into the staging folder is after the swap."""
+    try:
+        return out_dir / Path(path).relative_to(stage)
+    except ValueError:
+        return Path(path)
 
 
 def seal(stage: Path, result: RunResult, pdf: bool = False) -> None:

@@ -163,7 +163,7 @@ def _declared(folder: Path) -> set[str]:
         names |= set(read_sums(folder / SUMS_NAME)[0])
     with contextlib.suppress(OSError, ValueError, AttributeError, TypeError):
         names |= set(json.loads((folder / "provenance.json").read_text(encoding="utf-8")).get("outputs") or [])
-    return names
+    return {n.split("/", 1)[0] for n in names}  # an output in a subfolder: the subfolder is the set's
 
 
 def _keep_other_files(out: Path, stage: Path) -> None:
@@ -251,5 +251,7 @@ def _swap_files(stage: Path, out: Path, why: str) -> None:
         with contextlib.suppress(IsADirectoryError, PermissionError, FileNotFoundError):
             (out / name).unlink()
     for name in sorted(new, key=lambda n: n == SUMS_NAME):
+        if (out / name).is_dir() and not (out / name).is_symlink():
+            shutil.rmtree(out / name)  # a subfolder of the old set
         os.replace(stage / name, out / name)
     stage.rmdir()

@@ -28,13 +28,20 @@ PROVENANCE_NAME = "provenance.json"
 _LINE = re.compile(r"^([0-9a-f]{64}) [ *](.+)$")
 
 
+def set_files(folder: Path) -> list[str]:
+    """Every file of ``folder`` and its subfolders, as sorted relative POSIX paths (a link counts as
+    a file: it is not followed)."""
+    folder = Path(folder)
+    return sorted(p.relative_to(folder).as_posix() for p in folder.rglob("*") if p.is_symlink() or not p.is_dir())
+
+
 def output_records(folder: Path, exclude: tuple = (PROVENANCE_NAME, SUMS_NAME)) -> dict:
     """name -> size and SHA-256 of every file in ``folder`` but ``exclude`` (provenance.json's record)."""
     out = {}
-    for p in sorted(Path(folder).iterdir()):
-        if p.name not in exclude and p.is_file():
-            rec = file_record(p)
-            out[p.name] = {"size_bytes": rec["size_bytes"], "sha256": rec["sha256"]}
+    for name in set_files(folder):
+        if name not in exclude:
+            rec = file_record(Path(folder) / name)
+            out[name] = {"size_bytes": rec["size_bytes"], "sha256": rec["sha256"]}
     return out
 
 
@@ -44,7 +51,7 @@ def write_sums(folder: Path, known: dict | None = None) -> Path:
     files a second time."""
     folder = Path(folder)
     known = known or {}
-    names = sorted(p.name for p in folder.iterdir() if p.name != SUMS_NAME and p.is_file())
+    names = [n for n in set_files(folder) if n != SUMS_NAME]
     bad = [n for n in names if "\n" in n or "\\" in n]
     if bad:  # sha256sum escapes such names; peatburn never writes them
         raise ValueError(f"{folder}: output names with a newline or backslash cannot be listed: {bad}")
@@ -78,19 +85,22 @@ def check_outputs(folder: Path | str) -> list[str]:
     folder = Path(folder)
     if not folder.is_dir():
         raise MissingInputError(f"{folder} is not a folder; give the output folder of a run to --outputs")
-    present = {p.name for p in folder.iterdir()}
+    present = set(set_files(folder))
     if SUMS_NAME not in present:
         return [f"missing: {SUMS_NAME} (written last by a run: without it the folder is not a finished set, "
                 f"or it was written before runs recorded their outputs' checksums)"]
     sums, problems = read_sums(folder / SUMS_NAME)
     for name, digest in sorted(sums.items()):
         p = folder / name
-        if name not in present or not p.is_file():
+        if name not in present or not p.is_file() or p.is_symlink():
             problems.append(f"missing: {name} (listed in {SUMS_NAME})")
         elif sha256_of(p) != digest:
             problems.append(f"altered: {name} (its SHA-256 differs from {SUMS_NAME})")
     for name in sorted(present - set(sums) - {SUMS_NAME}):
         problems.append(f"extra: {name} (not listed in {SUMS_NAME}: not an output of this run)")
+    for p in sorted(folder.rglob("*")):
+        if p.is_dir() and not p.is_symlink() and not any(p.iterdir()):
+            problems.append(f"extra: {p.relative_to(folder).as_posix()}/ (an empty folder, not an output of this run)")
     problems += _against_provenance(folder, sums)
     return problems
 

@@ -95,3 +95,23 @@ def test_hostile_file_name_stays_on_one_line(out):
     res = _check(out)
     assert res.exit_code == 1
     assert len(res.output.splitlines()) == 2 and res.output.splitlines()[0].startswith("extra: evil")
+
+
+def test_outputs_in_a_subfolder_are_listed(tmp_path):
+    """An output in a subfolder (e.g. one page per fire) is listed by its relative path, which
+    coreutils' sha256sum reads; an empty folder is extra."""
+    from peatburn.outputs.checksums import write_sums
+
+    (tmp_path / "pages").mkdir()
+    (tmp_path / "pages" / "fire 1.html").write_text("<p>one</p>\n")
+    (tmp_path / "zones.csv").write_text("zone\r\n")
+    write_sums(tmp_path)
+    assert (tmp_path / "SHA256SUMS").read_text().splitlines()[0].endswith("  pages/fire 1.html")
+    if shutil.which("sha256sum"):
+        assert subprocess.run(["sha256sum", "--quiet", "-c", "SHA256SUMS"], cwd=tmp_path).returncode == 0
+    no_record = "missing: provenance.json (not listed in SHA256SUMS)"  # not a run's set without it
+    assert check_outputs(tmp_path) == [no_record]
+    (tmp_path / "pages" / "fire 1.html").write_text("<p>two</p>\n")
+    (tmp_path / "empty").mkdir()
+    assert check_outputs(tmp_path) == ["altered: pages/fire 1.html (its SHA-256 differs from SHA256SUMS)",
+                                       "extra: empty/ (an empty folder, not an output of this run)", no_record]
