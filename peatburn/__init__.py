@@ -36,7 +36,7 @@ def run(cfg: RunConfig | str | os.PathLike, out_dir: str | os.PathLike, **kwargs
     return _run(cfg, out_dir, **kwargs)
 
 
-def check_outputs(folder):
+def check_outputs(folder: str | os.PathLike) -> list[str]:
     """Problems that keep ``folder`` from being one run's complete, unaltered set, one line each (an
     empty list when it is one); see :func:`peatburn.outputs.checksums.check_outputs`."""
     from .outputs.checksums import check_outputs as _check
