@@ -27,7 +27,7 @@ def demo_cmd(out_dir, inputs_dir, overwrite, workers, pdf, quiet):
     from ..demo import make_demo_region
     from ..engine.runner import prepare_out_dir, run
     from ..io.result_set import remove_temporaries
-    from .summary import print_summary
+    from .summary import echo_pdfs_and_dossiers, print_summary
 
     if pdf:
         from ..outputs.pdf import find_chromium
@@ -47,5 +47,4 @@ def demo_cmd(out_dir, inputs_dir, overwrite, workers, pdf, quiet):
     if not quiet:
         print_summary(result)
         click.echo(f"report: {result.files['report']}")
-        if pdf:
-            click.echo(f"report (PDF): {result.files['report_pdf']}")
+        echo_pdfs_and_dossiers(result, pdf)

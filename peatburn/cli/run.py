@@ -20,8 +20,9 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
     """Estimate smouldering (below-ground) peat-fire emissions for CONFIG and write the outputs.
 
     Writes zones.csv, fires.csv, totals.json, inventory.csv, inventory.json, daily.csv, burn_depth.tif,
-    carbon_smouldering.tif, depth_method.tif, report.html (and report.pdf with --pdf), provenance.json
-    and SHA256SUMS into --out, as one set: the folder holds the old set or the new one, never a mix
+    carbon_smouldering.tif, depth_method.tif, report.html (and report.pdf with --pdf), dossiers/<zone>.html
+    (and .pdf) for the burned zones of every [[zones]] layer with dossiers = true, provenance.json and
+    SHA256SUMS into --out, as one set: the folder holds the old set or the new one, never a mix
     (`peatburn check --outputs` verifies it). An existing, non-empty output folder is refused unless
     --overwrite is given.
     """
@@ -29,7 +30,7 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
     from ..engine.executors import tune_malloc
     from ..engine.progress import progress_bar
     from ..engine.runner import run
-    from .summary import print_summary
+    from .summary import echo_pdfs_and_dossiers, print_summary
 
     if pdf:
         from ..outputs.pdf import find_chromium
@@ -41,5 +42,4 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
                  progress=progress_bar(quiet=quiet), pdf=pdf)  # report.pdf is part of the set
     if not quiet:
         print_summary(result)
-        if pdf:
-            click.echo(f"report (PDF): {result.files['report_pdf']}")
+        echo_pdfs_and_dossiers(result, pdf)

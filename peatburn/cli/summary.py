@@ -66,3 +66,12 @@ def print_summary(result) -> None:
     for c in CAUTIONS:
         click.echo(f"caution: {c}")
     click.echo(f"outputs: {result.out_dir}")
+
+
+def echo_pdfs_and_dossiers(result, pdf: bool) -> None:
+    """The lines naming the PDF report and the dossiers of a run."""
+    if pdf:
+        click.echo(f"report (PDF): {result.files['report_pdf']}")
+    if result.files.get("dossiers"):
+        click.echo(f"dossiers: {len(result.files['dossiers'])} in {result.out_dir / 'dossiers'}"
+                   f"{' (HTML and PDF)' if pdf else ''}")

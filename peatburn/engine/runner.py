@@ -169,8 +169,10 @@ def _raise_if_disk_full(out_dir: Path, exc: BaseException) -> None:
                         f"final names are complete)") from exc
 
 
-def _moved(path, stage: Path, out_dir: Path) -> Path:
-    """Where a file written into the staging folder is after the swap."""
+def _moved(path, stage: Path, out_dir: Path):
+    """Where a file written into the staging folder is after the swap (a list: each of its files)."""
+    if isinstance(path, (list, tuple)):
+        return [_moved(p, stage, out_dir) for p in path]
     try:
         return out_dir / Path(path).relative_to(stage)
     except ValueError:
@@ -182,11 +184,14 @@ def seal(stage: Path, result: RunResult, pdf: bool = False) -> None:
     SHA-256, and SHA256SUMS of them all (:mod:`peatburn.outputs.checksums`)."""
     from ..outputs import checksums
 
-    if pdf:
+    if pdf:  # report.html and every dossier printed by headless chromium, inside the set
         from ..outputs.pdf import print_pdf
 
         result.files["report_pdf"] = print_pdf(result.files["report"])
-        result.provenance["outputs"] = sorted(set(result.provenance.get("outputs", [])) | {"report.pdf"})
+        result.files["dossier_pdfs"] = [print_pdf(p) for p in result.files.get("dossiers") or []]
+        pdfs = [result.files["report_pdf"], *result.files["dossier_pdfs"]]
+        result.provenance["outputs"] = sorted(set(result.provenance.get("outputs", []))
+                                              | {Path(p).relative_to(stage).as_posix() for p in pdfs})
     result.provenance["output_sha256"] = checksums.output_records(stage)
     result.files["provenance"] = write_json(stage / checksums.PROVENANCE_NAME, result.provenance)
     result.files["checksums"] = checksums.write_sums(stage, known=result.provenance["output_sha256"])
@@ -371,7 +376,10 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
 
     periods = timeline.scar_periods(inputs.scars.frame, cfg.start_field, cfg.end_field)
     scar_sums = scar_layer_sums(sums, len(inputs.scars.frame))
-    fire_rows = fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums)
+    from .ignition import run_ignition
+
+    ignition_cols, ignitions = run_ignition(cfg, inputs, flame, periods)
+    fire_rows = fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums, extra=ignition_cols)
     uncertainty = None
     if cfg.uncertainty.draws > 0:
         from .intervals import add_intervals
@@ -423,7 +431,8 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
                 columns += [f"{c}_lo", f"{c}_hi"]
     files = {}
     files["zones"] = write_csv(out_dir / "zones.csv", rows, columns)
-    files["fires"] = write_csv(out_dir / "fires.csv", fire_rows, fires.fire_columns(bool(uncertainty)))
+    files["fires"] = write_csv(out_dir / "fires.csv", fire_rows,
+                               fires.fire_columns(bool(uncertainty), list(ignition_cols or ())))
     files["totals"] = write_json(out_dir / "totals.json", totals)
     inv = tables.inventory_rows(total, shares, factors.gwp.name, run_gases)
     files["daily"] = write_csv(out_dir / "daily.csv", daily, timeline.daily_columns(run_gases))
@@ -431,18 +440,26 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     files["inventory_json"] = write_json(out_dir / "inventory.json", {"unit": "Gg", "gwp": factors.gwp.name,
                                                                           "conventions": tables.INVENTORY_CONVENTIONS,
                                                                           "rows": inv})
+    from ..outputs import dossiers
+
+    dossier_items = dossiers.plan(cfg, inputs, rows)  # issue 21: one page per burned zone of a layer asking
+    dossier_files = ([it.file for it in dossier_items] + [f"{dossiers.FOLDER}/index.csv"]
+                     if any(z.dossiers for z in cfg.zones) else [])
     prov = provenance.build(cfg, grid, alignment, factors, models,
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
                                    "outputs": sorted(["zones.csv", "fires.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
                                                       "burn_depth.tif", "carbon_smouldering.tif",
                                                       "depth_method.tif", "report.html", "provenance.json",
-                                                      "SHA256SUMS"])})
+                                                      "SHA256SUMS"] + dossier_files)})
     # provenance.json and SHA256SUMS are written last, with the outputs' SHA-256 (runner.seal)
     result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv, provenance=prov)
     from ..outputs import report
 
     zone_layers = [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones]  # not read a second time
     files["report"] = report.write_report(out_dir / "report.html", result, cfg, prov, factors, zone_layers)
+    if dossier_files:
+        files["dossiers"] = dossiers.write_dossiers(out_dir, dossier_items, result, cfg, prov, inputs, fire_rows,
+                                                    ignitions, flame, periods)
     for name in ("burn_depth", "carbon_smouldering", "depth_method"):
         files[name] = out_dir / f"{name}.tif"
     return result
@@ -454,7 +471,7 @@ def scar_layer_sums(sums, n_scars: int) -> dict:
     return {k: np.asarray(v[1:n_scars + 1], dtype="float64").copy() for k, v in acc.items()}
 
 
-def fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums) -> list[dict]:
+def fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums, extra=None) -> list[dict]:
     """Rows of fires.csv (intervals are filled in later by :func:`peatburn.engine.intervals.add_intervals`)."""
     from ..outputs import fires
 
@@ -464,7 +481,7 @@ def fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums) -> list[di
     if flame is not None:
         li = [name for name, _, _ in sums.layers].index(SCAR_LAYER)
         fl = {k: np.asarray(v)[1:n + 1] for k, v in flame.layers[li][1].items()}
-    return fires.fire_rows(ids, periods, scar_sums, factors, cfg.year, flame=fl)
+    return fires.fire_rows(ids, periods, scar_sums, factors, cfg.year, flame=fl, extra=extra)
 
 
 def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
