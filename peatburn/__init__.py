@@ -9,6 +9,7 @@ Public API::
     result.frames.zones                   # pandas DataFrame, the columns of zones.csv
     result.frames.total["carbon_smouldering_t"]
     result.write("out/")                  # the files of `peatburn run`, when asked
+    peatburn.check_outputs("out/")        # [] for one run's complete, unaltered set
 """
 
 from __future__ import annotations
@@ -50,4 +51,12 @@ def check(cfg: RunConfig | str | os.PathLike, against: str | os.PathLike | None 
     return _check(cfg, against, **kwargs)
 
 
-__all__ = ["__version__", "load_config", "run", "check", "RunConfig", "PeatburnError"]
+def check_outputs(folder: str | os.PathLike) -> list[str]:
+    """Problems that keep ``folder`` from being one run's complete, unaltered set, one line each (an
+    empty list when it is one); see :func:`peatburn.outputs.checksums.check_outputs`."""
+    from .outputs.checksums import check_outputs as _check
+
+    return _check(folder)
+
+
+__all__ = ["__version__", "load_config", "run", "check", "check_outputs", "RunConfig", "PeatburnError"]

@@ -1,8 +1,9 @@
 """Run a configuration end to end and write the outputs of the run contract.
 
 open inputs -> co-register the surveys -> fit the water-table model -> plan -> blocks (any
-executor) -> sums -> flaming -> tables -> intervals -> rasters, provenance, report. Every file is
-written atomically.
+executor) -> sums -> flaming -> tables -> intervals -> rasters, report, provenance, SHA256SUMS. Every
+file is written atomically into a staging folder that is swapped in whole at the end
+(:mod:`peatburn.io.result_set`): the output folder holds one run's complete set at every moment.
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ from ..config import RunConfig
 from ..errors import OutputExistsError
 from .executors import BLOCK_GROUP, map_blocks
 from ..factors import load_factor_set, load_gwp_set, require_gases
-from ..io.writers import BlockRasterWriter, BlockWrites, is_own_temporary, write_csv, write_json
+from ..io.writers import BlockRasterWriter, BlockWrites, write_csv, write_json
 from ..outputs import provenance, tables
 from .alignment import coregister
 from .blocks import compute_block, process_block, read_block
@@ -81,7 +82,7 @@ class RunResult:
     daily: list = field(default_factory=list)
     inventory: list = field(default_factory=list)
     fires: list = field(default_factory=list)
-    provenance: dict | None = None
+    provenance: dict = field(default_factory=dict)
     #: where the rasters are: ``out_dir``, or a private temporary folder of a run without one (removed
     #: with the result)
     raster_dir: Path | None = None
@@ -104,18 +105,24 @@ class RunResult:
                             daily=pd.DataFrame(self.daily, columns=parts.daily_columns if parts else None),
                             inventory=pd.DataFrame(self.inventory, columns=tables.INVENTORY_COLUMNS))
 
-    def write(self, out_dir, *, overwrite: bool = False) -> dict:
-        """Write the result's files (tables, results.gpkg, rasters, provenance, report) into
-        ``out_dir``, as ``peatburn run`` does; an existing, non-empty folder is refused unless
-        ``overwrite``. Returns the written files by name."""
+    def write(self, out_dir, *, overwrite: bool = False, pdf: bool = False) -> dict:
+        """Write the result's files (tables, results.gpkg, rasters, report, provenance, SHA256SUMS) into
+        ``out_dir`` as one set, as ``peatburn run`` does; an existing, non-empty folder is refused
+        unless ``overwrite``. Returns the written files by name."""
         from ..io.lock import output_lock
+        from ..io.result_set import staged
 
         if getattr(self, "_parts", None) is None or self.raster_dir is None or not Path(self.raster_dir).exists():
             raise OutputExistsError("this result cannot be written again: its rasters are gone; run again")
         out_dir = Path(out_dir)
         with output_lock(out_dir):
-            prepare_out_dir(out_dir, overwrite)
-            return write_outputs(self, out_dir)
+            with staged(out_dir, overwrite) as stage:
+                self.files = {}
+                write_outputs(self, stage)
+                seal(stage, self, pdf)
+            self.out_dir = out_dir
+            self.files = {k: _moved(v, stage, out_dir) for k, v in self.files.items()}
+        return self.files
 
 
 @dataclass(frozen=True)
@@ -130,14 +137,15 @@ class ResultFrames:
 
 
 def prepare_out_dir(out_dir: Path, overwrite: bool) -> None:
+    """A folder that is not a run's result set (the demo's top folder): a killed run's temporaries
+    (peatburn's marker only) are removed with a warning; a non-empty folder needs ``overwrite``."""
+    from ..io.result_set import remove_temporaries
+
     out_dir = Path(out_dir)
-    if out_dir.exists() and any(out_dir.iterdir()):
-        if not overwrite:
-            raise OutputExistsError(f"output folder {out_dir} exists and is not empty; choose another --out "
-                                    f"or pass --overwrite")
-        for stale in out_dir.iterdir():  # temporaries of a run that was killed: only files with our marker
-            if is_own_temporary(stale):
-                stale.unlink()
+    remove_temporaries(out_dir)
+    if out_dir.exists() and any(out_dir.iterdir()) and not overwrite:
+        raise OutputExistsError(f"output folder {out_dir} exists and is not empty; choose another --out "
+                                f"or pass --overwrite")
     out_dir.mkdir(parents=True, exist_ok=True)
 
 
@@ -161,10 +169,11 @@ def load_factors(cfg: RunConfig) -> Factors:
 
 
 def run(cfg: RunConfig, out_dir=None, *, overwrite: bool = False, workers: int = 1, progress=None,
-        scheduler: str | None = None) -> RunResult:
+        scheduler: str | None = None, pdf: bool = False) -> RunResult:
     """Run ``cfg`` and write zones.csv, fires.csv, results.gpkg, totals.json, inventory.csv/json,
-    daily.csv, burn_depth.tif, carbon_smouldering.tif, depth_method.tif, provenance.json and
-    report.html into ``out_dir``.
+    daily.csv, burn_depth.tif, carbon_smouldering.tif, depth_method.tif, report.html (and report.pdf
+    with ``pdf``), provenance.json and SHA256SUMS into ``out_dir``, swapped in as one set
+    (:mod:`peatburn.io.result_set`; ``peatburn check --outputs`` verifies it).
 
     ``out_dir`` None computes without writing any output: the result holds the tables in memory
     (:attr:`RunResult.frames`), the rasters wait in a private temporary folder removed with the
@@ -183,20 +192,26 @@ def run(cfg: RunConfig, out_dir=None, *, overwrite: bool = False, workers: int =
         with gdal_env():
             if out_dir is None:
                 return _compute_only(cfg, workers=workers, progress=progress, scheduler=client)
-            return _run(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress, scheduler=client)
+            return _run(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress, scheduler=client,
+                        pdf=pdf)
     finally:
         if client is not scheduler:
             client.close()
 
 
-def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, scheduler) -> RunResult:
+def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, scheduler, pdf: bool) -> RunResult:
     from ..io.lock import output_lock
+    from ..io.result_set import staged
 
     out_dir = Path(out_dir)
     with output_lock(out_dir):  # one run at a time per output folder (issue 22)
         try:
-            return _run_locked(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress,
-                               scheduler=scheduler)
+            with staged(out_dir, overwrite) as stage:  # the outputs appear as one set, or not at all
+                result = _run_locked(cfg, stage, workers=workers, progress=progress, scheduler=scheduler)
+                seal(stage, result, pdf)
+            result.out_dir = out_dir
+            result.files = {k: _moved(v, stage, out_dir) for k, v in result.files.items()}
+            return result
         except Exception as exc:
             _raise_if_disk_full(out_dir, exc)
             raise
@@ -209,8 +224,7 @@ def _compute_only(cfg: RunConfig, *, workers: int, progress, scheduler) -> RunRe
 
     tmp = Path(tempfile.mkdtemp(prefix="peatburn-rasters-"))
     try:
-        result = _run_locked(cfg, None, overwrite=False, workers=workers, progress=progress, scheduler=scheduler,
-                             raster_dir=tmp)
+        result = _run_locked(cfg, None, workers=workers, progress=progress, scheduler=scheduler, raster_dir=tmp)
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise
@@ -225,24 +239,51 @@ def _raise_if_disk_full(out_dir: Path, exc: BaseException) -> None:
     from ..errors import DiskFullError
     from ..io.writers import FULL_DISK_BYTES, free_bytes
 
-    if isinstance(exc, DiskFullError) or not out_dir.exists():
+    folder = out_dir if out_dir.exists() else out_dir.absolute().parent  # a new folder: its staging was beside
+    if isinstance(exc, DiskFullError) or not folder.exists():
         return
-    free = free_bytes(out_dir)
+    free = free_bytes(folder)
     if getattr(exc, "errno", None) != errno.ENOSPC and free >= FULL_DISK_BYTES:
         return
     import os
 
-    st = os.statvfs(out_dir)
+    st = os.statvfs(folder)
     raise DiskFullError(f"the disk holding {out_dir.absolute()} is full: the run needed more than the "
                         f"{st.f_blocks * st.f_frsize / 2**20:.2f} MiB file system had ({free / 2**20:.2f} MiB free "
                         f"after its temporaries were removed); free space or choose another --out (files under their "
                         f"final names are complete)") from exc
 
 
-def _run_locked(cfg: RunConfig, out_dir: Path | None, *, overwrite: bool, workers: int, progress, scheduler,
+def _moved(path, stage: Path, out_dir: Path):
+    """Where a file written into the staging folder is after the swap (a list: each of its files)."""
+    if isinstance(path, (list, tuple)):
+        return [_moved(p, stage, out_dir) for p in path]
+    try:
+        return out_dir / Path(path).relative_to(stage)
+    except ValueError:
+        return Path(path)
+
+
+def seal(stage: Path, result: RunResult, pdf: bool = False) -> None:
+    """The last files of a staged set: report.pdf (``pdf``), provenance.json with every other output's
+    SHA-256, and SHA256SUMS of them all (:mod:`peatburn.outputs.checksums`)."""
+    from ..outputs import checksums
+
+    if pdf:  # report.html and every dossier printed by headless chromium, inside the set
+        from ..outputs.pdf import print_pdf
+
+        result.files["report_pdf"] = print_pdf(result.files["report"])
+        result.files["dossier_pdfs"] = [print_pdf(p) for p in result.files.get("dossiers") or []]
+        pdfs = [result.files["report_pdf"], *result.files["dossier_pdfs"]]
+        result.provenance["outputs"] = sorted(set(result.provenance.get("outputs", []))
+                                              | {Path(p).relative_to(stage).as_posix() for p in pdfs})
+    result.provenance["output_sha256"] = checksums.output_records(stage)
+    result.files["provenance"] = write_json(stage / checksums.PROVENANCE_NAME, result.provenance)
+    result.files["checksums"] = checksums.write_sums(stage, known=result.provenance["output_sha256"])
+
+
+def _run_locked(cfg: RunConfig, out_dir: Path | None, *, workers: int, progress, scheduler,
                 raster_dir: Path | None = None) -> RunResult:
-    if out_dir is not None:
-        prepare_out_dir(out_dir, overwrite)
     factors = load_factors(cfg)
 
     inputs = open_inputs(cfg)
@@ -508,7 +549,9 @@ def _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, f
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
                                    "outputs": sorted(["zones.csv", "fires.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
                                                       "results.gpkg", "burn_depth.tif", "carbon_smouldering.tif",
-                                                      "depth_method.tif", "report.html"] + dossier_files)})
+                                                      "depth_method.tif", "report.html", "provenance.json",
+                                                      "SHA256SUMS"] + dossier_files)})
+    # provenance.json and SHA256SUMS are written last, with the outputs' SHA-256 (runner.seal)
     result = RunResult(out_dir, rows, totals, qa, daily=daily, inventory=inv, fires=fire_rows, provenance=prov,
                        raster_dir=raster_dir)
     result._parts = _WriteParts(cfg, factors, columns, fires.fire_columns(bool(uncertainty), list(ignition_cols or ())),
@@ -540,7 +583,8 @@ RASTER_NAMES = ("burn_depth", "carbon_smouldering", "depth_method")
 def write_outputs(result: RunResult, out_dir: Path) -> dict:
     """Write a computed result's files into ``out_dir`` (the folder is ready and locked): the
     rasters (copied when they were computed elsewhere), zones.csv, fires.csv, results.gpkg,
-    totals.json, inventory.csv/json, daily.csv, provenance.json, report.html."""
+    totals.json, inventory.csv/json, daily.csv, report.html and the dossiers (provenance.json and
+    SHA256SUMS follow in :func:`seal`)."""
     import shutil
 
     from ..io.writers import atomic_path
@@ -565,7 +609,6 @@ def write_outputs(result: RunResult, out_dir: Path) -> dict:
     files["inventory_json"] = write_json(out_dir / "inventory.json",
                                          {"unit": "Gg", "gwp": parts.factors.gwp.name,
                                           "conventions": tables.INVENTORY_CONVENTIONS, "rows": result.inventory})
-    files["provenance"] = write_json(out_dir / "provenance.json", result.provenance)
     result.out_dir = out_dir
     files["report"] = report.write_report(out_dir / "report.html", result, parts.cfg, result.provenance,
                                           parts.factors, parts.zone_layers)
