@@ -262,6 +262,25 @@ def test_synthetic_truth_recovered_within_an_a_priori_tolerance(rows):
     assert sz["tool"] == pytest.approx(-0.35, abs=0.01)
 
 
+def test_water_table_route_on_a_scene_with_foreign_errors(rows):
+    s06, s07, both = _group(rows, "synthetic_water_table")
+    for r in (s06, s07, both):
+        assert r["kind"] == "synthetic" and r["unit"] == "t C"
+        # the tolerance is twice the run's leave-scar-out RMSE: it must stay tight enough to mean
+        # something (the scene's scar factors have sd 15 %, so the error should be of that order)
+        assert 0 < r["tolerance"] < 0.8 * r["published"]
+        assert abs(r["difference"]) <= r["tolerance"]
+    assert both["published"] == pytest.approx(s06["published"] + s07["published"], rel=1e-12)
+
+
+def test_water_table_scene_truth_is_not_the_models_line(tmp_path):
+    truth = validation.synthetic_water_table_scene(tmp_path / "s")
+    assert set(truth["gap"]) <= set(truth["carbon_t"]) and len(truth["carbon_t"]) == 10
+    assert all(c > 0 for c in truth["carbon_t"].values())
+    cfg = (tmp_path / "s" / "config.toml").read_text()
+    assert 'model = "fit"' in cfg and "[depth.water_table]" in cfg
+
+
 def test_tier1_on_a_lon_lat_grid_against_pyproj_geodesic_area(rows):
     area, co, ch4 = _group(rows, "synthetic_tier1")
     # truth: pyproj Geod(ellps="WGS84").geometry_area_perimeter (Karney 2013 geodesics) of the scars;
