@@ -1,11 +1,13 @@
-"""The validation table: published figures the tool can reproduce, beside the tool's numbers.
+"""The validation table: the tool's numbers beside numbers from outside the code, by kind.
 
-:func:`build_rows` calls peatburn's science functions (and, for the synthetic-truth rows, the
-public API :func:`peatburn.run`) on the inputs of each published figure and returns one row per
-check. :func:`render_markdown` turns the rows into ``docs/validation.md``;
-``python -m peatburn.validation [--out PATH]`` writes it. ``tests/test_validation.py`` runs the
-builder, asserts that every row agrees within its stated tolerance, and that the page in the
-repository equals what this module renders now.
+:func:`build_rows` calls peatburn's science functions on the inputs of published figures and on
+published measurements, and the public API :func:`peatburn.run` on invented scenes with a known
+truth (survey, water table, Tier 1 on a lon/lat grid, a spread of burn depth); it returns one row
+per check. :func:`render_markdown` turns the rows into ``docs/validation.md``, ending with what
+is not validated; ``python -m peatburn.validation [--out PATH]`` writes it (exit status 1 when a
+check of the code differs). ``tests/test_validation.py`` runs the builder, asserts that every
+check of the code agrees within its stated tolerance, pins the result of every independent
+comparison, and that the page in the repository equals what this module renders now.
 
 A row is a dict::
 
@@ -20,7 +22,8 @@ A row is a dict::
     difference        tool - published [unit]
     tolerance         largest |difference| accepted [unit], justified in ``note``
     unit              unit of published, tool, difference and tolerance
-    status            "agrees" when |difference| <= tolerance, else "DIFFERS"
+    status            "agrees" when |difference| <= tolerance, else "DIFFERS"; an independent row
+                      whose measured value is recalled: "not counted (recalled)"
     note              why the tolerance is what it is; caveats
 
 The headline of the page counts rows and agreement per kind, never one total: an arithmetic
