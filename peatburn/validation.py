@@ -516,6 +516,19 @@ def _smoke_rows():
 # synthetic scene
 
 
+def _peat_and_factors_toml(bd, cf) -> str:
+    """The [peat] and [emission_factors] tables shared by the scenes' configurations."""
+    return f"""[peat]
+thickness = "thickness.tif"
+bulk_density = "{bd} g/cm^3"
+carbon_fraction = {cf}
+
+[emission_factors]
+smouldering = "smouldering_ipcc2013_wetlands"
+gwp = "AR6"
+"""
+
+
 def _terrain(dx, dy):
     """Invented bare-earth elevation [m] at offsets dx, dy [m] from a scene's corner: a gentle slope
     with ripples of 20-90 m wavelength (slopes in every aspect, which the co-registration needs)."""
@@ -665,15 +678,7 @@ interval_years = {interval}
 subsidence_rate = "{subsidence} m/yr"
 stable_buffer_m = 10
 
-[peat]
-thickness = "thickness.tif"
-bulk_density = "{bd} g/cm^3"
-carbon_fraction = {cf}
-
-[emission_factors]
-smouldering = "smouldering_ipcc2013_wetlands"
-gwp = "AR6"
-
+{_peat_and_factors_toml(bd, cf)}
 [uncertainty]
 draws = 0
 """, encoding="utf-8")
@@ -826,15 +831,7 @@ stable_buffer_m = 15
 depth = "wt.tif"
 model = "fit"
 
-[peat]
-thickness = "thickness.tif"
-bulk_density = "{bd} g/cm^3"
-carbon_fraction = {cf}
-
-[emission_factors]
-smouldering = "smouldering_ipcc2013_wetlands"
-gwp = "AR6"
-
+{_peat_and_factors_toml(bd, cf)}
 [[zones]]
 path = "scars.gpkg"
 id = "scar"
@@ -920,22 +917,14 @@ def synthetic_tier1_scene(folder, *, pixel_deg=0.0002, lon0=80.0, lat0=-45.0, sh
         perimeter_m += per
     # pixels cut by an edge: at most perimeter / (shorter side) x sqrt(2) for edges at any angle
     n_edge = perimeter_m / min(px_x, px_y) * math.sqrt(2.0)
-    (folder / "config.toml").write_text("""[run]
+    (folder / "config.toml").write_text(f"""[run]
 name = "validation Tier 1 scene"
 year = 2030
 
 [burned_area]
 path = "scars.gpkg"
 
-[peat]
-thickness = "thickness.tif"
-bulk_density = "0.1 g/cm^3"
-carbon_fraction = 0.55
-
-[emission_factors]
-smouldering = "smouldering_ipcc2013_wetlands"
-gwp = "AR6"
-
+{_peat_and_factors_toml(0.1, 0.55)}
 [uncertainty]
 draws = 0
 """, encoding="utf-8")
