@@ -192,7 +192,8 @@ GROUPS: dict[str, tuple[str, str]] = {
         "the error it makes on a scene whose errors are not the model's own. Expect an underestimate: "
         "the unsurveyed scars lie in the middle of the water-table range, where a straight line "
         "fitted to a saturating relation runs below it (on other scene seeds, 6-8, the errors were "
-        "-10 to +35 % against leave-scar-out errors of 18-32 %; seed 5 is the one shown, the first "
+        "-29 to +35 % against leave-scar-out errors of 18-32 %, always within twice them; seed 5 is "
+        "the one shown, the first "
         "tried).",
     ),
     "synthetic_tier1": (
