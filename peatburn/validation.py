@@ -513,7 +513,8 @@ def _smoke_rows():
                 tool, 2 * pm, "g/kg",
                 f"tolerance: 2 × the published ± {pm:g} g/kg; "
                 + ("within it" if abs(tool - pub) <= 2 * pm else
-                   f"the set's factor is {tool / pub:.1f} × the measurement")))
+                   f"the set's factor is {tool / pub:.1f} × the measurement")
+                + ("; the set's factor is recalled, unchecked" if fs.status.get(gas) == "recalled" else "")))
     return rows
 
 
