@@ -594,7 +594,6 @@ def synthetic_survey_scene(folder, *, shape=(140, 180), pixel=2.0, noise=0.05, o
         depth at the pixel centres).
     """
     import geopandas as gpd
-    import rasterio
     import shapely
     from rasterio.transform import from_origin
 
