@@ -33,7 +33,8 @@ def check_cmd(config, against):
     for key, info in inputs.rasters.items():
         aligned = "on grid" if (info.crs == g.crs and info.transform == g.transform) else "warped onto grid"
         click.echo(f"raster {key}: {info.path} ({info.width} x {info.height}, nodata {info.nodata}, {aligned})")
-    click.echo(f"burn scars: {len(inputs.scars.frame)} polygons from {cfg.burned_area}")
+    kind = "fires labelled in the raster mask" if inputs.burn_mask is not None else "polygons from"
+    click.echo(f"burn scars: {len(inputs.scars.frame)} {kind} {cfg.burned_area}")
     for z, layer, ids in inputs.zones:
         click.echo(f"zones {z.name}: {len(ids)} polygons, id field {z.id!r}")
     if cfg.uncertainty.draws:
