@@ -16,7 +16,7 @@ by an edge or a corner belong to one fire), labelled with :func:`skimage.measure
 References
 ----------
 van der Walt, S. et al. (2014). scikit-image: image processing in Python. PeerJ 2:e453.
-Soille, P. (2003). Morphological Image Analysis, 2nd ed. Springer (opening, closing: ch. 4).
+Soille, P. (2003). Morphological Image Analysis, 2nd ed. Springer (opening, closing: ch. 4; recalled).
 """
 
 from __future__ import annotations

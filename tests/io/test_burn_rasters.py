@@ -85,14 +85,15 @@ def test_mask_fires_match_the_components(mask_scene, scene):
 def test_run_from_mask_equals_run_from_polygons(mask_scene, scene_run, tmp_path):
     """Same burned pixels -> same burned area per zone (to rounding); the carbon differs only through
     the stable ground (outside the scars, buffered: the pixel outlines buffer slightly differently from
-    the smooth polygons), so the co-registration moves a little: within 0.5 % here."""
+    the smooth polygons), so the co-registration moves a little: within 0.1 % (measured 0.005-0.008 %
+    per zone on this scene when the test was written; the bound leaves room for other GDAL builds)."""
     folder, _, _ = mask_scene
     r = peatburn.run(folder / "config.toml", tmp_path / "out")
     assert len(r.zones) == len(scene_run.zones)
     for a, b in zip(scene_run.zones, r.zones):
         assert (a["layer"], a["zone"]) == (b["layer"], b["zone"])
         assert b["burned_area_ha"] == pytest.approx(a["burned_area_ha"], rel=1e-9, abs=1e-12)
-        assert b["carbon_smouldering_t"] == pytest.approx(a["carbon_smouldering_t"], rel=5e-3, abs=1e-9)
+        assert b["carbon_smouldering_t"] == pytest.approx(a["carbon_smouldering_t"], rel=1e-3, abs=1e-9)
     with open(r.out_dir / "fires.csv", newline="") as fh:
         rows = list(csv.DictReader(fh))
     assert [row["fire"] for row in rows] == ["F0001", "F0002"]
