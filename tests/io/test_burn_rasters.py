@@ -172,3 +172,51 @@ def test_config_keys_belong_to_their_kind_of_input(tmp_path):
     c = load_config(tmp_path / "c.toml").burn_mask
     assert (c.close_m, c.min_area_ha, c.min_hole_ha, c.burned_values) == (pytest.approx(30), pytest.approx(0.2),
                                                                          None, (1, 2))
+
+
+def test_tier1_run_from_a_mask_with_dates(tmp_path):
+    """A Tier-1-only run whose grid is run.crs and run.resolution over the mask's fires. Fire F0001
+    (12 px of 100 m2) burned from 30 Dec 2029 to 2 Jan 2030, F0002 (4 px) on 5 Jan 2030 (YYYYMMDD
+    codes). Hand arithmetic: carbon = 353 t/ha (IPCC 2013 Wetlands Supplement Table 2.6, recalled,
+    unchecked) x 0.1 kg m-2 per t/ha x f_C x area; F0001's spread evenly over its 4 days, so half of it
+    in 2029; intervals are drawn per fire."""
+    from conftest import X0, Y0
+
+    t = rasterio.transform.from_origin(X0, Y0, 10, 10)
+    m = np.zeros((8, 10), np.uint8)
+    m[1:4, 1:5] = 1  # 12 px
+    m[5:7, 7:9] = 1  # 4 px
+    d = np.zeros((8, 10), np.int32)
+    d[1:4, 1:5] = 20291230
+    d[3, 4] = 20300102
+    d[1, 2] = 20291231
+    d[5:7, 7:9] = 20300105
+    write_mask(tmp_path / "mask.tif", m, t, nodata=255)
+    write_mask(tmp_path / "dates.tif", d, t, dtype="int32", nodata=0)
+    (tmp_path / "run.toml").write_text(f"""[run]
+year = 2030
+crs = "EPSG:{EPSG}"
+resolution = 10
+[burned_area]
+path = "mask.tif"
+date_path = "dates.tif"
+[peat]
+bulk_density = "0.1 g/cm^3"
+carbon_fraction = 0.55
+[uncertainty]
+draws = 200
+""")
+    r = peatburn.run(tmp_path / "run.toml", tmp_path / "out")
+    per_m2 = 353 * 0.1 * 0.55 / 1000  # t C per m2
+    assert r.total["burned_area_ha"] == pytest.approx(16 * 100 / 1e4, rel=1e-12)
+    assert r.total["carbon_smouldering_t"] == pytest.approx(per_m2 * 1600, rel=1e-9)
+    with open(r.out_dir / "fires.csv", newline="") as fh:
+        fires = {row["fire"]: row for row in csv.DictReader(fh)}
+    assert (fires["F0001"]["fire_start"], fires["F0001"]["fire_end"]) == ("2029-12-30", "2030-01-02")
+    assert (fires["F0002"]["fire_start"], fires["F0002"]["fire_end"]) == ("2030-01-05", "2030-01-05")
+    assert float(fires["F0001"]["carbon_smouldering_t_lo"]) < float(fires["F0001"]["carbon_smouldering_t"])
+    with open(r.out_dir / "daily.csv", newline="") as fh:
+        daily = [row for row in csv.DictReader(fh) if row["phase"] == "smouldering"]
+    assert [row["date"] for row in daily] == ["2029-12-30", "2029-12-31", "2030-01-01", "2030-01-02", "2030-01-05"]
+    assert float(daily[0]["carbon_t"]) == pytest.approx(per_m2 * 1200 / 4, rel=1e-9)
+    assert float(daily[-1]["carbon_t"]) == pytest.approx(per_m2 * 400, rel=1e-9)
