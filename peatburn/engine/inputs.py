@@ -42,7 +42,8 @@ def open_inputs(cfg: RunConfig) -> Inputs:
     """Open and check every input; build the run grid.
 
     The grid is the pre-fire survey's by default; without a survey, the water-table raster's, then
-    the peat rasters'; else ``run.crs`` and ``run.resolution`` over the burn scars.
+    the peat rasters'; else ``run.crs`` and ``run.resolution`` over the burn scars; else a burned-area
+    mask's own grid.
     """
     rasters = {}
     if cfg.survey is not None:
@@ -156,8 +157,13 @@ def _note_rejected(notes: list, what: str, points) -> None:
 
 
 def _run_grid(cfg: RunConfig, rasters: dict, notes: list, mask=None) -> RunGrid:
-    for key in ("depth.survey.pre", "depth.water_table.depth", "peat.thickness", "peat.bulk_density",
-                "peat.carbon_fraction"):
+    keys = ("depth.survey.pre", "depth.water_table.depth", "peat.thickness", "peat.bulk_density",
+            "peat.carbon_fraction")
+    if mask is not None and not (cfg.crs and cfg.resolution) and not any(k in rasters for k in keys):
+        # no other raster and no stated grid: the burned-area mask's own grid
+        rasters = {**rasters, "burned_area.path": inspect_raster(cfg.burned_area, "burned_area.path")}
+        keys += ("burned_area.path",)
+    for key in keys:
         if key in rasters:
             info = rasters[key]
             run_crs = cfg.crs
@@ -181,7 +187,7 @@ def _run_grid(cfg: RunConfig, rasters: dict, notes: list, mask=None) -> RunGrid:
 
         return RunGrid(normalise_crs(cfg.crs, "run.crs"), _A(r, 0, minx, 0, -r, maxy),
                        max(1, int(round((maxx - minx) / r))), max(1, int(round((maxy - miny) / r))))
-    raise GridError("no raster defines the run grid (no survey, water-table raster or peat raster); "
+    raise GridError("no raster defines the run grid (no survey, water-table raster, peat raster or burn mask); "
                     "set run.crs and run.resolution")
 
 

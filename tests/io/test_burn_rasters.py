@@ -220,3 +220,25 @@ draws = 200
     assert [row["date"] for row in daily] == ["2029-12-30", "2029-12-31", "2030-01-01", "2030-01-02", "2030-01-05"]
     assert float(daily[0]["carbon_t"]) == pytest.approx(per_m2 * 1200 / 4, rel=1e-9)
     assert float(daily[-1]["carbon_t"]) == pytest.approx(per_m2 * 400, rel=1e-9)
+
+
+def test_the_mask_gives_the_grid_when_nothing_else_does(tmp_path):
+    """No survey, water-table or peat raster and no run.crs/run.resolution: the grid is the mask's
+    (10 x 8 px of 10 m); a lon/lat mask gets its UTM zone, as a lon/lat survey would."""
+    from conftest import X0, Y0
+    from peatburn.cli.main import cli
+
+    m = np.zeros((8, 10), np.uint8)
+    m[2:5, 2:6] = 1
+    write_mask(tmp_path / "mask.tif", m, rasterio.transform.from_origin(X0, Y0, 10, 10))
+    write_mask(tmp_path / "ll.tif", m, rasterio.transform.from_origin(111.0, -12.2, 0.0001, 0.0001), crs="EPSG:4326")
+    for name in ("mask.tif", "ll.tif"):
+        (tmp_path / f"{name}.toml").write_text(f'[run]\nyear = 2030\n[burned_area]\npath = "{name}"\n'
+                                               '[peat]\nbulk_density = 0.1\ncarbon_fraction = 0.55\n')
+    res = CliRunner().invoke(cli, ["check", str(tmp_path / "mask.tif.toml")])
+    assert res.exit_code == 0, res.output
+    assert f"grid: 10 x 8 px of 10 x 10 in EPSG:{EPSG}" in res.output
+    assert "burn scars: 1 fires labelled in the raster mask" in res.output
+    res = CliRunner().invoke(cli, ["check", str(tmp_path / "ll.tif.toml")])
+    assert res.exit_code == 0, res.output
+    assert "EPSG:32749" in res.output and "geographic CRS" in res.output  # 111 E, 12.2 S: UTM zone 49 S
