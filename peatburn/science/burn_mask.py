@@ -91,8 +91,8 @@ def clean_mask(burned, valid=None, close=None, open_=None, min_object_px: int = 
         Burned patches (8-connected) of fewer pixels are removed
         (:func:`skimage.morphology.remove_small_objects`).
     min_hole_px : int
-        Unburned patches (4-connected) of fewer pixels are filled
-        (:func:`skimage.morphology.remove_small_holes`); a patch at the raster's edge counts too.
+        Enclosed unburned patches (4-connected) of fewer pixels are filled; a patch open to the
+        raster's edge is not a hole.
 
     Returns
     -------
@@ -105,9 +105,9 @@ def clean_mask(burned, valid=None, close=None, open_=None, min_object_px: int = 
     if open_ is not None:
         out = _binary("opening", out, open_)
     if min_object_px > 1:
-        out = _remove_small(morphology.remove_small_objects, out, int(min_object_px), 2)
+        out = _remove_small_objects(out, int(min_object_px))
     if min_hole_px > 1:
-        out = _remove_small(morphology.remove_small_holes, out, int(min_hole_px), 1)
+        out = _fill_holes(out, int(min_hole_px))
     if valid is not None:
         out &= np.asarray(valid, dtype=bool)
     return out
@@ -123,13 +123,24 @@ def _binary(op: str, mask, fp):
     return np.asarray(getattr(morphology, op)(padded, fp), dtype=bool)[r:-r, r:-r]
 
 
-def _remove_small(func, mask, n_px: int, connectivity: int):
-    """Drop components of fewer than ``n_px`` pixels, on scikit-image before and after 0.26 (which
-    renamed ``min_size``/``area_threshold``, "fewer than", to ``max_size``, "at most")."""
+def _fill_holes(mask, n_px: int):
+    """Fill the unburned patches (4-connected, :func:`skimage.measure.label`) of fewer than ``n_px``
+    pixels that are enclosed: a patch open to the raster's edge is not a hole (the ground beyond the
+    edge is unknown). What :func:`skimage.morphology.remove_small_holes` does, less the edge patches."""
+    bg = measure.label(~mask, connectivity=1)
+    small = np.bincount(bg.ravel()) < n_px
+    small[0] = False  # label 0: the burned pixels
+    small[np.concatenate([bg[0], bg[-1], bg[:, 0], bg[:, -1]])] = False
+    return mask | small[bg]
+
+
+def _remove_small_objects(mask, n_px: int):
+    """Drop burned patches (8-connected) of fewer than ``n_px`` pixels, on scikit-image before and
+    after 0.26 (which renamed ``min_size``, "fewer than", to ``max_size``, "at most")."""
+    func = morphology.remove_small_objects
     if "max_size" in inspect.signature(func).parameters:
-        return func(mask, max_size=n_px - 1, connectivity=connectivity)
-    key = "min_size" if "min_size" in inspect.signature(func).parameters else "area_threshold"
-    return func(mask, connectivity=connectivity, **{key: n_px})
+        return func(mask, max_size=n_px - 1, connectivity=2)
+    return func(mask, min_size=n_px, connectivity=2)
 
 
 def label_fires(mask) -> tuple[np.ndarray, int]:

@@ -68,6 +68,10 @@ def test_speckle_removed_by_min_area_and_hole_filled():
     filled = bm.clean_mask(m, min_hole_px=5)
     assert filled[2, 2:6].all() and filled.sum() == m.sum() + 4
     assert (bm.clean_mask(m, min_hole_px=4) == m).all()
+    # an unburned notch open to the raster's edge is not a hole: a 2 px notch stays at any size
+    notch = np.ones((4, 4), bool)
+    notch[0, 1:3] = False
+    assert (bm.clean_mask(notch, min_hole_px=100) == notch).all()
     # a hole that is nodata stays unburned: filling never spreads a fire onto a pixel without data
     valid = np.ones_like(m)
     valid[2, 3] = False
@@ -146,3 +150,11 @@ def test_fire_count_matches_scipy_under_8_connectivity(mask):
     if n:
         pairs = np.unique(np.stack([labels[mask], ref[mask]]), axis=1)
         assert pairs.shape[1] == n
+
+
+@settings(max_examples=40, deadline=None)
+@given(arrays(bool, st.tuples(st.integers(1, 20), st.integers(1, 20))))
+def test_filling_every_hole_matches_scipy_fill_holes(mask):
+    """With a hole size above the raster's, every enclosed unburned patch is filled: exactly
+    scipy.ndimage.binary_fill_holes (4-connected background, the edge open), an outside reference."""
+    assert (bm.clean_mask(mask, min_hole_px=mask.size + 1) == ndimage.binary_fill_holes(mask)).all()
