@@ -158,3 +158,13 @@ def test_filling_every_hole_matches_scipy_fill_holes(mask):
     """With a hole size above the raster's, every enclosed unburned patch is filled: exactly
     scipy.ndimage.binary_fill_holes (4-connected background, the edge open), an outside reference."""
     assert (bm.clean_mask(mask, min_hole_px=mask.size + 1) == ndimage.binary_fill_holes(mask)).all()
+
+
+@settings(max_examples=40, deadline=None)
+@given(arrays(bool, st.tuples(st.integers(1, 20), st.integers(1, 20))), st.integers(2, 6))
+def test_minimum_area_keeps_the_components_scipy_counts_large_enough(mask, k):
+    """Burned patches of fewer than k px go: scipy.ndimage.label (3 x 3 structure) sizes as the reference."""
+    ref, _ = ndimage.label(mask, structure=EIGHT)
+    keep = np.bincount(ref.ravel()) >= k
+    keep[0] = False
+    assert (bm.clean_mask(mask, min_object_px=k) == keep[ref]).all()
