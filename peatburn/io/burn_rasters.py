@@ -7,8 +7,8 @@ pixels appear row by row, and its first and last day of burning when a day-of-bu
 given. The layer then goes to the run CRS like any burn-scar polygon file, so zones, fires.csv,
 the timeline and the intervals work on it unchanged.
 
-Labelling is a whole-raster operation: the mask is read at once (about 16 bytes per pixel of the
-mask while it is labelled and polygonised).
+Labelling is a whole-raster operation: the mask is read at once (11 bytes per pixel at the peak,
+19 with a closing and a minimum area; measured on 4000 x 4000 px, docs/method.md 1).
 """
 
 from __future__ import annotations
