@@ -36,7 +36,8 @@ def check_cmd(config, against):
     kind = "fires labelled in the raster mask" if inputs.burn_mask is not None else "polygons from"
     click.echo(f"burn scars: {len(inputs.scars.frame)} {kind} {cfg.burned_area}")
     for z, layer, ids in inputs.zones:
-        click.echo(f"zones {z.name}: {len(ids)} polygons, id field {z.id!r}")
+        click.echo(f"zones {z.name}: {len(ids)} polygons, id field {z.id!r}"
+                   f"{'; a dossier per burned zone (dossiers/)' if z.dossiers else ''}")
     if cfg.uncertainty.draws:
         from ..engine.intervals import draw_cost
 
