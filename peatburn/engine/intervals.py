@@ -35,25 +35,39 @@ SUM_MAP = {
 
 
 def survey_error_model(alignment, pixel_area_m2: float, range_override: float | None = None) -> dict:
-    """Per-pixel sigma [m], spherical range [m] and nugget share of the survey error, from a
-    variogram of the stable-ground residuals after co-registration; and the residual bias sd."""
+    """The survey error model of a run, from the stable-ground residuals after co-registration.
+
+    Per-pixel sigma = NMAD of the residuals (Höhle & Höhle 2009); a nugget and two spherical
+    components (short and long range) fitted to their variogram
+    (:func:`peatburn.science.variogram.fit_spherical_sum`; Hugonnet et al. 2022, recalled), scaled so
+    that the total sill is sigma^2 (the fit gives the shares and ranges; the NMAD resists outliers and
+    holds long-range variance the variogram's lags do not reach). With ``range_override`` one
+    spherical component of sill sigma^2 and that range. The zone sd and the run-wide residual bias
+    follow :func:`peatburn.science.zone_error.coregistered_zone_sd` (no double counting of the
+    long-range error in a separate bias)."""
+    from ..science import zone_error
+
     x, y, r = alignment.stable_sample
     sigma = float(alignment.nmad_after)
-    fit = {"nugget": 0.0, "sill": sigma ** 2, "range_m": float("nan")}
-    if range_override is None and len(r) >= 200:
+    pix_side = math.sqrt(pixel_area_m2)
+    nugget, comps, fit = 0.0, [(sigma**2, range_override if range_override is not None else pix_side)], None
+    if range_override is None and len(r) >= 200 and sigma > 0:
         extent = float(max(np.ptp(x), np.ptp(y)))
-        lags, gamma, counts = variogram.empirical_variogram(x, y, r, max_lag=max(extent / 3, 10 * math.sqrt(pixel_area_m2)))
-        fit = variogram.fit_spherical(lags, gamma, counts)
-    rng = range_override if range_override is not None else float(fit["range_m"])
-    if not math.isfinite(rng) or rng <= 0:
-        rng = math.sqrt(pixel_area_m2)  # no detectable correlation: one pixel
-    nug = float(fit["nugget"] / fit["sill"]) if fit.get("sill") else 0.0
-    nug = min(max(nug, 0.0), 1.0)
+        lags, gamma, counts = variogram.empirical_variogram(x, y, r, max_lag=max(extent / 3, 10 * pix_side))
+        fit = variogram.fit_spherical_sum(lags, gamma, counts)
+        nugget, comps = zone_error.components_from_fit(fit, sigma)
+    nugget, comps = zone_error.check_components(nugget, comps)
     stable_area = alignment.n_stable_sample * pixel_area_m2
-    bias = float(unc.residual_bias_sd(sigma, rng, stable_area, nugget_fraction=nug, pixel_area_m2=pixel_area_m2,
-                                      estimator="median"))
-    return {"sigma_m": sigma, "range_m": rng, "nugget_fraction": nug, "bias_sd_m": bias,
-            "stable_area_m2": stable_area, "variogram": {k: float(v) for k, v in fit.items()}}
+    _, bias = zone_error.coregistered_zone_sd(0.0, stable_area, nugget, comps, pixel_area_m2)
+    # the single-range summary kept for the water-table residual range: the range of the component of largest sill
+    main = max(comps, key=lambda c: c[0]) if comps else (0.0, pix_side)
+    return {"sigma_m": sigma, "range_m": float(main[1]), "nugget_fraction": nugget / sigma**2 if sigma > 0 else 1.0,
+            "nugget_m2": nugget, "components": [{"partial_sill_m2": c, "range_m": a} for c, a in comps],
+            "bias_sd_m": float(bias), "stable_area_m2": stable_area,
+            "model": ("nugget + two spherical components fitted on stable ground (Hugonnet et al. 2022), total sill = "
+                      "NMAD^2" if fit is not None else "one spherical component of sill NMAD^2 and the given or a "
+                      "one-pixel range"),
+            "variogram": None if fit is None else [{k: float(v) for k, v in d.items()} for d in fit]}
 
 
 def subsidence_map_sd(cfg) -> float:
@@ -235,12 +249,20 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
     assert rows[row_i]["layer"] == TOTAL_LAYER
     _fill(rows[row_i], iv, 0)
     con = unc.contributions(ms, params, quantity="carbon_kg")
+    calibration = None
+    if alignment is not None and survey and len(alignment.stable_sample[2]):
+        from .survey_calibration import patch_check, typical_areas
+
+        pix = float(np.mean(grid.pixel_area(grid.windows(cfg.block_size)[0])))
+        calibration = patch_check(alignment, survey, pix, typical_areas(sums, SUM_MAP["area_m2"], SCAR_LAYER),
+                                  seed=seed)
     return {
         "method": "Monte Carlo at zone level: sums reduced once per zone in the block pass, draws of the run-wide "
                   "and zone-level sources (docs/uncertainty.md); 95 % interval = 2.5 and 97.5 percentiles",
         "draws": draws, "seed": seed,
         "sources": [s.to_dict() for s in sources],
         "survey_error": survey,
+        "survey_calibration": calibration,
         "contributions": {s: _f(v[0]) for s, v in con.items()},
         "contributions_by_zone": per_zone,
         "contributions_quantity": "carbon_smouldering_t",

@@ -671,6 +671,10 @@ def _qa_rows(qa: dict) -> list[tuple[str, str]]:
     if _finite(qa.get("share_of_modelled_area_extrapolated")) is not None:
         rows.append(("water-table-modelled area outside the fitted water-table range [%]",
                      fmt_pct(qa.get("share_of_modelled_area_extrapolated"))))
+    for c in qa.get("survey_error_calibration") or []:
+        # the patch check of the survey error model (engine.survey_calibration): ratio near 1 = calibrated
+        rows.append((f"survey error check, {c['scope']}: patch RMS / model sd [-]",
+                     f"{fmt_num(c.get('ratio'))} — {c.get('sentence', '')}"))
     return rows
 
 
