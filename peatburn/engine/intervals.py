@@ -35,39 +35,15 @@ SUM_MAP = {
 
 
 def survey_error_model(alignment, pixel_area_m2: float, range_override: float | None = None) -> dict:
-    """The survey error model of a run, from the stable-ground residuals after co-registration.
-
-    Per-pixel sigma = NMAD of the residuals (Höhle & Höhle 2009); a nugget and two spherical
-    components (short and long range) fitted to their variogram
-    (:func:`peatburn.science.variogram.fit_spherical_sum`; Hugonnet et al. 2022, recalled), scaled so
-    that the total sill is sigma^2 (the fit gives the shares and ranges; the NMAD resists outliers and
-    holds long-range variance the variogram's lags do not reach). With ``range_override`` one
-    spherical component of sill sigma^2 and that range. The zone sd and the run-wide residual bias
-    follow :func:`peatburn.science.zone_error.coregistered_zone_sd` (no double counting of the
-    long-range error in a separate bias)."""
+    """The survey error model of a run from the stable-ground residuals after co-registration
+    (:func:`peatburn.science.zone_error.model_from_stable_sample`: planar trend, nugget and two
+    spherical ranges; the residual bias without counting the long-range error twice)."""
     from ..science import zone_error
 
     x, y, r = alignment.stable_sample
-    sigma = float(alignment.nmad_after)
-    pix_side = math.sqrt(pixel_area_m2)
-    nugget, comps, fit = 0.0, [(sigma**2, range_override if range_override is not None else pix_side)], None
-    if range_override is None and len(r) >= 200 and sigma > 0:
-        extent = float(max(np.ptp(x), np.ptp(y)))
-        lags, gamma, counts = variogram.empirical_variogram(x, y, r, max_lag=max(extent / 3, 10 * pix_side))
-        fit = variogram.fit_spherical_sum(lags, gamma, counts)
-        nugget, comps = zone_error.components_from_fit(fit, sigma)
-    nugget, comps = zone_error.check_components(nugget, comps)
-    stable_area = alignment.n_stable_sample * pixel_area_m2
-    _, bias = zone_error.coregistered_zone_sd(0.0, stable_area, nugget, comps, pixel_area_m2)
-    # the single-range summary kept for the water-table residual range: the range of the component of largest sill
-    main = max(comps, key=lambda c: c[0]) if comps else (0.0, pix_side)
-    return {"sigma_m": sigma, "range_m": float(main[1]), "nugget_fraction": nugget / sigma**2 if sigma > 0 else 1.0,
-            "nugget_m2": nugget, "components": [{"partial_sill_m2": c, "range_m": a} for c, a in comps],
-            "bias_sd_m": float(bias), "stable_area_m2": stable_area,
-            "model": ("nugget + two spherical components fitted on stable ground (Hugonnet et al. 2022), total sill = "
-                      "NMAD^2" if fit is not None else "one spherical component of sill NMAD^2 and the given or a "
-                      "one-pixel range"),
-            "variogram": None if fit is None else [{k: float(v) for k, v in d.items()} for d in fit]}
+    return zone_error.model_from_stable_sample(x, y, r, pixel_area_m2=pixel_area_m2,
+                                               stable_area_m2=alignment.n_stable_sample * pixel_area_m2,
+                                               sigma=float(alignment.nmad_after), range_m=range_override)
 
 
 def subsidence_map_sd(cfg) -> float:

@@ -50,7 +50,7 @@ def patch_check(alignment, survey: dict, pixel_area_m2: float, areas: dict, seed
         if not (area > 0 and math.isfinite(area)):
             continue
         zsd, bsd = zone_error.coregistered_zone_sd(area, survey["stable_area_m2"], survey["nugget_m2"], comps,
-                                                   pixel_area_m2)
+                                                   pixel_area_m2, survey.get("trend_sd_m", 0.0))
         model = float(math.hypot(float(zsd), bsd))
         rms, n, se = patches.sampled_patch_rms(x, y, r, math.sqrt(area), pixel_size_m=math.sqrt(pixel_area_m2),
                                            sample_fraction=frac, n_patches=N_PATCHES, seed=seed)

@@ -55,7 +55,12 @@ import numpy as np
 from ..errors import PhysicalRangeError
 from .uncertainty import correlated_sum_sd
 
-__all__ = ["check_components", "components_from_fit", "zone_mean_sd", "stable_median_sd", "coregistered_zone_sd"]
+__all__ = ["check_components", "components_from_fit", "zone_mean_sd", "stable_median_sd", "coregistered_zone_sd",
+           "model_from_stable_sample", "SHORT_LAG_PIXELS"]
+
+#: Reach of the short-lag variogram bins [pixels] (:func:`peatburn.science.variogram.multi_scale_variogram`):
+#: 1-pixel bins that tell pixel noise (nugget) from a short-range correlation.
+SHORT_LAG_PIXELS = 20
 
 
 def check_components(nugget, components):
@@ -77,11 +82,13 @@ def check_components(nugget, components):
 
 def components_from_fit(fit, sigma):
     """Nugget [m2] and spherical components ``[(c_k [m2], a_k [m])]`` from a multi-range fit, scaled
-    so that the total sill is ``sigma^2``.
+    so that the total sill is the larger of ``sigma^2`` and the fitted total sill.
 
-    The fit (:func:`peatburn.science.variogram.fit_spherical_sum`) gives the shares and ranges; the
-    per-pixel sigma is the NMAD of the stable-ground residuals (Höhle & Höhle 2009), which resists
-    outliers and holds variance at lags beyond the variogram's reach (a trend). On the synthetic
+    The fit (:func:`peatburn.science.variogram.fit_spherical_sum`) gives the shares and ranges. The
+    per-pixel sigma is the NMAD of the stable-ground residuals (Höhle & Höhle 2009): it holds
+    variance at lags beyond the variogram's reach (a trend), but it is a robust scale and falls below
+    the standard deviation of heavy-tailed error (a residual shift times the terrain slope), while
+    the error of a zone mean follows the variance. The larger of the two keeps both. On the synthetic
     scenes of tests/science/test_zone_error_calibration.py the scaling moves predicted / realised
     zone sd by at most 0.1 except for a 0.3 m tilt, where it lifts 0.73-0.91 to 0.81-1.01.
 
@@ -90,7 +97,7 @@ def components_from_fit(fit, sigma):
     fit : list of dict
         ``[{"nugget"}, {"partial_sill", "range_m"}, ...]`` [m2, m].
     sigma : float
-        Per-pixel sd [m].
+        Per-pixel sd [m] (the NMAD).
 
     Returns
     -------
@@ -105,11 +112,11 @@ def components_from_fit(fit, sigma):
         raise PhysicalRangeError(f"components_from_fit: sigma must be a finite sd >= 0 m, got {sigma!r}")
     if not total > 0:
         return sig2, []
-    k = sig2 / total
+    k = max(sig2 / total, 1.0)
     return check_components(c0 * k, [(c * k, a) for c, a in comps])
 
 
-def zone_mean_sd(area_m2, nugget, components, pixel_area_m2):
+def zone_mean_sd(area_m2, nugget, components, pixel_area_m2, trend_sd=0.0):
     """Standard deviation of the mean survey error over an area [m] (before co-registration).
 
     ``sqrt(c0 / n + sum_k c_k R(L / a_k))``, R the Rolstad et al. (2009) disc average of the
@@ -126,6 +133,10 @@ def zone_mean_sd(area_m2, nugget, components, pixel_area_m2):
         Spherical components (partial sill c_k [m2], range a_k [m]).
     pixel_area_m2 : float
         Pixel area [m2].
+    trend_sd : float
+        sd [m] of a planar trend left in the surveys (no tilt correction) over the stable ground: the
+        plane's value at a zone does not average out over the zone, so it adds ``trend_sd^2`` whatever
+        the area (a zone's position is unknown to the zone sums: drawn per zone with this sd).
 
     Returns
     -------
@@ -143,7 +154,10 @@ def zone_mean_sd(area_m2, nugget, components, pixel_area_m2):
         raise PhysicalRangeError("zone_mean_sd: pixel_area_m2 must be > 0")
     if np.any(~(area >= 0)):
         raise PhysicalRangeError("zone_mean_sd: areas must be >= 0 m2")
-    var = c0 / np.maximum(area / pix, 1.0)
+    t = float(trend_sd)
+    if not (math.isfinite(t) and t >= 0):
+        raise PhysicalRangeError(f"zone_mean_sd: trend_sd must be a finite sd >= 0 m, got {trend_sd!r}")
+    var = c0 / np.maximum(area / pix, 1.0) + t * t
     for c, a in comps:
         var = var + correlated_sum_sd(math.sqrt(c), a, area) ** 2
     return np.sqrt(var)
@@ -196,19 +210,97 @@ def stable_median_sd(stable_area_m2, nugget, components, pixel_area_m2, estimato
     return math.sqrt(var)
 
 
-def coregistered_zone_sd(area_m2, stable_area_m2, nugget, components, pixel_area_m2):
+def coregistered_zone_sd(area_m2, stable_area_m2, nugget, components, pixel_area_m2, trend_sd=0.0):
     """Zone-level and run-wide parts of the zone-mean survey error after co-registration [m].
 
     Returns ``(zone_sd, bias_sd)``: ``zone_sd = zone_mean_sd(area)`` per zone and
     ``bias_sd = sqrt(V_S,med - V_S,mean)`` (one value), so that
     ``zone_sd^2 + bias_sd^2 = V_z + V_S,med - 2 Cov`` with ``Cov = V_S,mean / 2`` (the midpoint
-    between a zone far from the stable ground and zones spread among it; module docstring).
+    between a zone far from the stable ground and zones spread among it; module docstring). A planar
+    trend (``trend_sd``) enters the zone part only: the median removes its centre.
 
     References
     ----------
     Rolstad et al. (2009); Hugonnet et al. (2022); Sen (1972) (recalled, unchecked).
     """
-    zone = zone_mean_sd(area_m2, nugget, components, pixel_area_m2)
+    zone = zone_mean_sd(area_m2, nugget, components, pixel_area_m2, trend_sd)
     med = stable_median_sd(stable_area_m2, nugget, components, pixel_area_m2, "median")
     mean = stable_median_sd(stable_area_m2, nugget, components, pixel_area_m2, "mean")
     return zone, math.sqrt(max(med**2 - mean**2, 0.0))
+
+
+def model_from_stable_sample(x, y, residuals, *, pixel_area_m2, stable_area_m2, sigma=None, range_m=None, seed=0):
+    """The survey error model from a sample of stable-ground residuals after co-registration.
+
+    1. A least-squares plane is fitted to the residuals
+       (:func:`peatburn.science.coregistration.fit_plane`): a tilt that co-registration left (no
+       ``depth.survey.tilt``) is a trend, not a stationary error, and a variogram over a third of the
+       scene sees only part of it. Its sd over the sample is ``trend_sd`` (near 0 without a trend or
+       after a tilt correction).
+    2. The residuals less the plane: NMAD sigma (Höhle & Höhle 2009), a variogram with short and long
+       lags (:func:`peatburn.science.variogram.multi_scale_variogram`), a nugget and two spherical
+       components (:func:`peatburn.science.variogram.fit_spherical_sum`) scaled by
+       :func:`components_from_fit`.
+    3. With ``range_m`` (the user's correlation range), one spherical component of sill sigma^2 and
+       that range instead; with too few points (< 200), one of a pixel's range.
+
+    Parameters
+    ----------
+    x, y, residuals : array_like
+        Stable-ground sample [m].
+    pixel_area_m2, stable_area_m2 : float
+        Pixel area and the stable area the co-registration used [m2].
+    sigma : float, optional
+        Per-pixel sd [m] to use when the sample is too small for a fit (default: NMAD of the sample).
+    range_m : float, optional
+        Fixed spherical range [m].
+    seed : int
+        Seed of the pair sampling.
+
+    Returns
+    -------
+    dict
+        ``sigma_m``, ``nugget_m2``, ``components`` (list of ``{"partial_sill_m2", "range_m"}``),
+        ``trend_sd_m``, ``bias_sd_m`` (run-wide part, :func:`coregistered_zone_sd`), ``stable_area_m2``,
+        ``range_m`` and ``nugget_fraction`` (a one-range summary: the component of largest sill),
+        ``model`` (words), ``variogram`` (the raw fit or None).
+
+    References
+    ----------
+    Hugonnet et al. (2022) (recalled, unchecked); Rolstad et al. (2009); Höhle, J. & Höhle, M. (2009).
+    ISPRS J. Photogramm. Remote Sens. 64:398-406.
+    """
+    from . import variogram
+    from .coregistration import fit_plane, plane
+    from .survey import nmad
+
+    x = np.asarray(x, dtype="float64")
+    y = np.asarray(y, dtype="float64")
+    r = np.asarray(residuals, dtype="float64")
+    pix_side = math.sqrt(float(pixel_area_m2))
+    trend_sd, fit = 0.0, None
+    if range_m is None and r.size >= 200:
+        coef = fit_plane(x, y, r)
+        p = plane(x, y, coef)
+        trend_sd = float(np.std(p))
+        r = r - p
+        sig = float(nmad(r))
+        extent = float(max(np.ptp(x), np.ptp(y)))
+        lags, gamma, counts = variogram.multi_scale_variogram(
+            x, y, r, short_lag=SHORT_LAG_PIXELS * pix_side, max_lag=max(extent / 3, 10 * pix_side), seed=seed)
+        fit = variogram.fit_spherical_sum(lags, gamma, counts)
+        nugget, comps = components_from_fit(fit, sig)
+    else:
+        sig = float(nmad(r)) if sigma is None else float(sigma)
+        nugget, comps = check_components(0.0, [(sig**2, range_m if range_m is not None else pix_side)])
+    _, bias = coregistered_zone_sd(0.0, stable_area_m2, nugget, comps, pixel_area_m2)
+    total = nugget + sum(c for c, _ in comps)
+    main = max(comps, key=lambda c: c[0]) if comps else (0.0, pix_side)
+    return {"sigma_m": math.sqrt(total), "nugget_m2": nugget,
+            "components": [{"partial_sill_m2": c, "range_m": a} for c, a in comps],
+            "trend_sd_m": trend_sd, "bias_sd_m": float(bias), "stable_area_m2": float(stable_area_m2),
+            "range_m": float(main[1]), "nugget_fraction": nugget / total if total > 0 else 1.0,
+            "model": ("planar trend + nugget + two spherical components fitted on stable ground (Hugonnet et al. "
+                      "2022); total sill the larger of NMAD^2 and the fitted sill" if fit is not None else
+                      "one spherical component of sill sigma^2 and the given or a one-pixel range"),
+            "variogram": None if fit is None else [{k: float(v) for k, v in d.items()} for d in fit]}

@@ -65,6 +65,9 @@ def test_limits_and_median():
 
 def test_components_scaled_to_the_pixel_sd():
     fit = [{"nugget": 0.01}, {"partial_sill": 0.02, "range_m": 30.0}, {"partial_sill": 0.01, "range_m": 500.0}]
-    c0, comps = ze.components_from_fit(fit, 0.1)
-    assert c0 + sum(c for c, _ in comps) == pytest.approx(0.01)
-    assert c0 == pytest.approx(0.0025) and comps == [(pytest.approx(0.005), 30.0), (pytest.approx(0.0025), 500.0)]
+    c0, comps = ze.components_from_fit(fit, 0.4)  # sigma^2 = 0.16 = 4 x the fitted 0.04
+    assert c0 + sum(c for c, _ in comps) == pytest.approx(0.16)
+    assert c0 == pytest.approx(0.04) and comps == [(pytest.approx(0.08), 30.0), (pytest.approx(0.04), 500.0)]
+    # a sigma below the fitted sill (heavy tails: the NMAD under the sd) keeps the fitted sill
+    c0b, compsb = ze.components_from_fit(fit, 0.05)
+    assert c0b == pytest.approx(0.01) and compsb == [(pytest.approx(0.02), 30.0), (pytest.approx(0.01), 500.0)]
