@@ -56,11 +56,14 @@ from ..errors import PhysicalRangeError
 from .uncertainty import correlated_sum_sd
 
 __all__ = ["check_components", "components_from_fit", "zone_mean_sd", "stable_median_sd", "coregistered_zone_sd",
-           "model_from_stable_sample", "SHORT_LAG_PIXELS"]
+           "model_from_stable_sample",
+           "VARIOGRAM_LAGS", "VARIOGRAM_PAIRS", "SECOND_RANGE_ALPHA"]
 
-#: Reach of the short-lag variogram bins [pixels] (:func:`peatburn.science.variogram.multi_scale_variogram`):
-#: 1-pixel bins that tell pixel noise (nugget) from a short-range correlation.
-SHORT_LAG_PIXELS = 20
+#: Log-spaced lag bins from one pixel to a third of the stable ground's extent, and the pairs drawn
+#: (:func:`peatburn.science.variogram.empirical_variogram` with ``min_lag``; about 0.3 s).
+VARIOGRAM_LAGS, VARIOGRAM_PAIRS = 30, 400_000
+#: Level of the F test that keeps a second (long) range (:func:`peatburn.science.variogram.fit_spherical_ranges`).
+SECOND_RANGE_ALPHA = 0.05
 
 
 def check_components(nugget, components):
@@ -119,9 +122,11 @@ def components_from_fit(fit, sigma):
 def zone_mean_sd(area_m2, nugget, components, pixel_area_m2, trend_sd=0.0):
     """Standard deviation of the mean survey error over an area [m] (before co-registration).
 
-    ``sqrt(c0 / n + sum_k c_k R(L / a_k))``, R the Rolstad et al. (2009) disc average of the
-    spherical correlation (:func:`peatburn.science.uncertainty.correlated_sum_sd`), L = sqrt(A / pi),
-    n = A / pixel area (at least 1).
+    ``sqrt(c0 / n + sum_k c_k max(R(L / a_k), 1 / n))``, R the Rolstad et al. (2009) disc average of
+    the spherical correlation (:func:`peatburn.science.uncertainty.correlated_sum_sd`), L = sqrt(A / pi),
+    n = A / pixel area (at least 1). The floor 1 / n: on pixels the mean of a correlated error has at
+    least the variance of independent pixels (the diagonal of the pixel double sum); the continuous
+    average drops below it for a range of about a pixel (the smoothing of a resampled survey).
 
     Parameters
     ----------
@@ -158,8 +163,12 @@ def zone_mean_sd(area_m2, nugget, components, pixel_area_m2, trend_sd=0.0):
     if not (math.isfinite(t) and t >= 0):
         raise PhysicalRangeError(f"zone_mean_sd: trend_sd must be a finite sd >= 0 m, got {trend_sd!r}")
     var = c0 / np.maximum(area / pix, 1.0) + t * t
+    n = np.maximum(area / pix, 1.0)
     for c, a in comps:
-        var = var + correlated_sum_sd(math.sqrt(c), a, area) ** 2
+        # sampled on pixels, a correlated error averages no better than independent pixels: the
+        # pixel double sum is at least its diagonal, c / n (spherical correlations are >= 0); the
+        # continuous disc average falls below that when the range is about a pixel
+        var = var + np.maximum(correlated_sum_sd(math.sqrt(c), a, area) ** 2, c / n)
     return np.sqrt(var)
 
 
@@ -237,10 +246,10 @@ def model_from_stable_sample(x, y, residuals, *, pixel_area_m2, stable_area_m2, 
        ``depth.survey.tilt``) is a trend, not a stationary error, and a variogram over a third of the
        scene sees only part of it. Its sd over the sample is ``trend_sd`` (near 0 without a trend or
        after a tilt correction).
-    2. The residuals less the plane: NMAD sigma (Höhle & Höhle 2009), a variogram with short and long
-       lags (:func:`peatburn.science.variogram.multi_scale_variogram`), a nugget and two spherical
-       components (:func:`peatburn.science.variogram.fit_spherical_sum`) scaled by
-       :func:`components_from_fit`.
+    2. The residuals less the plane: NMAD sigma (Höhle & Höhle 2009), a variogram on log-spaced lags
+       from one pixel to a third of the extent (:func:`peatburn.science.variogram.empirical_variogram`),
+       a nugget and one spherical range, or two when an F test supports the second
+       (:func:`peatburn.science.variogram.fit_spherical_ranges`), scaled by :func:`components_from_fit`.
     3. With ``range_m`` (the user's correlation range), one spherical component of sill sigma^2 and
        that range instead; with too few points (< 200), one of a pixel's range.
 
@@ -286,9 +295,10 @@ def model_from_stable_sample(x, y, residuals, *, pixel_area_m2, stable_area_m2, 
         r = r - p
         sig = float(nmad(r))
         extent = float(max(np.ptp(x), np.ptp(y)))
-        lags, gamma, counts = variogram.multi_scale_variogram(
-            x, y, r, short_lag=SHORT_LAG_PIXELS * pix_side, max_lag=max(extent / 3, 10 * pix_side), seed=seed)
-        fit = variogram.fit_spherical_sum(lags, gamma, counts)
+        lags, gamma, counts = variogram.empirical_variogram(
+            x, y, r, max_lag=max(extent / 3, 10 * pix_side), n_lags=VARIOGRAM_LAGS, min_lag=pix_side,
+            max_pairs=VARIOGRAM_PAIRS, seed=seed)
+        fit = variogram.fit_spherical_ranges(lags, gamma, counts, alpha=SECOND_RANGE_ALPHA)
         nugget, comps = components_from_fit(fit, sig)
     else:
         sig = float(nmad(r)) if sigma is None else float(sigma)
@@ -300,7 +310,7 @@ def model_from_stable_sample(x, y, residuals, *, pixel_area_m2, stable_area_m2, 
             "components": [{"partial_sill_m2": c, "range_m": a} for c, a in comps],
             "trend_sd_m": trend_sd, "bias_sd_m": float(bias), "stable_area_m2": float(stable_area_m2),
             "range_m": float(main[1]), "nugget_fraction": nugget / total if total > 0 else 1.0,
-            "model": ("planar trend + nugget + two spherical components fitted on stable ground (Hugonnet et al. "
+            "model": ("planar trend + nugget + one or two spherical components fitted on stable ground (Hugonnet et al. "
                       "2022); total sill the larger of NMAD^2 and the fitted sill" if fit is not None else
                       "one spherical component of sill sigma^2 and the given or a one-pixel range"),
             "variogram": None if fit is None else [{k: float(v) for k, v in d.items()} for d in fit]}
