@@ -19,7 +19,6 @@ from ..factors import list_factor_sets
 from ..outputs.tables import OUTSIDE, TOTAL_LAYER, gas_key
 from .sums import SCAR_LAYER
 from ..science import uncertainty as unc
-from ..science import variogram
 from ..science.tier1 import TIER1_FUEL_RELATIVE_SD
 
 #: engine sum (engine.sums.SUM_KEYS) -> uncertainty-model sum
@@ -106,6 +105,9 @@ def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0
         survey_sigma_m=survey["sigma_m"] if survey else 0.0,
         survey_range_m=survey["range_m"] if survey else math.sqrt(pix),
         survey_nugget_fraction=survey["nugget_fraction"] if survey else 0.0, pixel_area_m2=pix,
+        survey_nugget_m2=survey["nugget_m2"] if survey else None,
+        survey_components=[(c["partial_sill_m2"], c["range_m"]) for c in survey["components"]] if survey else None,
+        survey_trend_sd_m=survey["trend_sd_m"] if survey else 0.0,
         interval_years=cfg.survey.interval_years if cfg.survey else 0.0,
         # a run-wide error of the subsidence rate moves stable ground and scars alike and is removed by
         # the vertical co-registration on stable ground: only the zone-correlated term of a rate map
@@ -230,7 +232,7 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
         from .survey_calibration import patch_check, typical_areas
 
         pix = float(np.mean(grid.pixel_area(grid.windows(cfg.block_size)[0])))
-        calibration = patch_check(alignment, survey, pix, typical_areas(sums, SUM_MAP["area_m2"], SCAR_LAYER),
+        calibration = patch_check(alignment, survey, pix, typical_areas(sums, "area_m2_survey", SCAR_LAYER),
                                   seed=seed)
     return {
         "method": "Monte Carlo at zone level: sums reduced once per zone in the block pass, draws of the run-wide "

@@ -70,13 +70,16 @@ def _sentence(scope, area, n, rms, model, ratio, ratio_se) -> str:
     head = (f"{scope}: {n} stable-ground patches of {size} have a mean survey error of {rms:.3g} m (RMS); the model "
             f"predicts {model:.3g} m, a ratio of {ratio:.2f} (standard error of the check "
             f"{ratio_se:.2f})")
-    if math.isfinite(ratio_se) and ratio_se > 0.25:
-        return head + " - too few stable-ground samples at this size for a firm check."
-    if ratio > RATIO_HIGH:
+    se = ratio_se if math.isfinite(ratio_se) else float("inf")
+    if ratio - 2 * se > RATIO_HIGH:
         return head + (" - the intervals are likely too narrow at this size (a trend or long-range error the "
                        "variogram misses; consider depth.survey.tilt or more stable ground).")
-    if ratio < RATIO_LOW:
+    if ratio + 2 * se < RATIO_LOW:
         return head + " - the intervals are likely too wide at this size."
+    if se > 0.25 * ratio:
+        return head + " - too few stable-ground samples at this size for a firm check."
+    if not RATIO_LOW <= ratio <= RATIO_HIGH:
+        return head + " - outside 0.67-1.5, but within twice the check's own standard error."
     return head + " (near 1: calibrated)."
 
 

@@ -53,7 +53,7 @@ import math
 import numpy as np
 
 from ..errors import PhysicalRangeError
-from .uncertainty import correlated_sum_sd
+from .uncertainty.averaging import correlated_sum_sd
 
 __all__ = ["check_components", "components_from_fit", "zone_mean_sd", "stable_median_sd", "coregistered_zone_sd",
            "model_from_stable_sample",

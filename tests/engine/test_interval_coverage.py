@@ -127,6 +127,8 @@ def _coverage(tmp_path, kind, seed=0):
 @pytest.mark.parametrize("kind", ["white", "gauss20", "shift_field", "tilt"])
 def test_run_intervals_cover_and_are_not_too_wide(tmp_path, kind):
     cover, width, res = _coverage(tmp_path, kind)
-    print(kind, cover, width, res.totals["uncertainty"]["survey_calibration"])
-    assert 0.90 <= cover <= 0.99, f"{kind}: coverage {cover:.2f}"
+    # a plane's values over the scene are spread uniformly, not normally: an interval of calibrated sd covers
+    # a uniform error wholly (1.96 sd > sqrt(3) sd, its half-range), so the upper bound does not apply there;
+    # the width check below still fails an interval that is too wide
+    assert 0.90 <= cover <= (1.0 if kind == "tilt" else 0.99), f"{kind}: coverage {cover:.2f}"
     assert 0.67 <= width <= 1.5, f"{kind}: median half-width / 1.96 RMS = {width:.2f}"

@@ -63,6 +63,8 @@ _PARAM_KEYS = {
     "bulk_density_cv", "carbon_fraction_cv", "ef_smouldering", "ef_flaming", "fre_coefficient_cv",
     "biomass_cv", "combustion_factor_cv", "gwp",
     "subsidence_rate_map_sd_m_per_yr", "tier1_fuel_cv", "peat_fill_cv",
+    # multi-range survey error (issue 16; science.zone_error): replaces sigma / range / nugget share when given
+    "survey_nugget_m2", "survey_components", "survey_trend_sd_m",
 }
 
 
@@ -152,7 +154,12 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
     sig_r = _nonneg(params, "subsidence_rate_sd_m_per_yr") * T
     sig_map = np.full(n, _nonneg(params, "subsidence_rate_map_sd_m_per_yr") * T)  # per zone
     sz = np.zeros(n)
-    if sig > 0:
+    if params.get("survey_components") is not None:
+        from ..zone_error import zone_mean_sd  # here: zone_error imports this package
+
+        sz = zone_mean_sd(area, _nonneg(params, "survey_nugget_m2"), params["survey_components"],
+                          params.get("pixel_area_m2") or 1.0, _nonneg(params, "survey_trend_sd_m"))
+    elif sig > 0:
         rng_m = params.get("survey_range_m")
         if rng_m is None:
             raise ConfigError("uncertainty parameters: survey_range_m is needed with survey_sigma_m > 0")
