@@ -226,6 +226,7 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
     iv = unc.intervals(ms, params, draws=draws, seed=seed, quantities=_WITH_COLUMN)
     assert rows[row_i]["layer"] == TOTAL_LAYER
     _fill(rows[row_i], iv, 0)
+    ipcc = ipcc_percentages(ms, params, iv, rows[row_i])
     con = unc.contributions(ms, params, quantity="carbon_kg")
     calibration = None
     if alignment is not None and survey and len(alignment.stable_sample[2]):
@@ -241,6 +242,12 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
         "sources": [s.to_dict() for s in sources],
         "survey_error": survey,
         "survey_calibration": calibration,
+        "ipcc_total_uncertainty_pct": ipcc,
+        "ipcc_note": "Uncertainty of the run total as a percentage of the estimate, 95 % (IPCC 2006 Guidelines Vol. 1 "
+                     "Ch. 3; section numbers recalled, unchecked): Approach 1 = first-order propagation of the same "
+                     "sources (the law of propagation of uncertainty; symmetric +-); Approach 2 = Monte Carlo, the "
+                     "2.5 and 97.5 percentiles of the draws less / more than the estimate. They differ where the "
+                     "lognormal factors make the draws skewed.",
         "contributions": {s: _f(v[0]) for s, v in con.items()},
         "contributions_by_zone": per_zone,
         "contributions_quantity": "carbon_smouldering_t",
@@ -250,6 +257,26 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
                 "uncertainty.subsidence_rate_sd, default 0.01 m/yr with a rate map, 0 with one constant rate). "
                 "Pixels whose bulk density or carbon fraction was filled get a wider spread (peat_property_fill).",
     }
+
+
+def ipcc_percentages(ms: dict, params: dict, iv: dict, row: dict) -> dict:
+    """Per interval column of the run total: ``<col>_approach1_pct`` (1.96 x the first-order sd from
+    :func:`peatburn.science.uncertainty.variance_components`, over the estimate, x 100) and
+    ``<col>_approach2_minus_pct`` / ``_plus_pct`` (estimate less the 2.5 percentile, 97.5 percentile less
+    the estimate, over the estimate, x 100): IPCC (2006) Vol. 1 Ch. 3, Approach 1 (error propagation)
+    and Approach 2 (Monte Carlo) (recalled, unchecked)."""
+    out = {}
+    for q, (lo, hi) in iv.items():
+        col = _column(q)
+        est = row.get(col)
+        if col is None or not isinstance(est, float) or not est > 0:
+            continue
+        est_kg = est * 1e3
+        var = sum(float(v[0]) for v in unc.variance_components(ms, params, quantity=q).values())
+        out[f"{col}_approach1_pct"] = 100.0 * 1.96 * math.sqrt(max(var, 0.0)) / est_kg
+        out[f"{col}_approach2_minus_pct"] = 100.0 * (est_kg - float(lo[0])) / est_kg
+        out[f"{col}_approach2_plus_pct"] = 100.0 * (float(hi[0]) - est_kg) / est_kg
+    return out
 
 
 def _fill_fires(fire_rows, acc, flame_layer, params, draws, seed, frp, vegetation_cf) -> None:

@@ -532,7 +532,7 @@ def _pretty(key) -> str:
 
 _SUFFIX_UNITS = [("_kg_per_mj", "kg/MJ"), ("_t_per_ha", "t/ha"), ("_m_per_yr", "m/yr"), ("_g_per_kg", "g/kg"),
                  ("_years", "yr"), ("_m2", "m²"), ("_mj", "MJ"), ("_ha", "ha"), ("_kg", "kg"), ("_m", "m"),
-                 ("_s", "s"), ("_t", "t")]
+                 ("_s", "s"), ("_t", "t"), ("_pct", "%")]
 
 
 def _label_with_unit(key) -> str:

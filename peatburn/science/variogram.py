@@ -421,7 +421,7 @@ def fit_spherical_ranges(lags, gamma, counts, *, alpha=0.01):
     Both models are fitted (:func:`fit_spherical`, :func:`fit_spherical_sum`); the second range is
     kept when the extra-sum-of-squares F test of the nested fits rejects the one-range model at
     level ``alpha``: ``F = ((RSS_1 - RSS_2) / 2) / (RSS_2 / (n - 5))`` on ``2, n - 5`` degrees of
-    freedom (:func:`scipy.stats.f.sf`), with the weights N(h) / gamma(h)^2 of both fits' residuals
+    freedom (:func:`scipy.special.fdtrc`, the F survival function), with the weights N(h) / gamma(h)^2 of both fits' residuals
     (the variance of a bin's estimate is about 2 gamma^2 / N(h); Cressie 1993 §2.6.2, recalled).
     Without the test, the noise of the empirical variogram near its sill (a few percent per bin)
     is read as a long-range component of about 1 % of the sill, which does not average out over a
@@ -439,7 +439,7 @@ def fit_spherical_ranges(lags, gamma, counts, *, alpha=0.01):
     test of nested least-squares models (e.g. Draper, N. R. & Smith, H. 1998, Applied Regression
     Analysis, 3rd ed., Wiley, §6; recalled, unchecked).
     """
-    import scipy.stats
+    from scipy.special import fdtrc  # F survival function (scipy.stats.f.sf without importing scipy.stats)
 
     one = fit_spherical(lags, gamma, counts)
     two = fit_spherical_sum(lags, gamma, counts)
@@ -455,7 +455,7 @@ def fit_spherical_ranges(lags, gamma, counts, *, alpha=0.01):
     rss1, rss2 = float(np.sum(w * (g - m1) ** 2)), float(np.sum(w * (g - m2) ** 2))
     dof = h.size - 5
     if dof > 0 and rss2 > 0:
-        p = float(scipy.stats.f.sf(max(rss1 - rss2, 0.0) / 2.0 / (rss2 / dof), 2, dof))
+        p = float(fdtrc(2, dof, max(rss1 - rss2, 0.0) / 2.0 / (rss2 / dof)))
     else:
         p = 1.0
     if p < alpha:

@@ -54,3 +54,10 @@ def test_run_records_the_check_in_totals_qa_and_report(tmp_path):
     assert 0.5 < zone["ratio"] < 2.0
     html = (tmp_path / "o" / "report.html").read_text()
     assert "survey error check" in html and "patch RMS / model sd" in html
+    # IPCC 2006 Vol. 1 Ch. 3: Approach 1 (first-order propagation) beside Approach 2 (Monte Carlo) for the total;
+    # for a sum of near-normal terms the two agree to first order (JCGM 101:2008 validates the GUM this way)
+    ipcc = res.totals["uncertainty"]["ipcc_total_uncertainty_pct"]
+    a1 = ipcc["carbon_smouldering_t_approach1_pct"]
+    a2 = (ipcc["carbon_smouldering_t_approach2_minus_pct"] + ipcc["carbon_smouldering_t_approach2_plus_pct"]) / 2
+    assert 0 < a1 and a2 == pytest.approx(a1, rel=0.15)
+    assert "Approach 1" in html
