@@ -35,8 +35,8 @@ SUM_MAP = {
 
 def survey_error_model(alignment, pixel_area_m2: float, range_override: float | None = None) -> dict:
     """The survey error model of a run from the stable-ground residuals after co-registration
-    (:func:`peatburn.science.zone_error.model_from_stable_sample`: planar trend, nugget and two
-    spherical ranges; the residual bias without counting the long-range error twice)."""
+    (:func:`peatburn.science.zone_error.model_from_stable_sample`: planar trend, nugget and one or
+    two spherical ranges; the residual bias without counting the long-range error twice)."""
     from ..science import zone_error
 
     x, y, r = alignment.stable_sample
@@ -125,6 +125,14 @@ def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0
         combustion_factor=fl.combustion_factor if fl and fl.combustion_factor else unc.DEFAULT_COMBUSTION_FACTOR,
         **kw,
     )
+    if survey:
+        sources = [dataclasses.replace(
+            s, citation="stable-ground statistics of this run; variance of the stable median less that of the "
+                        "stable mean (science.zone_error.coregistered_zone_sd; Sen 1972, Sheppard 1899, recalled)",
+            note="One value per draw for the whole run: the part of the co-registration's error not shared with the "
+                 "zones. The part a zone shares with the stable ground is in survey_random once, not twice "
+                 "(docs/uncertainty.md, the run's survey error model).")
+            if s.name == "survey_bias" else s for s in sources]
     if models is not None and wt_prediction_sd_m(models.all, sums.total) is not None:
         m = models.all
         sources = [dataclasses.replace(
