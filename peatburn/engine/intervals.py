@@ -108,6 +108,7 @@ def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0
         survey_nugget_m2=survey["nugget_m2"] if survey else None,
         survey_components=[(c["partial_sill_m2"], c["range_m"]) for c in survey["components"]] if survey else None,
         survey_trend_sd_m=survey["trend_sd_m"] if survey else 0.0,
+        surface_change_sd_m=(u.surface_change_sd or 0.0) if survey else 0.0,
         interval_years=cfg.survey.interval_years if cfg.survey else 0.0,
         # a run-wide error of the subsidence rate moves stable ground and scars alike and is removed by
         # the vertical co-registration on stable ground: only the zone-correlated term of a rate map

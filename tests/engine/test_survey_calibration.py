@@ -44,7 +44,7 @@ def test_run_records_the_check_in_totals_qa_and_report(tmp_path):
 
     import peatburn
 
-    sc = make_scene(tmp_path / "s", extra_config="[uncertainty]\ndraws = 500\n")
+    sc = make_scene(tmp_path / "s", extra_config='[uncertainty]\ndraws = 500\nsurface_change_sd = "2 cm"\n')
     res = peatburn.run(sc.config, tmp_path / "o", overwrite=True)
     rows = json.loads((tmp_path / "o" / "totals.json").read_text())["uncertainty"]["survey_calibration"]
     assert rows and rows == res.totals["qa"]["survey_error_calibration"]
@@ -61,3 +61,7 @@ def test_run_records_the_check_in_totals_qa_and_report(tmp_path):
     a2 = (ipcc["carbon_smouldering_t_approach2_minus_pct"] + ipcc["carbon_smouldering_t_approach2_plus_pct"]) / 2
     assert 0 < a1 and a2 == pytest.approx(a1, rel=0.15)
     assert "Approach 1" in html
+    # issue 16 item 4: the user's non-fire surface change (2 cm, given in cm) is drawn as its own source
+    src = {x["name"]: x for x in res.totals["uncertainty"]["sources"]}
+    assert src["surface_change"]["parameters"]["sd_m"] == pytest.approx(0.02)
+    assert res.totals["uncertainty"]["contributions"]["surface_change"] > 0

@@ -71,3 +71,21 @@ def test_components_scaled_to_the_pixel_sd():
     # a sigma below the fitted sill (heavy tails: the NMAD under the sd) keeps the fitted sill
     c0b, compsb = ze.components_from_fit(fit, 0.05)
     assert c0b == pytest.approx(0.01) and compsb == [(pytest.approx(0.02), 30.0), (pytest.approx(0.01), 500.0)]
+
+
+def test_surface_change_term_adds_its_variance_over_the_surveyed_depth():
+    """Issue 16 item 4: a run-wide non-fire surface change of sd s [m] adds (s x sum rho f A)^2 to the
+    carbon variance of every zone and of their total (hand arithmetic: an additive depth error)."""
+    from peatburn.science import uncertainty as unc
+
+    sums = {"area_m2": np.array([1e4, 4e4]), "carbon_kg": np.array([1.2e5, 5.0e5]),
+            "peat_kg": np.array([2.2e5, 9.0e5]), "volume_m3": np.array([3e3, 1.2e4]),
+            "rho_area": np.array([1e6, 4e6]), "rho_f_area": np.array([5.5e5, 2.2e6])}
+    src = unc.default_sources(survey_bias_sd_m=0.0, survey_sigma_m=0.0, survey_range_m=1.0,
+                              surface_change_sd_m=0.04, bulk_density_cv=0.0, carbon_fraction_sd=0.0)
+    assert "surface_change" in [s.name for s in src]
+    comp = unc.variance_components(sums, unc.sources_to_params(src), quantity="carbon_kg", total=True)
+    expected = (0.04 * np.array([5.5e5, 2.2e6, 2.75e6])) ** 2  # zones, then the total: run-wide, derivatives add
+    assert np.allclose(comp["surface_change"], expected)
+    with pytest.raises(PhysicalRangeError):
+        unc.default_sources(survey_bias_sd_m=0.0, survey_sigma_m=0.0, survey_range_m=1.0, surface_change_sd_m=-1.0)

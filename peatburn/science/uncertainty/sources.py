@@ -71,10 +71,12 @@ SOURCE_NAMES = (
     "subsidence_rate_map",
     "tier1_fuel",
     "peat_property_fill",
+    # issue 16 (appended likewise)
+    "surface_change",
 )
 _RUN_WIDE = {"survey_bias", "subsidence_rate", "water_table_coefficients", "bulk_density", "carbon_fraction",
              "emission_factors_smouldering", "fre_coefficient", "biomass", "combustion_factor",
-             "emission_factors_flaming", "tier1_fuel", "peat_property_fill"}
+             "emission_factors_flaming", "tier1_fuel", "peat_property_fill", "surface_change"}
 
 
 # ----------------------------------------------------------------------------- sources
@@ -182,7 +184,8 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
                     combustion_factor=DEFAULT_COMBUSTION_FACTOR, combustion_factor_sd=DEFAULT_COMBUSTION_FACTOR_SD,
                     wt_coef_cov=None, wt_residual_sd_m=0.0, wt_residual_range_m=None,
                     subsidence_rate_map_sd_m_per_yr=0.0, tier1_fuel_cv=0.0, peat_fill_cv=0.0,
-                    survey_nugget_m2=None, survey_components=None, survey_trend_sd_m=0.0) -> list[Source]:
+                    survey_nugget_m2=None, survey_components=None, survey_trend_sd_m=0.0,
+                    surface_change_sd_m=0.0) -> list[Source]:
     """The sources of uncertainty of a run, each with its distribution, parameters and basis.
 
     Parameters
@@ -206,6 +209,11 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
         nugget [m2], spherical components ``[(partial sill [m2], range [m]), ...]`` and a planar trend's sd
         [m]. When given, the zone sd is :func:`peatburn.science.zone_error.zone_mean_sd` of them, and
         ``survey_sigma_m`` / ``survey_range_m`` / ``survey_nugget_fraction`` are a summary only.
+    surface_change_sd_m : float
+        sd [m] of a non-fire change of the ground surface between the surveys over the burned area
+        (canopy bias of a pre-fire ground model under dense forest, ash, peat swelling or shrinkage):
+        run-wide, additive on every surveyed depth. Default 0: no published value fits every survey
+        pair; the user states it (``uncertainty.surface_change_sd``).
     bulk_density_cv : float
         CV of the run-wide bulk-density scale [-].
     carbon_fraction, carbon_fraction_sd : float
@@ -288,6 +296,16 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
                "area. If the stable ground subsides at the same rate, co-registration already removes "
                "it and this source double-counts (conservative)."),
     ]
+    if not (math.isfinite(float(surface_change_sd_m)) and float(surface_change_sd_m) >= 0):
+        raise PhysicalRangeError(f"uncertainty source surface_change_sd_m: must be a finite number >= 0, "
+                                 f"got {surface_change_sd_m!r}")
+    if float(surface_change_sd_m) > 0:
+        src.append(Source("surface_change", "normal, one value per draw for the whole run",
+                          {"sd_m": float(surface_change_sd_m)},
+                          "user-stated (uncertainty.surface_change_sd); no default",
+                          "Non-fire change of the surface over the survey interval on the burned ground (canopy bias "
+                          "of the pre-fire ground model, ash, swelling): not seen on stable ground, so not in the "
+                          "survey terms. Run-wide, additive on the surveyed depth (multiplies rho_area / rho_f_area)."))
     if float(subsidence_rate_map_sd_m_per_yr) > 0:
         src.append(Source("subsidence_rate_map", "normal, one value per zone",
                           {"sd_m_per_yr": float(subsidence_rate_map_sd_m_per_yr),
@@ -423,6 +441,8 @@ def sources_to_params(sources, *, gwp=None) -> dict:
             p.update(subsidence_rate_map_sd_m_per_yr=q["sd_m_per_yr"], interval_years=q["interval_years"])
         elif s.name == "tier1_fuel":
             p["tier1_fuel_cv"] = q["cv"]
+        elif s.name == "surface_change":
+            p["surface_change_sd_m"] = q["sd_m"]
         elif s.name == "peat_property_fill":
             p["peat_fill_cv"] = q["cv"]
         else:
