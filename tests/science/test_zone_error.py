@@ -78,9 +78,9 @@ def test_surface_change_term_adds_its_variance_over_the_surveyed_depth():
     carbon variance of every zone and of their total (hand arithmetic: an additive depth error)."""
     from peatburn.science import uncertainty as unc
 
-    sums = {"area_m2": np.array([1e4, 4e4]), "carbon_kg": np.array([1.2e5, 5.0e5]),
+    sums = {"area_m2_survey": np.array([1e4, 4e4]), "carbon_kg": np.array([1.2e5, 5.0e5]),
             "peat_kg": np.array([2.2e5, 9.0e5]), "volume_m3": np.array([3e3, 1.2e4]),
-            "rho_area": np.array([1e6, 4e6]), "rho_f_area": np.array([5.5e5, 2.2e6])}
+            "rho_area_survey": np.array([1e6, 4e6]), "rho_f_area_survey": np.array([5.5e5, 2.2e6])}
     src = unc.default_sources(survey_bias_sd_m=0.0, survey_sigma_m=0.0, survey_range_m=1.0,
                               surface_change_sd_m=0.04, bulk_density_cv=0.0, carbon_fraction_sd=0.0)
     assert "surface_change" in [s.name for s in src]
