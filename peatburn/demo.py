@@ -303,6 +303,7 @@ gwp = "AR6"
 [[zones]]
 path = "concessions.gpkg"
 id = "name"
+dossiers = true                     # one hand-over page per burned concession: dossiers/<name>.html
 
 [[zones]]
 path = "districts.gpkg"
