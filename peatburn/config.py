@@ -113,6 +113,7 @@ class UncertaintyConfig:
     carbon_fraction_sd: float | None = None
     subsidence_rate_sd: float | None = None
     correlation_range_m: float | None = None
+    surface_change_sd: float | None = None  # [m] non-fire surface change over the survey interval (issue 16)
 
 
 @dataclass(frozen=True)
@@ -282,7 +283,7 @@ _SCHEMA = {
     "emission_factors": {"smouldering", "flaming", "gwp", "form"},
     "zones": {"path", "id", "name", "layer", "dossiers"},
     "uncertainty": {"draws", "seed", "bulk_density_cv", "carbon_fraction_sd", "subsidence_rate_sd",
-                    "correlation_range_m"},
+                    "correlation_range_m", "surface_change_sd"},
 }
 _TOP = {"run", "burned_area", "depth", "peat", "emission_factors", "zones", "uncertainty", "flaming"}
 #: Sections of the contract that later work fills in; refused until then so no input is silently ignored.
@@ -543,6 +544,8 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         if "subsidence_rate_sd" in un else None,
         correlation_range_m=to_magnitude(un["correlation_range_m"], "m", "uncertainty.correlation_range_m")
         if "correlation_range_m" in un else None,
+        surface_change_sd=to_magnitude(un["surface_change_sd"], "m", "uncertainty.surface_change_sd")
+        if "surface_change_sd" in un else None,
     )
     flaming = _flaming(raw["flaming"], base, where, force) if "flaming" in raw else None
 

@@ -19,7 +19,6 @@ from ..factors import list_factor_sets
 from ..outputs.tables import OUTSIDE, TOTAL_LAYER, gas_key
 from .sums import SCAR_LAYER, SUM_KEYS
 from ..science import uncertainty as unc
-from ..science import variogram
 from ..science.tier1 import TIER1_FUEL_RELATIVE_SD
 
 #: The engine's zone sums the uncertainty model reads (one vocabulary: the model names its sums as the
@@ -28,25 +27,15 @@ MODEL_SUMS = tuple(k for k in unc.SUM_KEYS if k in SUM_KEYS)
 
 
 def survey_error_model(alignment, pixel_area_m2: float, range_override: float | None = None) -> dict:
-    """Per-pixel sigma [m], spherical range [m] and nugget share of the survey error, from a
-    variogram of the stable-ground residuals after co-registration; and the residual bias sd."""
+    """The survey error model of a run from the stable-ground residuals after co-registration
+    (:func:`peatburn.science.zone_error.model_from_stable_sample`: planar trend, nugget and one or
+    two spherical ranges; the residual bias without counting the long-range error twice)."""
+    from ..science import zone_error
+
     x, y, r = alignment.stable_sample
-    sigma = float(alignment.nmad_after)
-    fit = {"nugget": 0.0, "sill": sigma ** 2, "range_m": float("nan")}
-    if range_override is None and len(r) >= 200:
-        extent = float(max(np.ptp(x), np.ptp(y)))
-        lags, gamma, counts = variogram.empirical_variogram(x, y, r, max_lag=max(extent / 3, 10 * math.sqrt(pixel_area_m2)))
-        fit = variogram.fit_spherical(lags, gamma, counts)
-    rng = range_override if range_override is not None else float(fit["range_m"])
-    if not math.isfinite(rng) or rng <= 0:
-        rng = math.sqrt(pixel_area_m2)  # no detectable correlation: one pixel
-    nug = float(fit["nugget"] / fit["sill"]) if fit.get("sill") else 0.0
-    nug = min(max(nug, 0.0), 1.0)
-    stable_area = alignment.n_stable_sample * pixel_area_m2
-    bias = float(unc.residual_bias_sd(sigma, rng, stable_area, nugget_fraction=nug, pixel_area_m2=pixel_area_m2,
-                                      estimator="median"))
-    return {"sigma_m": sigma, "range_m": rng, "nugget_fraction": nug, "bias_sd_m": bias,
-            "stable_area_m2": stable_area, "variogram": {k: float(v) for k, v in fit.items()}}
+    return zone_error.model_from_stable_sample(x, y, r, pixel_area_m2=pixel_area_m2,
+                                               stable_area_m2=alignment.n_stable_sample * pixel_area_m2,
+                                               sigma=float(alignment.nmad_after), range_m=range_override)
 
 
 def subsidence_map_sd(cfg) -> float:
@@ -109,6 +98,10 @@ def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0
         survey_sigma_m=survey["sigma_m"] if survey else 0.0,
         survey_range_m=survey["range_m"] if survey else math.sqrt(pix),
         survey_nugget_fraction=survey["nugget_fraction"] if survey else 0.0, pixel_area_m2=pix,
+        survey_nugget_m2=survey["nugget_m2"] if survey else None,
+        survey_components=[(c["partial_sill_m2"], c["range_m"]) for c in survey["components"]] if survey else None,
+        survey_trend_sd_m=survey["trend_sd_m"] if survey else 0.0,
+        surface_change_sd_m=(u.surface_change_sd or 0.0) if survey else 0.0,
         interval_years=cfg.survey.interval_years if cfg.survey else 0.0,
         # a run-wide error of the subsidence rate moves stable ground and scars alike and is removed by
         # the vertical co-registration on stable ground: only the zone-correlated term of a rate map
@@ -126,6 +119,14 @@ def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0
         combustion_factor=fl.combustion_factor if fl and fl.combustion_factor else unc.DEFAULT_COMBUSTION_FACTOR,
         **kw,
     )
+    if survey:
+        sources = [dataclasses.replace(
+            s, citation="stable-ground statistics of this run; variance of the stable median less that of the "
+                        "stable mean (science.zone_error.coregistered_zone_sd; Sen 1972, Sheppard 1899, recalled)",
+            note="One value per draw for the whole run: the part of the co-registration's error not shared with the "
+                 "zones. The part a zone shares with the stable ground is in survey_random once, not twice "
+                 "(docs/uncertainty.md, the run's survey error model).")
+            if s.name == "survey_bias" else s for s in sources]
     if models is not None and wt_prediction_sd_m(models.all, sums.total) is not None:
         m = models.all
         sources = [dataclasses.replace(
@@ -245,13 +246,28 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
     iv = unc.intervals(ms, params, draws=draws, seed=seed, quantities=_WITH_COLUMN)
     assert rows[row_i]["layer"] == TOTAL_LAYER
     _fill(rows[row_i], iv, 0)
+    ipcc = ipcc_percentages(ms, params, iv, rows[row_i])
     con = unc.contributions(ms, params, quantity="carbon_kg")
+    calibration = None
+    if alignment is not None and survey and len(alignment.stable_sample[2]):
+        from .survey_calibration import patch_check, typical_areas
+
+        pix = float(np.mean(grid.pixel_area(grid.windows(cfg.block_size)[0])))
+        calibration = patch_check(alignment, survey, pix, typical_areas(sums, "area_m2_survey", SCAR_LAYER),
+                                  seed=seed)
     return {
         "method": "Monte Carlo at zone level: sums reduced once per zone in the block pass, draws of the run-wide "
                   "and zone-level sources (docs/uncertainty.md); 95 % interval = 2.5 and 97.5 percentiles",
         "draws": draws, "seed": seed,
         "sources": [s.to_dict() for s in sources],
         "survey_error": survey,
+        "survey_calibration": calibration,
+        "ipcc_total_uncertainty_pct": ipcc,
+        "ipcc_note": "Uncertainty of the run total as a percentage of the estimate, 95 % (IPCC 2006 Guidelines Vol. 1 "
+                     "Ch. 3; section numbers recalled, unchecked): Approach 1 = first-order propagation of the same "
+                     "sources (the law of propagation of uncertainty; symmetric +-); Approach 2 = Monte Carlo, the "
+                     "2.5 and 97.5 percentiles of the draws less / more than the estimate. They differ where the "
+                     "lognormal factors make the draws skewed.",
         "contributions": {s: _f(v[0]) for s, v in con.items()},
         "contributions_by_zone": per_zone,
         "contributions_quantity": "carbon_smouldering_t",
@@ -261,6 +277,26 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
                 "uncertainty.subsidence_rate_sd, default 0.01 m/yr with a rate map, 0 with one constant rate). "
                 "Pixels whose bulk density or carbon fraction was filled get a wider spread (peat_property_fill).",
     }
+
+
+def ipcc_percentages(ms: dict, params: dict, iv: dict, row: dict) -> dict:
+    """Per interval column of the run total: ``<col>_approach1_pct`` (1.96 x the first-order sd from
+    :func:`peatburn.science.uncertainty.variance_components`, over the estimate, x 100) and
+    ``<col>_approach2_minus_pct`` / ``_plus_pct`` (estimate less the 2.5 percentile, 97.5 percentile less
+    the estimate, over the estimate, x 100): IPCC (2006) Vol. 1 Ch. 3, Approach 1 (error propagation)
+    and Approach 2 (Monte Carlo) (recalled, unchecked)."""
+    out = {}
+    for q, (lo, hi) in iv.items():
+        col = _column(q)
+        est = row.get(col)
+        if col is None or not isinstance(est, float) or not est > 0:
+            continue
+        est_kg = est * 1e3
+        var = sum(float(v[0]) for v in unc.variance_components(ms, params, quantity=q).values())
+        out[f"{col}_approach1_pct"] = 100.0 * 1.96 * math.sqrt(max(var, 0.0)) / est_kg
+        out[f"{col}_approach2_minus_pct"] = 100.0 * (est_kg - float(lo[0])) / est_kg
+        out[f"{col}_approach2_plus_pct"] = 100.0 * (float(hi[0]) - est_kg) / est_kg
+    return out
 
 
 def _fill_fires(fire_rows, acc, flame_layer, params, draws, seed, frp, vegetation_cf) -> None:

@@ -496,6 +496,9 @@ def _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, f
         log.info("intervals: %d Monte Carlo draws, seed %d", cfg.uncertainty.draws, cfg.uncertainty.seed)
         uncertainty = add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire_rows=fire_rows,
                                     fill_cv=plan.fill_cv)
+        if uncertainty.get("survey_calibration"):
+            # the user's calibration check of the survey error model (engine.survey_calibration)
+            qa["survey_error_calibration"] = uncertainty["survey_calibration"]
     converting.result()  # the rasters are complete from here on (field plots sample them)
     plots = None
     if inputs.plots is not None:

@@ -533,7 +533,7 @@ def _pretty(key) -> str:
 
 _SUFFIX_UNITS = [("_kg_per_mj", "kg/MJ"), ("_t_per_ha", "t/ha"), ("_m_per_yr", "m/yr"), ("_g_per_kg", "g/kg"),
                  ("_years", "yr"), ("_m2", "m²"), ("_mj", "MJ"), ("_ha", "ha"), ("_kg", "kg"), ("_m", "m"),
-                 ("_s", "s"), ("_t", "t")]
+                 ("_s", "s"), ("_t", "t"), ("_pct", "%")]
 
 
 def _label_with_unit(key) -> str:
@@ -672,6 +672,10 @@ def _qa_rows(qa: dict) -> list[tuple[str, str]]:
     if _finite(qa.get("share_of_modelled_area_extrapolated")) is not None:
         rows.append(("water-table-modelled area outside the fitted water-table range [%]",
                      fmt_pct(qa.get("share_of_modelled_area_extrapolated"))))
+    for c in qa.get("survey_error_calibration") or []:
+        # the patch check of the survey error model (engine.survey_calibration): ratio near 1 = calibrated
+        rows.append((f"survey error check, {c['scope']}: patch RMS / model sd [-]",
+                     f"{fmt_num(c.get('ratio'))} — {c.get('sentence', '')}"))
     return rows
 
 

@@ -71,10 +71,12 @@ SOURCE_NAMES = (
     "subsidence_rate_map",
     "tier1_fuel",
     "peat_property_fill",
+    # issue 16 (appended likewise)
+    "surface_change",
 )
 _RUN_WIDE = {"survey_bias", "subsidence_rate", "water_table_coefficients", "bulk_density", "carbon_fraction",
              "emission_factors_smouldering", "fre_coefficient", "biomass", "combustion_factor",
-             "emission_factors_flaming", "tier1_fuel", "peat_property_fill"}
+             "emission_factors_flaming", "tier1_fuel", "peat_property_fill", "surface_change"}
 
 
 # ----------------------------------------------------------------------------- sources
@@ -205,7 +207,9 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
                     biomass_cv=DEFAULT_BIOMASS_CV,
                     combustion_factor=DEFAULT_COMBUSTION_FACTOR, combustion_factor_sd=DEFAULT_COMBUSTION_FACTOR_SD,
                     wt_coef_cov=None, wt_residual_sd_m=0.0, wt_residual_range_m=None,
-                    subsidence_rate_map_sd_m_per_yr=0.0, tier1_fuel_cv=0.0, peat_fill_cv=0.0) -> list[Source]:
+                    subsidence_rate_map_sd_m_per_yr=0.0, tier1_fuel_cv=0.0, peat_fill_cv=0.0,
+                    survey_nugget_m2=None, survey_components=None, survey_trend_sd_m=0.0,
+                    surface_change_sd_m=0.0) -> list[Source]:
     """The sources of uncertainty of a run, each with its distribution, parameters and basis.
 
     Parameters
@@ -224,6 +228,16 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
         Pixel area [m2] (needed with a nugget).
     subsidence_rate_sd_m_per_yr : float
         sd of the subsidence rate [m/yr] (default :data:`DEFAULT_SUBSIDENCE_RATE_SD`).
+    survey_nugget_m2, survey_components, survey_trend_sd_m : optional
+        The multi-range survey error model (:func:`peatburn.science.zone_error.model_from_stable_sample`):
+        nugget [m2], spherical components ``[(partial sill [m2], range [m]), ...]`` and a planar trend's sd
+        [m]. When given, the zone sd is :func:`peatburn.science.zone_error.zone_mean_sd` of them, and
+        ``survey_sigma_m`` / ``survey_range_m`` / ``survey_nugget_fraction`` are a summary only.
+    surface_change_sd_m : float
+        sd [m] of a non-fire change of the ground surface between the surveys over the burned area
+        (canopy bias of a pre-fire ground model under dense forest, ash, peat swelling or shrinkage):
+        run-wide, additive on every surveyed depth. Default 0: no published value fits every survey
+        pair; the user states it (``uncertainty.surface_change_sd``).
     bulk_density_cv : float
         CV of the run-wide bulk-density scale [-].
     carbon_fraction, carbon_fraction_sd : float
@@ -286,7 +300,19 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
                "Rolstad et al. 2009, J. Glaciol. 55:666 (circular-area approximation); sigma = NMAD "
                "(Höhle & Höhle 2009); range from the stable-ground variogram",
                "Per zone, sd = correlated_sum_sd(sigma, range, surveyed area); independent between "
-               "zones (approximation: zones closer than the range are in truth correlated)."),
+               "zones (approximation: zones closer than the range are in truth correlated).")
+        if survey_components is None else
+        Source("survey_random", "normal zone mean of a spatially correlated error (nugget + spherical components "
+               "+ planar trend)",
+               {"sigma_m": float(survey_sigma_m), "nugget_m2": float(survey_nugget_m2 or 0.0),
+                "components": [{"partial_sill_m2": float(c), "range_m": float(a)} for c, a in survey_components],
+                "trend_sd_m": float(survey_trend_sd_m),
+                "pixel_area_m2": None if pixel_area_m2 is None else float(pixel_area_m2)},
+               "Rolstad et al. 2009 (disc average of each spherical component); Hugonnet et al. 2022 (sum of "
+               "ranges; recalled, unchecked); fitted on this run's stable ground (science.zone_error)",
+               "Per zone, var = nugget / n + sum of the components' Rolstad averages over the surveyed area + the "
+               "planar trend's variance; independent between zones. With survey_bias it counts the long-range "
+               "error once: co-registration removes what zones share with the stable ground (docs/uncertainty.md)."),
         Source("subsidence_rate", "normal", {"sd_m_per_yr": float(subsidence_rate_sd_m_per_yr),
                                              "interval_years": float(interval_years)},
                "Hooijer et al. 2012 (3-5 cm/yr; secondary check); default sd = half that range (assumption)",
@@ -294,6 +320,16 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
                "area. If the stable ground subsides at the same rate, co-registration already removes "
                "it and this source double-counts (conservative)."),
     ]
+    if not (math.isfinite(float(surface_change_sd_m)) and float(surface_change_sd_m) >= 0):
+        raise PhysicalRangeError(f"uncertainty source surface_change_sd_m: must be a finite number >= 0, "
+                                 f"got {surface_change_sd_m!r}")
+    if float(surface_change_sd_m) > 0:
+        src.append(Source("surface_change", "normal, one value per draw for the whole run",
+                          {"sd_m": float(surface_change_sd_m)},
+                          "user-stated (uncertainty.surface_change_sd); no default",
+                          "Non-fire change of the surface over the survey interval on the burned ground (canopy bias "
+                          "of the pre-fire ground model, ash, swelling): not seen on stable ground, so not in the "
+                          "survey terms. Run-wide, additive on the surveyed depth (multiplies rho_area / rho_f_area)."))
     if float(subsidence_rate_map_sd_m_per_yr) > 0:
         src.append(Source("subsidence_rate_map", "normal, one value per zone",
                           {"sd_m_per_yr": float(subsidence_rate_map_sd_m_per_yr),
@@ -400,6 +436,10 @@ def sources_to_params(sources, *, gwp=None) -> dict:
         q = s.parameters
         if s.name == "survey_bias":
             p["survey_bias_sd_m"] = q["sd_m"]
+        elif s.name == "survey_random" and "components" in q:
+            p.update(survey_sigma_m=q["sigma_m"], survey_nugget_m2=q["nugget_m2"], pixel_area_m2=q.get("pixel_area_m2"),
+                     survey_components=[(c["partial_sill_m2"], c["range_m"]) for c in q["components"]],
+                     survey_trend_sd_m=q.get("trend_sd_m", 0.0))
         elif s.name == "survey_random":
             p.update(survey_sigma_m=q["sigma_m"], survey_range_m=q["range_m"],
                      survey_nugget_fraction=q.get("nugget_fraction", 0.0), pixel_area_m2=q.get("pixel_area_m2"))
@@ -427,6 +467,8 @@ def sources_to_params(sources, *, gwp=None) -> dict:
             p.update(subsidence_rate_map_sd_m_per_yr=q["sd_m_per_yr"], interval_years=q["interval_years"])
         elif s.name == "tier1_fuel":
             p["tier1_fuel_cv"] = q["cv"]
+        elif s.name == "surface_change":
+            p["surface_change_sd_m"] = q["sd_m"]
         elif s.name == "peat_property_fill":
             p["peat_fill_cv"] = q["cv"]
         else:

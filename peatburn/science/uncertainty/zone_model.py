@@ -64,6 +64,8 @@ _PARAM_KEYS = {
     "bulk_density_cv", "carbon_fraction_cv", "ef_smouldering", "ef_flaming", "fre_coefficient_cv",
     "biomass_cv", "combustion_factor_cv", "gwp",
     "subsidence_rate_map_sd_m_per_yr", "tier1_fuel_cv", "peat_fill_cv", "gas_form",
+    # multi-range survey error (issue 16; science.zone_error): replaces sigma / range / nugget share when given
+    "survey_nugget_m2", "survey_components", "survey_trend_sd_m", "surface_change_sd_m",
 }
 
 
@@ -156,7 +158,12 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
     sig_r = _nonneg(params, "subsidence_rate_sd_m_per_yr") * T
     sig_map = np.full(n, _nonneg(params, "subsidence_rate_map_sd_m_per_yr") * T)  # per zone
     sz = np.zeros(n)
-    if sig > 0:
+    if params.get("survey_components") is not None:
+        from ..zone_error import zone_mean_sd  # here: zone_error imports this package
+
+        sz = zone_mean_sd(area, _nonneg(params, "survey_nugget_m2"), params["survey_components"],
+                          params.get("pixel_area_m2") or 1.0, _nonneg(params, "survey_trend_sd_m"))
+    elif sig > 0:
         rng_m = params.get("survey_range_m")
         if rng_m is None:
             raise ConfigError("uncertainty parameters: survey_range_m is needed with survey_sigma_m > 0")
@@ -185,7 +192,8 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
         swz = np.full(n, s_wt) if r_wt is None else correlated_sum_sd(s_wt, float(r_wt), wt_area)
 
     fields = {
-        "survey": {"survey_bias": sig_b, "subsidence_rate": sig_r, "survey_random": sz, "subsidence_map": sig_map},
+        "survey": {"survey_bias": sig_b, "subsidence_rate": sig_r, "survey_random": sz, "subsidence_map": sig_map,
+                   "surface_change": _nonneg(params, "surface_change_sd_m")},
         "wt_a": {"wt1": float(wt_l[0, 0]), "wt2": float(wt_l[0, 1]), "wt_residual": swz},
         "wt_b": {"wt1": float(wt_l[1, 0]), "wt2": float(wt_l[1, 1])},
     }
@@ -205,6 +213,7 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
         cores[name] = (base, {f: m for f, m in mult.items() if f in fields and np.any(m != 0)})
     additive_src = {"survey_bias": ("survey_bias", True), "subsidence_rate": ("subsidence_rate", True),
                     "survey_random": ("survey_random", False), "subsidence_map": ("subsidence_rate_map", False),
+                    "surface_change": ("surface_change", True),
                     "wt1": ("water_table_coefficients", True),
                     "wt2": ("water_table_coefficients", True), "wt_residual": ("water_table_residual", False)}
 
