@@ -10,6 +10,7 @@ from .check import check_cmd
 from .demo import demo_cmd
 from .factors import factors_cmd
 from .run import run_cmd
+from .series import series_cmd
 
 
 @click.group()
@@ -25,3 +26,4 @@ cli.add_command(check_cmd)
 cli.add_command(demo_cmd)
 cli.add_command(factors_cmd)
 cli.add_command(calibrate_cmd)
+cli.add_command(series_cmd)

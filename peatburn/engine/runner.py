@@ -58,6 +58,8 @@ class RunResult:
     files: dict = field(default_factory=dict)
     daily: list = field(default_factory=list)
     inventory: list = field(default_factory=list)
+    #: the run total's model sums and draw parameters (joint draws of a series), or None without draws
+    draw_inputs: dict | None = None
 
     @property
     def total(self) -> dict:
@@ -325,11 +327,12 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     scar_sums = scar_layer_sums(sums, len(inputs.scars.frame))
     fire_rows = fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums)
     uncertainty = None
+    draw_inputs = {}
     if cfg.uncertainty.draws > 0:
         from .intervals import add_intervals
 
         uncertainty = add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire_rows=fire_rows,
-                                    fill_cv=plan.fill_cv)
+                                    fill_cv=plan.fill_cv, keep=draw_inputs)
     converting.result()  # the rasters are complete from here on (field plots sample them)
     plots = None
     if inputs.plots is not None:
@@ -386,7 +389,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
                                                       "burn_depth.tif", "carbon_smouldering.tif",
                                                       "depth_method.tif", "report.html"])})
     files["provenance"] = write_json(out_dir / "provenance.json", prov)
-    result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv)
+    result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv, draw_inputs=draw_inputs or None)
     from ..outputs import report
 
     zone_layers = [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones]  # not read a second time
