@@ -76,7 +76,7 @@ def joint_draws(series: SeriesConfig, results: list[RunResult]) -> dict | None:
     for i, (entry, r) in enumerate(zip(series.runs, results)):
         seed = year_seed(entry.config.uncertainty.seed if i == base_i else shared_seed, entry.year, i == base_i)
         d = unc.draw_zone_totals(r.draw_inputs["sums"], r.draw_inputs["params"], draws=draws, seed=seed,
-                                 shared_seed=shared_seed, shared=frozenset(series.shared_sources))
+                                 group_seeds={g: shared_seed for g in series.shared_sources})
         for q, a in d.items():
             out.setdefault(q, [np.zeros(draws)] * len(results))[i] = a[:, 0]
     # a quantity one year lacks (no flaming in that year): zeros, as its table has zeros
