@@ -180,9 +180,9 @@ class RunConfig:
     start_field: str = "fire_start"
     end_field: str = "fire_end"
     id_field: str | None = None  # fires.csv id; None: the scar layer's first text field
-    #: burn-depth rasters of the earlier years of a series (set by ``peatburn series``, not by the TOML):
-    #: the thickness left and the repeat-fire status of this run (docs/method.md, fire history)
-    earlier_burns: tuple[Path, ...] = ()
+    #: (burn_depth.tif, depth_method.tif) of each earlier year of a series (set by ``peatburn series``,
+    #: not by the TOML): the thickness left and the repeat-fire status of this run (docs/method.md 7.5)
+    earlier_burns: tuple[tuple[Path, Path], ...] = ()
     raw: dict = field(default_factory=dict, compare=False, repr=False)
 
     @property
@@ -223,8 +223,9 @@ class RunConfig:
             out["peat.extent"] = self.peat.extent
         for i, z in enumerate(self.zones):
             out[f"zones[{i}].path"] = z.path
-        for i, p in enumerate(self.earlier_burns):
-            out[f"series.earlier_burns[{i}]"] = p
+        for i, (depth, method) in enumerate(self.earlier_burns):
+            out[f"series.earlier_burns[{i}].depth"] = depth
+            out[f"series.earlier_burns[{i}].method"] = method
         for key in ("smouldering", "flaming"):
             v = getattr(self.factors, key)
             if v.lower().endswith(".csv"):

@@ -126,6 +126,18 @@ DEMO_FILES = (
     "peat_thickness.tif", "survey_pre.tif", "survey_post.tif", "subsidence_rate.tif", "bulk_density.tif",
     "water_table.tif", "truth_burn_depth.tif", "scars.gpkg", "concessions.gpkg", "districts.gpkg",
     "detections.csv", "field_plots.csv", "config.toml", "truth.json",
+    # the second, invented fire year and the two-year series (peatburn series)
+    "scars_2032.gpkg", "water_table_2032.tif", "truth_burn_depth_2032.tif", "config_2032.toml", "series.toml",
+)
+#: The second fire year: a drier season [m deeper water table], no new survey (the depth comes from
+#: the water-table relation stated in its configuration), three scars: the first two overlap scars of
+#: 2031 (VX-03 on thin peat, VX-01 on deep peat) by shifting their centres, the third is new.
+SECOND_YEAR = 2032
+SECOND_YEAR_WT_OFFSET_M = 0.12
+_SCARS_2032 = (
+    dict(over=2, dfx=0.035, dfy=0.02, area=10 / 720),
+    dict(over=0, dfx=-0.06, dfy=-0.04, area=20 / 720),
+    dict(fx=0.74, fy=0.16, area=9 / 720),
 )
 
 
@@ -696,7 +708,134 @@ def make_demo_region(folder: str | Path, *, shape: tuple[int, int] = (1200, 1500
         "field_plots": plot_truth,
         "detections": {"count": len(det_rows)},
     }
+    truth["second_year"] = _second_year(folder, seed, transform, crs, scar_polys, region_inner, spacing, at,
+                                        region_area, thickness, depth, wt, bd, canal, pixel_area)
     _write_text(folder / "truth.json", json.dumps(truth, indent=2, allow_nan=False) + "\n")
     config_path = folder / "config.toml"
     _write_text(config_path, _config_text())
+    _write_text(folder / f"config_{SECOND_YEAR}.toml", _second_config_text())
+    _write_text(folder / "series.toml", _series_text())
     return DemoRegion(config_path=config_path, truth=truth, folder=folder)
+
+
+def _second_year(folder, seed, transform, crs, scars_2031, region_inner, spacing, at, region_area, thickness,
+                 depth_2031, wt, bd, canal, pixel_area) -> dict:
+    """Write the invented second fire year (scars, water table, true depth) and return its truth.
+
+    Its own random generator (``seed + 1``), so the first year's files do not change. The true depth
+    is ``clip(WT_A + WT_B w + noise, CORE_DEPTH_RANGE)`` on the year's water table, capped by the peat
+    the 2031 fires left (thickness - 2031 burn depth): the fire history a series applies.
+    """
+    import geopandas as gpd
+    import rasterio.features
+
+    rng = np.random.default_rng(int(seed) + 1)
+    rows, cols = depth_2031.shape
+    polys = []
+    for spec in _SCARS_2032:
+        if "over" in spec:
+            c = scars_2031[spec["over"]].centroid
+            x_left, y_bottom = at(0.0, 0.0)
+            x1, y1 = at(1.0, 1.0)
+            cx, cy = c.x + spec["dfx"] * (x1 - x_left), c.y + spec["dfy"] * (y1 - y_bottom)
+        else:
+            cx, cy = at(spec["fx"], spec["fy"])
+        for _ in range(200):
+            poly = _blob(rng, cx, cy, spec["area"] * region_area)
+            if region_inner.contains(poly) and all(poly.distance(q) > spacing for q in polys):
+                break
+        else:  # pragma: no cover - the layout leaves ample room
+            raise RuntimeError(f"could not place a {SECOND_YEAR} scar for seed {seed}")
+        polys.append(poly)
+    ids = [f"{SCAR_ID_PREFIX}{SECOND_YEAR}-{i + 1:02d}" for i in range(len(polys))]
+    start0 = dt.date(SECOND_YEAR, 8, 10)
+    starts = [start0 + dt.timedelta(days=int(rng.integers(0, 40))) for _ in polys]
+    ends = [min(s + dt.timedelta(days=int(rng.integers(6, 25))), dt.date(SECOND_YEAR, 10, 31)) for s in starts]
+    _write_vector(folder / f"scars_{SECOND_YEAR}.gpkg", gpd.GeoDataFrame(
+        {"scar_id": ids, "fire_start": [_iso(d) for d in starts], "fire_end": [_iso(d) for d in ends]},
+        geometry=polys, crs=crs.to_wkt()), "scars")
+    wt2 = np.clip(wt + SECOND_YEAR_WT_OFFSET_M + _correlated_noise(rng, (rows, cols), 0.03, 3.0), 0.05, 1.3)
+    wt2 = wt2.astype("float32")
+    label = rasterio.features.rasterize([(p, i + 1) for i, p in enumerate(polys)], out_shape=(rows, cols),
+                                        transform=transform, fill=0, dtype="uint8")
+    in_scar = label > 0
+    core = np.clip(WT_A + WT_B * wt2 + _correlated_noise(rng, (rows, cols), WT_NOISE_SD, 1.5), *CORE_DEPTH_RANGE)
+    left = np.maximum(thickness.astype("float64") - depth_2031, 0.0)   # peat left after the 2031 fires
+    depth = np.where(in_scar & ~canal, np.minimum(core, left), 0.0).astype("float32")
+    _write_raster(folder / f"water_table_{SECOND_YEAR}.tif", wt2, transform, crs, units="m",
+                  description=f"water-table depth below the surface at the {SECOND_YEAR} fires [m], positive down")
+    _write_raster(folder / f"truth_burn_depth_{SECOND_YEAR}.tif", depth, transform, crs, units="m",
+                  description=f"TRUE burn depth of {SECOND_YEAR} [m] (for checking only, not an input)")
+    burned_before = in_scar & (depth_2031 > 0)
+    return {
+        "year": SECOND_YEAR,
+        "relation": "burn_depth_m = clip(a + b * water_table_m + e, core_depth_clip_m), capped by the peat left "
+                    "after the 2031 fires (thickness - 2031 burn depth); no margins",
+        "scars": {sid: {"fire_start": _iso(s), "fire_end": _iso(e), **_sums(label == i + 1, depth, bd, pixel_area)}
+                  for i, (sid, s, e) in enumerate(zip(ids, starts, ends))},
+        "overlap_with_2031": {"n_pixels": int(burned_before.sum()),
+                              "pixels_with_no_peat_left": int((burned_before & (left <= 0)).sum()),
+                              "carbon_smouldering_t": _sums(burned_before, depth, bd, pixel_area)["carbon_smouldering_t"],
+                              "carbon_without_history_t": _sums(burned_before, np.where(
+                                  in_scar & ~canal, np.minimum(core, thickness), 0.0), bd, pixel_area)[
+                                  "carbon_smouldering_t"]},
+        "totals": _sums(in_scar, depth, bd, pixel_area),
+    }
+
+
+def _second_config_text() -> str:
+    return f'''# Second fire year of the peatburn demo region (generated by `peatburn demo`); invented throughout.
+# No new survey: the burn depth comes from the water table at the {SECOND_YEAR} fires with the relation
+# stated below (the demo generator's own invented relation, standing in for one calibrated on an
+# earlier year's surveys). Run it with the first year as a series: series.toml.
+
+[run]
+name = "Demo: {REGION_NAME} peat fires {SECOND_YEAR} (synthetic)"
+year = {SECOND_YEAR}
+
+[burned_area]
+path = "scars_{SECOND_YEAR}.gpkg"   # no fire count: the series gives the repeat-fire status
+
+[depth.water_table]
+depth = "water_table_{SECOND_YEAR}.tif"
+intercept = {WT_A}
+slope = {WT_B}
+
+[peat]
+thickness = "peat_thickness.tif"    # before the first year of the series: the series subtracts earlier burns
+bulk_density = {{ raster = "bulk_density.tif", units = "g/cm^3" }}
+carbon_fraction = {CARBON_FRACTION}
+
+[emission_factors]
+smouldering = "{SMOULDERING_SET}"
+gwp = "AR6"
+
+[[zones]]
+path = "concessions.gpkg"
+id = "name"
+
+[[zones]]
+path = "districts.gpkg"
+id = "district"
+
+[uncertainty]
+draws = 2000
+seed = 1
+'''
+
+
+def _series_text() -> str:
+    return f'''# The demo's two fire years as one series (`peatburn series series.toml --out DIR`); invented throughout.
+
+[series]
+name = "Demo: {REGION_NAME} peat fires 2031-{SECOND_YEAR} (synthetic)"
+
+[shared]
+emission_factors = {{ smouldering = "{SMOULDERING_SET}", gwp = "AR6" }}
+
+[[runs]]
+config = "config.toml"
+
+[[runs]]
+config = "config_{SECOND_YEAR}.toml"
+'''

@@ -45,9 +45,10 @@ class SeriesResult:
     recalculation: list | None = None
 
 
-def with_history(cfg, earlier: list[Path]):
-    """``cfg`` with the burn-depth rasters of the earlier years of the series."""
-    return dataclasses.replace(cfg, earlier_burns=tuple(Path(p) for p in earlier))
+def with_history(cfg, earlier: list[RunResult]):
+    """``cfg`` with the burn-depth and depth-method rasters of the earlier years of the series."""
+    return dataclasses.replace(cfg, earlier_burns=tuple((Path(r.files["burn_depth"]), Path(r.files["depth_method"]))
+                                                        for r in earlier))
 
 
 def year_seed(seed: int, year: int, base: bool) -> int:
@@ -183,7 +184,7 @@ def run_series(series: SeriesConfig, out_dir, *, overwrite: bool = False, worker
             for entry in series.runs:
                 cfg = entry.config
                 if series.fire_history and results:
-                    cfg = with_history(cfg, [r.files["burn_depth"] for r in results])
+                    cfg = with_history(cfg, results)
                 results.append(run(cfg, out_dir / str(entry.year), overwrite=overwrite, workers=workers,
                                    scheduler=client, progress=progress))
             return _write(series, out_dir, results, old)
