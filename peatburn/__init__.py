@@ -23,4 +23,15 @@ def run(cfg, out_dir, **kwargs):
     return _run(cfg, out_dir, **kwargs)
 
 
-__all__ = ["__version__", "load_config", "run", "RunConfig", "PeatburnError"]
+def run_series(series, out_dir, **kwargs):
+    """Run a series (a :class:`peatburn.series_config.SeriesConfig` or a path to SERIES.toml); see
+    :func:`peatburn.engine.series.run_series`."""
+    from .engine.series import run_series as _run_series
+    from .series_config import SeriesConfig, load_series
+
+    if not isinstance(series, SeriesConfig):
+        series = load_series(series)
+    return _run_series(series, out_dir, **kwargs)
+
+
+__all__ = ["__version__", "load_config", "run", "run_series", "RunConfig", "PeatburnError"]
