@@ -173,7 +173,11 @@ def task_blocks(config, workers=1, cold=True, early=True):
     start-up then is not in the time); else they start inside the timed block pass."""
     import peatburn
     from peatburn.engine.executors import BLOCK_GROUP, WorkerPool, map_blocks
-    from peatburn.engine.pipeline import Sums, build_plan, coregister, open_inputs, process_block, window_group
+    from peatburn.engine.alignment import coregister
+    from peatburn.engine.blocks import process_block
+    from peatburn.engine.inputs import open_inputs, window_group
+    from peatburn.engine.plan import build_plan
+    from peatburn.engine.sums import Sums
 
     cfg = peatburn.load_config(config)
     inputs = open_inputs(cfg)
@@ -226,8 +230,11 @@ def task_main_writes(config, out, repeat=3):
     import peatburn
     from peatburn.engine.executors import BLOCK_GROUP, gdal_env, map_blocks, run_cache_bytes
     from peatburn.io.writers import BlockRasterWriter, BlockWrites
-    from peatburn.engine.pipeline import (Sums, build_plan, compute_block, coregister, open_inputs, process_block,
-                                   read_block, window_group)
+    from peatburn.engine.alignment import coregister
+    from peatburn.engine.blocks import compute_block, process_block, read_block
+    from peatburn.engine.inputs import open_inputs, window_group
+    from peatburn.engine.plan import build_plan
+    from peatburn.engine.sums import Sums
 
     cfg = peatburn.load_config(config)
     inputs = open_inputs(cfg)

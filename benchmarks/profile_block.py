@@ -36,7 +36,10 @@ def main(argv=None):
     ap.add_argument("--zones", type=int, default=0)
     a = ap.parse_args(argv)
     import peatburn
-    from peatburn.engine.pipeline import build_plan, coregister, open_inputs, process_block
+    from peatburn.engine.alignment import coregister
+    from peatburn.engine.blocks import process_block
+    from peatburn.engine.inputs import open_inputs
+    from peatburn.engine.plan import build_plan
 
     cfg = peatburn.load_config(_common.scene(a.scene, zones=a.zones))
     inputs = open_inputs(cfg)

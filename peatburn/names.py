@@ -25,7 +25,7 @@ __all__ = ["TOTAL_LAYER", "TOTAL_ZONE", "OUTSIDE", "SCAR_LAYER", "RESERVED_LAYER
 TOTAL_LAYER, TOTAL_ZONE = "total", "all"
 #: Zone of each layer's remainder row (what lies outside every zone of the layer).
 OUTSIDE = "(outside every zone)"
-#: The pipeline's internal per-scar layer (peatburn.engine.pipeline.SCAR_LAYER; a test checks they agree).
+#: The engine's internal per-scar layer (peatburn.engine.sums.SCAR_LAYER; a test checks they agree).
 SCAR_LAYER = "__scars__"
 #: Layer names no user layer may take.
 RESERVED_LAYERS = (TOTAL_LAYER, SCAR_LAYER)

@@ -13,7 +13,8 @@ import math
 import numpy as np
 import rasterio
 
-from .engine.pipeline import METHOD_CODES, sample_points
+from .engine.depth_models import sample_points
+from .engine.sums import METHOD_CODES
 
 
 def _sample(path, x, y):

@@ -22,7 +22,7 @@ def _run_cli(*args):
 def test_post_survey_on_another_grid_and_crs_is_aligned(tmp_path):
     """A post-fire survey delivered in another CRS (WGS 84 lon/lat) at another resolution is warped
     onto the run grid, not refused; the carbon stays within 5 % of the truth (coarser resampling
-    of the survey smears the scar edges more than in tests/engine/test_pipeline.py)."""
+    of the survey smears the scar edges more than in tests/engine/test_runner.py)."""
     s = make_scene(tmp_path / "s", zones=False)
     src = s.folder / "post.tif"
     with rasterio.open(src) as ds:

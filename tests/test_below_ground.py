@@ -22,7 +22,7 @@ PIXEL = 2.0
 AREA = PIXEL * PIXEL  # m2
 BD, CF = 0.1, 0.55
 KG_C_PER_M3 = BD * 1000 * CF  # g cm-3 -> kg m-3 (exact), times the carbon fraction
-# tolerance of the survey route on these scenes (tests/test_pipeline.py TOL, justified there)
+# tolerance of the survey route on these scenes (tests/engine/test_runner.py TOL, justified there)
 TOL = 0.03
 # The scene's scars (tests/conftest.py make_scene, default shape 240 x 300 at 2 m)
 W_M, H_M = 600.0, 480.0

@@ -56,7 +56,7 @@ def test_printable(text, expected):
 
 
 def test_reserved_scar_layer_matches_the_pipeline():
-    from peatburn.engine.pipeline import SCAR_LAYER
+    from peatburn.engine.sums import SCAR_LAYER
 
     assert names.SCAR_LAYER == SCAR_LAYER
 

@@ -11,13 +11,11 @@ from conftest import make_scene
 from peatburn.config import load_config
 from peatburn.science import water_table as wtm
 
-try:  # the run engine moves to peatburn/engine/ (issue 23); this file works on either side of the move
-    from peatburn.engine import intervals, pipeline
-except ImportError:
-    from peatburn.engine import intervals, pipeline
-
-DepthModels, build_plan, coregister, open_inputs = (pipeline.DepthModels, pipeline.build_plan, pipeline.coregister,
-                                                    pipeline.open_inputs)
+from peatburn.engine import blocks, intervals
+from peatburn.engine.alignment import coregister
+from peatburn.engine.depth_models import DepthModels, load_models
+from peatburn.engine.inputs import open_inputs
+from peatburn.engine.plan import build_plan, stations_by_fire_date
 
 
 def _dated_scene(tmp_path, window_days):
@@ -57,10 +55,10 @@ def test_each_scar_uses_the_readings_nearest_its_fire_start(tmp_path, window_day
         assert list(group) == [0, 1] and window == 15 and n_without == 0
     from rasterio.windows import Window
 
-    st = pipeline._state(plan)
+    st = blocks._state(plan)
     win = Window(0, 0, plan.grid.width, plan.grid.height)
     scar = st["scars"].rasterize(plan.grid, win)
-    wt = pipeline.water_table_depth(st, plan, win, scar > 0)
+    wt = blocks.water_table_depth(st, plan, win, scar > 0)
     for k, v in expected.items():
         np.testing.assert_allclose(wt[scar == k], v, atol=1e-9)
 
@@ -71,7 +69,7 @@ def test_scar_without_a_reading_in_the_window_gets_none():
     x = np.array([0.0, 0.0])
     y = np.array([0.0, 0.0])
     v = np.array([0.2, 0.8])
-    group, subsets, window, n_without = pipeline.stations_by_fire_date(
+    group, subsets, window, n_without = stations_by_fire_date(
         (x, y, v), ["1970-01-11", "1970-02-10"], ["1970-01-13", "1970-01-26", None], 5)
     assert list(group) == [0, 1, -1] and n_without == 1
     assert list(subsets[0][2]) == [0.2] and subsets[1][2].size == 0
@@ -80,11 +78,11 @@ def test_scar_without_a_reading_in_the_window_gets_none():
 def test_water_table_is_clamped_to_the_fitted_range():
     # fitted range 0.3-0.9 m: 0.1 -> 0.3, 1.5 -> 0.9, 0.5 unchanged; two of three pixels extrapolate
     m = DepthModels(wtm.DepthModel(0.0, 0.5, 0, 0, 0, 10, 0, 0, "theil-sen", "fitted", water_table_range=(0.3, 0.9)))
-    wt, out = pipeline._clamp_to_fit(m, np.array([0.1, 0.5, 1.5, np.nan]), np.array([True, True, True, False]))
+    wt, out = blocks._clamp_to_fit(m, np.array([0.1, 0.5, 1.5, np.nan]), np.array([True, True, True, False]))
     np.testing.assert_allclose(wt[:3], [0.3, 0.5, 0.9])
     assert list(out) == [True, False, True, False]
     # user and default coefficients have no fitted range: nothing is clamped
-    wt, out = pipeline._clamp_to_fit(DepthModels(wtm.DEFAULT_MODEL), np.array([0.1, 2.0]), np.array([True, True]))
+    wt, out = blocks._clamp_to_fit(DepthModels(wtm.DEFAULT_MODEL), np.array([0.1, 2.0]), np.array([True, True]))
     np.testing.assert_allclose(wt, [0.1, 2.0])
     assert not out.any()
 
@@ -100,12 +98,12 @@ def test_edge_distance_matches_shapely_across_block_borders(tmp_path):
     s = make_scene(tmp_path / "s", zones=False, extra_config="")
     inputs = open_inputs(load_config(s.config))
     plan = build_plan(inputs, coregister(inputs))
-    st = pipeline._state(plan)
+    st = blocks._state(plan)
     disc = plan.scars[1]
     px = s.pixel
     for col, row in [(150, 120), (180, 140), (210, 160)]:
         win = Window(col, row, 32, 32)
-        dist = pipeline.edge_distance(st, plan, win, 200.0)
+        dist = blocks.edge_distance(st, plan, win, 200.0)
         x, y = plan.grid.pixel_centres(win)
         xx, yy = np.broadcast_arrays(x, y)
         inside = shapely.contains_xy(disc, xx, yy) & (dist > 0)
@@ -145,7 +143,6 @@ def test_model_files_written_before_issue_15_still_load(tmp_path):
     # a calibrate file with only the fields of the earlier model (no target, cross-validation...)
     import json
 
-    load_models = pipeline.load_models
     old = {k: v for k, v in wtm.DEFAULT_MODEL.to_dict().items()
            if k not in ("target", "estimator", "n_screened", "n_censored", "water_table_error_m", "cv_n_scars",
                         "cv_bias", "cv_rmse", "cv_method", "edge_taper_m")}

@@ -18,7 +18,7 @@ def check_cmd(config, against):
     from ..factors import load_factor_set, load_gwp_set, require_gases
     from ..names import printable
     from ..outputs.provenance import check_against
-    from ..engine.pipeline import open_inputs
+    from ..engine.inputs import open_inputs
 
     cfg = load_config(config)
     sm = require_gases(load_factor_set(cfg.factors.smouldering, "smouldering"), "smouldering")

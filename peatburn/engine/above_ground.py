@@ -22,13 +22,13 @@ from dataclasses import dataclass, field
 import numpy as np
 import shapely
 
-from .pipeline import SCAR_LAYER
+from .sums import SCAR_LAYER
 from ..science import flaming
 
 
 @dataclass
 class FlamingSums:
-    """Per zone-layer arrays (same bins as :class:`peatburn.engine.pipeline.Sums`) and the run total."""
+    """Per zone-layer arrays (same bins as :class:`peatburn.engine.sums.Sums`) and the run total."""
 
     route: str
     total: dict

@@ -15,7 +15,10 @@ import numpy as np
 from .. import __version__
 from ..errors import ConfigError
 from ..io.writers import atomic_path, write_json
-from .pipeline import DepthModels, build_plan, coregister, depth_samples, fit_models, open_inputs, plot_samples
+from .alignment import coregister
+from .depth_models import DepthModels, depth_samples, fit_models, plot_samples
+from .inputs import open_inputs
+from .plan import build_plan
 
 
 @dataclass

@@ -1,4 +1,4 @@
-"""Executors run a per-block function (:func:`peatburn.engine.pipeline.process_block`) over block windows.
+"""Executors run a per-block function (:func:`peatburn.engine.blocks.process_block`) over block windows.
 
 Three ways, one contract (:func:`map_blocks`): results come back **in window order**, so the caller
 adds sums in the same order whatever the executor and the totals equal the serial run's.
@@ -24,7 +24,7 @@ workers on N cores do not oversubscribe the machine or multiply GDAL's default c
 RAM per process), and glibc's malloc keeps block-sized arrays in its heap (:func:`tune_malloc`).
 :func:`gdal_env` gives the matching GDAL settings for the main process.
 
-Open datasets are kept per thread (:func:`peatburn.engine.pipeline._state`), so dask workers may run
+Open datasets are kept per thread (:func:`peatburn.engine.blocks._state`), so dask workers may run
 several threads; one single-threaded worker process per core runs fastest (see :func:`_dask_task`):
 ``dask worker ADDRESS --nworkers N --nthreads 1``.
 """
@@ -197,7 +197,7 @@ def _mp_context():
     methods = multiprocessing.get_all_start_methods()
     if "forkserver" in methods and sys.platform != "darwin":
         ctx = multiprocessing.get_context("forkserver")
-        ctx.set_forkserver_preload(["peatburn.engine.pipeline"])
+        ctx.set_forkserver_preload(["peatburn.engine.blocks"])
         return ctx
     return multiprocessing.get_context("spawn")
 
@@ -261,7 +261,7 @@ _DASK_CONFIGURED: dict = {}
 def _dask_task(fn, plan, windows, cache_bytes):
     """Run a chunk of blocks on a dask worker.
 
-    The GDAL settings are applied once per worker process. The pipeline keeps its open datasets
+    The GDAL settings are applied once per worker process. The blocks keep their open datasets
     per thread, so a worker may run several threads; numpy work holds the GIL for part of each
     block, so one single-threaded worker process per core runs fastest (``--nthreads 1``).
     """

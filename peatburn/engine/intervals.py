@@ -17,12 +17,12 @@ import numpy as np
 
 from ..factors import list_factor_sets
 from ..outputs.tables import OUTSIDE, TOTAL_LAYER, gas_key
-from .pipeline import SCAR_LAYER
+from .sums import SCAR_LAYER
 from ..science import uncertainty as unc
 from ..science import variogram
 from ..science.tier1 import TIER1_FUEL_RELATIVE_SD
 
-#: pipeline sum -> uncertainty-model sum
+#: engine sum (engine.sums.SUM_KEYS) -> uncertainty-model sum
 SUM_MAP = {
     "area_m2": "area_m2_survey", "volume_m3": "volume_m3", "peat_kg": "peat_kg", "carbon_kg": "carbon_kg",
     "rho_area": "rho_area_survey", "rho_f_area": "rho_f_area_survey",
@@ -169,7 +169,7 @@ _WITH_COLUMN = _HasColumn()
 def _threads() -> int:
     """Threads for the zone draws: every core this process may use. The draws run after the block
     pass, when nothing else competes; their random streams are keyed by zone block, so the result
-    does not depend on the number of threads (science.uncertainty._Drawer)."""
+    does not depend on the number of threads (numerics.draws.Drawer)."""
     try:
         return max(1, len(os.sched_getaffinity(0)))
     except AttributeError:  # not on Linux

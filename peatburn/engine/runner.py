@@ -21,8 +21,12 @@ from .executors import BLOCK_GROUP, map_blocks
 from ..factors import load_factor_set, load_gwp_set, require_gases
 from ..io.writers import BlockRasterWriter, BlockWrites, is_own_temporary, write_csv, write_json
 from ..outputs import provenance, tables
-from .pipeline import (METHOD_CODES, SCAR_LAYER, Sums, build_plan, compute_block, coregister, fit_models, open_inputs,
-                       process_block, read_block, window_group)
+from .alignment import coregister
+from .blocks import compute_block, process_block, read_block
+from .depth_models import fit_models
+from .inputs import open_inputs, window_group
+from .plan import build_plan
+from .sums import METHOD_CODES, SCAR_LAYER, Sums
 
 CAUTIONS = [
     "These are estimates with uncertainty, not measurements and not legal findings.",

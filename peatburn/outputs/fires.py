@@ -90,7 +90,7 @@ def fire_rows(ids: list[str], periods: list[tuple], scar_sums: dict, factors, ru
     ids, periods
         Per fire: the id and the (start, end) dates (None where unknown), in layer order.
     scar_sums : dict of str to array
-        The block pass's sums of the internal scar layer, one value per fire (pipeline.SUM_KEYS),
+        The block pass's sums of the internal scar layer, one value per fire (engine.sums.SUM_KEYS),
         shared pixels already split between the fires covering them; ``repeat_area_m2`` holds each
         fire's whole area shared with another fire, ``mineral_area_m2`` its share of burned
         mineral soil.

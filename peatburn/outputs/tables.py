@@ -76,7 +76,7 @@ T_PER_KG = 1e-3  # exact
 
 
 def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
-    """Zone quantities from summed areas [m2], volume [m3], masses [kg] (see pipeline.SUM_KEYS).
+    """Zone quantities from summed areas [m2], volume [m3], masses [kg] (see engine.sums.SUM_KEYS).
 
     ``factors`` holds the smouldering, flaming and Tier 1 factor sets, the GWP set and the
     vegetation carbon fraction; ``flame`` the flaming sums of the zone (dry matter [kg], FRE [MJ],
@@ -178,7 +178,7 @@ def _rows(layer: str, zones: list[str], q: dict) -> list[dict]:
 
 def zone_rows(result_sums, factors, flame_sums=None) -> list[dict]:
     """One row per zone of each layer, one "outside" row per layer, then the run total."""
-    from ..engine.pipeline import SCAR_LAYER
+    from ..engine.sums import SCAR_LAYER
 
     rows = []
     for li, (name, ids, acc) in enumerate(result_sums.layers):

@@ -22,7 +22,7 @@ import peatburn
 import peatburn.engine.runner as runner
 from peatburn.io import writers
 from peatburn.io.writers import BlockRasterWriter
-from peatburn.engine.pipeline import Sums
+from peatburn.engine.sums import Sums
 
 
 @pytest.fixture(scope="module")
@@ -225,7 +225,7 @@ def test_window_group_follows_the_inputs_tiling(tmp_path, layout, pixel, epsg, e
 
     from peatburn.grid import RunGrid
     from peatburn.io.rasters import inspect_raster
-    from peatburn.engine.pipeline import window_group
+    from peatburn.engine.inputs import window_group
 
     n = int(200 / pixel)
     path = tmp_path / "in.tif"

@@ -1,6 +1,6 @@
 """Executors (serial, local processes, dask.distributed) and the progress bar.
 
-The contract checked here (DEVELOPERS.md, "Layers": pipeline -> executors): every executor yields the block results in
+The contract checked here (DEVELOPERS.md, "Layers": blocks -> executors): every executor yields the block results in
 window order, so sums are added in the same order and a parallel run equals the serial run.
 """
 
