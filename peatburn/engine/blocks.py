@@ -100,6 +100,9 @@ def _state(plan: RunPlan):
             src = getattr(plan, name)
             if isinstance(src, RasterSource):
                 readers[name] = GridReader(src, plan.grid)
+        for i, (depth, method) in enumerate(plan.earlier_burns):
+            readers[f"earlier_depth_{i}"] = GridReader(depth, plan.grid)
+            readers[f"earlier_method_{i}"] = GridReader(method, plan.grid)
         st = {
             "readers": readers,
             "scars": WindowRasterizer(plan.scars),
@@ -252,8 +255,14 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
     pre, post, rate, thick = _survey_inputs(st, plan, window, burned)
     fire_count = None
     m = plan.models
-    if m is not None and m.first is not None and m.repeat is not None and st["fire_count"] is not None:
-        fire_count = st["fire_count"].rasterize(grid, window, dtype="float64")[burned]
+    earlier = _earlier_burns(st, plan, window, burned)
+    if earlier:  # a series: the peat the earlier years left (docs/method.md 7.5)
+        thick = peat.thickness_left(thick, [d for d, _ in earlier])
+    if m is not None and m.first is not None and m.repeat is not None:
+        if st["fire_count"] is not None:  # the scars' own fire count is kept
+            fire_count = st["fire_count"].rasterize(grid, window, dtype="float64")[burned]
+        elif earlier:  # repeat-fire status from the series
+            fire_count = 1.0 + peat.fires_before([b for _, b in earlier])
     return BlockData(
         window, burned, area=np.broadcast_to(grid.pixel_area(window), shape)[burned],
         rho=at(_param(st, plan, "bulk_density", window)), cf=at(_param(st, plan, "carbon_fraction", window)),
@@ -265,6 +274,17 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
         edge=edge_distance(st, plan, window, EDGE_REACH * _taper_m(m))[burned] if _taper_m(m) > 0 else None,
         zone_bins=[[b[burned] for b in z.bin_rasters(grid, window)] for z in st["zones"]],
     )
+
+
+def _earlier_burns(st, plan: RunPlan, window: Window, burned: np.ndarray) -> list:
+    """Per earlier year of a series, (burn depth [m], burned) at the burned pixels: the depth of its
+    burn_depth.tif (NaN: none) and whether its depth_method.tif marks the pixel burned (code > 0)."""
+    out = []
+    for i in range(len(plan.earlier_burns)):
+        d = st["readers"][f"earlier_depth_{i}"].read(window)[burned]
+        code = st["readers"][f"earlier_method_{i}"].read(window)[burned]
+        out.append((d, np.isfinite(code) & (code > 0)))
+    return out
 
 
 def _in_extent(st, plan: RunPlan, window: Window, burned: np.ndarray):

@@ -92,6 +92,4 @@ def correlation(draws) -> np.ndarray:
     NaN for a year whose draws do not vary."""
     a = np.asarray(draws, dtype="float64")
     with np.errstate(divide="ignore", invalid="ignore"):
-        sd = a.std(axis=1)
-        c = np.cov(a) if a.shape[0] > 1 else np.atleast_2d(a.var())
-        return np.atleast_2d(c) / np.outer(sd, sd)
+        return np.atleast_2d(np.corrcoef(a))
