@@ -105,6 +105,14 @@ def joint_summary(series: SeriesConfig, results: list[RunResult], gases) -> dict
     cols = ["peat_burned_t", "carbon_smouldering_t", "carbon_flaming_t", "co2e_smouldering_t", "co2e_flaming_t",
             "co2e_t"] + [f"{g}_{p}_t" for p in ("smouldering", "flaming") for g in ("co2", "ch4", "co")]
     values = {c: np.array([_total(t, c) for t in totals]) for c in cols}
+    flaming_all = all(st.flaming_estimated(r.totals) for r in results)
+    if not flaming_all:  # a year without a flaming estimate: no flaming (or both-phase) sum or trend
+        summary["note_flaming"] = ("the flaming phase is not estimated in year(s) " + ", ".join(
+            str(y) for y, r in zip(years, results) if not st.flaming_estimated(r.totals))
+            + ": no sum or trend of flaming or both-phase quantities")
+        for c in cols:
+            if c == "co2e_t" or st.phase_quantity(c)[0] == "flaming":
+                values[c] = np.full(len(totals), np.nan)
     if joint is None:
         summary["draws"] = 0
         summary["note"] = "no Monte Carlo draws (uncertainty.draws = 0): sum and trend without intervals"
@@ -214,7 +222,7 @@ def _write(series: SeriesConfig, out_dir: Path, results: list[RunResult], old: d
     gases = run_gases(load_factors(series.runs[0].config))
     rows = []
     for entry, r in zip(series.runs, results):
-        rows += st.year_rows(entry.year, r.total, run_gases(load_factors(entry.config)))
+        rows += st.year_rows(entry.year, r.total, run_gases(load_factors(entry.config)), st.flaming_estimated(r.totals))
     summary = joint_summary(series, results, gases)
     rows += st.joint_rows(summary)
     records = [{"totals": r.totals, "provenance": json.loads(Path(r.files["provenance"]).read_text(encoding="utf-8"))}
@@ -229,6 +237,8 @@ def _write(series: SeriesConfig, out_dir: Path, results: list[RunResult], old: d
         notes.append(f"inventory lines of calendar year(s) {', '.join(cal)} come from a run of another series year "
                      f"(scar fire dates): add lines of one calendar year from different runs by their values; their "
                      f"intervals do not add")
+    if summary.get("note_flaming"):
+        notes.append(summary["note_flaming"])
     if series.fire_history and len(years) > 1:
         notes.append("fire history: each year after the first used the burn depths of the earlier years (thickness "
                      "left, repeat-fire status); docs/method.md")

@@ -47,7 +47,9 @@ def timeseries_chart(rows: list[dict]) -> str | None:
             drawn = True
         if not drawn:
             return None
-        ax.set_xticks(sorted({r["year"] for r in rows if r["kind"] == "year"}))
+        years = sorted({r["year"] for r in rows if r["kind"] == "year"})
+        ax.set_xticks(years)
+        ax.set_xlim(years[0] - 0.5, years[-1] + 0.5)
         ax.set_ylabel("t CO₂e per year")
         ax.set_ylim(bottom=0)
         ax.legend(frameon=False, loc="best")

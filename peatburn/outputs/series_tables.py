@@ -33,8 +33,15 @@ def phase_quantity(column: str) -> tuple[str, str]:
     return "all", column
 
 
-def year_rows(year: int, total: dict, gases) -> list[dict]:
-    """series.csv rows of one year from its run's total row (zones.csv, layer ``total``)."""
+def flaming_estimated(totals: dict) -> bool:
+    """Whether a run estimated the flaming phase (totals.json; without a [flaming] section its
+    flaming columns are zeros that mean "not estimated")."""
+    return totals["method"].get("flaming_factors") is not None
+
+
+def year_rows(year: int, total: dict, gases, flaming: bool = True) -> list[dict]:
+    """series.csv rows of one year from its run's total row (zones.csv, layer ``total``); no flaming
+    rows when the run did not estimate the flaming phase (``flaming`` False)."""
     assert total.get("layer") == TOTAL_LAYER
     unit_of = units(gases)
     rows = [_row("year", year, "all", "burned_area_ha", unit_of["burned_area_ha"], total["burned_area_ha"])]
@@ -43,6 +50,8 @@ def year_rows(year: int, total: dict, gases) -> list[dict]:
         if v is None or not math.isfinite(v):
             continue  # a gas the phase's set lacks: not estimated
         phase, q = phase_quantity(col)
+        if phase == "flaming" and not flaming:
+            continue
         rows.append(_row("year", year, phase, q, unit_of[col], v, total.get(f"{col}_lo"), total.get(f"{col}_hi")))
     return rows
 
@@ -96,7 +105,7 @@ def changes_between_years(prev_year: int, prev: dict, year: int, cur: dict) -> l
     for key, label in (("smouldering_factors", "smouldering factor set"), ("flaming_factors", "flaming factor set"),
                        ("gwp", "GWP set"), ("flaming", "flaming route")):
         if mp.get(key) != mc.get(key):
-            out.append(f"{label}: {mp.get(key)} -> {mc.get(key)}")
+            out.append(f"{label}: {mp.get(key) or 'not estimated'} -> {mc.get(key) or 'not estimated'}")
     sp, sc = method_shares(tp), method_shares(tc)
     for m in sc:
         a, b = sp.get(m), sc.get(m)
