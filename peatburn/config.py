@@ -358,15 +358,19 @@ def load_config(path) -> RunConfig:
         Quantities of the wrong dimension or outside plausible ranges.
     """
     path = Path(path)
+    return config_from_dict(read_toml(path, "config"), base=path.parent.resolve(), source=path.resolve())
+
+
+def read_toml(path: Path, what: str) -> dict:
+    """A TOML file as a dict; a missing file or a syntax error is one line naming the file."""
     if not path.exists():
         from .errors import MissingInputError
 
-        raise MissingInputError(f"config: file not found: {path}")
+        raise MissingInputError(f"{what}: file not found: {path}")
     try:
-        raw = tomllib.loads(path.read_text(encoding="utf-8"))
+        return tomllib.loads(path.read_text(encoding="utf-8"))
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(f"{path}: TOML syntax error: {exc}; fix that line") from None
-    return config_from_dict(raw, base=path.parent.resolve(), source=path.resolve())
 
 
 def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunConfig:

@@ -13,12 +13,11 @@ from __future__ import annotations
 
 import difflib
 import math
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .config import RunConfig, _factor_ref, load_config
-from .errors import ConfigError, MissingInputError
+from .config import RunConfig, _factor_ref, load_config, read_toml
+from .errors import ConfigError
 from .units import to_magnitude
 
 
@@ -137,13 +136,7 @@ def load_series(path) -> SeriesConfig:
         ``allow_differences`` (one line naming the run, the key and both values).
     """
     path = Path(path)
-    if not path.exists():
-        raise MissingInputError(f"series: file not found: {path}")
-    try:
-        raw = tomllib.loads(path.read_text(encoding="utf-8"))
-    except tomllib.TOMLDecodeError as exc:
-        raise ConfigError(f"{path}: TOML syntax error: {exc}; fix that line") from None
-    return series_from_dict(raw, base=path.parent.resolve(), source=path.resolve())
+    return series_from_dict(read_toml(path, "series"), base=path.parent.resolve(), source=path.resolve())
 
 
 def series_from_dict(raw: dict, base: Path, source: Path | None = None) -> SeriesConfig:

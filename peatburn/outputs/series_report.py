@@ -17,8 +17,8 @@ import numpy as np
 
 from .. import __version__
 from ..io.writers import write_text
-from .report import (METHOD_COLOURS, METHOD_LABELS, PHASE_COLOURS, _figure, _finite, _png, _style, fmt_interval,
-                     fmt_num, fmt_pct, fmt_range)
+from .report import (PHASE_COLOURS, _figure, _finite, _png, _style, fmt_interval, fmt_num, fmt_pct, fmt_range,
+                     method_bars)
 
 
 def _year_values(rows: list[dict], phase: str, quantity: str):
@@ -65,12 +65,7 @@ def method_share_by_year_chart(shares: dict) -> str | None:
     with _style():
         fig = _figure(7.4, 0.32 * len(years) + 1.2)
         ax = fig.add_subplot()
-        y = np.arange(len(years))
-        left = np.zeros(len(years))
-        for m in METHOD_COLOURS:
-            s = np.array([100.0 * (_finite(shares[yr].get(m)) or 0.0) for yr in years])
-            ax.barh(y, s, left=left, height=0.6, color=METHOD_COLOURS[m], label=METHOD_LABELS[m])
-            left += s
+        y = method_bars(ax, [shares[yr] for yr in years], height=0.6)
         ax.set_yticks(y, [str(yr) for yr in years])
         ax.set_ylim(len(years) - 0.5, -0.5)
         ax.set_xlim(0, 100)
