@@ -239,6 +239,13 @@ def run_notes(cfg) -> list[str]:
     if cfg.tier1_only:
         notes.append("Tier 1 only: no survey and no water table, so every burned pixel on organic soil gets the "
                      "IPCC 2013 Wetlands Supplement default fuel consumption (no measured or modelled depth)")
+    if cfg.earlier_burns:  # a later year of a series (docs/method.md 7.5)
+        n = len(cfg.earlier_burns)
+        notes.append(f"fire history: {n} earlier year(s) of the series burned before this run; the peat thickness "
+                     f"is reduced by their burn depths (a pixel with no peat left burns none) and, where the scars "
+                     f"carry no fire count, a pixel they burned counts as a repeat fire"
+                     + ("" if cfg.peat.thickness is not None else
+                        "; no peat.thickness is given, so only the repeat-fire status applies"))
     sv = cfg.survey
     if sv is not None and sv.subsidence_rate is not None and not isinstance(sv.subsidence_rate, RasterRef):
         notes.append(f"subsidence: the rate is one constant ({float(sv.subsidence_rate):g} m/yr); the vertical "

@@ -107,3 +107,24 @@ def test_missing_years_are_reported_and_duplicates_refused(tmp_path):
     c4 = make_year(tmp_path / "d", 2031, [box(2, 2, 12, 12)])
     with pytest.raises(ConfigError, match="year 2031 is listed by more than one run"):
         load_series(write_series(tmp_path, {2031: c1, 2034: c4}))
+
+
+def test_joint_draws_of_the_base_year_are_its_runs_draws(two_years):
+    """The base year keeps its run's seed for every source, so its joint draws give its run's interval;
+    the other year's total is drawn with common random numbers for the shared factors."""
+    from peatburn.engine.series import joint_draws
+    from peatburn.science import trend
+
+    root, _, result = two_years
+    series = load_series(root / "SERIES.toml")
+    d = joint_draws(series, result.results)
+    carbon = d["quantities"]["carbon_kg"] * 1e-3
+    lo, hi = trend.interval(carbon[0])
+    total = result.results[0].total
+    assert lo == pytest.approx(total["carbon_smouldering_t_lo"], rel=1e-9)
+    assert hi == pytest.approx(total["carbon_smouldering_t_hi"], rel=1e-9)
+    # these tiny years have no survey and a stated depth model: every error is a shared factor, so the
+    # years' totals move together draw by draw (correlation 1) and the trend has no spread
+    assert trend.correlation(carbon)[0, 1] == pytest.approx(1.0, abs=1e-9)
+    t = trend.trend_draws(carbon[0], carbon[1])
+    assert float(t.max() - t.min()) == pytest.approx(0.0, abs=1e-9)
