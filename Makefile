@@ -4,7 +4,7 @@ VENV   ?= .venv
 BIN     = $(VENV)/bin
 DEMO_OUT ?= demo_output
 
-.PHONY: demo test install bench clean
+.PHONY: demo test lint install bench clean
 
 $(BIN)/activate: pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -19,6 +19,9 @@ demo: install
 
 test: install
 	$(BIN)/python -m pytest -q
+
+lint: install
+	$(BIN)/ruff check peatburn tests benchmarks
 
 bench: install
 	$(BIN)/python benchmarks/run_all.py

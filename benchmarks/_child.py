@@ -138,7 +138,6 @@ def task_run(config, out, workers=1, gdal_env=False, scheduler=None, block_cache
 
 
 def task_floor(config, out, gdal_env=False):
-    import numpy as np
     import rasterio
 
     import _common

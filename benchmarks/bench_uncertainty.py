@@ -41,8 +41,8 @@ def zone_sums(n_pixels: int, n_zones: int, seed: int = 0) -> tuple[dict[str, np.
     t0 = time.perf_counter()
     ra = rho * area * 1000.0
     rfa = ra * f
-    sums = {"area_m2": bc(area), "volume_m3": bc(depth * area), "peat_kg": bc(depth * ra),
-            "carbon_kg": bc(depth * rfa), "rho_area": bc(ra), "rho_f_area": bc(rfa)}
+    sums = {"area_m2_survey": bc(area), "volume_m3": bc(depth * area), "peat_kg": bc(depth * ra),
+            "carbon_kg": bc(depth * rfa), "rho_area_survey": bc(ra), "rho_f_area_survey": bc(rfa)}
     return sums, time.perf_counter() - t0
 
 

@@ -8,13 +8,25 @@ Public API::
     result.total["carbon_smouldering_t"]
 """
 
-__version__ = "0.1.0"
+from __future__ import annotations
+
+__version__ = "0.1.0"  # the one place the version is set (pyproject.toml reads it)
+
+import logging  # noqa: E402
+import os  # noqa: E402
+from typing import TYPE_CHECKING  # noqa: E402
 
 from .config import RunConfig, load_config  # noqa: E402
 from .errors import PeatburnError  # noqa: E402
 
+if TYPE_CHECKING:
+    from .engine.runner import RunResult
 
-def run(cfg, out_dir, **kwargs):
+# a library logs and leaves the handling to the application (the CLI sets it with -v / -q)
+logging.getLogger(__name__).addHandler(logging.NullHandler())
+
+
+def run(cfg: RunConfig | str | os.PathLike, out_dir: str | os.PathLike, **kwargs) -> RunResult:
     """Run a configuration (a :class:`RunConfig` or a path to a TOML file); see :func:`peatburn.engine.runner.run`."""
     from .engine.runner import run as _run
 

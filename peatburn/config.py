@@ -14,6 +14,7 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from .depth_methods import DEPTH_METHODS
 from .errors import ConfigError, PhysicalRangeError, UnitError
 from .names import check_layer_name, printable
 from .units import DOCUMENTED_UNITS, conversion_factor, to_magnitude
@@ -239,7 +240,7 @@ class RunConfig:
 _SCHEMA = {
     "run": {"name", "year", "crs", "block_size", "force_ranges", "resolution"},
     "burned_area": {"path", "layer", "fire_count_field", "start_field", "end_field", "id_field"},
-    "depth": {"survey", "water_table", "plots", "tier1"},
+    "depth": {*(m.section.removeprefix("depth.") for m in DEPTH_METHODS), "plots"},  # peatburn.depth_methods
     "depth.water_table": {"depth", "value_column", "crs", "date_column", "model", "intercept", "slope",
                           "fit_method", "idw_power", "idw_neighbours", "idw_max_distance_m", "units",
                           "fit_target", "error", "date_window_days", "edge_taper"},
@@ -346,7 +347,7 @@ def _looks_like_path(s: str) -> bool:
 
 # --------------------------------------------------------------------------------------------
 
-def load_config(path) -> RunConfig:
+def load_config(path: str | os.PathLike) -> RunConfig:
     """Read and validate a run configuration TOML file.
 
     Raises

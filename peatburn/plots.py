@@ -14,7 +14,7 @@ import numpy as np
 import rasterio
 
 from .engine.depth_models import sample_points
-from .engine.sums import METHOD_CODES
+from .depth_methods import DEPTH_METHODS
 
 
 def _sample(path, x, y):
@@ -39,10 +39,10 @@ def validate_plots(inputs, plan, out_dir) -> dict:
     depth = _sample(out_dir / "burn_depth.tif", x, y)
     method = _sample(out_dir / "depth_method.tif", x, y)
     out = {"n_plots": int(len(f)), "by_method": {}}
-    names = {v: k for k, v in METHOD_CODES.items()}
-    for code, name in names.items():
+    for dm in DEPTH_METHODS:
+        code, name = dm.code, dm.name
         sel = (method == code) & np.isfinite(depth) & np.isfinite(obs)
-        if name == "tier1":
+        if not dm.gives_depth:
             out["by_method"][name] = {"n": int((method == code).sum()),
                                       "note": "Tier 1 gives fuel per hectare, not a depth: not comparable"}
             continue

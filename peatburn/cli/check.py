@@ -15,6 +15,7 @@ from .options import config_argument, handle_errors
 def check_cmd(config, against):
     """Validate CONFIG and its inputs and print what a run would do, without running it."""
     from ..config import load_config
+    from ..depth_methods import METHOD_CODES as code
     from ..factors import load_factor_set, load_gwp_set, require_gases
     from ..names import printable
     from ..outputs.provenance import check_against
@@ -46,17 +47,17 @@ def check_cmd(config, against):
         sv = cfg.survey
         sub = "raster" if hasattr(sv.subsidence_rate, "path") else sv.subsidence_rate
         stable = "polygons" if sv.stable else f"outside scars buffered by {sv.stable_buffer_m:g} m"
-        click.echo(f"depth 1: two surveys {sv.interval_years:g} yr apart; subsidence {sub}; co-registration on "
+        click.echo(f"depth {code['survey']}: two surveys {sv.interval_years:g} yr apart; subsidence {sub}; co-registration on "
                    f"stable ground ({stable})")
     if cfg.water_table is not None:
         wt = cfg.water_table
         src = f"raster {wt.raster.path}" if wt.raster else f"stations {wt.stations} (IDW, power {wt.idw_power:g})"
-        click.echo(f"depth 2: water-table model ({wt.model}) from {src}")
+        click.echo(f"depth {code['water_table']}: water-table model ({wt.model}) from {src}")
     if cfg.tier1_only:
         click.echo("depth: Tier 1 only (no survey, no water table): the IPCC 2013 Wetlands Supplement default on "
                    "every burned pixel of organic soil")
     else:
-        click.echo("depth 3: IPCC 2013 Wetlands Supplement Tier 1 default where neither gives a depth")
+        click.echo(f"depth {code['tier1']}: IPCC 2013 Wetlands Supplement Tier 1 default where neither gives a depth")
     if cfg.peat.extent is not None:
         click.echo(f"peat extent: {cfg.peat.extent} (outside it, and where the thickness is 0: mineral soil, "
                    f"no below-ground emission)")

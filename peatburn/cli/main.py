@@ -9,6 +9,7 @@ from .calibrate import calibrate_cmd
 from .check import check_cmd
 from .demo import demo_cmd
 from .factors import factors_cmd
+from .options import configure_logging
 from .run import run_cmd
 from .series import series_cmd
 
@@ -16,9 +17,12 @@ from .series import series_cmd
 @click.group()
 @click.version_option(__version__, prog_name="peatburn")
 @click.option("--debug", is_flag=True, default=False, help="Show tracebacks of errors.")
-def cli(debug):
+@click.option("--verbose", "-v", count=True, help="Log more on stderr: -v the run's steps and notes, -vv debug.")
+@click.option("--quiet", "-q", count=True, help="Log errors only.")
+def cli(debug, verbose, quiet):
     """peatburn: carbon and greenhouse gases released by smouldering tropical peat fires,
     reported apart from flaming emissions."""
+    configure_logging(verbose - quiet)
 
 
 cli.add_command(run_cmd)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import functools
+import logging
 import sys
 import traceback
 
@@ -21,6 +22,27 @@ scheduler_option = click.option("--scheduler", metavar="ADDRESS", default=None,
                                      "every worker must be able to read the input paths. Needs peatburn[scale].")
 quiet_option = click.option("--quiet", "-q", is_flag=True, default=False, help="Print only errors.")
 config_argument = click.argument("config", type=click.Path(dir_okay=False))
+
+
+class _EchoHandler(logging.Handler):
+    """Log records to the current stderr through click (so a test runner's captured stream gets them)."""
+
+    def emit(self, record):
+        try:
+            click.echo(self.format(record), err=True)
+        except Exception:  # noqa: BLE001  (logging must never raise)
+            self.handleError(record)
+
+
+def configure_logging(verbosity: int) -> None:
+    """Log level of the ``peatburn`` loggers from ``-v`` / ``-q`` counts, as rasterio's ``rio`` does:
+    warnings by default, info with -v (the run's steps and notes), debug with -vv, errors only with -q."""
+    logger = logging.getLogger("peatburn")
+    logger.setLevel(max(logging.DEBUG, min(logging.ERROR, logging.WARNING - 10 * verbosity)))
+    if not any(isinstance(h, _EchoHandler) for h in logger.handlers):
+        handler = _EchoHandler()
+        handler.setFormatter(logging.Formatter("%(levelname)s %(name)s: %(message)s"))
+        logger.addHandler(handler)
 
 
 def handle_errors(fn):

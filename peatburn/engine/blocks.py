@@ -456,7 +456,8 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         put("wt_rho_area_wt", m_lin, f_rho_a * wt_f)
         put("wt_rho_f_area", m_lin, f_rho_f_a)
         put("wt_rho_f_area_wt", m_lin, f_rho_f_a * wt_f)
-    for name, m in (("survey", m_survey), ("water_table", m_wt), ("tier1", m_t1)):
+    masks = {"survey": m_survey, "water_table": m_wt, "tier1": m_t1}  # one per depth method
+    for name, m in masks.items():
         if m.any():
             put(f"area_m2_{name}", m, area)
             put(f"peat_kg_{name}", m, mass)
@@ -514,9 +515,8 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     total = dict(zip(SUM_KEYS, sums[0].tolist()))
     zsums = [{SUM_KEYS[r]: a[r] for r in nonzero} for a in sums[1:]]
     codes = np.zeros(n, "uint8")
-    codes[m_survey] = METHOD_CODES["survey"]
-    codes[m_wt] = METHOD_CODES["water_table"]
-    codes[m_t1] = METHOD_CODES["tier1"]
+    for name, m in masks.items():
+        codes[m] = METHOD_CODES[name]
     codes[mineral] = MINERAL_CODE
     depth = np.where(mineral, 0.0, depth)  # no peat, so no peat burned (burn_depth.tif shows 0)
     with np.errstate(invalid="ignore", divide="ignore"):

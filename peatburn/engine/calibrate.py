@@ -16,7 +16,7 @@ from .. import __version__
 from ..errors import ConfigError
 from ..io.writers import atomic_path, write_json
 from .alignment import coregister
-from .depth_models import DepthModels, depth_samples, fit_models, plot_samples
+from .depth_models import MIN_FIT_SAMPLES, DepthModels, depth_samples, fit_models, plot_samples
 from .inputs import open_inputs
 from .plan import build_plan
 
@@ -38,15 +38,18 @@ def calibrate(cfg) -> Calibration:
     notes = list(inputs.notes)
     alignment = coregister(inputs) if inputs.has_survey else None
     plan = build_plan(inputs, alignment)
-    wt, d, _, _ = depth_samples(inputs, plan) if inputs.has_survey else (np.array([]), np.array([]), None, None)
-    source = "surveyed scars"
-    if wt.size < 30:
-        wt, d = plot_samples(inputs, plan)
-        ok = np.isfinite(wt) & np.isfinite(d)
-        wt, d = wt[ok], d[ok]
-        source = "field plots"
-    models = fit_models(inputs, plan, notes)
-    return Calibration(models, wt, d, source, notes)
+    pairs = {}
+    models = fit_models(inputs, plan, notes, pairs)  # samples the surveys (or plots) once, and says which
+    if not pairs:  # coefficients given (user, file, default): the pairs are only shown, sampled here
+        wt, d, _, _ = depth_samples(inputs, plan) if inputs.has_survey else (np.array([]), np.array([]), None, None)
+        source = "surveyed scars"
+        if wt.size < MIN_FIT_SAMPLES:
+            wt, d = plot_samples(inputs, plan)
+            ok = np.isfinite(wt) & np.isfinite(d)
+            wt, d = wt[ok], d[ok]
+            source = "field plots"
+        pairs = {"wt": wt, "depth": d, "source": source}
+    return Calibration(models, pairs["wt"], pairs["depth"], pairs["source"], notes)
 
 
 def write_fit(path, calib: Calibration) -> Path:

@@ -144,9 +144,14 @@ def sample_points(plan: RunPlan, name: str, x, y) -> np.ndarray | None:
     return out
 
 
-def fit_models(inputs: Inputs, plan: RunPlan, notes: list) -> DepthModels:
+def fit_models(inputs: Inputs, plan: RunPlan, notes: list, pairs: dict | None = None) -> DepthModels:
     """The water-table depth models of a run: fitted on surveyed scars (separately for first and repeat
-    fires when both have enough samples), else on field plots, else user or default coefficients."""
+    fires when both have enough samples), else on field plots, else user or default coefficients.
+
+    ``pairs`` (a dict), when given, receives the calibration pairs the fit sampled: ``wt``, ``depth``
+    [m] and ``source`` ("surveyed scars" or "field plots"); nothing when the coefficients are given
+    (user, file, default), so that ``peatburn calibrate`` samples the surveys once.
+    """
     from ..science import water_table as wtm
 
     cfg = inputs.config.water_table
@@ -177,6 +182,8 @@ def fit_models(inputs: Inputs, plan: RunPlan, notes: list) -> DepthModels:
         ok = np.isfinite(wt) & np.isfinite(d)
         wt, d, fc, cl, th, wg, ed = wt[ok], d[ok], None, None, None, None, None
         source = "field plots"
+    if pairs is not None:
+        pairs.update(wt=wt, depth=d, source=source)
     if wt.size < MIN_FIT_SAMPLES:
         notes.append(f"water table: too few calibration pairs ({wt.size} < {MIN_FIT_SAMPLES}) on surveyed scars or "
                      f"field plots; default coefficients used (low confidence)")

@@ -17,21 +17,14 @@ import numpy as np
 
 from ..factors import list_factor_sets
 from ..outputs.tables import OUTSIDE, TOTAL_LAYER, gas_key
-from .sums import SCAR_LAYER
+from .sums import SCAR_LAYER, SUM_KEYS
 from ..science import uncertainty as unc
 from ..science import variogram
 from ..science.tier1 import TIER1_FUEL_RELATIVE_SD
 
-#: engine sum (engine.sums.SUM_KEYS) -> uncertainty-model sum
-SUM_MAP = {
-    "area_m2": "area_m2_survey", "volume_m3": "volume_m3", "peat_kg": "peat_kg", "carbon_kg": "carbon_kg",
-    "rho_area": "rho_area_survey", "rho_f_area": "rho_f_area_survey",
-    "wt_area": "wt_area", "wt_area_wt": "wt_area_wt", "wt_rho_area": "wt_rho_area",
-    "wt_rho_area_wt": "wt_rho_area_wt", "wt_rho_f_area": "wt_rho_f_area", "wt_rho_f_area_wt": "wt_rho_f_area_wt",
-    # parts of peat_kg / carbon_kg with sources of their own (Tier 1 default; filled peat properties)
-    "peat_kg_tier1": "peat_kg_tier1", "carbon_kg_tier1": "carbon_kg_tier1",
-    "peat_kg_filled": "peat_kg_filled", "carbon_kg_filled": "carbon_kg_filled",
-}
+#: The engine's zone sums the uncertainty model reads (one vocabulary: the model names its sums as the
+#: engine does; the flaming sums come from the above-ground route, :func:`_model_sums`).
+MODEL_SUMS = tuple(k for k in unc.SUM_KEYS if k in SUM_KEYS)
 
 
 def survey_error_model(alignment, pixel_area_m2: float, range_override: float | None = None) -> dict:
@@ -147,7 +140,7 @@ def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0
 
 
 def _model_sums(acc: dict, idx, flame_layer: dict | None, frp_route: bool, vegetation_cf: float) -> dict:
-    out = {k: np.asarray(acc[v], dtype=float)[idx] for k, v in SUM_MAP.items()}
+    out = {k: np.asarray(acc[k], dtype=float)[idx] for k in MODEL_SUMS}
     if flame_layer is not None:
         dm = np.asarray(flame_layer["dry_matter_kg"], dtype=float)[idx]
         out["flaming_dm_fre_kg" if frp_route else "flaming_dm_area_kg"] = dm

@@ -8,6 +8,7 @@ written atomically.
 from __future__ import annotations
 
 import contextlib
+import logging
 import math
 
 import numpy as np
@@ -26,7 +27,10 @@ from .blocks import compute_block, process_block, read_block
 from .depth_models import fit_models
 from .inputs import open_inputs, window_group
 from .plan import build_plan
-from .sums import METHOD_CODES, SCAR_LAYER, Sums
+from ..depth_methods import DEPTH_METHODS, METHOD_CODES, raster_description
+from .sums import SCAR_LAYER, Sums
+
+log = logging.getLogger(__name__)
 
 CAUTIONS = [
     "These are estimates with uncertainty, not measurements and not legal findings.",
@@ -192,20 +196,26 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
     """Co-registration, plan and the block pass; returns the plan, the alignment, the water-table
     models, the sums, the open raster writers and the notes."""
     notes = list(inputs.notes) + run_notes(cfg)
+    log.info("inputs open: grid %d x %d px, %d scar(s), %d zone layer(s)", inputs.grid.width, inputs.grid.height,
+             len(inputs.scars.frame), len(inputs.zones))
     alignment = coregister(inputs) if inputs.has_survey else None
+    if alignment is not None:
+        log.info("co-registration: shift %.3f, %.3f, %.3f m; stable-ground NMAD %.3f -> %.3f m", alignment.shift_x,
+                 alignment.shift_y, alignment.shift_z, alignment.nmad_before, alignment.nmad_after)
     plan = build_plan(inputs, alignment)
     models = None
     if cfg.water_table is not None:
         models = fit_models(inputs, plan, notes)
-        plan = build_plan(inputs, alignment, models)
+        plan.models = models  # built once: only the models change, the blocks read the plan after this
     grid = plan.grid
     # squares of blocks (fewer tiles decoded twice by workers) unless an input is striped
     windows = grid.windows(cfg.block_size, group=window_group(inputs, cfg.block_size, BLOCK_GROUP))
     sums = Sums.empty(plan)
+    log.info("block pass: %d block(s) of %d px", len(windows), cfg.block_size)
     specs = [
         ("burn_depth.tif", dict(description="burn depth", units="m")),
         ("carbon_smouldering.tif", dict(description="carbon burned below ground", units="kg C m-2")),
-        ("depth_method.tif", dict(description="depth method: 1 survey, 2 water-table model, 3 IPCC Tier 1 default",
+        ("depth_method.tif", dict(description=raster_description(),
                                   units="code", dtype="uint8", nodata=0)),
     ]
     rasters = []
@@ -342,6 +352,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     if cfg.uncertainty.draws > 0:
         from .intervals import add_intervals
 
+        log.info("intervals: %d Monte Carlo draws, seed %d", cfg.uncertainty.draws, cfg.uncertainty.seed)
         uncertainty = add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire_rows=fire_rows,
                                     fill_cv=plan.fill_cv, keep=draw_inputs)
     converting.result()  # the rasters are complete from here on (field plots sample them)
@@ -379,6 +390,8 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
         "notes": notes,
         "cautions": CAUTIONS,
     }
+    for n in notes:  # also in totals.json and the report
+        log.info("note: %s", n)
     columns = tables.zone_columns(run_gases)
     if uncertainty:
         for c in tables.interval_columns(run_gases):
@@ -431,18 +444,10 @@ def fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums) -> list[di
 
 def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
     depth = {}
-    tiers = {
-        # IPCC terms: measured activity data with default emission factors is not Tier 3 outright
-        # (Tier 3 also needs country-specific factors or models; IPCC 2006 Vol. 1 Ch. 1, recalled)
-        "survey": ("measured activity data with default emission factors: burn depth measured by differencing "
-                   "two bare-earth surveys"),
-        "water_table": ("modelled activity data with default emission factors: burn depth from the water-table "
-                        "depth, model calibrated on surveys or plots"),
-        "tier1": "Tier 1: IPCC 2013 Wetlands Supplement default fuel consumption",
-    }
-    for m in METHOD_CODES:
+    for dm in DEPTH_METHODS:
+        m = dm.name
         depth[m] = {"area_ha": total[f"area_{m}_ha"], "share_of_carbon": total[f"carbon_share_{m}"],
-                    "tier": tiers[m]}
+                    "tier": dm.tier}
     return {
         "depth": depth,
         "tier1_only": cfg.tier1_only,

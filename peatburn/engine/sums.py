@@ -8,16 +8,14 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from ..depth_methods import METHOD_CODES, METHODS, MINERAL_CODE  # noqa: F401  (the engine's names for them)
+
 if TYPE_CHECKING:
     from .blocks import BlockResult
     from .plan import RunPlan
 
-METHOD_CODES = {"survey": 1, "water_table": 2, "tier1": 3}
-#: depth_method.tif code of burned mineral soil (thickness 0 or outside the peat extent): no peat burned.
-MINERAL_CODE = 4
 #: Internal zone layer of the burn scars themselves (per-scar sums for the daily series and years).
 SCAR_LAYER = "__scars__"
-METHODS = tuple(METHOD_CODES)
 
 #: Quantities summed per zone and for the run [m2, m3, kg, kg/m ...].
 SUM_KEYS = (

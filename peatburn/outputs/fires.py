@@ -24,13 +24,14 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from ..depth_methods import METHODS
 from .tables import HA_PER_M2, quantities
 
 #: Columns of fires.csv, in order (intervals and extra columns are inserted by :func:`fire_columns`).
 BASE_COLUMNS = [
     "fire", "fire_start", "fire_end", "inventory_year", "burned_area_ha", "mineral_soil_area_ha",
     "repeat_burn_area_ha", "mean_burn_depth_m", "peat_burned_t", "carbon_smouldering_t",
-    "carbon_share_survey", "carbon_share_water_table", "carbon_share_tier1",
+    *(f"carbon_share_{m}" for m in METHODS),
     "carbon_flaming_t", "n_detections",
 ]
 #: Columns that get ``_lo``/``_hi`` when Monte Carlo draws are made.
@@ -119,9 +120,7 @@ def fire_rows(ids: list[str], periods: list[tuple], scar_sums: dict, factors, ru
             "mean_burn_depth_m": float(q["mean_burn_depth_m"][i]),
             "peat_burned_t": float(q["peat_burned_t"][i]),
             "carbon_smouldering_t": float(q["carbon_smouldering_t"][i]),
-            "carbon_share_survey": float(q["carbon_share_survey"][i]),
-            "carbon_share_water_table": float(q["carbon_share_water_table"][i]),
-            "carbon_share_tier1": float(q["carbon_share_tier1"][i]),
+            **{f"carbon_share_{m}": float(q[f"carbon_share_{m}"][i]) for m in METHODS},
             "carbon_flaming_t": float(q["carbon_flaming_t"][i]),
             "n_detections": float(q["n_detections"][i]),
         }

@@ -31,6 +31,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..depth_methods import DEPTH_METHODS, METHOD_CODES, MINERAL_CODE, MINERAL_COLOUR, MINERAL_LABEL
 from ..factors import gas_label
 from ..io.writers import write_text
 from ..names import printable
@@ -46,13 +47,8 @@ OKABE_ITO = list(OKABE_ITO_NAMED.values())
 #: One colour per fire phase, the same in every chart and card.
 PHASE_COLOURS = {"smouldering": OKABE_ITO_NAMED["vermillion"], "flaming": OKABE_ITO_NAMED["sky_blue"]}
 #: One colour per depth method (maps and charts).
-METHOD_COLOURS = {"survey": OKABE_ITO_NAMED["blue"], "water_table": OKABE_ITO_NAMED["orange"],
-                  "tier1": OKABE_ITO_NAMED["reddish_purple"]}
-METHOD_LABELS = {"survey": "surveys differenced", "water_table": "water-table model",
-                 "tier1": "IPCC Tier 1 default"}
-METHOD_CODES = {"survey": 1, "water_table": 2, "tier1": 3}  # as written in depth_method.tif
-#: Code 4 of depth_method.tif: burned mineral soil (thickness 0 or outside the peat extent), no peat burned.
-MINERAL_CODE, MINERAL_COLOUR, MINERAL_LABEL = 4, "#BBBBBB", "mineral soil (no peat)"
+METHOD_COLOURS = {m.name: m.colour for m in DEPTH_METHODS}
+METHOD_LABELS = {m.name: m.label for m in DEPTH_METHODS}
 #: Outline style of each zone layer on the maps: colour and dash, so layers differ without colour.
 LAYER_STYLES = [(OKABE_ITO_NAMED["black"], "-"), (OKABE_ITO_NAMED["reddish_purple"], "--"),
                 (OKABE_ITO_NAMED["bluish_green"], ":"), (OKABE_ITO_NAMED["vermillion"], "-.")]
@@ -361,7 +357,7 @@ def method_map_figure(path: Path, zone_layers=(), label_zones=False) -> str | No
         fig = _figure(5.4, _map_height(extent, geographic, width=5.4, colorbar=False))
         ax = fig.add_subplot()
         cmap = ListedColormap([METHOD_COLOURS[m] for m in METHOD_CODES] + [MINERAL_COLOUR])
-        ax.imshow(arr, extent=extent, cmap=cmap, norm=BoundaryNorm([0.5, 1.5, 2.5, 3.5, 4.5], 4),
+        ax.imshow(arr, extent=extent, cmap=cmap, norm=BoundaryNorm(np.arange(MINERAL_CODE + 1) + 0.5, MINERAL_CODE),
                   interpolation="nearest")
         _map_axes(ax, extent, geographic, zone_layers, label_zones)
         present = set(np.unique(arr[np.isfinite(arr)]).astype(int))
@@ -719,7 +715,7 @@ def _pct(v) -> str:
 def _field_plots(plots) -> dict | None:
     if not isinstance(plots, dict):
         return None
-    labels = {"survey": "surveys differenced", "water_table": "water-table model", "tier1": "IPCC Tier 1 default"}
+    labels = METHOD_LABELS
     rows = []
     for key, s in (plots.get("by_method") or {}).items():
         if isinstance(s, dict):

@@ -12,6 +12,7 @@ import re
 
 import numpy as np
 
+from ..depth_methods import METHODS
 from ..factors import gas_label
 from ..names import OUTSIDE, TOTAL_LAYER, TOTAL_ZONE  # noqa: F401  (reserved labels, see peatburn.names)
 from ..science import gases
@@ -19,7 +20,6 @@ from ..science import gases
 #: Gases every run reports (the Tier 1 set has all three); a factor set's other gases follow them.
 GASES = ("co2", "ch4", "co")
 PHASES = ("smouldering", "flaming")
-METHODS = ("survey", "water_table", "tier1")
 
 
 def gas_key(gas: str) -> str:
@@ -48,8 +48,7 @@ def zone_columns(gases=GASES) -> list[str]:
         "mean_burn_depth_m", "peat_burned_t", "carbon_smouldering_t", *per("smouldering"),
         "carbon_flaming_t", *per("flaming"),
         "co2e_smouldering_t", "co2e_flaming_t",
-        "area_survey_ha", "area_water_table_ha", "area_tier1_ha",
-        "carbon_share_survey", "carbon_share_water_table", "carbon_share_tier1",
+        *(f"area_{m}_ha" for m in METHODS), *(f"carbon_share_{m}" for m in METHODS),
         "carbon_tier1_t", *per("tier1"), "co2e_tier1_t",
         "fre_mj", "n_detections", "carbon_frp_only_t", "smouldering_to_frp_ratio",
     ]
@@ -210,8 +209,7 @@ _BASE_UNITS = {
     "mineral_soil_area_ha": "ha",
     "mean_burn_depth_m": "m", "peat_burned_t": "t dry matter", "carbon_smouldering_t": "t C",
     "carbon_flaming_t": "t C", "co2e_smouldering_t": "t CO2e", "co2e_flaming_t": "t CO2e",
-    "area_survey_ha": "ha", "area_water_table_ha": "ha", "area_tier1_ha": "ha",
-    "carbon_share_survey": "1", "carbon_share_water_table": "1", "carbon_share_tier1": "1",
+    **{f"area_{m}_ha": "ha" for m in METHODS}, **{f"carbon_share_{m}": "1" for m in METHODS},
     "carbon_tier1_t": "t C", "co2e_tier1_t": "t CO2e", "fre_mj": "MJ", "n_detections": "1",
     "carbon_frp_only_t": "t C", "smouldering_to_frp_ratio": "1",
 }

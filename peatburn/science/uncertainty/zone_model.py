@@ -13,19 +13,20 @@ from ...errors import ConfigError, PhysicalRangeError
 from .averaging import correlated_sum_sd
 from .sources import SOURCE_NAMES, _ef_table
 
-#: Zone sums read by the draws (arrays over zones; absent keys count as zeros). Survey sums
-#: (``area_m2``, ``rho_area``, ``rho_f_area``) cover the pixels whose depth comes from the
+#: Zone sums read by the draws (arrays over zones; absent keys count as zeros), named as the
+#: engine names them (:data:`peatburn.engine.sums.SUM_KEYS`; the ``flaming_*`` sums come from the
+#: above-ground route). Survey sums (``area_m2_survey``, ``rho_area_survey``, ``rho_f_area_survey``) cover the pixels whose depth comes from the
 #: surveys; ``volume_m3``, ``peat_kg`` and ``carbon_kg`` cover every estimated pixel. The ``wt_*``
 #: sums cover the water-table pixels where the depth model is not clipped (0 < a + b wt < peat
 #: thickness): elsewhere the depth does not respond to small changes of the coefficients, so
 #: summing only those pixels is the exact first-order treatment of the clipping.
 SUM_KEYS = {
-    "area_m2": "sum A over survey-depth pixels [m2]",
+    "area_m2_survey": "sum A over survey-depth pixels [m2]",
     "volume_m3": "sum d A [m3]",
     "peat_kg": "sum d rho A x 1000 [kg] (rho in g/cm3)",
     "carbon_kg": "sum d rho f A x 1000 [kg C]",
-    "rho_area": "sum rho A x 1000 over survey-depth pixels [kg/m]: peat mass per metre of depth",
-    "rho_f_area": "sum rho f A x 1000 over survey-depth pixels [kg C/m]",
+    "rho_area_survey": "sum rho A x 1000 over survey-depth pixels [kg/m]: peat mass per metre of depth",
+    "rho_f_area_survey": "sum rho f A x 1000 over survey-depth pixels [kg C/m]",
     "wt_area": "sum A over unclipped water-table-depth pixels [m2]",
     "wt_area_wt": "sum A wt over water-table pixels [m3] (optional)",
     "wt_rho_area": "sum rho A x 1000 over water-table pixels [kg/m] (optional)",
@@ -145,7 +146,7 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
         with np.errstate(divide="ignore", invalid="ignore"):
             return np.where(den != 0, num / np.where(den != 0, den, 1.0), 0.0)
 
-    area = get("area_m2")
+    area = get("area_m2_survey")
     sig_b = _nonneg(params, "survey_bias_sd_m")
     sig = _nonneg(params, "survey_sigma_m")
     T = _nonneg(params, "interval_years")
@@ -193,8 +194,8 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
     p_fill, c_fill = get("peat_kg_filled"), get("carbon_kg_filled")
     cores = {
         "V": (get("volume_m3"), {"survey": area, "wt_a": wt_area, "wt_b": wt_a_wt}),
-        "P": (get("peat_kg") - p_t1 - p_fill, {"survey": get("rho_area"), "wt_a": wt_r, "wt_b": wt_r_wt}),
-        "C": (get("carbon_kg") - c_t1 - c_fill, {"survey": get("rho_f_area"), "wt_a": wt_rf, "wt_b": wt_rf_wt}),
+        "P": (get("peat_kg") - p_t1 - p_fill, {"survey": get("rho_area_survey"), "wt_a": wt_r, "wt_b": wt_r_wt}),
+        "C": (get("carbon_kg") - c_t1 - c_fill, {"survey": get("rho_f_area_survey"), "wt_a": wt_rf, "wt_b": wt_rf_wt}),
         "PT1": (p_t1, {}), "CT1": (c_t1, {}), "PF": (p_fill, {}), "CF": (c_fill, {}),
     }
     for name, (base, mult) in cores.items():  # drop fields with no effect
