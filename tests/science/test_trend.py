@@ -47,9 +47,9 @@ DRAWS = 40_000
 
 def _year(carbon_kg, rho_f_area):
     """A year's total as model sums: survey pixels only, peat 2 x carbon (f = 0.5)."""
-    return {"area_m2": np.array([1e4]), "volume_m3": np.array([carbon_kg / 50.0]),
+    return {"area_m2_survey": np.array([1e4]), "volume_m3": np.array([carbon_kg / 50.0]),
             "peat_kg": np.array([2 * carbon_kg]), "carbon_kg": np.array([carbon_kg]),
-            "rho_area": np.array([2 * rho_f_area]), "rho_f_area": np.array([rho_f_area])}
+            "rho_area_survey": np.array([2 * rho_f_area]), "rho_f_area_survey": np.array([rho_f_area])}
 
 
 def _joint(params, shared, seeds=(1, 99)):
