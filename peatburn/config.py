@@ -85,6 +85,7 @@ class ZoneLayerConfig:
     id: str
     name: str
     layer: str | None = None
+    dossiers: bool = False  # write dossiers/<zone id>.html for every burned zone of the layer (issue 21)
 
 
 @dataclass(frozen=True)
@@ -154,6 +155,10 @@ class FlamingConfig:
     biomass: Value | None = None  # t d.m./ha
     combustion_factor: float | None = None
     vegetation_carbon_fraction: float | None = None
+    # ignition attribution (science.ignition): detection pixel side [m], tie window [h], zone layer of fires.csv
+    footprint_m: float | None = None
+    ignition_tie_hours: float | None = None
+    ignition_layer: str | None = None
 
 
 @dataclass(frozen=True)
@@ -182,7 +187,7 @@ class RunConfig:
     end_field: str = "fire_end"
     id_field: str | None = None  # fires.csv id; None: the scar layer's first text field
     #: (burn_depth.tif, depth_method.tif) of each earlier year of a series (set by ``peatburn series``,
-    #: not by the TOML): the thickness left and the repeat-fire status of this run (docs/method.md 7.5)
+    #: not by the TOML): the thickness left and the repeat-fire status of this run (docs/method.md 7.7)
     earlier_burns: tuple[tuple[Path, Path], ...] = ()
     raw: dict = field(default_factory=dict, compare=False, repr=False)
 
@@ -247,12 +252,13 @@ _SCHEMA = {
     "depth.plots": {"path", "value_column", "crs", "date_column"},
     "depth.tier1": {"fuel_consumption"},
     "flaming": {"method", "detections", "crs", "columns", "event_distance_m", "event_gap_hours", "coefficient",
-                "biomass", "combustion_factor", "vegetation_carbon_fraction"},
+                "biomass", "combustion_factor", "vegetation_carbon_fraction", "footprint_m", "ignition_tie_hours",
+                "ignition_layer"},
     "depth.survey": {"pre", "post", "interval_years", "pre_date", "post_date", "subsidence_rate", "stable",
                      "stable_buffer_m", "tilt", "lod_t"},
     "peat": {"thickness", "bulk_density", "carbon_fraction", "extent", "bulk_density_fill", "carbon_fraction_fill"},
     "emission_factors": {"smouldering", "flaming", "gwp"},
-    "zones": {"path", "id", "name", "layer"},
+    "zones": {"path", "id", "name", "layer", "dossiers"},
     "uncertainty": {"draws", "seed", "bulk_density_cv", "carbon_fraction_sd", "subsidence_rate_sd",
                     "correlation_range_m"},
 }
@@ -467,10 +473,17 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         zid = _require(z, "id", f"[zones] #{i + 1}", where)
         zname = printable(z.get("name", zp.stem))
         check_layer_name(zname, f"{where}: [[zones]] #{i + 1}")
-        zones.append(ZoneLayerConfig(path=zp, id=str(zid), name=zname, layer=z.get("layer")))
+        dossiers = z.get("dossiers", False)
+        if not isinstance(dossiers, bool):
+            raise ConfigError(f"{where}: [[zones]] #{i + 1}: `dossiers` must be true or false, got {dossiers!r}")
+        zones.append(ZoneLayerConfig(path=zp, id=str(zid), name=zname, layer=z.get("layer"), dossiers=dossiers))
     names = [z.name for z in zones]
     if len(set(names)) != len(names):
         raise ConfigError(f"{where}: two [[zones]] layers share the name {names}; give each a distinct `name`")
+    if "flaming" in raw and isinstance(raw["flaming"], dict) and "ignition_layer" in raw["flaming"] \
+            and raw["flaming"]["ignition_layer"] not in names:
+        raise ConfigError(f"{where}: `flaming.ignition_layer` = {raw['flaming']['ignition_layer']!r} names no "
+                          f"[[zones]] layer; layers are: {', '.join(names) or '(none)'}")
 
     un = raw.get("uncertainty", {})
     _check_keys(un, "uncertainty", where)
@@ -635,6 +648,9 @@ def _flaming(fl: dict, base: Path, where: str, force: bool) -> FlamingConfig:
         event_gap_hours=float(gap) if gap is not None else None, coefficient_kg_per_mj=coef,
         biomass=biomass, combustion_factor=cf,
         vegetation_carbon_fraction=_opt_number(fl, "vegetation_carbon_fraction", "flaming", where, 0, 1),
+        footprint_m=_opt_number(fl, "footprint_m", "flaming", where, 0, 100_000),
+        ignition_tie_hours=_opt_number(fl, "ignition_tie_hours", "flaming", where, 0, 24 * 30),
+        ignition_layer=str(fl["ignition_layer"]) if "ignition_layer" in fl else None,
     )
 
 

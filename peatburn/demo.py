@@ -272,11 +272,14 @@ def _write_text(path: Path, text: str):
     os.replace(tmp, path)
 
 
-#: The zone layers and draws of both demo years (one method across the series).
-_ZONES_AND_DRAWS = '''[[zones]]
+def _zones_and_draws(dossiers: bool) -> str:
+    """The zone layers and draws of both demo years (one method across the series); the first year
+    also writes a dossier per burned concession."""
+    dossier = "dossiers = true                     # one hand-over page per burned concession: dossiers/<name>.html\n"
+    return f'''[[zones]]
 path = "concessions.gpkg"
 id = "name"
-
+{dossier if dossiers else ""}
 [[zones]]
 path = "districts.gpkg"
 id = "district"
@@ -327,7 +330,7 @@ carbon_fraction = {CARBON_FRACTION}        # the demo generator's own invented v
 smouldering = "{SMOULDERING_SET}"   # Akagi et al. (2011) peatland factors, a built-in set
 gwp = "AR6"
 
-''' + _ZONES_AND_DRAWS
+''' + _zones_and_draws(dossiers=True)
 
 
 # ------------------------------------------------------------------------------------------------
@@ -814,7 +817,7 @@ carbon_fraction = {CARBON_FRACTION}
 smouldering = "{SMOULDERING_SET}"
 gwp = "AR6"
 
-''' + _ZONES_AND_DRAWS
+''' + _zones_and_draws(dossiers=False)
 
 
 def _series_text() -> str:

@@ -19,7 +19,7 @@ import re
 import unicodedata
 
 __all__ = ["TOTAL_LAYER", "TOTAL_ZONE", "OUTSIDE", "SCAR_LAYER", "RESERVED_LAYERS", "printable",
-           "check_layer_name", "check_zone_id"]
+           "check_layer_name", "check_zone_id", "file_stems"]
 
 #: Layer and zone of the run-total row.
 TOTAL_LAYER, TOTAL_ZONE = "total", "all"
@@ -66,3 +66,53 @@ def check_zone_id(zone_id: str, what: str, path: str, field: str) -> None:
     if _folded(zone_id) == _folded(OUTSIDE):
         raise ZoneError(f"{what}: {path}: the id {zone_id!r} in {field!r} is reserved for the area outside every "
                         f"zone in the results; rename that zone")
+
+
+#: Longest file stem made from a name (common practice: well under the 255-byte limit of a file name
+#: on common file systems, leaving room for the suffix that keeps stems apart).
+MAX_STEM = 80
+#: Device names that Windows refuses as file names, with any extension (common practice).
+_DEVICES = {"con", "prn", "aux", "nul", *(f"com{i}" for i in range(1, 10)), *(f"lpt{i}" for i in range(1, 10))}
+_UNSAFE = re.compile(r"[^A-Za-z0-9._-]+")
+
+
+def file_stems(names, *, reserved=("index",), key=None) -> list[str]:
+    """Safe, distinct file stems (no suffix) for user names, in order: one per name.
+
+    A stem keeps the ASCII letters, digits, ``.``, ``_`` and ``-`` of the name (after Unicode
+    decomposition with the accents dropped, and :func:`printable`); every other run of characters
+    becomes one ``_``; leading and trailing dots, underscores and dashes are dropped (no hidden
+    files, no ``..``), and the stem is cut to :data:`MAX_STEM` characters; a Windows device name gets
+    ``zone-`` in front. So a stem never holds a path separator, never climbs out of its folder.
+
+    Stems that would clash (the same without case, for case-insensitive file systems: ``"Bloc Nord"``
+    and ``"Bloc_Nord"``, ``"A"`` and ``"a"``), an empty stem and a ``reserved`` one all get ``-`` and
+    the first 10 hex digits of the SHA-256 of ``key(i)`` (default: the name) appended, whatever
+    their order; a digit is added in the astronomically unlikely case of a further clash.
+    """
+    import hashlib
+    from collections import Counter
+
+    names = [str(n) for n in names]
+    clean = []
+    for name in names:
+        plain = "".join(c for c in unicodedata.normalize("NFKD", printable(name)) if unicodedata.category(c) != "Mn")
+        c = _UNSAFE.sub("_", plain).strip("._-")[:MAX_STEM].strip("._-")
+        clean.append(f"zone-{c}" if c.casefold().split(".")[0] in _DEVICES else c)
+    counts = Counter(c.casefold() for c in clean)
+    banned = {r.casefold() for r in reserved}
+    taken: set[str] = set()
+    out = []
+    for i, (name, c) in enumerate(zip(names, clean)):
+        stem = c
+        if not c or counts[c.casefold()] > 1 or c.casefold() in banned:
+            ident = key(i) if key is not None else name
+            digest = hashlib.sha256(str(ident).encode("utf-8", "surrogatepass")).hexdigest()[:10]
+            stem = f"{c or 'zone'}-{digest}"
+        base, k = stem, 2
+        while stem.casefold() in taken or stem.casefold() in banned:
+            stem = f"{base}-{k}"
+            k += 1
+        taken.add(stem.casefold())
+        out.append(stem)
+    return out

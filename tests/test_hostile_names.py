@@ -2,6 +2,7 @@
 formulas, control characters. Expected texts are written by hand; the formula rule is the OWASP
 advice for CSV files ("CSV Injection": prefix text beginning with = + - @ tab CR with an apostrophe)."""
 
+import re
 import csv
 
 import geopandas as gpd
@@ -180,3 +181,41 @@ def test_draw_memory_does_not_grow_with_the_cores(monkeypatch):
     assert intervals._draw_threads(10_000) == 39
     assert intervals._draw_threads(100) == 64
     assert intervals.draw_cost(1_000_000, 10)[1] == pytest.approx(1.024e9)
+
+
+# ----------------------------------------------------------------------------- dossier file names (issue 21)
+
+HOSTILE_IDS = ["../../etc/passwd", "..", ".", "", "/abs/path", "C:\\\\win\\\\x", "CON", "nul.txt", "a/b", "a\\\\b",
+               "Alpha", "alpha", "ALPHA", "x" * 300, "\u202eevil", "tab\there", "index", "Bloc Nord", "Bloc_Nord",
+               "émile", "e\u0301mile", "<script>", "a\x00b", "-rf", ".hidden"]
+
+
+def test_file_stems_are_safe_and_distinct():
+    from peatburn.names import MAX_STEM, file_stems
+
+    stems = file_stems(HOSTILE_IDS)
+    assert len(stems) == len(HOSTILE_IDS)
+    assert len({s.casefold() for s in stems}) == len(stems)  # distinct on case-insensitive file systems
+    for s in stems:
+        assert s and re.fullmatch(r"[A-Za-z0-9][A-Za-z0-9._-]*", s), s
+        assert ".." not in s and "/" not in s and "\\" not in s
+        assert len(s) <= len("zone-") + MAX_STEM + 11 + 3
+        assert s.split(".")[0].casefold() not in {"con", "nul", "index"}
+    # names that would clash all get the hash suffix, whatever their order; others keep a readable stem
+    assert stems[HOSTILE_IDS.index("Alpha")].startswith("Alpha-")
+    assert stems[HOSTILE_IDS.index("alpha")].startswith("alpha-")
+    assert stems[HOSTILE_IDS.index("Bloc_Nord")].startswith("Bloc_Nord-")
+    assert stems[HOSTILE_IDS.index("-rf")] == "rf" and stems[HOSTILE_IDS.index("tab\there")] == "tab_here"
+    assert stems[HOSTILE_IDS.index("CON")] == "zone-CON" and stems[HOSTILE_IDS.index("index")].startswith("index-")
+    assert file_stems(["Bloc Nord", "Other"]) == ["Bloc_Nord", "Other"]
+    assert file_stems(list(reversed(HOSTILE_IDS))) == list(reversed(stems))
+    # deterministic
+    assert file_stems(HOSTILE_IDS) == stems
+
+
+def test_file_stems_stay_inside_their_folder(tmp_path):
+    from peatburn.names import file_stems
+
+    for s in file_stems(HOSTILE_IDS):
+        p = (tmp_path / f"{s}.html").resolve()
+        assert p.parent == tmp_path.resolve()

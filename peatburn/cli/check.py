@@ -35,7 +35,8 @@ def check_cmd(config, against):
         click.echo(f"raster {key}: {info.path} ({info.width} x {info.height}, nodata {info.nodata}, {aligned})")
     click.echo(f"burn scars: {len(inputs.scars.frame)} polygons from {cfg.burned_area}")
     for z, layer, ids in inputs.zones:
-        click.echo(f"zones {z.name}: {len(ids)} polygons, id field {z.id!r}")
+        click.echo(f"zones {z.name}: {len(ids)} polygons, id field {z.id!r}"
+                   f"{'; a dossier per burned zone (dossiers/)' if z.dossiers else ''}")
     if cfg.uncertainty.draws:
         from ..engine.intervals import draw_cost
 

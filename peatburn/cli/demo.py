@@ -28,10 +28,10 @@ def demo_cmd(out_dir, inputs_dir, overwrite, workers, pdf, quiet):
     from ..config import load_config
     from ..demo import make_demo_region
     from ..engine.runner import prepare_out_dir, run
-    from .summary import print_summary
+    from .summary import echo_pdfs_and_dossiers, print_pdfs, print_summary
 
     if pdf:
-        from ..outputs.pdf import find_chromium, print_pdf
+        from ..outputs.pdf import find_chromium
 
         find_chromium()  # a missing chromium fails before the run, not after it
     out = Path(out_dir)
@@ -44,7 +44,7 @@ def demo_cmd(out_dir, inputs_dir, overwrite, workers, pdf, quiet):
     result = run(load_config(region.config_path), out / "results", overwrite=True, workers=workers,
                  progress=progress_bar(quiet=quiet))
     if pdf:
-        result.files["report_pdf"] = print_pdf(result.files["report"])
+        print_pdfs(result)
     from ..engine.series import run_series
     from ..series_config import load_series
 
@@ -54,5 +54,4 @@ def demo_cmd(out_dir, inputs_dir, overwrite, workers, pdf, quiet):
         print_summary(result)
         click.echo(f"report: {result.files['report']}")
         click.echo(f"two-year series ({', '.join(map(str, series.years))}): {series.files['report']}")
-        if pdf:
-            click.echo(f"report (PDF): {result.files['report_pdf']}")
+        echo_pdfs_and_dossiers(result, pdf)

@@ -21,17 +21,18 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
 
     Writes zones.csv, fires.csv, totals.json, inventory.csv, inventory.json, daily.csv, burn_depth.tif,
     carbon_smouldering.tif, depth_method.tif, provenance.json and report.html into --out (and
-    report.pdf with --pdf). An existing, non-empty output folder is refused unless --overwrite is
+    report.pdf with --pdf), and dossiers/<zone>.html (and .pdf) for the burned zones of every
+    [[zones]] layer with dossiers = true. An existing, non-empty output folder is refused unless --overwrite is
     given.
     """
     from ..config import load_config
     from ..engine.executors import tune_malloc
     from ..engine.progress import progress_bar
     from ..engine.runner import run
-    from .summary import print_summary
+    from .summary import echo_pdfs_and_dossiers, print_pdfs, print_summary
 
     if pdf:
-        from ..outputs.pdf import find_chromium, print_pdf
+        from ..outputs.pdf import find_chromium
 
         find_chromium()  # a missing chromium fails before the run, not after it
     cfg = load_config(config)
@@ -39,8 +40,7 @@ def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
     result = run(cfg, out_dir, overwrite=overwrite, workers=workers, scheduler=scheduler,
                  progress=progress_bar(quiet=quiet))
     if pdf:
-        result.files["report_pdf"] = print_pdf(result.files["report"])
+        print_pdfs(result)
     if not quiet:
         print_summary(result)
-        if pdf:
-            click.echo(f"report (PDF): {result.files['report_pdf']}")
+        echo_pdfs_and_dossiers(result, pdf)

@@ -66,3 +66,20 @@ def print_summary(result) -> None:
     for c in CAUTIONS:
         click.echo(f"caution: {c}")
     click.echo(f"outputs: {result.out_dir}")
+
+
+def print_pdfs(result) -> None:
+    """Print report.html and every dossier to PDF beside them (headless chromium)."""
+    from ..outputs.pdf import print_pdf
+
+    result.files["report_pdf"] = print_pdf(result.files["report"])
+    result.files["dossier_pdfs"] = [print_pdf(p) for p in result.files.get("dossiers") or []]
+
+
+def echo_pdfs_and_dossiers(result, pdf: bool) -> None:
+    """The lines naming the PDF report and the dossiers of a run."""
+    if pdf:
+        click.echo(f"report (PDF): {result.files['report_pdf']}")
+    if result.files.get("dossiers"):
+        click.echo(f"dossiers: {len(result.files['dossiers'])} in {result.out_dir / 'dossiers'}"
+                   f"{' (HTML and PDF)' if pdf else ''}")

@@ -36,6 +36,7 @@ class FlamingSums:
     notes: list = field(default_factory=list)
     parameters: dict = field(default_factory=dict)
     daily_dry_matter_kg: dict = field(default_factory=dict)  # ISO date -> kg (detection route only)
+    detections: tuple | None = None  # (x, y, t_s) in the run CRS (detection route only; ignition, dossiers)
 
 
 KEYS = ("dry_matter_kg", "fre_mj", "n_detections")
@@ -108,7 +109,7 @@ def flaming_sums(cfg, inputs, sums) -> FlamingSums | None:
         for day, value in zip(day_of, per_day):
             daily[str(np.datetime64(int(day), "D"))] = float(value)
     return FlamingSums("active-fire detections: FRE x combustion coefficient (Wooster et al. 2005)", total, layers,
-                       notes, daily_dry_matter_kg=daily, parameters={"coefficient_kg_per_mj": coef, "event_distance_m": dist,
+                       notes, daily_dry_matter_kg=daily, detections=(x, y, t), parameters={"coefficient_kg_per_mj": coef, "event_distance_m": dist,
                                           "event_gap_s": gap, "n_events": int(events.max() + 1) if len(f) else 0,
                                           "rejected": det.rejected})
 

@@ -147,7 +147,7 @@ def survey_depth(st, plan: RunPlan, window: Window, where: np.ndarray | None = N
 
 def thickness_at(st, plan: RunPlan, window: Window, sel: np.ndarray):
     """Peat thickness at the pixels ``sel`` [m] (1-D, a scalar for a constant, None unknown); in a later
-    year of a series, the peat the earlier years left (science.peat.thickness_left, docs/method.md 7.5)."""
+    year of a series, the peat the earlier years left (science.peat.thickness_left, docs/method.md 7.7)."""
     thick = _at(_param(st, plan, "thickness", window), sel, sel.shape)
     if plan.earlier_burns:
         thick = peat.thickness_left(thick, [d for d, _ in _earlier_burns(st, plan, window, sel)])

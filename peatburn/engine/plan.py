@@ -51,7 +51,7 @@ class RunPlan:
     rho_fill: float = float("nan")  # fallback bulk density for holes [g cm-3] (science.peat.fill_missing)
     cf_fill: float = float("nan")  # fallback carbon fraction for holes [-]
     fill_cv: float = 0.0  # relative spread of a filled value (uncertainty source peat_property_fill)
-    # earlier years of a series: (burn depth, depth method) RasterSources per year (docs/method.md 7.5)
+    # earlier years of a series: (burn depth, depth method) RasterSources per year (docs/method.md 7.7)
     earlier_burns: tuple = ()
     token: str = field(default_factory=lambda: uuid.uuid4().hex)
 

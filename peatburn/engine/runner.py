@@ -249,7 +249,7 @@ def run_notes(cfg) -> list[str]:
     if cfg.tier1_only:
         notes.append("Tier 1 only: no survey and no water table, so every burned pixel on organic soil gets the "
                      "IPCC 2013 Wetlands Supplement default fuel consumption (no measured or modelled depth)")
-    if cfg.earlier_burns:  # a later year of a series (docs/method.md 7.5)
+    if cfg.earlier_burns:  # a later year of a series (docs/method.md 7.7)
         n = len(cfg.earlier_burns)
         notes.append(f"fire history: {n} earlier year(s) of the series burned before this run; the peat thickness "
                      f"is reduced by their burn depths (a pixel with no peat left burns none) and, where the scars "
@@ -346,7 +346,10 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
 
     periods = timeline.scar_periods(inputs.scars.frame, cfg.start_field, cfg.end_field)
     scar_sums = scar_layer_sums(sums, len(inputs.scars.frame))
-    fire_rows = fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums)
+    from .ignition import run_ignition
+
+    ignition_cols, ignitions = run_ignition(cfg, inputs, flame, periods)
+    fire_rows = fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums, extra=ignition_cols)
     uncertainty = None
     draw_inputs = {}
     if cfg.uncertainty.draws > 0:
@@ -399,7 +402,8 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
                 columns += [f"{c}_lo", f"{c}_hi"]
     files = {}
     files["zones"] = write_csv(out_dir / "zones.csv", rows, columns)
-    files["fires"] = write_csv(out_dir / "fires.csv", fire_rows, fires.fire_columns(bool(uncertainty)))
+    files["fires"] = write_csv(out_dir / "fires.csv", fire_rows,
+                               fires.fire_columns(bool(uncertainty), list(ignition_cols or ())))
     files["totals"] = write_json(out_dir / "totals.json", totals)
     inv = tables.inventory_rows(total, shares, factors.gwp.name, run_gases)
     files["daily"] = write_csv(out_dir / "daily.csv", daily, timeline.daily_columns(run_gases))
@@ -407,17 +411,25 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     files["inventory_json"] = write_json(out_dir / "inventory.json", {"unit": "Gg", "gwp": factors.gwp.name,
                                                                           "conventions": tables.INVENTORY_CONVENTIONS,
                                                                           "rows": inv})
+    from ..outputs import dossiers
+
+    dossier_items = dossiers.plan(cfg, inputs, rows)  # issue 21: one page per burned zone of a layer asking
+    dossier_files = ([it.file for it in dossier_items] + [f"{dossiers.FOLDER}/index.csv"]
+                     if any(z.dossiers for z in cfg.zones) else [])
     prov = provenance.build(cfg, grid, alignment, factors, models,
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
                                    "outputs": sorted(["zones.csv", "fires.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
                                                       "burn_depth.tif", "carbon_smouldering.tif",
-                                                      "depth_method.tif", "report.html"])})
+                                                      "depth_method.tif", "report.html"] + dossier_files)})
     files["provenance"] = write_json(out_dir / "provenance.json", prov)
     result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv, draw_inputs=draw_inputs or None)
     from ..outputs import report
 
     zone_layers = [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones]  # not read a second time
     files["report"] = report.write_report(out_dir / "report.html", result, cfg, prov, factors, zone_layers)
+    if dossier_files:
+        files["dossiers"] = dossiers.write_dossiers(out_dir, dossier_items, result, cfg, prov, inputs, fire_rows,
+                                                    ignitions, flame, periods)
     for name in ("burn_depth", "carbon_smouldering", "depth_method"):
         files[name] = out_dir / f"{name}.tif"
     return result
@@ -429,7 +441,7 @@ def scar_layer_sums(sums, n_scars: int) -> dict:
     return {k: np.asarray(v[1:n_scars + 1], dtype="float64").copy() for k, v in acc.items()}
 
 
-def fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums) -> list[dict]:
+def fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums, extra=None) -> list[dict]:
     """Rows of fires.csv (intervals are filled in later by :func:`peatburn.engine.intervals.add_intervals`)."""
     from ..outputs import fires
 
@@ -439,7 +451,7 @@ def fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums) -> list[di
     if flame is not None:
         li = [name for name, _, _ in sums.layers].index(SCAR_LAYER)
         fl = {k: np.asarray(v)[1:n + 1] for k, v in flame.layers[li][1].items()}
-    return fires.fire_rows(ids, periods, scar_sums, factors, cfg.year, flame=fl)
+    return fires.fire_rows(ids, periods, scar_sums, factors, cfg.year, flame=fl, extra=extra)
 
 
 def method_summary(cfg, total, factors, alignment, models, flame) -> dict:

@@ -241,7 +241,7 @@ def _write(series: SeriesConfig, out_dir: Path, results: list[RunResult], old: d
         notes.append(summary["note_flaming"])
     if series.fire_history and len(years) > 1:
         notes.append("fire history: each year after the first used the burn depths of the earlier years (thickness "
-                     "left, repeat-fire status); docs/method.md")
+                     "left, repeat-fire status); docs/method.md 7.7")
     files = {}
     files["series"] = write_csv(out_dir / "series.csv", rows, st.SERIES_COLUMNS)
     files["inventory"] = write_csv(out_dir / "inventory.csv", inv, st.SERIES_INVENTORY_COLUMNS)

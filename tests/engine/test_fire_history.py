@@ -1,4 +1,4 @@
-"""Fire history across the years of a series (docs/method.md 7.5): a later fire's depth is capped by
+"""Fire history across the years of a series (docs/method.md 7.7): a later fire's depth is capped by
 the peat the earlier fires left, and a pixel burned earlier in the series gets the repeat-fire model
 where the scars carry no fire count. Tiny synthetic years with the truth by hand (series_scenes:
 depth = a + b w on a constant water table, 0.5 m of peat, 10 m pixels)."""
