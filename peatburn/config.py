@@ -62,6 +62,10 @@ class FactorsConfig:
     smouldering: str
     flaming: str
     gwp: str
+    #: how the gases follow the fuel: "dry_matter" (mass burned x EF, IPCC 2006 Vol. 4 Eq. 2.27, the
+    #: Tier 1 convention) or "carbon_balance" (carbon burned through the set's emission ratios,
+    #: the carbon mass-balance form; peatburn.science.gases.gases_from_carbon)
+    form: str = "dry_matter"
 
 
 #: Largest ``uncertainty.draws`` accepted. JCGM 101:2008 (GUM Supplement 1), §7.2, gives
@@ -159,6 +163,9 @@ class FlamingConfig:
     footprint_m: float | None = None
     ignition_tie_hours: float | None = None
     ignition_layer: str | None = None
+    #: user's FRE-to-dry-matter conversion for peat [kg/MJ], for the comparison column
+    #: carbon_fre_peat_t only (none is shipped: no value was checked)
+    peat_coefficient_kg_per_mj: float | None = None
 
 
 @dataclass(frozen=True)
@@ -251,13 +258,13 @@ _SCHEMA = {
                           "fit_target", "error", "date_window_days", "edge_taper"},
     "depth.plots": {"path", "value_column", "crs", "date_column"},
     "depth.tier1": {"fuel_consumption"},
-    "flaming": {"method", "detections", "crs", "columns", "event_distance_m", "event_gap_hours", "coefficient",
+    "flaming": {"method", "detections", "crs", "columns", "event_distance_m", "event_gap_hours", "coefficient", "peat_coefficient",
                 "biomass", "combustion_factor", "vegetation_carbon_fraction", "footprint_m", "ignition_tie_hours",
                 "ignition_layer"},
     "depth.survey": {"pre", "post", "interval_years", "pre_date", "post_date", "subsidence_rate", "stable",
                      "stable_buffer_m", "tilt", "lod_t"},
     "peat": {"thickness", "bulk_density", "carbon_fraction", "extent", "bulk_density_fill", "carbon_fraction_fill"},
-    "emission_factors": {"smouldering", "flaming", "gwp"},
+    "emission_factors": {"smouldering", "flaming", "gwp", "form"},
     "zones": {"path", "id", "name", "layer", "dossiers"},
     "uncertainty": {"draws", "seed", "bulk_density_cv", "carbon_fraction_sd", "subsidence_rate_sd",
                     "correlation_range_m"},
@@ -461,6 +468,7 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         smouldering=_factor_ref(ef.get("smouldering", DEFAULT_SMOULDERING), base),
         flaming=_factor_ref(ef.get("flaming", DEFAULT_FLAMING), base),
         gwp=str(ef.get("gwp", DEFAULT_GWP)),
+        form=_factor_form(ef.get("form", "dry_matter"), where),
     )
 
     zones = []
@@ -641,6 +649,12 @@ def _flaming(fl: dict, base: Path, where: str, force: bool) -> FlamingConfig:
     coef = None
     if "coefficient" in fl:
         coef = _value(fl["coefficient"], base, "flaming.coefficient", "combustion_coefficient", where, force=force)
+    peat_coef = None
+    if "peat_coefficient" in fl:
+        peat_coef = _value(fl["peat_coefficient"], base, "flaming.peat_coefficient", "combustion_coefficient", where,
+                           force=force)
+        if not isinstance(peat_coef, float):
+            raise ConfigError(f"{where}: `flaming.peat_coefficient` must be one number in kg/MJ (e.g. \"1.5 kg/MJ\")")
     gap = fl.get("event_gap_hours")
     return FlamingConfig(
         method=method, detections=detections, crs=fl.get("crs"), columns=dict(columns),
@@ -651,7 +665,18 @@ def _flaming(fl: dict, base: Path, where: str, force: bool) -> FlamingConfig:
         footprint_m=_opt_number(fl, "footprint_m", "flaming", where, 0, 100_000),
         ignition_tie_hours=_opt_number(fl, "ignition_tie_hours", "flaming", where, 0, 24 * 30),
         ignition_layer=str(fl["ignition_layer"]) if "ignition_layer" in fl else None,
+        peat_coefficient_kg_per_mj=peat_coef,
     )
+
+
+def _factor_form(value, where: str) -> str:
+    from .science.gases import FORMS
+
+    if value not in FORMS:
+        raise ConfigError(f"{where}: `emission_factors.form` = {value!r}; use \"dry_matter\" (mass burned x "
+                          f"emission factor, the IPCC Tier 1 convention) or \"carbon_balance\" (carbon burned "
+                          f"through the set's emission ratios)")
+    return value
 
 
 def _factor_ref(value, base: Path) -> str:

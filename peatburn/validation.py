@@ -188,6 +188,10 @@ HAND_SETS = {
                                           "status": "derived from checked EFs (abstract)",
                                           "source": "Tellus B 69:1399047 (2017), shipboard, abstract",
                                           "fractions": (0.55, 0.56, 0.58)},
+    "smouldering_kalimantan_field2015": {"carbon": 558.734, "mce": 0.77379, "status": "derived from recalled EFs",
+                                        "source": "Stockwell et al. 2016, Atmos. Chem. Phys. 16:11711, field, "
+                                                  "Central Kalimantan 2015",
+                                        "fractions": (0.55, 0.56, 0.58)},
     "flaming_ipcc2006_tropical_forest": {"carbon": 480.886, "mce": 0.90627, "status": "derived from recalled EFs",
                                          "source": "IPCC 2006 Vol. 4 Ch. 2, Table 2.5, tropical forest "
                                                    "(Andreae & Merlet 2001)",

@@ -1,6 +1,7 @@
 """Flaming emissions in a run: kept apart from smouldering, attributed to the zone of the detections."""
 
 import csv
+import math
 
 import pytest
 
@@ -55,3 +56,41 @@ def test_biomass_route(tmp_path):
     dm_t = r.total["burned_area_ha"] * 200 * 0.36
     ef = load_factor_set("flaming_ipcc2006_tropical_forest").ef["ch4"]
     assert r.total["ch4_flaming_t"] == pytest.approx(dm_t * ef / 1000, rel=1e-9)
+
+
+def test_fre_dry_matter_capped_by_biomass_and_peat_conversion_column(tmp_path):
+    # issue 17 items 5-6: FRE x C_e is not bounded by the fuel there is; with a biomass figure the
+    # FRE dry matter of each fire is capped by biomass x its burned area
+    s = make_scene(tmp_path / "b")
+    _detections(s.folder / "det.csv", X0 + 100.0, Y0 - 200.0)
+    s.config.write_text(s.config.read_text() + '\n[flaming]\ndetections = "det.csv"\ncrs = "EPSG:32749"\n'
+                        'biomass = "1 t/ha"\npeat_coefficient = "1.5 kg/MJ"\n')
+    r = peatburn.run(s.config, tmp_path / "o")
+    fires = list(csv.DictReader(open(tmp_path / "o" / "fires.csv", newline="")))
+    hit = [f for f in fires if float(f["n_detections"]) > 0]
+    assert len(hit) == 1
+    # uncapped: 3.24e6 MJ x 0.368 kg/MJ = 1192.3 t; the fire holds only its area x 1 t/ha of biomass
+    dm_t = float(hit[0]["burned_area_ha"]) * 1.0
+    assert dm_t < 3.24e6 * 0.368 / 1000
+    # carbon = dry matter x 0.47 (IPCC 2006 Vol. 4 Table 4.3 forest carbon fraction, recalled)
+    assert float(hit[0]["carbon_flaming_t"]) == pytest.approx(dm_t * 0.47, rel=1e-6)
+    assert r.total["carbon_flaming_t"] == pytest.approx(dm_t * 0.47, rel=1e-9)
+    assert any("capped by the above-ground biomass" in n for n in r.totals["notes"])
+    # the FRP-only comparison keeps the uncapped FRE (what an FRP-only method sees)
+    fre = 12 * 3600 * 50 + 40 * 6 * 3600 / 2 + 60 * 6 * 3600 / 2
+    assert r.total["carbon_frp_only_t"] == pytest.approx(fre * 0.368 * 0.47 / 1000, rel=1e-9)
+    # the user's peat conversion: FRE x 1.5 kg/MJ x the run's peat carbon fraction (the scene's 0.55)
+    assert r.total["carbon_fre_peat_t"] == pytest.approx(fre * 1.5 * 0.55 / 1000, rel=1e-6)
+    # 5.24 ha burned: far below three 1 km pixel footprints, so no ratio is claimed
+    assert r.total["burned_area_ha"] < 300 and math.isnan(r.total["smouldering_to_fre_peat_ratio"])
+    html = (tmp_path / "o" / "report.html").read_text()
+    assert "the user&#39;s value: peatburn ships none" in html or "the user's value: peatburn ships none" in html
+
+
+def test_no_peat_conversion_leaves_the_columns_empty(tmp_path):
+    s = make_scene(tmp_path / "b", zones=False)
+    _detections(s.folder / "det.csv", X0 + 100.0, Y0 - 200.0)
+    s.config.write_text(s.config.read_text() + '\n[flaming]\ndetections = "det.csv"\ncrs = "EPSG:32749"\n')
+    peatburn.run(s.config, tmp_path / "o")
+    total = next(z for z in csv.DictReader(open(tmp_path / "o" / "zones.csv", newline="")) if z["layer"] == "total")
+    assert total["carbon_fre_peat_t"] == "" and total["carbon_frp_only_t"] != ""

@@ -123,7 +123,9 @@ def test_mce_rows_against_coplen_1996_weights(rows):
     # Jayarathne et al. 2018 (Atmos. Chem. Phys. 18:2585, abstract): peat plumes 0.725-0.833; the
     # smouldering sets are close to, and the flaming set well above, that range
     mces = {r["check"].split("`")[1]: r["tool"] for r in _group(rows, "mce")}
-    assert all(0.8 < v < 0.85 for k, v in mces.items() if k.startswith("smouldering"))
+    assert all(0.725 <= v < 0.85 for k, v in mces.items() if k.startswith("smouldering"))
+    # the field set of the same 2015 Kalimantan campaign lies inside the campaign's own range
+    assert 0.725 <= mces["smouldering_kalimantan_field2015"] <= 0.833
     assert mces["flaming_ipcc2006_tropical_forest"] > 0.9
 
 

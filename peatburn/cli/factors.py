@@ -15,6 +15,8 @@ def factors_cmd():
     for fs in list_factor_sets():
         click.echo(f"{fs.name}  [{fs.phase}]")
         click.echo(f"    {fs.citation}")
+        if fs.derived_from:
+            click.echo(f"    derived from {fs.derived_from} (its values rounded): not independent of it")
         vals = ", ".join(f"{gas_label(g)} {v:g}" for g, v in fs.ef.items())
         click.echo(f"    g/kg dry matter: {vals}")
     click.echo("")

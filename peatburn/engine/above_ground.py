@@ -81,18 +81,23 @@ def flaming_sums(cfg, inputs, sums) -> FlamingSums | None:
     else:
         events, energy = np.zeros(0, int), np.zeros(0)
     dm = flaming.dry_matter_from_fre(energy, coef) if len(f) else np.zeros(0)
-    total = {"dry_matter_kg": float(np.sum(dm)), "fre_mj": float(np.sum(energy)), "n_detections": float(len(f))}
     pts = np.asarray(f.geometry.array, dtype=object)  # the points read (no new geometries: 1e6 cost seconds)
-    layers = []
+    hits = []
     for (name, ids, geoms), (_, n_bins) in zip(inputs_zone_geoms(inputs, with_scars=True), layers_bins):
+        pi, gi = shapely.STRtree(geoms).query(pts, predicate="intersects") if len(f) else (np.zeros(0, int),) * 2
+        # a detection inside several fires (a repeat burn) is split equally between them, as the
+        # shared pixels are (outputs.fires); zones of a layer that overlap each count it whole
+        share = 1.0 / np.bincount(pi, minlength=len(f))[pi] if name == SCAR_LAYER else np.ones(len(pi))
+        hits.append((name, n_bins, pi, gi, share))
+    if fl.biomass is not None and len(f):
+        dm, note = _cap_fre_dry_matter(dm, hits, sums)
+        notes.append(note)
+    total = {"dry_matter_kg": float(np.sum(dm)), "fre_mj": float(np.sum(energy)), "n_detections": float(len(f))}
+    layers = []
+    for name, n_bins, pi, gi, share in hits:
         d = _empty(n_bins)
         inside_any = np.zeros(len(f), bool)
         if len(f):
-            tree = shapely.STRtree(geoms)
-            pi, gi = tree.query(pts, predicate="intersects")
-            # a detection inside several fires (a repeat burn) is split equally between them, as the
-            # shared pixels are (outputs.fires); zones of a layer that overlap each count it whole
-            share = 1.0 / np.bincount(pi, minlength=len(f))[pi] if name == SCAR_LAYER else 1.0
             for k in KEYS:
                 vals = {"dry_matter_kg": dm, "fre_mj": energy, "n_detections": np.ones(len(f))}[k]
                 d[k] += np.bincount(gi + 1, weights=vals[pi] * share, minlength=n_bins)[:n_bins]
@@ -112,6 +117,26 @@ def flaming_sums(cfg, inputs, sums) -> FlamingSums | None:
                        notes, daily_dry_matter_kg=daily, detections=(x, y, t), parameters={"coefficient_kg_per_mj": coef, "event_distance_m": dist,
                                           "event_gap_s": gap, "n_events": int(events.max() + 1) if len(f) else 0,
                                           "rejected": det.rejected})
+
+
+def _cap_fre_dry_matter(dm, hits, sums):
+    """Cap each fire's FRE dry matter by the above-ground biomass on its burned area
+    (:func:`peatburn.science.flaming.cap_by_biomass`); a detection shared by fires takes the
+    share-weighted scale of its fires; detections outside every scar are not capped (no burned area,
+    no biomass figure). Returns the capped dry matter per detection and a note."""
+    name, n_bins, pi, gi, share = next(h for h in hits if h[0] == SCAR_LAYER)
+    n = n_bins - 2
+    per_fire = np.bincount(gi, weights=dm[pi] * share, minlength=n)[:n]
+    acc = next(a for nm, _, a in sums.layers if nm == SCAR_LAYER)
+    biomass_kg = np.asarray(acc["biomass_t"], dtype=float)[1:n + 1] * 1000.0
+    scale = flaming.cap_by_biomass(per_fire, biomass_kg)
+    inside = np.bincount(pi, weights=share, minlength=len(dm)) > 0
+    s = np.where(inside, np.bincount(pi, weights=share * scale[gi], minlength=len(dm)), 1.0)
+    capped = dm * s
+    n_capped = int(np.sum(scale < 1.0))
+    return capped, (f"flaming: FRE dry matter capped by the above-ground biomass (flaming.biomass x burned area) "
+                    f"in {n_capped} of {n} fire(s): {float(np.sum(dm) - np.sum(capped)) * 1e-3:.6g} t removed; "
+                    f"detections outside every scar are not capped")
 
 
 def inputs_zone_geoms(inputs, with_scars: bool = False):

@@ -136,7 +136,25 @@ def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0
                  "the in-sample scatter, which understates the error of a missed scar; overlaps the coefficient "
                  "term a little (conservative).")
             if s.name == "water_table_residual" else s for s in sources]
-    return unc.sources_to_params(sources, gwp=factors.gwp.gwp), sources, survey or {}
+    form = getattr(factors, "form", "dry_matter")
+    if form == "carbon_balance":
+        sources = [dataclasses.replace(s, note=_CARBON_BALANCE_NOTES[s.name]) if s.name in _CARBON_BALANCE_NOTES else s
+                   for s in sources]
+    params = unc.sources_to_params(sources, gwp=factors.gwp.gwp)
+    params["gas_form"] = form
+    return params, sources, survey or {}
+
+
+#: How the sources reach the gases in the carbon mass-balance form (config emission_factors.form).
+_CARBON_BALANCE_NOTES = {
+    "carbon_fraction": "Run-wide multiplicative scale on carbon; in the carbon mass-balance form the gases follow "
+                       "the carbon, so this scale reaches them too.",
+    "emission_factors_smouldering": "Run-wide; carbon mass balance: gas = carbon x EF draw / carbon of the drawn "
+                                    "CO2+CO+CH4 factors, so the factors act through their ratios and every draw "
+                                    "closes (the gases hold the drawn carbon). Gases drawn independently.",
+    "emission_factors_flaming": "Run-wide; carbon mass balance: flaming gas = flaming carbon x EF draw / carbon of "
+                                "the drawn CO2+CO+CH4 factors.",
+}
 
 
 def _model_sums(acc: dict, idx, flame_layer: dict | None, frp_route: bool, vegetation_cf: float) -> dict:

@@ -41,6 +41,16 @@ CAUTIONS = [
 
 TIER1_FACTOR_SET = "smouldering_ipcc2013_wetlands"
 
+#: How the gases follow the fuel, per ``[emission_factors] form`` (totals.json and the report).
+GAS_FORM_TEXT = {
+    "dry_matter": "gas = dry matter burned x emission factor (IPCC 2006 Vol. 4 Eq. 2.27 form; the Tier 1 "
+                  "convention): the gases do not depend on the carbon fraction",
+    "carbon_balance": "gas = carbon burned x emission factor / carbon of the set's CO2+CO+CH4 (carbon mass balance, "
+                      "Ward and Radke 1993, Yokelson et al. 1999, in the form of Akagi et al. 2011 Eq. 1): the "
+                      "carbon of the gases equals the carbon burned, and the carbon fraction's uncertainty reaches "
+                      "the gases; the Tier 1 comparison line stays per dry matter",
+}
+
 
 @dataclass
 class Factors:
@@ -53,6 +63,10 @@ class Factors:
     vegetation_carbon_fraction: float
     coefficient: float
     frp_route: bool
+    #: "dry_matter" or "carbon_balance" (config emission_factors.form); the Tier 1 line stays per dry matter
+    form: str = "dry_matter"
+    #: the user's FRE-to-dry-matter conversion for peat [kg/MJ] (comparison column only), or None
+    peat_coefficient: float | None = None
 
 
 @dataclass
@@ -100,6 +114,8 @@ def load_factors(cfg: RunConfig) -> Factors:
         coefficient=(fl.coefficient_kg_per_mj if fl and fl.coefficient_kg_per_mj
                      else flaming.WOOSTER_2005_COEFFICIENT),
         frp_route=bool(fl and fl.method == "frp"),
+        form=getattr(cfg.factors, "form", "dry_matter"),
+        peat_coefficient=fl.peat_coefficient_kg_per_mj if fl else None,
     )
 
 
@@ -326,10 +342,12 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     qa = qa_summary(sums.total, alignment, models)
     notes += fill_notes(cfg, plan, sums.total)
     checks = factor_checks(factors.smouldering, sums.total)
-    if checks["carbon_closure"] is not None and checks["carbon_closure"] > 1.0:
+    checks["closure_of_reported_gases"] = 1.0 if factors.form == "carbon_balance" else checks["carbon_closure"]
+    if factors.form == "dry_matter" and checks["carbon_closure"] is not None and checks["carbon_closure"] > 1.0:
         notes.append(f"emission factors: the set {factors.smouldering.name} puts {checks['carbon_closure']:.3f} times "
                      f"the fuel's carbon into CO2+CO+CH4 at this run's carbon fraction "
-                     f"({checks['effective_carbon_fraction']:.3f}); its gases overstate the carbon burned")
+                     f"({checks['effective_carbon_fraction']:.3f}); its gases overstate the carbon burned "
+                     f"([emission_factors] form = \"carbon_balance\" makes them close)")
     flame_checks = None
     if flame is not None:
         from ..science import gases
@@ -339,7 +357,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
         flame_checks = {"mce": (float(gases.modified_combustion_efficiency(ef["co2"], ef["co"]))
                                 if "co" in ef else None),
                         "vegetation_carbon_fraction": factors.vegetation_carbon_fraction, "carbon_closure": closure}
-        if closure > 1.0:
+        if closure > 1.0 and factors.form == "dry_matter":
             notes.append(f"emission factors: the flaming set {factors.flaming.name} puts {closure:.3f} times the "
                          f"vegetation's carbon (fraction {factors.vegetation_carbon_fraction:g}) into CO2+CO+CH4")
     from ..outputs import fires, timeline
@@ -385,7 +403,8 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
         "method": {**method_summary(cfg, total, factors, alignment, models, flame),
                    "smouldering_factor_checks": checks, "flaming_factor_checks": flame_checks},
         "smouldering_factor_sensitivity": tables.factor_set_sensitivity(
-            sums.total["peat_kg"], _sensitivity_sets(factors.smouldering), factors.gwp, factors.smouldering.name),
+            sums.total["peat_kg"], _sensitivity_sets(factors.smouldering), factors.gwp, factors.smouldering.name,
+            carbon_kg=sums.total["carbon_kg"], form=factors.form),
         "qa": qa,
         "water_table_model": models.to_dict() if models else None,
         "field_plots": plots,
@@ -466,6 +485,8 @@ def method_summary(cfg, total, factors, alignment, models, flame) -> dict:
         "unestimated_area_ha": total["unestimated_area_ha"],
         "mineral_soil_area_ha": total["mineral_soil_area_ha"],
         "smouldering_factors": factors.smouldering.name,
+        "gas_form": factors.form,
+        "gas_form_text": GAS_FORM_TEXT[factors.form],
         "tier1_factors": factors.tier1.name,
         "flaming": flame.route if flame else "not estimated (no [flaming] section): flaming columns are zero",
         "flaming_factors": factors.flaming.name if flame else None,

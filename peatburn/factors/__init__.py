@@ -4,7 +4,9 @@ Emission-factor sets
 --------------------
 One CSV per set in this package (file name = set name). Set-level metadata sits in ``#`` comment
 lines before the header, as ``# key: value`` with keys ``name``, ``phase`` (``smouldering`` or
-``flaming``), ``citation``, ``doi`` and ``notes`` (repeated keys are joined). Then the columns::
+``flaming``), ``citation``, ``doi``, ``notes`` (repeated keys are joined) and ``derived_from`` (the
+name of a shipped set this one was derived from, e.g. by rounding: the two are not independent
+evidence, and a factor without a spread of its own takes its parent's). Then the columns::
 
     gas,ef_g_per_kg,sd_g_per_kg,citation,status
 
@@ -75,7 +77,7 @@ _STATUSES = ("checked", "recalled")
 _GWP_FILE = "gwp_sets.csv"
 _EF_COLUMNS = ("gas", "ef_g_per_kg", "sd_g_per_kg", "citation", "status")
 _EF_REQUIRED = ("gas", "ef_g_per_kg")
-_META_KEYS = ("name", "phase", "citation", "doi", "notes")
+_META_KEYS = ("name", "phase", "citation", "doi", "notes", "derived_from")
 _GAS_RE = re.compile(r"^[a-z][a-z0-9_.+-]*$")
 
 
@@ -105,6 +107,8 @@ class FactorSet:
         Path of a user CSV; None for a built-in set.
     citations : dict of str to str
         Per gas: the row's citation (table, column).
+    derived_from : str or None
+        Name of the shipped set this one was derived from (rounded, converted), or None.
     """
 
     name: str
@@ -117,6 +121,7 @@ class FactorSet:
     status: dict[str, str]
     source_path: str | None
     citations: dict[str, str] = field(default_factory=dict)
+    derived_from: str | None = None
 
     @property
     def gases(self) -> list[str]:
@@ -308,6 +313,7 @@ def _load_builtin(name: str, phase: str | None) -> FactorSet:
         status=status,
         source_path=None,
         citations=cites,
+        derived_from=meta.get("derived_from") or None,
     )
 
 
@@ -335,6 +341,7 @@ def _load_user(path: Path, phase: str | None) -> FactorSet:
         status=status,
         source_path=str(path.resolve()),
         citations=cites,
+        derived_from=meta.get("derived_from") or None,
     )
 
 

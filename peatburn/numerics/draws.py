@@ -47,6 +47,8 @@ def run_wide_draws(model, draws: int, seed: int, fixed: set, group_seeds=None):
             s2 = math.log1p(cv * cv)
             z = stream(seeds.get(group, seed), model.stream_id(group), 0, key_id(k)).standard_normal(draws)
             mult[k] = np.exp(math.sqrt(s2) * z - 0.5 * s2)
+    for k, (fn, _) in getattr(model, "derived", {}).items():  # functions of the drawn factors
+        mult[k] = fn(mult)
     return zr, mult
 
 

@@ -90,7 +90,7 @@ def build(cfg, grid, alignment, factors, models=None, extra: dict | None = None)
 def _set(fs) -> dict:
     return {"name": fs.name, "phase": fs.phase, "citation": fs.citation, "doi": fs.doi,
             "factors_g_per_kg": fs.ef, "sd_g_per_kg": fs.sd, "status": fs.status,
-            "source_path": fs.source_path}
+            "source_path": fs.source_path, "derived_from": getattr(fs, "derived_from", None)}
 
 
 def compare_inputs(record: dict, base: Path | None = None) -> list[str]:

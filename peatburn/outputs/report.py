@@ -82,6 +82,11 @@ FRP_TABLE = [
     ("carbon_smouldering_t", "Carbon, below ground", "t C"),
     ("smouldering_to_frp_ratio", "Below-ground carbon ÷ carbon from FRE", "ratio"),
 ]
+#: Added to FRP_TABLE when the user gave a peat FRE conversion ([flaming] peat_coefficient).
+FRP_PEAT_ROWS = [
+    ("carbon_fre_peat_t", "Carbon from FRE with the user's peat conversion", "t C"),
+    ("smouldering_to_fre_peat_ratio", "Below-ground carbon ÷ carbon from FRE (peat conversion)", "ratio"),
+]
 
 #: Methods and their sources, as printed in the report (statuses as in docs/method.md and docs/sources.md).
 REFERENCES = [
@@ -977,12 +982,17 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
         "figures": figures, "zones_cut": zones_cut, "max_chart_zones": MAX_CHART_ZONES, "max_table_zones": MAX_TABLE_ZONES,
         "zone_table": _table(result.zones, [c for c in ZONE_TABLE if flaming_estimated or "flaming" not in c[0]]),
         "gas_table": _table(result.zones, [c for c in GAS_TABLE if flaming_estimated or "flaming" not in c[0]]),
-        "frp_table": _table(result.zones, FRP_TABLE) if frp_route else None,
+        "frp_table": _table(result.zones, FRP_TABLE + (FRP_PEAT_ROWS if getattr(factors, "peat_coefficient", None)
+                                                        else [])) if frp_route else None,
+        "peat_coefficient": fmt_num(getattr(factors, "peat_coefficient", None)),
         "frp_min_area": fmt_num(MIN_AREA_FOR_FRE_RATIO_HA),
         "daily_days": len({r["date"] for r in result.daily or []}),
         "depth_methods": depth_methods, "unestimated": fmt_num(method.get("unestimated_area_ha")),
         "mineral": fmt_num(method.get("mineral_soil_area_ha")), "tier1_only": bool(method.get("tier1_only")),
+        "gas_form": str(method.get("gas_form") or "dry_matter"),
+        "gas_form_text": str(method.get("gas_form_text") or "gas = dry matter burned x emission factor"),
         "factor_sensitivity": [{"set": r.get("set", ""), "chosen": bool(r.get("chosen")), "status": r.get("status", ""),
+                                "derived_from": r.get("derived_from") or "",
                                 "co2": fmt_num(r.get("co2_t")), "ch4": fmt_num(r.get("ch4_t")),
                                 "co": fmt_num(r.get("co_t")), "co2e": fmt_num(r.get("co2e_t")),
                                 "ratio": fmt_num(r.get("co2e_vs_chosen"))}

@@ -51,6 +51,7 @@ def zone_columns(gases=GASES) -> list[str]:
         *(f"area_{m}_ha" for m in METHODS), *(f"carbon_share_{m}" for m in METHODS),
         "carbon_tier1_t", *per("tier1"), "co2e_tier1_t",
         "fre_mj", "n_detections", "carbon_frp_only_t", "smouldering_to_frp_ratio",
+        "carbon_fre_peat_t", "smouldering_to_fre_peat_ratio",
     ]
 
 
@@ -72,6 +73,8 @@ HA_PER_M2 = 1e-4  # exact
 #: left empty (the FRE and the carbon are still given).
 MIN_AREA_FOR_FRE_RATIO_HA = 300.0
 T_PER_KG = 1e-3  # exact
+#: Carbon fraction of tropical peat where a zone burned none: 0.560 (Hu et al. 2018, abstract, checked).
+PEAT_CARBON_FRACTION = 0.56
 
 
 def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
@@ -99,17 +102,17 @@ def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
             "peat_burned_t": peat_kg * t,
             "carbon_smouldering_t": carbon * t,
         }
-        _phase_gases(out, "smouldering", peat_kg, factors.smouldering, factors)
+        _phase_gases(out, "smouldering", peat_kg, carbon, factors.smouldering, factors)
         for m in METHODS:
             out[f"area_{m}_ha"] = s[f"area_m2_{m}"] * ha
             out[f"carbon_share_{m}"] = np.where(carbon != 0, s[f"carbon_kg_{m}"] / carbon, np.nan)
         t1_dm = s["tier1_all_peat_kg"]
         out["carbon_tier1_t"] = s["tier1_all_carbon_kg"] * t
-        _phase_gases(out, "tier1", t1_dm, factors.tier1, factors)
+        _phase_gases(out, "tier1", t1_dm, None, factors.tier1, factors)
         # flaming, apart
         dm = np.asarray(flame["dry_matter_kg"], dtype="float64") if flame else np.zeros_like(peat_kg)
         out["carbon_flaming_t"] = dm * factors.vegetation_carbon_fraction * t
-        _phase_gases(out, "flaming", dm, factors.flaming, factors)
+        _phase_gases(out, "flaming", dm, dm * factors.vegetation_carbon_fraction, factors.flaming, factors)
         has_fre = flame is not None and factors.frp_route
         nan = np.full(np.shape(peat_kg), np.nan)
         if has_fre:
@@ -124,32 +127,60 @@ def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
             out["smouldering_to_frp_ratio"] = np.where((frp_c > 0) & big, out["carbon_smouldering_t"] / frp_c, np.nan)
         else:
             out["fre_mj"] = out["n_detections"] = out["carbon_frp_only_t"] = out["smouldering_to_frp_ratio"] = nan
+        out["carbon_fre_peat_t"] = out["smouldering_to_fre_peat_ratio"] = nan
+        peat_coef = getattr(factors, "peat_coefficient", None)
+        if has_fre and peat_coef:
+            # the user's peat conversion: FRE x C_e,peat x the zone's peat carbon fraction (sum C / sum M;
+            # 0.56 where no peat burned, Hu et al. 2018, abstract, checked)
+            f_c = np.where(peat_kg > 0, carbon / np.where(peat_kg > 0, peat_kg, 1.0), PEAT_CARBON_FRACTION)
+            peat_c = fre * peat_coef * f_c * t
+            out["carbon_fre_peat_t"] = peat_c
+            out["smouldering_to_fre_peat_ratio"] = np.where((peat_c > 0) & big, out["carbon_smouldering_t"] / peat_c,
+                                                            np.nan)
     return out
 
 
-def _phase_gases(out: dict, phase: str, dry_matter_kg, factor_set, factors) -> None:
-    """Gas masses [t] of one phase for every gas of the run (IPCC 2006 Vol. 4 Eq. 2.27), and
+def form_of(factors, carbon_kg) -> str:
+    """The form of a phase's gases: the run's ``factors.form``, except per dry matter where no
+    carbon is given (the Tier 1 line, which is the Tier 1 convention by definition)."""
+    return getattr(factors, "form", "dry_matter") if carbon_kg is not None else "dry_matter"
+
+
+def phase_masses(dry_matter_kg, carbon_kg, factor_set, factors) -> dict:
+    """Mass [t] of each species of ``factor_set`` for one phase, in the run's form
+    (:func:`peatburn.science.gases.phase_emissions`): per dry matter (IPCC 2006 Vol. 4 Eq. 2.27) or
+    from the carbon burned by the carbon mass balance."""
+    kg = gases.phase_emissions(dry_matter_kg, carbon_kg, factor_set.ef, form_of(factors, carbon_kg))
+    return {g: m * T_PER_KG for g, m in kg.items()}
+
+
+def _phase_gases(out: dict, phase: str, dry_matter_kg, carbon_kg, factor_set, factors) -> None:
+    """Gas masses [t] of one phase for every gas of the run (:func:`phase_masses`), and
     their CO2e over the gases that have a GWP-100 in the run's set. A gas of the run that this
     phase's set lacks is NaN (written empty: not estimated), not zero."""
-    masses = {g: gases.gas_emissions(dry_matter_kg, ef) * T_PER_KG for g, ef in factor_set.ef.items()}
+    masses = phase_masses(dry_matter_kg, carbon_kg, factor_set, factors)
     nan = np.full(np.shape(dry_matter_kg), np.nan)
     for g in run_gases(factors):
         out[f"{gas_key(g)}_{phase}_t"] = masses.get(g, nan)
     out[f"co2e_{phase}_t"] = gases.co2_equivalent(masses, factors.gwp.gwp)
 
 
-def factor_set_sensitivity(peat_kg: float, factor_sets, gwp, chosen: str) -> list[dict]:
+def factor_set_sensitivity(peat_kg: float, factor_sets, gwp, chosen: str, *, carbon_kg: float | None = None,
+                           form: str = "dry_matter") -> list[dict]:
     """The run's smouldering gases under each factor set, side by side.
 
-    Same dry matter burned (``peat_kg``, the run's total), each set's emission factors (IPCC 2006
-    Vol. 4 Eq. 2.27 form) and the run's GWP-100 set. Every gas any of the sets has gets a key
-    (None where a set lacks it). ``co2e_vs_chosen`` is the set's CO2e over the chosen set's.
+    Same dry matter burned (``peat_kg``, the run's total) or, in the ``"carbon_balance"`` form, the
+    same carbon burned (``carbon_kg``), each set's emission factors (IPCC 2006 Vol. 4 Eq. 2.27 form,
+    or the set's emission ratios through the carbon mass balance) and the run's GWP-100 set. Every
+    gas any of the sets has gets a key (None where a set lacks it). ``co2e_vs_chosen`` is the set's
+    CO2e over the chosen set's.
 
     Returns
     -------
     list of dict
         ``set``, ``chosen`` (bool), ``status`` (``checked`` when every row of the set was compared
-        with its publication, else ``recalled`` / ``user-supplied``), ``{gas}_t``, ``co2e_t``,
+        with its publication, else ``recalled`` / ``user-supplied``), ``derived_from`` (the set this
+        one was rounded from, so not independent of it; None), ``{gas}_t``, ``co2e_t``,
         ``co2e_vs_chosen``.
     """
     names = list(GASES)
@@ -157,10 +188,12 @@ def factor_set_sensitivity(peat_kg: float, factor_sets, gwp, chosen: str) -> lis
         names += [g for g in fs.ef if g not in names]
     rows = []
     for fs in factor_sets:
-        masses = {g: float(gases.gas_emissions(peat_kg, ef)) * T_PER_KG for g, ef in fs.ef.items()}
+        kg = gases.phase_emissions(peat_kg, carbon_kg, fs.ef, form if carbon_kg is not None else "dry_matter")
+        masses = {g: float(m) * T_PER_KG for g, m in kg.items()}
         statuses = set(fs.status.values())
         rows.append({"set": fs.name, "chosen": fs.name == chosen,
                      "status": statuses.pop() if len(statuses) == 1 else "recalled",
+                     "derived_from": getattr(fs, "derived_from", None),
                      **{f"{gas_key(g)}_t": masses.get(g) for g in names},
                      "co2e_t": float(gases.co2_equivalent(masses, gwp.gwp))})
     ref = next((r["co2e_t"] for r in rows if r["chosen"]), None)
@@ -212,6 +245,7 @@ _BASE_UNITS = {
     **{f"area_{m}_ha": "ha" for m in METHODS}, **{f"carbon_share_{m}": "1" for m in METHODS},
     "carbon_tier1_t": "t C", "co2e_tier1_t": "t CO2e", "fre_mj": "MJ", "n_detections": "1",
     "carbon_frp_only_t": "t C", "smouldering_to_frp_ratio": "1",
+    "carbon_fre_peat_t": "t C", "smouldering_to_fre_peat_ratio": "1",
 }
 UNITS = units()
 

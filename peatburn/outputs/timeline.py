@@ -17,7 +17,7 @@ import numpy as np
 import pandas as pd
 
 from ..science import gases
-from .tables import GASES, gas_key
+from .tables import GASES, gas_key, phase_masses
 
 
 def daily_columns(gas_names=GASES) -> list[str]:
@@ -76,7 +76,7 @@ def daily_rows(scar_sums: dict, periods: list[tuple], flame_daily: dict, factors
     rows = []
     for (phase, day), (dm, c) in sorted(acc.items(), key=lambda kv: (kv[0][1], kv[0][0])):
         fs = factors.smouldering if phase == "smouldering" else factors.flaming
-        masses = {g: float(gases.gas_emissions(dm, ef)) * 1e-3 for g, ef in fs.ef.items()}
+        masses = {g: float(m) for g, m in phase_masses(dm, c, fs, factors).items()}
         rows.append({"date": day.isoformat(), "phase": phase, "dry_matter_t": dm * 1e-3, "carbon_t": c * 1e-3,
                      **{f"{gas_key(g)}_t": m for g, m in masses.items()},
                      "co2e_t": float(gases.co2_equivalent(masses, factors.gwp.gwp))})

@@ -56,6 +56,7 @@ __all__ = [
     "detection_energy",
     "fire_radiative_energy",
     "dry_matter_from_fre",
+    "cap_by_biomass",
     "flaming_emissions",
     "fuel_consumed_eq227",
     "frp_only_carbon",
@@ -581,6 +582,41 @@ def fire_radiative_energy(t_s, frp_mw, event, *, edge_s=DEFAULT_EDGE_S, look_s=D
 
 
 # ----------------------------------------------------------------------------- dry matter, gases
+
+
+def cap_by_biomass(dry_matter_kg, biomass_kg):
+    """Scale of a fire's FRE dry matter that keeps it within the biomass available.
+
+    ``s = min(1, B / M_FRE)``: FRE x C_e is not bounded by the fuel there is (an event's FRE also
+    holds radiant energy of burning surface peat and, with coarse pixels, of neighbouring fires), so
+    the dry matter an FRP route gives a fire may exceed the above-ground biomass of its burned area,
+    ``B = A x M_B`` (IPCC 2006 Vol. 4 Ch. 2 Eq. 2.27 with C_f = 1: nothing burns that is not there;
+    common practice). The cap only lowers; where no biomass figure is known (NaN) the scale is 1.
+
+    Parameters
+    ----------
+    dry_matter_kg : float or array_like
+        FRE dry matter per fire [kg], >= 0.
+    biomass_kg : float or array_like
+        Above-ground biomass available on each fire's burned area [kg]; NaN: unknown (no cap).
+
+    Returns
+    -------
+    numpy.ndarray or numpy.float64
+        Scale in [0, 1] [dimensionless]; the capped dry matter is ``s x M_FRE``.
+
+    References
+    ----------
+    .. [1] IPCC (2006). 2006 IPCC Guidelines, Vol. 4, Ch. 2, Eq. 2.27 (fuel available M_B, combustion
+       factor C_f <= 1).
+    """
+    dm = _as_float(dry_matter_kg, "dry_matter_kg")
+    b = _as_float(biomass_kg, "biomass_kg")
+    _non_negative(dm, "dry_matter_kg", "kg")
+    _non_negative(b, "biomass_kg", "kg")
+    with np.errstate(divide="ignore", invalid="ignore"):
+        s = np.where(np.isfinite(b) & (dm > b), b / np.where(dm > 0, dm, 1.0), 1.0)
+    return s if s.ndim else np.float64(s)
 
 
 def dry_matter_from_fre(fre_mj, coefficient=WOOSTER_2005_COEFFICIENT):

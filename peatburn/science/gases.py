@@ -1,4 +1,5 @@
-"""Gases from burned dry matter: emission factors, CO2-equivalent, carbon bookkeeping and MCE.
+"""Gases from burned dry matter or carbon: emission factors, the carbon mass balance,
+CO2-equivalent, carbon bookkeeping and MCE.
 
 Pure functions: numbers or numpy arrays in, numpy arrays (or numpy scalars) out; no files, no
 printing. Gas names are lower-case formulas (``"co2"``, ``"co"``, ``"ch4"``, ``"n2o"``).
@@ -13,6 +14,9 @@ References
    Pure and Applied Chemistry 88, 265-291 (conventional atomic weights C 12.011, O 15.999,
    H 1.008, N 14.007: recalled, unchecked; consistent to three decimals with the IUPAC 1995
    standard atomic weights C 12.0107, O 15.9994, H 1.00794, N 14.00674, which were checked).
+.. [3] Akagi, S. K. et al. (2011). Atmos. Chem. Phys. 11, 4039-4072, Sect. 2, Eq. 1: the carbon
+   mass-balance form of an emission factor (after Ward and Radke 1993 and Yokelson et al. 1999;
+   equation number recalled, unchecked); see :func:`carbon_mass_balance_ef`.
 """
 
 from __future__ import annotations
@@ -260,11 +264,7 @@ def carbon_closure(ef: Mapping, carbon_fraction):
     PhysicalRangeError
         If a carbon fraction is not in (0, 1].
     """
-    f = _as_float_array(carbon_fraction, "carbon_fraction")
-    if np.any(f <= 0) or np.any(f > 1):
-        raise PhysicalRangeError(
-            f"carbon_fraction must be a mass fraction in (0, 1], got values from {np.nanmin(f)} to {np.nanmax(f)}"
-        )
+    f = _check_fraction(carbon_fraction)
     return carbon_in_emissions(ef) / (1000.0 * f)
 
 
@@ -305,3 +305,199 @@ def modified_combustion_efficiency(ef_co2, ef_co):
     n_co = co / MOLAR_MASS["co"]
     with np.errstate(invalid="ignore", divide="ignore"):
         return n_co2 / (n_co2 + n_co)
+
+
+# ----------------------------------------------------------------------------- carbon mass balance
+#
+# The carbon mass-balance form of an emission factor (Ward and Radke 1993; Yokelson et al. 1999,
+# as written in Akagi et al. 2011, Sect. 2, Eq. 1; equation number recalled, unchecked):
+#
+#     EF_X = F_C x 1000 x (MM_X / MM_C) x C_X / C_T,   C_X / C_T = (dX/dCO2) / sum_j NC_j (dC_j/dCO2)
+#
+# F_C the carbon mass fraction of the fuel, MM molar masses, dX/dCO2 the molar emission ratio of X to
+# CO2 in the plume, NC_j the carbon atoms of species j; the sum runs over the carbon-bearing species
+# measured. It assumes that all the carbon burned leaves as those species, so the carbon of the
+# factors equals the fuel's carbon: closure is 1 by construction.
+
+#: The two forms a run can give its gases in (``[emission_factors] form``).
+FORMS = ("dry_matter", "carbon_balance")
+
+
+def emission_ratios_to_co2(ef: Mapping) -> dict:
+    """Molar emission ratios to CO2 of the species of an emission-factor set.
+
+    ``ER_X = (EF_X / MM_X) / (EF_CO2 / MM_CO2)`` [mol X / mol CO2] for every species of
+    :data:`MOLAR_MASS`; species without a molar mass here (particles, lumped organics) are left out.
+    The inverse of :func:`carbon_mass_balance_ef` (the ratios are what a plume measurement gives).
+
+    Parameters
+    ----------
+    ef : mapping of str to float or array_like
+        Emission factors [g / kg dry matter]; must hold ``co2`` > 0.
+
+    Returns
+    -------
+    dict of str to numpy.ndarray
+        Molar emission ratio to CO2 [mol/mol] per species (``co2`` is 1).
+
+    References
+    ----------
+    .. [1] Akagi, S. K. et al. (2011). Atmos. Chem. Phys. 11, 4039-4072, Sect. 2 (emission ratios
+       and the carbon mass-balance method; recalled, unchecked).
+    """
+    table = {str(g).lower(): _as_float_array(v, f"ef[{g!r}]") for g, v in ef.items()}
+    if "co2" not in table or np.any(table["co2"] <= 0):
+        raise PhysicalRangeError("emission_ratios_to_co2: the set needs a CO2 emission factor > 0 [g/kg]")
+    n_co2 = table["co2"] / MOLAR_MASS["co2"]
+    return {g: (v / MOLAR_MASS[g]) / n_co2 for g, v in table.items() if g in MOLAR_MASS}
+
+
+def carbon_mass_balance_ef(emission_ratios: Mapping, carbon_fraction) -> dict:
+    """Emission factors from molar emission ratios to CO2 by the carbon mass-balance method.
+
+    ``EF_X = F_C x 1000 x (MM_X / MM_C) x ER_X / sum_j NC_j ER_j`` with ``ER`` the molar emission
+    ratio to CO2 (``ER_CO2 = 1``) and the sum over the carbon-bearing species given (Ward and Radke
+    1993; Yokelson et al. 1999; in the form of Akagi et al. 2011, Sect. 2, Eq. 1, recalled,
+    unchecked). The carbon of the resulting factors equals ``1000 x F_C``: all the fuel carbon
+    burned leaves as the species given.
+
+    Parameters
+    ----------
+    emission_ratios : mapping of str to float or array_like
+        Molar emission ratios to CO2 [mol / mol CO2] of species of :data:`MOLAR_MASS`; ``co2`` may be
+        left out (it is 1).
+    carbon_fraction : float or array_like
+        Carbon mass fraction of the dry fuel, F_C [-, 0 < F_C <= 1].
+
+    Returns
+    -------
+    dict of str to numpy.ndarray
+        Emission factor per species [g / kg dry matter], ``co2`` included.
+
+    Raises
+    ------
+    PhysicalRangeError
+        A species without a molar mass here, a negative ratio, or a carbon fraction outside (0, 1].
+
+    References
+    ----------
+    .. [1] Ward, D. E. and Radke, L. F. (1993). Emissions measurements from vegetation fires: a
+       comparative evaluation of methods and results. In: Crutzen, P. J. and Goldammer, J. G.
+       (eds), Fire in the Environment, Wiley, 53-76 (recalled, unchecked).
+    .. [2] Yokelson, R. J. et al. (1999). Emissions of formaldehyde, acetic acid, methanol, and
+       other trace gases from biomass fires in North Carolina measured by airborne Fourier
+       transform infrared spectroscopy. J. Geophys. Res. 104(D23), 30109-30125 (recalled, unchecked).
+    .. [3] Akagi, S. K. et al. (2011). Emission factors for open and domestic biomass burning for
+       use in atmospheric models. Atmos. Chem. Phys. 11, 4039-4072, Sect. 2, Eq. 1 (recalled,
+       unchecked).
+    """
+    f = _check_fraction(carbon_fraction)
+    ratios = {"co2": np.float64(1.0)}
+    for g, v in emission_ratios.items():
+        key = str(g).lower()
+        if key not in MOLAR_MASS:
+            raise PhysicalRangeError(f"carbon_mass_balance_ef: no molar mass for {g!r}; known: "
+                                     f"{', '.join(k for k in MOLAR_MASS if k != 'c')}")
+        arr = _as_float_array(v, f"emission_ratios[{g!r}]")
+        _check_non_negative(arr, f"emission_ratios[{g!r}]", "mol/mol")
+        ratios[key] = arr
+    carbon_moles = sum(CARBON_ATOMS.get(g, 0) * r for g, r in ratios.items())
+    return {g: f * 1000.0 * (MOLAR_MASS[g] / MOLAR_MASS["c"]) * r / carbon_moles for g, r in ratios.items()}
+
+
+def _check_fraction(carbon_fraction) -> np.ndarray:
+    f = _as_float_array(carbon_fraction, "carbon_fraction")
+    if np.any(f <= 0) or np.any(f > 1):
+        raise PhysicalRangeError(
+            f"carbon_fraction must be a mass fraction in (0, 1], got values from {np.nanmin(f)} to {np.nanmax(f)}"
+        )
+    return f
+
+
+def carbon_balance_scale(ef: Mapping):
+    """Mass of each species per mass of carbon burned, over its per-dry-matter factor.
+
+    ``k = 1 / C_set`` [kg dry matter / g C] with ``C_set`` the carbon of the set's CO2, CO and CH4
+    (:func:`carbon_in_emissions`): in the carbon mass-balance form a species' mass is ``m_X =
+    carbon burned x EF_X x k`` (see :func:`gases_from_carbon`). Exactly the factors of
+    :func:`carbon_mass_balance_ef` with the set's own emission ratios (:func:`emission_ratios_to_co2`),
+    for species with a molar mass; species without one (PM2.5, lumped organics) keep their ratio
+    to CO2 by mass, which is how their factors are formed in the same method (Akagi et al. 2011,
+    Sect. 2; recalled, unchecked).
+
+    Parameters
+    ----------
+    ef : mapping of str to float or array_like
+        Emission factors [g / kg dry matter]; its CO2 + CO + CH4 must carry some carbon.
+
+    Returns
+    -------
+    numpy.ndarray or numpy.float64
+        ``1 / C_set`` [kg dry matter / g C].
+    """
+    c_set = carbon_in_emissions(ef)
+    if np.any(c_set <= 0):
+        raise PhysicalRangeError("carbon mass balance: the emission-factor set has no carbon in CO2, CO or CH4; "
+                                 "it needs a CO2 row > 0")
+    return 1.0 / c_set
+
+
+def gases_from_carbon(carbon_kg, ef: Mapping) -> dict:
+    """Species masses from the carbon burned, by the carbon mass-balance form.
+
+    ``m_X = C_burned x EF_X / C_set`` with ``C_set`` [g C / kg dry matter] the carbon of the set's
+    CO2, CO and CH4 (:func:`carbon_in_emissions`): the set serves only through its emission ratios,
+    and the carbon of the CO2, CO and CH4 emitted equals the carbon burned (closure 1). Equivalent to
+    applying :func:`carbon_mass_balance_ef` with the set's emission ratios at the fuel's carbon
+    fraction and multiplying by the dry matter burned (Ward and Radke 1993; Yokelson et al. 1999;
+    Akagi et al. 2011, Sect. 2, Eq. 1; recalled, unchecked). Carbon in particles and organics the
+    set does not list as CO2, CO or CH4 is not counted in ``C_set`` (a few percent for peat smoke), so
+    their carbon is not taken from the other species.
+
+    Parameters
+    ----------
+    carbon_kg : float or array_like
+        Carbon burned [kg C].
+    ef : mapping of str to float or array_like
+        Emission factors [g / kg dry matter] (only their ratios matter).
+
+    Returns
+    -------
+    dict of str to numpy.ndarray
+        Mass of each species [kg].
+    """
+    c = _as_float_array(carbon_kg, "carbon_kg")
+    k = carbon_balance_scale(ef)
+    out = {}
+    for g, v in ef.items():
+        arr = _as_float_array(v, f"ef[{g!r}]")
+        _check_non_negative(arr, f"ef[{g!r}]", "g/kg")
+        out[str(g).lower()] = c * arr * k
+    return out
+
+
+def phase_emissions(dry_mass_kg, carbon_kg, ef: Mapping, form: str = "dry_matter") -> dict:
+    """Species masses of one burning phase in the chosen form.
+
+    ``"dry_matter"``: ``m_X = M_dm x EF_X x 10^-3`` (:func:`gas_emissions`; IPCC 2006 Vol. 4
+    Eq. 2.27 form, the Tier 1 convention). ``"carbon_balance"``: ``m_X = C_burned x EF_X / C_set``
+    (:func:`gases_from_carbon`; the carbon mass-balance form).
+
+    Parameters
+    ----------
+    dry_mass_kg, carbon_kg : float or array_like
+        Dry matter [kg] and carbon [kg C] burned (one of them is used, by ``form``).
+    ef : mapping of str to float
+        Emission factors [g / kg dry matter].
+    form : {"dry_matter", "carbon_balance"}
+
+    Returns
+    -------
+    dict of str to numpy.ndarray
+        Mass of each species [kg].
+    """
+    if form == "dry_matter":
+        return {str(g).lower(): gas_emissions(dry_mass_kg, v) for g, v in ef.items()}
+    if form == "carbon_balance":
+        return gases_from_carbon(carbon_kg, ef)
+    raise PhysicalRangeError(f"form {form!r}: use one of {', '.join(FORMS)}")

@@ -55,6 +55,9 @@ def test_factors_lists_sets_with_citations(runner):
     assert "smouldering_akagi2011" in res.output and "Akagi" in res.output
     assert "AR6" in res.output and "AR5" in res.output
     assert "NOx 1.6" in res.output and "NOX" not in res.output   # flaming_ipcc2006_tropical_forest.csv
+    # the IPCC 2013 Wetlands values are Akagi et al. 2011 rounded: said where the sets are listed
+    assert "derived from smouldering_akagi2011" in res.output
+    assert "PM2.5 17.3" in res.output  # Jayarathne et al. 2018 (abstract), in the Kalimantan 2015 field set
 
 
 def test_bad_input_is_one_line(runner, tmp_path):

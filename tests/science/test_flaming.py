@@ -425,3 +425,15 @@ def test_smouldering_radiates_one_sixteenth_of_flaming_per_area():
     assert flaming.blackbody_exitance(1000.0) == pytest.approx(56_703.74419, rel=1e-12)
     # Emissivity 0.5 halves it.
     assert flaming.blackbody_exitance(1000.0, 0.5) == pytest.approx(28_351.872095, rel=1e-12)
+
+
+def test_cap_by_biomass_hand_cases():
+    from peatburn.science.flaming import cap_by_biomass
+
+    # 1200 kg from FRE on a fire holding 300 kg of biomass -> scale 0.25; 100 kg under 300 kg -> 1;
+    # no biomass figure (NaN) -> no cap; nothing burned -> 1
+    np.testing.assert_allclose(cap_by_biomass([1200.0, 100.0, 50.0, 0.0], [300.0, 300.0, np.nan, 0.0]),
+                               [0.25, 1.0, 1.0, 1.0])
+    assert cap_by_biomass(10.0, 0.0) == 0.0  # no biomass at all: nothing above ground burns
+    with pytest.raises(PhysicalRangeError):
+        cap_by_biomass(-1.0, 1.0)

@@ -151,6 +151,8 @@ HAND_MCE = {
     # IPCC 2013 Wetlands: CO2 = 464 x 44.009/12.011, so n_CO2 = 464/12.011 = 38.63126;
     # 210/28.010 = 7.49732 -> 38.63126/46.12858
     "smouldering_ipcc2013_wetlands": 0.83747,
+    # Stockwell et al. 2016 (recalled): 1564/44.009 = 35.53818, 291/28.010 = 10.38915 -> 35.53818/45.92733
+    "smouldering_kalimantan_field2015": 0.77379,
 }
 
 
@@ -244,3 +246,84 @@ def test_shipboard_set_closes_even_at_055():
     # 547.465 / 550 = 0.99539 <= 1
     ship = load_factor_set("smouldering_sumatra_shipboard2017")
     assert gases.carbon_closure(ship.ef, 0.55) == pytest.approx(0.99539, abs=1e-5)
+
+
+# --------------------------------------------------------------------------- carbon mass balance
+# Nara et al. (2017), Tellus B 69:1399047, abstract (checked): 1663 g CO2, 205 g CO, 7.6 g CH4 per kg.
+# Their molar emission ratios to CO2, by hand: n = EF / M per kg of dry matter.
+N_CO2, N_CO, N_CH4 = 1663 / 44.009, 205 / 28.010, 7.6 / 16.043  # 37.7877, 7.31881, 0.473727 mol/kg
+ER_CO, ER_CH4 = N_CO / N_CO2, N_CH4 / N_CO2  # 0.193683, 0.0125365 mol/mol CO2
+F_SET = (N_CO2 + N_CO + N_CH4) * 12.011 / 1000  # 0.547465: the carbon fraction the three factors imply
+
+
+def test_emission_ratios_from_published_factors_hand_arithmetic():
+    er = gases.emission_ratios_to_co2({"co2": 1663.0, "co": 205.0, "ch4": 7.6, "pm2_5": 20.0})
+    assert er["co2"] == pytest.approx(1.0)
+    assert er["co"] == pytest.approx(0.193683, rel=1e-5)  # (205/28.010) / (1663/44.009)
+    assert er["ch4"] == pytest.approx(0.0125365, rel=1e-5)  # (7.6/16.043) / (1663/44.009)
+    assert "pm2_5" not in er  # no molar mass: no molar ratio
+    with pytest.raises(PhysicalRangeError):
+        gases.emission_ratios_to_co2({"co": 1.0})
+
+
+def test_carbon_mass_balance_returns_the_published_factors_at_their_own_carbon_fraction():
+    # Akagi et al. (2011) Eq. 1 with the Nara et al. ratios and F_C = 0.547465 gives back the
+    # published factors (the method is how such factors are made)
+    ef = gases.carbon_mass_balance_ef({"co": ER_CO, "ch4": ER_CH4}, F_SET)
+    assert ef["co2"] == pytest.approx(1663.0, rel=1e-9)
+    assert ef["co"] == pytest.approx(205.0, rel=1e-9)
+    assert ef["ch4"] == pytest.approx(7.6, rel=1e-9)
+
+
+def test_carbon_mass_balance_at_hu_2018_carbon_fraction_hand_arithmetic():
+    # F_C = 0.56 (Hu et al. 2018, abstract, checked): 560 g C/kg / 12.011 = 46.6239 mol C per kg;
+    # the CO2 share of the carbon is 37.7877 / 45.5802 = 0.829036, so
+    # EF_CO2 = 46.6239 x 0.829036 x 44.009 = 1701.08 g/kg (= 1663 x 0.56 / 0.547465)
+    ef = gases.carbon_mass_balance_ef({"co": ER_CO, "ch4": ER_CH4}, 0.56)
+    assert ef["co2"] == pytest.approx(1701.08, abs=0.01)
+    assert ef["co2"] == pytest.approx(560 / 12.011 * N_CO2 / (N_CO2 + N_CO + N_CH4) * 44.009, rel=1e-12)
+    assert ef["co"] == pytest.approx(205 * 0.56 / F_SET, rel=1e-12)  # 209.70 g/kg
+    assert ef["ch4"] == pytest.approx(7.7740, abs=1e-4)  # 7.6 x 0.56 / 0.547465 = 7.6 x 1.022896
+    # the carbon in the factors is the fuel's: closure 1
+    assert gases.carbon_closure(ef, 0.56) == pytest.approx(1.0, rel=1e-12)
+
+
+def test_carbon_mass_balance_refuses_unknown_species_and_bad_fraction():
+    with pytest.raises(PhysicalRangeError):
+        gases.carbon_mass_balance_ef({"pm2_5": 0.01}, 0.5)
+    with pytest.raises(PhysicalRangeError):
+        gases.carbon_mass_balance_ef({"co": -0.1}, 0.5)
+    with pytest.raises(PhysicalRangeError):
+        gases.carbon_mass_balance_ef({"co": 0.1}, 1.2)
+
+
+def test_gases_from_carbon_with_pint_units_and_particles():
+    # 1 t of carbon burned with the Nara et al. set: m_X = C x EF_X / C_set, C_set = 547.465 g C/kg
+    ureg = pint.UnitRegistry()
+    c = ureg.Quantity(1000.0, "kg")
+    c_set = ureg.Quantity(547.465, "g/kg")
+    expect_co2 = (c * ureg.Quantity(1663.0, "g/kg") / c_set).to("kg").magnitude  # 3037.6 kg
+    out = gases.gases_from_carbon(1000.0, {"co2": 1663.0, "co": 205.0, "ch4": 7.6, "pm2_5": 17.3})
+    assert out["co2"] == pytest.approx(expect_co2, rel=1e-5)
+    assert out["co2"] == pytest.approx(3037.6, abs=0.1)
+    # PM2.5 keeps its mass ratio to CO2 (17.3 / 1663 by mass)
+    assert out["pm2_5"] / out["co2"] == pytest.approx(17.3 / 1663, rel=1e-12)
+    # the carbon of CO2 + CO + CH4 equals the carbon burned
+    assert gases.carbon_in_emissions(out) * 1e-3 == pytest.approx(1.0, rel=1e-12)  # kg -> g C: /1000 kg
+    with pytest.raises(PhysicalRangeError):
+        gases.gases_from_carbon(1.0, {"n2o": 0.2})  # no carbon species: no balance
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.sampled_from(_SMOULDERING), st.floats(min_value=0.0, max_value=1e9))
+def test_carbon_balance_closes_for_every_shipped_set(fs, carbon_kg):
+    out = gases.phase_emissions(None, carbon_kg, fs.ef, "carbon_balance")
+    # carbon_in_emissions treats its input as g/kg: the masses in kg carry kg of carbon x 1000 / 1000
+    assert float(gases.carbon_in_emissions(out)) == pytest.approx(carbon_kg, rel=1e-12, abs=1e-9)
+
+
+def test_phase_emissions_dry_matter_is_eq_2_27_and_refuses_unknown_form():
+    # IPCC 2006 Vol. 4 Eq. 2.27: 2000 kg x 1663 g/kg x 1e-3 = 3326 kg
+    assert gases.phase_emissions(2000.0, 1.0, {"co2": 1663.0}, "dry_matter")["co2"] == pytest.approx(3326.0)
+    with pytest.raises(PhysicalRangeError):
+        gases.phase_emissions(1.0, 1.0, {"co2": 1.0}, "per_area")

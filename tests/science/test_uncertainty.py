@@ -260,16 +260,21 @@ def test_default_sources_take_the_factor_set_spread_and_borrow_missing_ones():
     assert p["ef_smouldering"]["co"] == (210.0, 109.0)
     assert p["subsidence_rate_sd_m_per_yr"] == u.DEFAULT_SUBSIDENCE_RATE_SD
     assert p["carbon_fraction_cv"] == pytest.approx(0.03 / 0.56)
-    # the IPCC set has no spread: the widest relative spread of the reference sets, by hand from the
-    # shipped CSVs: CO max(109/210, 23/205) = 0.519048; CH4 max(11.4/20.8, 1.6/7.6) = 0.548077;
-    # CO2 max(38/1703, 54/1663) = 0.032471
+    # the IPCC set has no spread and is Akagi et al.'s values rounded (derived_from): it inherits
+    # Akagi's relative spreads, by hand from the shipped CSV: CO 109/210 = 0.519048; CH4 11.4/20.8 =
+    # 0.548077; CO2 38/1703 = 0.022314 (not the widest of all sets, 54/1663 = 0.032471)
     src2 = u.default_sources(survey_bias_sd_m=0.01, survey_sigma_m=0.1, survey_range_m=80.0,
                              smouldering_factors=ipcc, reference_factor_sets=[akagi, tellus, ipcc])
     gases = src2[-1].parameters["gases"]
     assert gases["co"]["cv"] == pytest.approx(0.519048, rel=1e-5)
     assert gases["ch4"]["cv"] == pytest.approx(0.548077, rel=1e-5)
-    assert gases["co2"]["cv"] == pytest.approx(0.032471, rel=1e-4)
-    assert "borrowed" in gases["co"]["sd_basis"]
+    assert gases["co2"]["cv"] == pytest.approx(0.022314, rel=1e-4)
+    assert "inherited" in gases["co"]["sd_basis"]
+    # without its parent among the references, the widest of the independent smouldering sets
+    src4 = u.default_sources(survey_bias_sd_m=0.01, survey_sigma_m=0.1, survey_range_m=80.0,
+                             smouldering_factors=ipcc, reference_factor_sets=[tellus])
+    assert src4[-1].parameters["gases"]["co2"]["cv"] == pytest.approx(0.032471, rel=1e-4)
+    assert "borrowed" in src4[-1].parameters["gases"]["co2"]["sd_basis"]
     # no reference: the documented assumption
     src3 = u.default_sources(survey_bias_sd_m=0.01, survey_sigma_m=0.1, survey_range_m=80.0, smouldering_factors=ipcc)
     assert src3[-1].parameters["gases"]["ch4"]["cv"] == u.DEFAULT_EF_CV
@@ -409,3 +414,83 @@ def test_filled_peat_properties_widen_the_spread():
     comp = u.variance_components(sums, {"bulk_density_cv": 0.15, "peat_fill_cv": 0.3}, quantity="carbon_kg")
     assert comp["peat_property_fill"][0] == pytest.approx((100 * 0.3) ** 2, rel=1e-12)
     assert comp["bulk_density"][0] == pytest.approx((500 * 0.15) ** 2, rel=1e-12)  # all pixels, filled too
+
+
+# ----------------------------------------------------------------------------- issue 17: carbon balance, spreads
+
+# Nara et al. 2017 (Tellus B 69:1399047, abstract, checked): 1663 +/- 54, 205 +/- 23, 7.6 +/- 1.6 g/kg.
+NARA = {"co2": (1663.0, 54.0), "co": (205.0, 23.0), "ch4": (7.6, 1.6)}
+# carbon per g of gas, hand (IUPAC conventional weights C 12.011, O 15.999, H 1.008)
+CPG = {"co2": 12.011 / 44.009, "co": 12.011 / 28.010, "ch4": 12.011 / 16.043}
+C_NARA = {g: NARA[g][0] * CPG[g] for g in NARA}  # 453.868, 87.906, 5.690 g C/kg
+S_NARA = sum(C_NARA.values())  # 547.465 g C/kg
+
+
+def _gas_carbon(d, phase):
+    return sum(d[f"{g}_{phase}_kg"] * CPG[g] for g in CPG)
+
+
+def test_carbon_balance_every_draw_closes_and_carries_the_carbon_fraction():
+    sums = {"peat_kg": np.array([1e6, 2e6]), "carbon_kg": np.array([5.5e5, 1.1e6])}
+    params = {"carbon_fraction_cv": 0.05, "ef_smouldering": NARA, "gas_form": "carbon_balance"}
+    d = u.draw_zone_totals(sums, params, draws=20_000, seed=5)
+    # the carbon of every drawn CO2 + CO + CH4 is the drawn carbon (the method's closure)
+    np.testing.assert_allclose(_gas_carbon(d, "smouldering"), d["carbon_kg"], rtol=1e-10)
+    # first order, by hand: CO2 = C x EF_CO2 m_CO2 / S(m); d ln CO2 / d ln m_j = [j = CO2] - C_j / S
+    nominal = 5.5e5 * 1663.0 / S_NARA  # 1.67075e6 kg
+    rel_ef2 = sum(((1.0 if g == "co2" else 0.0) - C_NARA[g] / S_NARA) ** 2 * (NARA[g][1] / NARA[g][0]) ** 2
+                  for g in NARA)  # 3.6015e-4
+    comp = u.variance_components(sums, params, quantity="co2_smouldering_kg")
+    assert math.sqrt(comp["emission_factors_smouldering"][0]) == pytest.approx(math.sqrt(rel_ef2) * nominal, rel=1e-9)
+    assert math.sqrt(comp["carbon_fraction"][0]) == pytest.approx(0.05 * nominal, rel=1e-9)
+    assert math.sqrt(rel_ef2) == pytest.approx(0.018978, rel=1e-4)
+    co2 = d["co2_smouldering_kg"][:, 0]
+    assert co2.mean() == pytest.approx(nominal, rel=0.01)
+    assert co2.std() == pytest.approx(math.sqrt(rel_ef2 + 0.05**2) * nominal, rel=0.05)
+
+
+def test_dry_matter_form_gases_do_not_see_the_carbon_fraction():
+    sums = {"peat_kg": np.array([1e6]), "carbon_kg": np.array([5.5e5])}
+    params = {"carbon_fraction_cv": 0.05, "ef_smouldering": NARA}
+    comp = u.variance_components(sums, params, quantity="co2_smouldering_kg")
+    assert "carbon_fraction" not in comp
+    # 1e6 kg x 54 g/kg x 1e-3 = 5.4e4 kg (IPCC 2006 Eq. 2.27 with the published spread)
+    assert math.sqrt(comp["emission_factors_smouldering"][0]) == pytest.approx(5.4e4, rel=1e-9)
+    with pytest.raises(ConfigError):
+        u.draw_zone_totals(sums, {**params, "gas_form": "per_area"}, draws=10, seed=0)
+
+
+def test_carbon_balance_flaming_draws_close():
+    sums = {"peat_kg": np.array([0.0]), "carbon_kg": np.array([0.0]), "flaming_dm_fre_kg": np.array([1e6]),
+            "flaming_dm_area_kg": np.array([0.0]), "flaming_carbon_kg": np.array([4.7e5])}
+    # IPCC 2006 Table 2.5 tropical forest (recalled; arithmetic only): 1580 +/- 90, 104 +/- 20, 6.8 +/- 2.0
+    params = {"ef_flaming": {"co2": (1580.0, 90.0), "co": (104.0, 20.0), "ch4": (6.8, 2.0), "n2o": (0.2, 0.1)},
+              "fre_coefficient_cv": 0.04, "gas_form": "carbon_balance"}
+    d = u.draw_zone_totals(sums, params, draws=2000, seed=6)
+    np.testing.assert_allclose(_gas_carbon(d, "flaming"), d["carbon_flaming_kg"], rtol=1e-10)
+    # N2O keeps its ratio to the carbon species: nominal 4.7e5 x 0.2 / (1580 CPG + 104 CPG + 6.8 CPG)
+    s_fl = 1580.0 * CPG["co2"] + 104.0 * CPG["co"] + 6.8 * CPG["ch4"]  # 480.886 g C/kg
+    assert d["n2o_flaming_kg"].mean() == pytest.approx(4.7e5 * 0.2 / s_fl, rel=0.04)  # lognormal factors of mean 1
+
+
+def test_ipcc2013_set_inherits_akagi_spreads_and_phases_do_not_mix():
+    akagi = load_factor_set("smouldering_akagi2011")
+    tellus = load_factor_set("smouldering_sumatra_shipboard2017")
+    field = load_factor_set("smouldering_kalimantan_field2015")
+    ipcc = load_factor_set("smouldering_ipcc2013_wetlands")
+    flaming = load_factor_set("flaming_ipcc2006_tropical_forest")
+    refs = [akagi, tellus, field, ipcc, flaming]
+    src = u.default_sources(survey_bias_sd_m=0.01, survey_sigma_m=0.1, survey_range_m=80.0,
+                            smouldering_factors=ipcc, reference_factor_sets=refs)
+    g = src[-1].parameters["gases"]
+    # the IPCC 2013 values are Akagi et al. 2011 rounded: Akagi's relative spreads (as shipped), by hand
+    assert g["co2"]["cv"] == pytest.approx(38 / 1703, rel=1e-9)  # 0.022314, not the widest (flaming 90/1580)
+    assert g["co"]["cv"] == pytest.approx(109 / 210, rel=1e-9)
+    assert g["ch4"]["cv"] == pytest.approx(11.4 / 20.8, rel=1e-9)
+    assert all("inherited" in v["sd_basis"] and "smouldering_akagi2011" in v["sd_basis"] for v in g.values())
+    # a smouldering set with no spread and no parent borrows the widest of the smouldering sets only:
+    # CO2 max(38/1703, 54/1663, 77/1564) = 77/1564 = 0.049233 (the flaming 90/1580 = 0.056962 is not used)
+    fb = u.ef_fallback_cv(refs, "smouldering")
+    assert fb["co2"] == pytest.approx(77 / 1564, rel=1e-9)
+    assert "n2o" not in fb and "nox" not in fb
+    assert u.ef_fallback_cv(refs, "flaming")["co2"] == pytest.approx(90 / 1580, rel=1e-9)

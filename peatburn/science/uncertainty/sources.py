@@ -128,17 +128,24 @@ def _ef_table(factors) -> dict[str, tuple[float, float]]:
     return out
 
 
-def ef_fallback_cv(factor_sets) -> dict[str, float]:
-    """Per gas, the largest relative spread (sd / ef) published by any of the given sets.
+def ef_fallback_cv(factor_sets, phase: str | None = None) -> dict[str, float]:
+    """Per gas, the largest relative spread (sd / ef) published by any of the given independent sets
+    of one phase.
 
-    Used to give a spread to an emission factor whose own set publishes none (the IPCC 2013
-    Wetlands defaults, for example): the spread borrowed is the widest among sets of the same
-    phase that do publish one, so that the borrowed interval is not narrower than the evidence.
+    Used to give a spread to an emission factor whose own set publishes none and was not derived
+    from another set (a user set, for example): the spread borrowed is the widest among the sets of
+    the same phase that do publish one, so that the borrowed interval is not narrower than the
+    evidence. Sets of the other phase are not used (a flaming spread says nothing of smouldering
+    smoke), nor sets derived from another (``derived_from``: rounded copies are not independent
+    evidence; their parent is in the list).
 
     Parameters
     ----------
     factor_sets : iterable
-        FactorSet-like objects (``.ef``, ``.sd`` mappings) or mappings gas -> (ef, sd).
+        FactorSet-like objects (``.ef``, ``.sd`` mappings, optional ``.phase`` and ``.derived_from``)
+        or mappings gas -> (ef, sd) (always used).
+    phase : {"smouldering", "flaming"}, optional
+        Use only the sets of this phase (sets without a phase are used).
 
     Returns
     -------
@@ -147,20 +154,37 @@ def ef_fallback_cv(factor_sets) -> dict[str, float]:
     """
     out: dict[str, float] = {}
     for fs in factor_sets:
+        if getattr(fs, "derived_from", None):
+            continue
+        if phase is not None and getattr(fs, "phase", phase) not in (phase, "unspecified"):
+            continue
         for g, (ef, sd) in _ef_table(fs).items():
             if ef > 0 and math.isfinite(sd) and sd >= 0:
                 out[g] = max(out.get(g, 0.0), sd / ef)
     return out
 
 
-def _ef_parameters(factors, fallback, phase):
+def _parent_set(factors, reference_factor_sets):
+    """The reference set ``factors`` was derived from (its ``derived_from`` name), or None."""
+    name = getattr(factors, "derived_from", None)
+    return next((fs for fs in reference_factor_sets if getattr(fs, "name", None) == name), None) if name else None
+
+
+def _ef_parameters(factors, fallback, phase, parent=None):
     table = _ef_table(factors)
+    parent_cv = {g: sd / ef for g, (ef, sd) in _ef_table(parent).items() if ef > 0 and math.isfinite(sd)}
     gases = {}
     for g, (ef, sd) in table.items():
         if ef < 0 or (math.isfinite(sd) and sd < 0):
             raise PhysicalRangeError(f"{phase} emission factor {g}: ef and sd must be >= 0")
         if math.isfinite(sd):
             cv, basis = (sd / ef if ef > 0 else 0.0), "published spread of the set"
+        elif g in parent_cv:
+            # the set is its parent's values rounded (IPCC 2013 Wetlands from Akagi et al. 2011): the
+            # same evidence, so the parent's relative spread, not the widest of all sets
+            cv = parent_cv[g]
+            sd, basis = cv * ef, (f"inherited: relative spread of {parent.name}, the set these values were "
+                                  f"derived from (not independent of it)")
         elif g in fallback:
             cv = fallback[g]
             sd, basis = cv * ef, "borrowed: largest relative spread among the reference sets for this gas"
@@ -319,15 +343,16 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
                       "mean: Hu et al. 2018 (56.0 %, abstract checked); sd: assumption",
                       "Run-wide multiplicative scale on carbon (the gases follow the peat mass, not f)."))
     if smouldering_factors is not None:
-        fallback = ef_fallback_cv(reference_factor_sets)
+        fallback = ef_fallback_cv(reference_factor_sets, "smouldering")
         src.append(Source("emission_factors_smouldering", "lognormal per gas, independent",
                           {"set": getattr(smouldering_factors, "name", "user mapping"),
-                           "gases": _ef_parameters(smouldering_factors, fallback, "smouldering")},
+                           "gases": _ef_parameters(smouldering_factors, fallback, "smouldering",
+                                                   _parent_set(smouldering_factors, reference_factor_sets))},
                           getattr(smouldering_factors, "citation", "user-supplied"),
                           "Run-wide; gas mass = peat mass x EF draw. Gases drawn independently "
                           "(in truth CO2 and CO anti-correlate through the combustion efficiency)."))
     if flaming_factors is not None:
-        fb = ef_fallback_cv(reference_factor_sets)
+        fb = ef_fallback_cv(reference_factor_sets, "flaming")
         src.append(Source("fre_coefficient", "lognormal scale, mean 1",
                           {"mean_kg_per_mj": float(fre_coefficient), "sd_kg_per_mj": float(fre_coefficient_sd),
                            "cv": float(fre_coefficient_sd) / float(fre_coefficient)},
@@ -343,7 +368,8 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
                           "Run-wide scale on flaming dry matter from area x biomass x combustion factor."))
         src.append(Source("emission_factors_flaming", "lognormal per gas, independent",
                           {"set": getattr(flaming_factors, "name", "user mapping"),
-                           "gases": _ef_parameters(flaming_factors, fb, "flaming")},
+                           "gases": _ef_parameters(flaming_factors, fb, "flaming",
+                                                  _parent_set(flaming_factors, reference_factor_sets))},
                           getattr(flaming_factors, "citation", "user-supplied"),
                           "Run-wide; flaming gas = flaming dry matter x EF draw."))
     return src

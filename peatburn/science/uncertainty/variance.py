@@ -76,6 +76,11 @@ def variance_components(sums: Mapping, params: Mapping, *, quantity="carbon_kg",
             if m in facs:
                 deriv = deriv + coef * model.cores[core][0]
                 hit = True
+            for d in facs:  # through a derived factor (the carbon mass-balance normaliser)
+                grad = model.derived.get(d, (None, {}))[1].get(m)
+                if grad:
+                    deriv = deriv + coef * grad * model.cores[core][0]
+                    hit = True
         if hit and cv > 0:
             add(group, deriv * cv, True)
     return comp

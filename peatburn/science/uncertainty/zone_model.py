@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -63,7 +63,7 @@ _PARAM_KEYS = {
     "subsidence_rate_sd_m_per_yr", "interval_years", "wt_coef_cov", "wt_residual_sd_m", "wt_residual_range_m",
     "bulk_density_cv", "carbon_fraction_cv", "ef_smouldering", "ef_flaming", "fre_coefficient_cv",
     "biomass_cv", "combustion_factor_cv", "gwp",
-    "subsidence_rate_map_sd_m_per_yr", "tier1_fuel_cv", "peat_fill_cv",
+    "subsidence_rate_map_sd_m_per_yr", "tier1_fuel_cv", "peat_fill_cv", "gas_form",
 }
 
 
@@ -79,6 +79,9 @@ class _Model:
     additive: dict  # source key -> (group name, run_wide)
     factors: dict  # multiplicative factor key -> (group name, cv)
     quantities: dict  # quantity -> list of (core, coef, tuple of factor keys)
+    #: factors computed from the drawn ones: key -> (function of {factor key: draws}, {factor key:
+    #: first derivative at the nominal values}) (the carbon mass-balance normaliser)
+    derived: dict = field(default_factory=dict)
 
     def stream_id(self, group: str) -> int:
         """Index that keys the random stream of a source group (its place in :data:`SOURCE_NAMES`)."""
@@ -221,16 +224,12 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
         "carbon_kg": [(c, 1.0, f) for c, f in carbon_terms],
     }
     gwp = {str(g).lower(): float(v) for g, v in dict(params.get("gwp") or {}).items()}
-    ef_s = _efs(params, "ef_smouldering")
-    co2e = []
-    for g, (ef, cv) in ef_s.items():
-        fk = f"ef_smouldering:{g}"
-        factors[fk] = ("emission_factors_smouldering", cv)
-        quantities[f"{g}_smouldering_kg"] = [(c, ef / 1000.0, f + (fk,)) for c, f in mass_terms]
-        if g in gwp:
-            co2e += [(c, gwp[g] * ef / 1000.0, f + (fk,)) for c, f in mass_terms]
-    if co2e:
-        quantities["co2e_smouldering_kg"] = co2e
+    form = params.get("gas_form") or "dry_matter"
+    if form not in ("dry_matter", "carbon_balance"):
+        raise ConfigError(f"uncertainty parameter gas_form: {form!r}; use dry_matter or carbon_balance")
+    derived: dict = {}
+    _gas_quantities(quantities, factors, derived, _efs(params, "ef_smouldering"), "smouldering", gwp, form,
+                    [(c, 1.0, f) for c, f in mass_terms], [(c, 1.0, f) for c, f in carbon_terms])
 
     has_flaming = "flaming_dm_fre_kg" in arrays or "flaming_dm_area_kg" in arrays
     if has_flaming:
@@ -247,18 +246,57 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
             cores["FFC"] = (ff * cfrac, {})
             cores["FAC"] = (fa * cfrac, {})
             quantities["carbon_flaming_kg"] = [("FFC", 1.0, fre_f), ("FAC", 1.0, area_f)]
-        co2e_f = []
-        for g, (ef, cv) in _efs(params, "ef_flaming").items():
-            fk = f"ef_flaming:{g}"
-            factors[fk] = ("emission_factors_flaming", cv)
-            terms = [("FF", ef / 1000.0, fre_f + (fk,)), ("FA", ef / 1000.0, area_f + (fk,))]
-            quantities[f"{g}_flaming_kg"] = terms
-            if g in gwp:
-                co2e_f += [(c, gwp[g] * w, f) for c, w, f in terms]
-        if co2e_f:
-            quantities["co2e_flaming_kg"] = co2e_f
+        c_terms = ([("FFC", 1.0, fre_f), ("FAC", 1.0, area_f)] if "flaming_carbon_kg" in arrays else None)
+        _gas_quantities(quantities, factors, derived, _efs(params, "ef_flaming"), "flaming", gwp,
+                        form if c_terms else "dry_matter", [("FF", 1.0, fre_f), ("FA", 1.0, area_f)], c_terms)
     return _Model(n=n, fields=fields, cores=cores, additive=additive_src, factors=factors,
-                  quantities=quantities)
+                  quantities=quantities, derived=derived)
+
+
+def _gas_quantities(quantities, factors, derived, efs, phase, gwp, form, dm_terms, c_terms) -> None:
+    """Add ``{gas}_{phase}_kg`` and ``co2e_{phase}_kg`` to ``quantities``.
+
+    ``"dry_matter"``: gas = dry matter x EF_g m_g / 1000 (IPCC 2006 Vol. 4 Eq. 2.27 form).
+    ``"carbon_balance"``: gas = carbon x EF_g m_g / S(m), ``S(m) = sum_j c_j EF_j m_j`` the carbon of
+    the drawn CO2, CO and CH4 factors (c_j = n_C M_C / M_j): the carbon mass balance
+    (peatburn.science.gases.gases_from_carbon), so every draw closes (the gases' carbon is the
+    drawn carbon) and the carbon-fraction draw reaches the gases. ``S(1) / S(m)`` is a derived
+    factor of the draw; its first derivatives ``-c_j EF_j / S(1)`` serve the delta method.
+    ``dm_terms`` / ``c_terms``: (core, coef, factor keys) of the phase's dry matter / carbon [kg].
+    """
+    from .. import gases
+
+    if not efs:
+        return
+    for g, (ef, cv) in efs.items():
+        factors[f"ef_{phase}:{g}"] = (f"emission_factors_{phase}", cv)
+    scale = {g: ef / 1000.0 for g, (ef, _) in efs.items()}
+    base_terms, extra = dm_terms, ()
+    if form == "carbon_balance":
+        c_of = {g: gases.CARBON_ATOMS[g] * gases.MOLAR_MASS["c"] / gases.MOLAR_MASS[g] * ef
+                for g, (ef, _) in efs.items() if gases.CARBON_ATOMS.get(g, 0) and g in gases.MOLAR_MASS}
+        c_set = sum(c_of.values())
+        if not c_set > 0:
+            raise ConfigError(f"{phase} emission factors: no carbon in CO2, CO or CH4; the carbon mass balance "
+                              f"needs a CO2 factor > 0")
+        nk = f"carbon_balance:{phase}"
+        keys = {g: f"ef_{phase}:{g}" for g in c_of}
+
+        def normaliser(mult, c_of=c_of, keys=keys, c_set=c_set):
+            return c_set / sum(c * mult[keys[g]] for g, c in c_of.items())
+
+        derived[nk] = (normaliser, {keys[g]: -c / c_set for g, c in c_of.items()})
+        scale = {g: ef / c_set for g, (ef, _) in efs.items()}
+        base_terms, extra = c_terms, (nk,)
+    co2e = []
+    for g in efs:
+        fk = f"ef_{phase}:{g}"
+        terms = [(c, coef * scale[g], f + (fk,) + extra) for c, coef, f in base_terms]
+        quantities[f"{g}_{phase}_kg"] = terms
+        if g in gwp:
+            co2e += [(c, gwp[g] * w, f) for c, w, f in terms]
+    if co2e:
+        quantities[f"co2e_{phase}_kg"] = co2e
 
 
 def _check_fixed(fixed) -> set:
