@@ -6,6 +6,7 @@ Public API::
     cfg = peatburn.load_config("config.toml")
     result = peatburn.run(cfg, "out/")
     result.total["carbon_smouldering_t"]
+    peatburn.check_outputs("out/")   # [] for one run's complete, unaltered set
 """
 
 from __future__ import annotations
@@ -46,4 +47,12 @@ def run_series(series, out_dir, **kwargs):
     return _run_series(series, out_dir, **kwargs)
 
 
-__all__ = ["__version__", "load_config", "run", "run_series", "RunConfig", "PeatburnError"]
+def check_outputs(folder: str | os.PathLike) -> list[str]:
+    """Problems that keep ``folder`` from being one run's complete, unaltered set, one line each (an
+    empty list when it is one); see :func:`peatburn.outputs.checksums.check_outputs`."""
+    from .outputs.checksums import check_outputs as _check
+
+    return _check(folder)
+
+
+__all__ = ["__version__", "load_config", "run", "run_series", "check_outputs", "RunConfig", "PeatburnError"]

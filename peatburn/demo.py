@@ -43,13 +43,13 @@ from __future__ import annotations
 import datetime as dt
 import json
 import math
-import os
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from .errors import ConfigError
+from .io.writers import atomic_path, write_text
 
 __all__ = ["DemoRegion", "make_demo_region", "DEMO_FILES"]
 
@@ -249,27 +249,22 @@ def _write_raster(path: Path, array: np.ndarray, transform, crs, *, units: str, 
     profile = dict(driver="GTiff", dtype="float32", width=width, height=height, count=1, crs=crs,
                    transform=transform, nodata=NODATA, tiled=True, blockxsize=BLOCK, blockysize=BLOCK,
                    compress="deflate", predictor=3)
-    tmp = path.with_name(f".{path.name}.part")
-    with rasterio.open(tmp, "w", **profile) as ds:
-        ds.write(data, 1)
-        ds.units = (units,)
-        ds.set_band_description(1, description)
-        ds.update_tags(units=units, source="peatburn demo (synthetic, invented)")
-    os.replace(tmp, path)
+    with atomic_path(path, suffix=".tif") as tmp:  # temporaries carry peatburn's marker (io.writers)
+        with rasterio.open(tmp, "w", **profile) as ds:
+            ds.write(data, 1)
+            ds.units = (units,)
+            ds.set_band_description(1, description)
+            ds.update_tags(units=units, source="peatburn demo (synthetic, invented)")
 
 
 def _write_vector(path: Path, gdf, layer: str):
-    tmp = path.with_name(f".{path.name}.part.gpkg")
-    if tmp.exists():
-        tmp.unlink()
-    gdf.to_file(tmp, layer=layer, driver="GPKG", engine="pyogrio")
-    os.replace(tmp, path)
+    with atomic_path(path, tail=".part.gpkg") as tmp:
+        tmp.unlink()  # the GeoPackage driver creates its own file
+        gdf.to_file(tmp, layer=layer, driver="GPKG", engine="pyogrio")
 
 
 def _write_text(path: Path, text: str):
-    tmp = path.with_name(f".{path.name}.part")
-    tmp.write_text(text, encoding="utf-8")
-    os.replace(tmp, path)
+    write_text(path, text)
 
 
 def _zones_and_draws(dossiers: bool) -> str:

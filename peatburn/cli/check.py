@@ -4,16 +4,44 @@ import json
 
 import click
 
-from .options import config_argument, handle_errors
+from .options import handle_errors
 
 
 @click.command("check")
-@config_argument
+@click.argument("config", type=click.Path(dir_okay=False), required=False)
 @click.option("--against", "against", type=click.Path(dir_okay=False, exists=True), default=None,
               help="A provenance.json: tell whether the inputs still match it.")
+@click.option("--outputs", "outputs", type=click.Path(file_okay=False), default=None,
+              help="A run's output folder: tell whether it is one run's complete, unaltered set (one line per "
+                   "missing, altered or extra file; exit status 1 if there is any).")
 @handle_errors
-def check_cmd(config, against):
-    """Validate CONFIG and its inputs and print what a run would do, without running it."""
+def check_cmd(config, against, outputs):
+    """Validate CONFIG and its inputs and print what a run would do, without running it; or, with
+    --outputs, check an output folder against its SHA256SUMS and provenance.json."""
+    if config is None and outputs is None:
+        raise click.UsageError("give a CONFIG to check, or --outputs DIR")
+    if config is not None:
+        _check_config(config, against)
+    if outputs is not None:
+        _check_outputs(outputs)
+
+
+def _check_outputs(folder) -> None:
+    import sys
+
+    from ..names import printable
+    from ..outputs.checksums import check_outputs, describe
+
+    problems = check_outputs(folder)
+    for line in problems:
+        click.echo(printable(line))  # file names in the folder may hold control characters
+    if problems:
+        click.echo(f"not one run's complete, unaltered set: {len(problems)} problem(s) in {printable(str(folder))}")
+        sys.exit(1)
+    click.echo(f"ok: {printable(str(folder))} is one run's complete, unaltered set: {printable(describe(folder))}")
+
+
+def _check_config(config, against) -> None:
     from ..config import load_config
     from ..depth_methods import METHOD_CODES as code
     from ..factors import load_factor_set, load_gwp_set, require_gases

@@ -28,7 +28,8 @@ def demo_cmd(out_dir, inputs_dir, overwrite, workers, pdf, quiet):
     from ..config import load_config
     from ..demo import make_demo_region
     from ..engine.runner import prepare_out_dir, run
-    from .summary import echo_pdfs_and_dossiers, print_pdfs, print_summary
+    from ..io.result_set import remove_temporaries
+    from .summary import echo_pdfs_and_dossiers, print_summary
 
     if pdf:
         from ..outputs.pdf import find_chromium
@@ -36,15 +37,15 @@ def demo_cmd(out_dir, inputs_dir, overwrite, workers, pdf, quiet):
         find_chromium()  # a missing chromium fails before the run, not after it
     out = Path(out_dir)
     prepare_out_dir(out, overwrite)
-    region = make_demo_region(Path(inputs_dir) if inputs_dir else out / "inputs")
+    inputs = Path(inputs_dir) if inputs_dir else out / "inputs"
+    remove_temporaries(inputs)  # a killed demo's half-written inputs (peatburn's marker only)
+    region = make_demo_region(inputs)
     from ..engine.executors import tune_malloc
     from ..engine.progress import progress_bar
 
     tune_malloc()  # block-sized numpy temporaries reuse the heap (docs/performance.md)
     result = run(load_config(region.config_path), out / "results", overwrite=True, workers=workers,
-                 progress=progress_bar(quiet=quiet))
-    if pdf:
-        print_pdfs(result)
+                 progress=progress_bar(quiet=quiet), pdf=pdf)
     from ..engine.series import run_series
     from ..series_config import load_series
 

@@ -6,6 +6,7 @@ import functools
 import logging
 import sys
 import traceback
+import warnings
 
 import click
 
@@ -54,7 +55,10 @@ def handle_errors(fn):
         ctx = click.get_current_context()
         debug = (ctx.find_root().params or {}).get("debug", False)
         try:
-            return fn(*args, **kwargs)
+            with warnings.catch_warnings():
+                if not debug:
+                    warnings.showwarning = _one_line_warning(warnings.showwarning)
+                return fn(*args, **kwargs)
         except PeatburnError as exc:
             if debug:
                 traceback.print_exc()
@@ -71,3 +75,16 @@ def handle_errors(fn):
             sys.exit(1)
 
     return wrapper
+
+
+def _one_line_warning(default):
+    """peatburn's own notices (UserWarning: debris removed, a stale lock taken over) as one line
+    ``peatburn: warning: ...`` on stderr; other warnings as Python prints them."""
+
+    def show(message, category, filename, lineno, file=None, line=None):
+        if category is UserWarning:
+            click.echo(f"peatburn: warning: {message}", err=True)
+        else:
+            default(message, category, filename, lineno, file, line)
+
+    return show

@@ -68,14 +68,6 @@ def print_summary(result) -> None:
     click.echo(f"outputs: {result.out_dir}")
 
 
-def print_pdfs(result) -> None:
-    """Print report.html and every dossier to PDF beside them (headless chromium)."""
-    from ..outputs.pdf import print_pdf
-
-    result.files["report_pdf"] = print_pdf(result.files["report"])
-    result.files["dossier_pdfs"] = [print_pdf(p) for p in result.files.get("dossiers") or []]
-
-
 def echo_pdfs_and_dossiers(result, pdf: bool) -> None:
     """The lines naming the PDF report and the dossiers of a run."""
     if pdf:

@@ -1,8 +1,9 @@
 """Run a configuration end to end and write the outputs of the run contract.
 
 open inputs -> co-register the surveys -> fit the water-table model -> plan -> blocks (any
-executor) -> sums -> flaming -> tables -> intervals -> rasters, provenance, report. Every file is
-written atomically.
+executor) -> sums -> flaming -> tables -> intervals -> rasters, report, provenance, SHA256SUMS. Every
+file is written atomically into a staging folder that is swapped in whole at the end
+(:mod:`peatburn.io.result_set`): the output folder holds one run's complete set at every moment.
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ from ..config import RunConfig
 from ..errors import OutputExistsError
 from .executors import BLOCK_GROUP, map_blocks
 from ..factors import load_factor_set, load_gwp_set, require_gases
-from ..io.writers import BlockRasterWriter, BlockWrites, is_own_temporary, write_csv, write_json
+from ..io.writers import BlockRasterWriter, BlockWrites, write_csv, write_json
 from ..outputs import provenance, tables
 from .alignment import coregister
 from .blocks import compute_block, process_block, read_block
@@ -80,6 +81,7 @@ class RunResult:
     files: dict = field(default_factory=dict)
     daily: list = field(default_factory=list)
     inventory: list = field(default_factory=list)
+    provenance: dict = field(default_factory=dict)
     #: the run total's model sums and draw parameters (joint draws of a series), or None without draws
     draw_inputs: dict | None = None
 
@@ -89,14 +91,15 @@ class RunResult:
 
 
 def prepare_out_dir(out_dir: Path, overwrite: bool) -> None:
+    """A folder that is not a run's result set (the demo's top folder): a killed run's temporaries
+    (peatburn's marker only) are removed with a warning; a non-empty folder needs ``overwrite``."""
+    from ..io.result_set import remove_temporaries
+
     out_dir = Path(out_dir)
-    if out_dir.exists() and any(out_dir.iterdir()):
-        if not overwrite:
-            raise OutputExistsError(f"output folder {out_dir} exists and is not empty; choose another --out "
-                                    f"or pass --overwrite")
-        for stale in out_dir.iterdir():  # temporaries of a run that was killed: only files with our marker
-            if is_own_temporary(stale):
-                stale.unlink()
+    remove_temporaries(out_dir)
+    if out_dir.exists() and any(out_dir.iterdir()) and not overwrite:
+        raise OutputExistsError(f"output folder {out_dir} exists and is not empty; choose another --out "
+                                f"or pass --overwrite")
     out_dir.mkdir(parents=True, exist_ok=True)
 
 
@@ -120,9 +123,11 @@ def load_factors(cfg: RunConfig) -> Factors:
 
 
 def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, progress=None,
-        scheduler: str | None = None) -> RunResult:
+        scheduler: str | None = None, pdf: bool = False) -> RunResult:
     """Run ``cfg`` and write zones.csv, totals.json, inventory.csv/json, daily.csv, burn_depth.tif,
-    carbon_smouldering.tif, depth_method.tif, provenance.json and report.html into ``out_dir``.
+    carbon_smouldering.tif, depth_method.tif, report.html (and report.pdf with ``pdf``),
+    provenance.json and SHA256SUMS into ``out_dir``, swapped in as one set
+    (:mod:`peatburn.io.result_set`; ``peatburn check --outputs`` verifies it).
 
     GDAL's block cache is bounded for the whole run (:func:`peatburn.engine.executors.gdal_env`, sized
     by :func:`peatburn.engine.executors.run_cache_bytes`): peak memory depends on the block size and the
@@ -135,20 +140,26 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
     client = connect(scheduler) if isinstance(scheduler, str) else scheduler  # a Client or cluster: as given
     try:
         with gdal_env():
-            return _run(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress, scheduler=client)
+            return _run(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress, scheduler=client,
+                        pdf=pdf)
     finally:
         if client is not scheduler:
             client.close()
 
 
-def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, scheduler) -> RunResult:
+def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, scheduler, pdf: bool) -> RunResult:
     from ..io.lock import output_lock
+    from ..io.result_set import staged
 
     out_dir = Path(out_dir)
     with output_lock(out_dir):  # one run at a time per output folder (issue 22)
         try:
-            return _run_locked(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress,
-                               scheduler=scheduler)
+            with staged(out_dir, overwrite) as stage:  # the outputs appear as one set, or not at all
+                result = _run_locked(cfg, stage, workers=workers, progress=progress, scheduler=scheduler)
+                seal(stage, result, pdf)
+            result.out_dir = out_dir
+            result.files = {k: _moved(v, stage, out_dir) for k, v in result.files.items()}
+            return result
         except Exception as exc:
             _raise_if_disk_full(out_dir, exc)
             raise
@@ -161,22 +172,50 @@ def _raise_if_disk_full(out_dir: Path, exc: BaseException) -> None:
     from ..errors import DiskFullError
     from ..io.writers import FULL_DISK_BYTES, free_bytes
 
-    if isinstance(exc, DiskFullError) or not out_dir.exists():
+    folder = out_dir if out_dir.exists() else out_dir.absolute().parent  # a new folder: its staging was beside
+    if isinstance(exc, DiskFullError) or not folder.exists():
         return
-    free = free_bytes(out_dir)
+    free = free_bytes(folder)
     if getattr(exc, "errno", None) != errno.ENOSPC and free >= FULL_DISK_BYTES:
         return
     import os
 
-    st = os.statvfs(out_dir)
+    st = os.statvfs(folder)
     raise DiskFullError(f"the disk holding {out_dir.absolute()} is full: the run needed more than the "
                         f"{st.f_blocks * st.f_frsize / 2**20:.2f} MiB file system had ({free / 2**20:.2f} MiB free "
                         f"after its temporaries were removed); free space or choose another --out (files under their "
                         f"final names are complete)") from exc
 
 
-def _run_locked(cfg: RunConfig, out_dir: Path, *, overwrite: bool, workers: int, progress, scheduler) -> RunResult:
-    prepare_out_dir(out_dir, overwrite)
+def _moved(path, stage: Path, out_dir: Path):
+    """Where a file written into the staging folder is after the swap (a list: each of its files)."""
+    if isinstance(path, (list, tuple)):
+        return [_moved(p, stage, out_dir) for p in path]
+    try:
+        return out_dir / Path(path).relative_to(stage)
+    except ValueError:
+        return Path(path)
+
+
+def seal(stage: Path, result: RunResult, pdf: bool = False) -> None:
+    """The last files of a staged set: report.pdf (``pdf``), provenance.json with every other output's
+    SHA-256, and SHA256SUMS of them all (:mod:`peatburn.outputs.checksums`)."""
+    from ..outputs import checksums
+
+    if pdf:  # report.html and every dossier printed by headless chromium, inside the set
+        from ..outputs.pdf import print_pdf
+
+        result.files["report_pdf"] = print_pdf(result.files["report"])
+        result.files["dossier_pdfs"] = [print_pdf(p) for p in result.files.get("dossiers") or []]
+        pdfs = [result.files["report_pdf"], *result.files["dossier_pdfs"]]
+        result.provenance["outputs"] = sorted(set(result.provenance.get("outputs", []))
+                                              | {Path(p).relative_to(stage).as_posix() for p in pdfs})
+    result.provenance["output_sha256"] = checksums.output_records(stage)
+    result.files["provenance"] = write_json(stage / checksums.PROVENANCE_NAME, result.provenance)
+    result.files["checksums"] = checksums.write_sums(stage, known=result.provenance["output_sha256"])
+
+
+def _run_locked(cfg: RunConfig, out_dir: Path, *, workers: int, progress, scheduler) -> RunResult:
     factors = load_factors(cfg)
 
     inputs = open_inputs(cfg)
@@ -439,9 +478,11 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
                                    "outputs": sorted(["zones.csv", "fires.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
                                                       "burn_depth.tif", "carbon_smouldering.tif",
-                                                      "depth_method.tif", "report.html"] + dossier_files)})
-    files["provenance"] = write_json(out_dir / "provenance.json", prov)
-    result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv, draw_inputs=draw_inputs or None)
+                                                      "depth_method.tif", "report.html", "provenance.json",
+                                                      "SHA256SUMS"] + dossier_files)})
+    # provenance.json and SHA256SUMS are written last, with the outputs' SHA-256 (runner.seal)
+    result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv, provenance=prov,
+                       draw_inputs=draw_inputs or None)
     from ..outputs import report
 
     zone_layers = [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones]  # not read a second time

@@ -225,7 +225,7 @@ def _write(series: SeriesConfig, out_dir: Path, results: list[RunResult], old: d
         rows += st.year_rows(entry.year, r.total, run_gases(load_factors(entry.config)), st.flaming_estimated(r.totals))
     summary = joint_summary(series, results, gases)
     rows += st.joint_rows(summary)
-    records = [{"totals": r.totals, "provenance": json.loads(Path(r.files["provenance"]).read_text(encoding="utf-8"))}
+    records = [{"totals": r.totals, "provenance": json.loads((Path(r.out_dir) / "provenance.json").read_text(encoding="utf-8"))}
                for r in results]
     changes = [{"from": years[i - 1], "to": years[i],
                 "changes": st.changes_between_years(years[i - 1], records[i - 1], years[i], records[i])}

@@ -22,7 +22,7 @@ from ..errors import OutputLockedError
 
 
 def lock_path(out_dir: Path | str) -> Path:
-    out = Path(out_dir).absolute()
+    out = Path(os.path.realpath(out_dir))  # a folder reached through a link has one lock
     return out.parent / f".{out.name}.peatburn-lock"
 
 

@@ -35,7 +35,7 @@ COG_THREADS = "ALL_CPUS"
 #: (``.<output name>.peatburn-tmp.<8 random characters>...``); only such files are ever deleted
 #: as debris of a killed run, never a file by its suffix alone (issue 26).
 TEMP_MARKER = "peatburn-tmp"
-_TEMP_NAME = re.compile(r"^\..+\." + TEMP_MARKER + r"\.[A-Za-z0-9_]{8}.*(\.part|\.tiled\.tif)$")
+_TEMP_NAME = re.compile(r"^\..+\." + TEMP_MARKER + r"\.[A-Za-z0-9_]{8}.*(\.part|\.tiled\.tif|\.part\.gpkg(-journal|-wal|-shm)?)$")
 
 
 def is_own_temporary(path: Path | str) -> bool:
@@ -56,15 +56,18 @@ def _file_mode() -> int:
 
 
 @contextlib.contextmanager
-def atomic_path(final: Path | str, suffix: str = ""):
+def atomic_path(final: Path | str, suffix: str = "", tail: str = ".part"):
     """Yield a temporary path beside ``final``; rename it onto ``final`` only if the block succeeds.
+
+    The temporary is ``.<final name>.peatburn-tmp.<8 characters><suffix><tail>``; ``tail`` is
+    ``.part``, or ``.part.gpkg`` for a GeoPackage (its driver wants the extension).
 
     The file gets the permissions any new file of this process would get (umask), so outputs can
     be read by the colleagues and cluster workers a plain file could.
     """
     final = Path(final)
     final.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=_temp_prefix(final), suffix=suffix + ".part", dir=final.parent)
+    fd, tmp = tempfile.mkstemp(prefix=_temp_prefix(final), suffix=suffix + tail, dir=final.parent)
     os.close(fd)
     tmp = Path(tmp)
     try:

@@ -159,7 +159,8 @@ def _common(out_dir, result, cfg, prov) -> dict:
     inputs = [{"key": k, "path": rec.get("path", ""), "size": rp.fmt_int(rec.get("size_bytes")),
                "sha": str(rec.get("sha256", ""))} for k, rec in (prov.get("inputs") or {}).items()]
     outputs = []
-    for name in ("provenance.json", "zones.csv", "fires.csv", "totals.json", "burn_depth.tif",
+    # provenance.json is written after the dossiers (it records their SHA-256; issue 22), so not here
+    for name in ("zones.csv", "fires.csv", "totals.json", "burn_depth.tif",
                  "carbon_smouldering.tif", "depth_method.tif"):
         p = Path(out_dir) / name
         if p.is_file():

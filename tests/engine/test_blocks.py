@@ -156,7 +156,10 @@ def test_interrupted_run_leaves_no_raster(scene, tmp_path):
         peatburn.run(scene.config, out, progress=interrupt)
     assert not (out / "burn_depth.tif").exists()
     assert not (out / "carbon_smouldering.tif").exists()
-    assert _leftovers(out) == []
+    # issue 22: the outputs were staged beside the folder, which appears only with a complete set;
+    # the staging folder is removed (and no lock is left)
+    assert not out.exists()
+    assert [p.name for p in tmp_path.iterdir() if p.name.startswith(".out.")] == []
 
 
 def test_killed_writer_leaves_no_file(tmp_path):
@@ -193,7 +196,8 @@ def test_killed_writer_leaves_no_file(tmp_path):
     (tmp_path / ".thesis_draft.part").write_text("a user's draft\n")
     (tmp_path / ".scan.tiled.tif").write_bytes(b"a user's raster")
     (tmp_path / ".notes.peatburn-tmp.abcdefgh.part").mkdir()  # a folder named like a temporary
-    runner.prepare_out_dir(tmp_path, overwrite=True)
+    with pytest.warns(UserWarning, match=r"removed 1 temporary file\(s\) of a killed run .*\.depth\.tif\.peatburn-tmp\."):
+        runner.prepare_out_dir(tmp_path, overwrite=True)
     assert _leftovers(tmp_path) == [".notes.peatburn-tmp.abcdefgh.part", ".scan.tiled.tif", ".thesis_draft.part"]
     assert (tmp_path / ".thesis_draft.part").read_text() == "a user's draft\n"
 

@@ -126,6 +126,10 @@ def test_cli_run_with_pdf(chromium, markup_run, tmp_path):
     assert res.exit_code == 0, res.output
     assert (tmp_path / "o" / "report.pdf").read_bytes().startswith(b"%PDF-")
     assert "report (PDF):" in res.output
+    # issue 22: the PDF is printed inside the staging folder, so it belongs to the checked set
+    from peatburn.outputs.checksums import check_outputs
+
+    assert "  report.pdf\n" in (tmp_path / "o" / "SHA256SUMS").read_text() and check_outputs(tmp_path / "o") == []
 
 
 # ----------------------------------------------------------------------------- without chromium

@@ -101,6 +101,10 @@ def test_dossiers_written_for_burned_zones(run_out):
 
     prov = json.loads((out / "provenance.json").read_text())
     assert "dossiers/index.csv" in prov["outputs"] and f"dossiers/{index[0]['file']}" in prov["outputs"]
+    # issue 22: the dossiers are part of the checked set (SHA256SUMS and provenance.json's record)
+    from peatburn.outputs.checksums import check_outputs
+
+    assert f"dossiers/{index[0]['file']}" in prov["output_sha256"] and check_outputs(out) == []
 
 
 def test_field_plan_counts_and_plots(run_out):
