@@ -30,9 +30,11 @@ def test_page_2002_carbon_per_hectare():
     assert hi == pytest.approx(0.23e9 / 0.73e6, rel=0.02)
 
 
-def test_ballhorn_2009_uncertainty_is_proportional_to_depth():
-    """Ballhorn et al. 2009 (PNAS 106:21213): mean depth 0.33 +/- 0.18 m gave 49.15 +/- 26.81 Mt C; carbon
-    is linear in depth, so its relative uncertainty equals that of the depth (0.545)."""
+def test_ballhorn_2009_carbon_spread_is_the_depth_spread_carried_linearly():
+    """Ballhorn et al. 2009 (PNAS 106:21213, abstract): mean depth 0.33 +/- 0.18 m gave 49.15 +/- 26.81
+    Mt C. Carbon is linear in depth, so the carbon +/- is the depth +/- carried linearly (0.545
+    relative). Arithmetic only: the 0.18 m is a spread of depth across the burned area (recalled
+    reading), not the error of the total (tests/science/test_uncertainty.py)."""
     bd, cf, area = 0.1, 0.55, 1e6
     c = peat.carbon_mass(peat.peat_dry_mass(np.array([0.33, 0.33 + 0.18]), bd, area), cf)
     rel = (c[1] - c[0]) / c[0]

@@ -2,7 +2,8 @@
 
 References used by the checks (named beside each): Rolstad et al. 2009 (J. Glaciol. 55:666,
 spherical area-averaging), Ballhorn et al. 2009 (PNAS 106:21213 abstract: 0.33 +/- 0.18 m and
-49.15 +/- 26.81 Mt C), scipy (integration, normal and binomial distributions), hand arithmetic.
+49.15 +/- 26.81 Mt C; the +/- is a spatial spread of depth, not an error of the total), scipy
+(integration, normal and binomial distributions), hand arithmetic.
 """
 
 import math
@@ -29,26 +30,48 @@ def _one_zone(carbon_kg, depth_m):
             "peat_kg": np.array([carbon_kg / 0.56]), "rho_area_survey": np.array([carbon_kg / 0.56 / depth_m])}
 
 
-def test_ballhorn_2009_depth_uncertainty_is_proportional():
-    """Ballhorn et al. 2009 (abstract): mean burn depth 0.33 +/- 0.18 m -> 49.15 +/- 26.81 Mt C;
-    with depth as the only uncertain input, carbon's relative sd equals depth's:
-    49.15 * 0.18 / 0.33 = 26.809 Mt C (hand)."""
+def test_error_of_the_mean_depth_carries_linearly_to_carbon():
+    """An error of a zone's mean burn depth (survey_bias: one shift of the whole zone) of sd s
+    gives a carbon sd of C s / d. A zone of 49.15 Mt C at a mean depth of 0.33 m (the size of
+    Ballhorn et al. 2009's study area) with s = 0.05 m: 49.15 * 0.05 / 0.33 = 7.4470 Mt C (hand)."""
     sums = _one_zone(49.15e9, 0.33)
-    params = {"survey_bias_sd_m": 0.18}
+    params = {"survey_bias_sd_m": 0.05}
     comp = u.variance_components(sums, params)
-    assert math.sqrt(comp["survey_bias"][0]) / 1e9 == pytest.approx(26.81, abs=0.005)
+    assert math.sqrt(comp["survey_bias"][0]) / 1e9 == pytest.approx(7.4470, abs=0.0005)
     assert u.contributions(sums, params)["survey_bias"][0] == pytest.approx(1.0)
     draws = u.draw_zone_totals(sums, params, draws=20_000, seed=4)["carbon_kg"][:, 0]
-    assert draws.std() / 1e9 == pytest.approx(26.81, rel=0.03)
-    assert draws.mean() / 1e9 == pytest.approx(49.15, abs=3 * 26.81 / math.sqrt(20_000))
+    assert draws.std() / 1e9 == pytest.approx(7.4470, rel=0.03)
+    assert draws.mean() / 1e9 == pytest.approx(49.15, abs=3 * 7.447 / math.sqrt(20_000))
     lo, hi = u.intervals(sums, params, draws=20_000, seed=4)["carbon_kg"]
-    # normal 95 % interval: 49.15 -/+ 1.959964 * 26.809 = -3.39 and 101.69 Mt C
+    # normal 95 % interval: 49.15 -/+ 1.959964 * 7.4470 = 34.55 and 63.75 Mt C
     z = scipy.stats.norm.ppf(0.975)
-    assert lo[0] / 1e9 == pytest.approx(49.15 - z * 26.809, abs=2.0)
-    assert hi[0] / 1e9 == pytest.approx(49.15 + z * 26.809, abs=2.0)
-    # half the depth uncertainty, half the carbon uncertainty
-    half = u.variance_components(sums, {"survey_bias_sd_m": 0.09})
-    assert math.sqrt(half["survey_bias"][0]) / 1e9 == pytest.approx(26.81 / 2, abs=0.005)
+    assert lo[0] / 1e9 == pytest.approx(49.15 - z * 7.4470, abs=0.6)
+    assert hi[0] / 1e9 == pytest.approx(49.15 + z * 7.4470, abs=0.6)
+    # half the error of the mean depth, half the carbon sd
+    half = u.variance_components(sums, {"survey_bias_sd_m": 0.025})
+    assert math.sqrt(half["survey_bias"][0]) / 1e9 == pytest.approx(7.4470 / 2, abs=0.0005)
+
+
+def test_a_spatial_spread_of_depth_is_not_the_error_of_the_total():
+    """Ballhorn et al. 2009 (PNAS 106:21213, abstract, checked): "an average burn scar depth of
+    0.33 +/- 0.18 m" and 49.15 +/- 26.81 Mt C, i.e. the +/- carried linearly (26.81 / 49.15 =
+    0.18 / 0.33). Read as the spread of burn depth from place to place across the burned area
+    (recalled, unchecked: the abstract does not say), 0.18 m is not the error of the mean depth:
+    as pixel-to-pixel scatter it averages out over the area. Independent pixels (pure nugget) of
+    25 m2 over 1e9 m2: n = 4e7, zone-mean sd 0.18 / sqrt(4e7) = 2.846e-5 m, carbon sd
+    49.15 * 2.846e-5 / 0.33 = 0.0042393 Mt C (hand), not 26.81 Mt C."""
+    sums = _one_zone(49.15e9, 0.33)
+    as_scatter = u.variance_components(sums, {"survey_sigma_m": 0.18, "survey_range_m": 10.0,
+                                              "survey_nugget_fraction": 1.0, "pixel_area_m2": 25.0})
+    sd = math.sqrt(as_scatter["survey_random"][0]) / 1e9
+    assert sd == pytest.approx(49.15 * 0.18 / math.sqrt(4e7) / 0.33, rel=1e-6)
+    # even spatially correlated over 100 m (Rolstad et al. 2009 averaging), a 0.18 m spread leaves
+    # the total far better known than the spread carried linearly would say
+    correlated = u.variance_components(sums, {"survey_sigma_m": 0.18, "survey_range_m": 100.0})
+    assert math.sqrt(correlated["survey_random"][0]) / 1e9 < 0.01 * 26.81
+    # only a shift of the whole mean depth by 0.18 m would give Ballhorn et al.'s 26.81 Mt C
+    as_bias = u.variance_components(sums, {"survey_bias_sd_m": 0.18})
+    assert math.sqrt(as_bias["survey_bias"][0]) / 1e9 == pytest.approx(26.81, abs=0.005)
 
 
 # ----------------------------------------------------------------------------- reproducibility

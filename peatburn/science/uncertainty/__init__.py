@@ -45,7 +45,9 @@ uncertainty based on geostatistical analysis: application to the western Svartis
 Norway. J. Glaciol. 55(192):666-680, doi:10.3189/002214309789470950.
 Ballhorn, U., Siegert, F., Mason, M. & Limin, S. (2009). Derivation of burn scar depths and
 estimation of carbon emissions with LIDAR in Indonesian peatlands. PNAS 106:21213-21218
-(0.33 +/- 0.18 m mean burn depth; 49.15 +/- 26.81 Mt C: an uncertainty proportional to the depth's).
+(0.33 +/- 0.18 m mean burn depth; 49.15 +/- 26.81 Mt C). The +/- 0.18 m is, as recalled (the
+abstract does not say), the spread of burn depth across the burned area, carried linearly to the
+carbon: not the error of a total, and never used as one here (docs/method.md 3.1).
 Wooster, M. J., Roberts, G., Perry, G. L. W. & Kaufman, Y. J. (2005). J. Geophys. Res. 110, D24311
 (combustion coefficient 0.368 +/- 0.015 kg/MJ; recalled, unchecked).
 Hu, Y., Fernandez-Anez, N., Smith, T. E. L. & Rein, G. (2018). Review of emissions from smouldering
