@@ -284,8 +284,29 @@ def task_events(path):
             "hwm_mib": _hwm()}
 
 
+def task_decode(path, block=512):
+    """Decode one raster once, window by window (block x block), as float64 with NaN for nodata:
+    the floor a run reading that raster cannot beat."""
+    import numpy as np
+    import rasterio
+    from rasterio.windows import Window
+
+    t = time.perf_counter()
+    n = 0
+    with rasterio.open(path) as ds:
+        nd = ds.nodata
+        for r in range(0, ds.height, block):
+            for c in range(0, ds.width, block):
+                a = ds.read(1, window=Window(c, r, min(block, ds.width - c), min(block, ds.height - r)))
+                a = a.astype("float64")
+                if nd is not None:
+                    a[a == nd] = np.nan
+                n += a.size
+    return {"wall_s": time.perf_counter() - t, "pixels": n}
+
+
 if __name__ == "__main__":
     task, kwargs = sys.argv[1], json.loads(sys.argv[2])
     res = {"run": task_run, "floor": task_floor, "blocks": task_blocks, "write": task_write,
-           "main_writes": task_main_writes, "events": task_events}[task](**kwargs)
+           "main_writes": task_main_writes, "events": task_events, "decode": task_decode}[task](**kwargs)
     print(json.dumps(res))

@@ -196,9 +196,12 @@ def _busy_seconds() -> float | None:
     return (user + nice + system + irq + softirq + steal) / os.sysconf("SC_CLK_TCK")
 
 
-def wait_idle(max_wait: float = 180.0, threshold: float = 0.2, sample: float = 2.0) -> float:
+def wait_idle(max_wait: float | None = None, threshold: float = 0.2, sample: float = 2.0) -> float:
     """Wait (up to ``max_wait`` s) until other work on the machine uses less than ``threshold``
-    cores over ``sample`` s; return the load seen last [cores]. The benchmarks share the machine."""
+    cores over ``sample`` s; return the load seen last [cores]. The benchmarks share the machine.
+    ``max_wait`` None: $PEATBURN_BENCH_MAX_WAIT, else 180 s."""
+    if max_wait is None:
+        max_wait = float(os.environ.get("PEATBURN_BENCH_MAX_WAIT", 180.0))
     t0 = time.perf_counter()
     load = 0.0
     while True:

@@ -9,7 +9,8 @@ The results are also written to $PEATBURN_BENCH_DIR/results.json. The five bench
 scale issue are io (1), memory (2), workers (3), zones (4) and draws (5); writes times the main
 process's share of a parallel run; detections (7) groups a million dense active-fire detections;
 depth_model times the water-table model's fit and its
-leave-scar-out cross-validation at 30,000 scars (about half a minute).
+leave-scar-out cross-validation at 30,000 scars (about half a minute); national (issue 19) runs a
+400 Mpx water-table scene against one decode of its raster (a few minutes, 1 GB of scene).
 """
 
 from __future__ import annotations
@@ -27,7 +28,7 @@ import _common as c  # noqa: E402
 
 BENCHES = {"io": "bench_io", "memory": "bench_memory", "workers": "bench_workers", "zones": "bench_zones",
            "draws": "bench_draws", "writes": "bench_writes", "detections": "bench_detections",
-           "depth_model": "bench_depth_model"}
+           "depth_model": "bench_depth_model", "national": "bench_national"}
 
 
 def main(argv=None):

@@ -4,9 +4,12 @@ Public API::
 
     import peatburn
     cfg = peatburn.load_config("config.toml")
-    result = peatburn.run(cfg, "out/")
-    result.total["carbon_smouldering_t"]
-    peatburn.check_outputs("out/")   # [] for one run's complete, unaltered set
+    report = peatburn.check(cfg)          # what a run would do (report.lines), no pixel read
+    result = peatburn.run(cfg)            # computed in memory, nothing written
+    result.frames.zones                   # pandas DataFrame, the columns of zones.csv
+    result.frames.total["carbon_smouldering_t"]
+    result.write("out/")                  # the files of `peatburn run`, when asked
+    peatburn.check_outputs("out/")        # [] for one run's complete, unaltered set
 """
 
 from __future__ import annotations
@@ -21,14 +24,19 @@ from .config import RunConfig, load_config  # noqa: E402
 from .errors import PeatburnError  # noqa: E402
 
 if TYPE_CHECKING:
+    from .engine.check import CheckReport
     from .engine.runner import RunResult
 
 # a library logs and leaves the handling to the application (the CLI sets it with -v / -q)
 logging.getLogger(__name__).addHandler(logging.NullHandler())
 
 
-def run(cfg: RunConfig | str | os.PathLike, out_dir: str | os.PathLike, **kwargs) -> RunResult:
-    """Run a configuration (a :class:`RunConfig` or a path to a TOML file); see :func:`peatburn.engine.runner.run`."""
+def run(cfg: RunConfig | str | os.PathLike, out_dir: str | os.PathLike | None = None, **kwargs) -> RunResult:
+    """Run a configuration (a :class:`RunConfig` or a path to a TOML file); see :func:`peatburn.engine.runner.run`.
+
+    Without ``out_dir`` nothing is written: the result holds the tables (``result.frames``) and
+    ``result.write(out_dir)`` writes the files when asked.
+    """
     from .engine.runner import run as _run
 
     if not isinstance(cfg, RunConfig):
@@ -47,6 +55,13 @@ def run_series(series, out_dir, **kwargs):
     return _run_series(series, out_dir, **kwargs)
 
 
+def check(cfg: RunConfig | str | os.PathLike, against: str | os.PathLike | None = None, **kwargs) -> CheckReport:
+    """Validate a configuration and its inputs; see :func:`peatburn.engine.check.check`."""
+    from .engine.check import check as _check
+
+    return _check(cfg, against, **kwargs)
+
+
 def check_outputs(folder: str | os.PathLike) -> list[str]:
     """Problems that keep ``folder`` from being one run's complete, unaltered set, one line each (an
     empty list when it is one); see :func:`peatburn.outputs.checksums.check_outputs`."""
@@ -55,4 +70,4 @@ def check_outputs(folder: str | os.PathLike) -> list[str]:
     return _check(folder)
 
 
-__all__ = ["__version__", "load_config", "run", "run_series", "check_outputs", "RunConfig", "PeatburnError"]
+__all__ = ["__version__", "load_config", "run", "run_series", "check", "check_outputs", "RunConfig", "PeatburnError"]

@@ -16,6 +16,7 @@ from pathlib import Path
 
 from .depth_methods import DEPTH_METHODS
 from .errors import ConfigError, PhysicalRangeError, UnitError
+from .io.mosaics import RasterInput, is_url, resolve_raster_input
 from .names import check_layer_name, printable
 from .units import DOCUMENTED_UNITS, conversion_factor, to_magnitude
 
@@ -24,7 +25,7 @@ from .units import DOCUMENTED_UNITS, conversion_factor, to_magnitude
 class RasterRef:
     """A parameter given as a raster; ``scale`` turns the file's unit into the documented unit."""
 
-    path: Path
+    path: Path | RasterInput  # one local file; tiles or a URL (peatburn.io.mosaics)
     units: str | None = None
     scale: float = 1.0
 
@@ -34,8 +35,8 @@ Value = float | RasterRef
 
 @dataclass(frozen=True)
 class SurveyConfig:
-    pre: Path
-    post: Path
+    pre: Path | RasterInput
+    post: Path | RasterInput
     interval_years: float
     subsidence_rate: Value | None = None
     stable: Path | None = None
@@ -50,7 +51,7 @@ class PeatConfig:
     carbon_fraction: Value
     thickness: Value | None = None
     #: organic-soil extent: polygons (any vector file) or a raster (non-zero = organic soil)
-    extent: Path | None = None
+    extent: Path | RasterInput | None = None
     #: stated fallbacks for holes in the bulk-density / carbon-fraction rasters [g cm-3, -];
     #: None: the median of the run's valid values (with a note)
     bulk_density_fill: float | None = None
@@ -342,9 +343,9 @@ def _value(value, base: Path, key: str, quantity: str, where: str, range_name: s
             raise ConfigError(f"{where}: `{key}` as a table takes `raster` and optional `units`, got {sorted(value)}")
         units = value.get("units")
         scale = conversion_factor(units, unit, key) if units else 1.0
-        return RasterRef(_path(value["raster"], base, key, where), units, scale)
-    if isinstance(value, str) and _looks_like_path(value):
-        return RasterRef(_path(value, base, key, where))
+        return RasterRef(_raster(value["raster"], base, key, where), units, scale)
+    if isinstance(value, list) or (isinstance(value, str) and _looks_like_path(value)):
+        return RasterRef(_raster(value, base, key, where))
     try:
         mag = to_magnitude(value, unit, key)
     except UnitError as exc:
@@ -354,8 +355,27 @@ def _value(value, base: Path, key: str, quantity: str, where: str, range_name: s
     return mag
 
 
+_RASTER_SUFFIXES = (".tif", ".tiff", ".vrt", ".img", ".nc")
+
+
 def _looks_like_path(s: str) -> bool:
-    return s.lower().endswith((".tif", ".tiff", ".vrt", ".img", ".nc"))
+    return s.lower().endswith(_RASTER_SUFFIXES) or is_url(s)
+
+
+def _extent(value, base: Path, where: str):
+    """peat.extent: a vector file (Path), or a raster given as one file, tiles or a URL."""
+    text = value if isinstance(value, str) else ""
+    raster_url = is_url(text) and text.split("?")[0].lower().endswith(_RASTER_SUFFIXES)
+    if isinstance(value, list) or raster_url or set("*?[") & set(text):
+        return _raster(value, base, "peat.extent", where)
+    return _path(value, base, "peat.extent", where)
+
+
+def _raster(value, base: Path, key: str, where: str):
+    """A raster input: one local file (Path), or tiles / a URL (:class:`peatburn.io.mosaics.RasterInput`)."""
+    if isinstance(value, str) and not value.strip():
+        return _path(value, base, key, where)
+    return resolve_raster_input(value, base, key, where)
 
 
 # --------------------------------------------------------------------------------------------
@@ -451,7 +471,7 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
                                "carbon_fraction", where, force=force),
         thickness=_value(peat_raw["thickness"], base, "peat.thickness", "peat_thickness", where, "thickness", force=force)
         if "thickness" in peat_raw else None,
-        extent=_path(peat_raw["extent"], base, "peat.extent", where) if "extent" in peat_raw else None,
+        extent=_extent(peat_raw["extent"], base, where) if "extent" in peat_raw else None,
         bulk_density_fill=_fill_value(peat_raw, "bulk_density_fill", "bulk_density", base, where, force),
         carbon_fraction_fill=_fill_value(peat_raw, "carbon_fraction_fill", "carbon_fraction", base, where, force),
     )
@@ -562,8 +582,8 @@ def _water_table(wt: dict, base: Path, where: str) -> WaterTableConfig:
         raster = _value(src, base, "depth.water_table.depth", "water_table_depth", where)
     elif isinstance(src, str) and src.lower().endswith(_STATION_SUFFIXES):
         stations = _path(src, base, "depth.water_table.depth", where)
-    elif isinstance(src, str):
-        raster = RasterRef(_path(src, base, "depth.water_table.depth", where), units,
+    elif isinstance(src, (str, list)):
+        raster = RasterRef(_raster(src, base, "depth.water_table.depth", where), units,
                            conversion_factor(units, "m", "depth.water_table.units") if units else 1.0)
     else:
         raise ConfigError(f"{where}: `depth.water_table.depth` must be a raster or a station file path, got {src!r}")
@@ -689,8 +709,8 @@ def _factor_ref(value, base: Path) -> str:
 
 
 def _survey(sv: dict, base: Path, where: str, force: bool = False) -> SurveyConfig:
-    pre = _path(_require(sv, "pre", "depth.survey", where), base, "depth.survey.pre", where)
-    post = _path(_require(sv, "post", "depth.survey", where), base, "depth.survey.post", where)
+    pre = _raster(_require(sv, "pre", "depth.survey", where), base, "depth.survey.pre", where)
+    post = _raster(_require(sv, "post", "depth.survey", where), base, "depth.survey.post", where)
     if "interval_years" in sv:
         try:
             interval = to_magnitude(sv["interval_years"], "yr", "depth.survey.interval_years")

@@ -1,7 +1,5 @@
 from __future__ import annotations
 
-import json
-
 import click
 
 from .options import handle_errors
@@ -42,64 +40,11 @@ def _check_outputs(folder) -> None:
 
 
 def _check_config(config, against) -> None:
-    from ..config import load_config
-    from ..depth_methods import METHOD_CODES as code
-    from ..factors import load_factor_set, load_gwp_set, require_gases
-    from ..names import printable
-    from ..outputs.provenance import check_against
-    from ..engine.inputs import open_inputs
+    from ..engine.check import check
+    from ..outputs.provenance import mismatch_error
 
-    cfg = load_config(config)
-    sm = require_gases(load_factor_set(cfg.factors.smouldering, "smouldering"), "smouldering")
-    fl = require_gases(load_factor_set(cfg.factors.flaming, "flaming"), "flaming")
-    gwp = load_gwp_set(cfg.factors.gwp)
-    inputs = open_inputs(cfg)
-    g = inputs.grid
-    click.echo(f"run: {cfg.name}")
-    click.echo(f"grid: {g.width} x {g.height} px of {g.res[0]:g} x {g.res[1]:g} in {g.crs.to_string()}; "
-               f"{len(g.windows(cfg.block_size))} blocks of {cfg.block_size} px")
-    for key, info in inputs.rasters.items():
-        aligned = "on grid" if (info.crs == g.crs and info.transform == g.transform) else "warped onto grid"
-        click.echo(f"raster {key}: {info.path} ({info.width} x {info.height}, nodata {info.nodata}, {aligned})")
-    click.echo(f"burn scars: {len(inputs.scars.frame)} polygons from {cfg.burned_area}")
-    for z, layer, ids in inputs.zones:
-        click.echo(f"zones {z.name}: {len(ids)} polygons, id field {z.id!r}"
-                   f"{'; a dossier per burned zone (dossiers/)' if z.dossiers else ''}")
-    if cfg.uncertainty.draws:
-        from ..engine.intervals import draw_cost
-
-        n_rows = sum(len(ids) + 1 for _, _, ids in inputs.zones) + 1
-        seconds, memory = draw_cost(cfg.uncertainty.draws, n_rows)
-        click.echo(f"uncertainty: {cfg.uncertainty.draws:,} draws x {n_rows:,} zone rows: about {seconds:.0f} s "
-                   f"and at most {memory / 2**20:.0f} MiB for the intervals (after the block pass)")
-    if cfg.survey is not None:
-        sv = cfg.survey
-        sub = "raster" if hasattr(sv.subsidence_rate, "path") else sv.subsidence_rate
-        stable = "polygons" if sv.stable else f"outside scars buffered by {sv.stable_buffer_m:g} m"
-        click.echo(f"depth {code['survey']}: two surveys {sv.interval_years:g} yr apart; subsidence {sub}; co-registration on "
-                   f"stable ground ({stable})")
-    if cfg.water_table is not None:
-        wt = cfg.water_table
-        src = f"raster {wt.raster.path}" if wt.raster else f"stations {wt.stations} (IDW, power {wt.idw_power:g})"
-        click.echo(f"depth {code['water_table']}: water-table model ({wt.model}) from {src}")
-    if cfg.tier1_only:
-        click.echo("depth: Tier 1 only (no survey, no water table): the IPCC 2013 Wetlands Supplement default on "
-                   "every burned pixel of organic soil")
-    else:
-        click.echo(f"depth {code['tier1']}: IPCC 2013 Wetlands Supplement Tier 1 default where neither gives a depth")
-    if cfg.peat.extent is not None:
-        click.echo(f"peat extent: {cfg.peat.extent} (outside it, and where the thickness is 0: mineral soil, "
-                   f"no below-ground emission)")
-    if cfg.flaming is not None:
-        click.echo(f"flaming: {cfg.flaming.method} route")
-    click.echo(f"smouldering factors: {sm.name} ({sm.citation}); GWP: {gwp.name}")
-    click.echo(f"flaming factors: {fl.name}; gases reported: smouldering {', '.join(sm.gases)}; "
-               f"flaming {', '.join(fl.gases)}")
-    for n in inputs.notes:
-        click.echo(f"note: {printable(n)}")  # notes may quote names from input files
-    if against:
-        with open(against, encoding="utf-8") as fh:
-            record = json.load(fh)
-        check_against(record)
-        click.echo(f"inputs match {against}")
-    click.echo("ok: the configuration is valid")
+    report = check(config, against, strict=False)  # the library function (engine/check.py)
+    for line in report.lines:
+        click.echo(line)
+    if report.mismatches:
+        raise mismatch_error(report.mismatches)

@@ -19,7 +19,7 @@ from .options import config_argument, handle_errors, out_option, overwrite_optio
 def run_cmd(config, out_dir, overwrite, workers, scheduler, pdf, quiet):
     """Estimate smouldering (below-ground) peat-fire emissions for CONFIG and write the outputs.
 
-    Writes zones.csv, fires.csv, totals.json, inventory.csv, inventory.json, daily.csv, burn_depth.tif,
+    Writes zones.csv, fires.csv, results.gpkg, totals.json, inventory.csv, inventory.json, daily.csv, burn_depth.tif,
     carbon_smouldering.tif, depth_method.tif, report.html (and report.pdf with --pdf), dossiers/<zone>.html
     (and .pdf) for the burned zones of every [[zones]] layer with dossiers = true, provenance.json and
     SHA256SUMS into --out, as one set: the folder holds the old set or the new one, never a mix

@@ -12,6 +12,7 @@ from affine import Affine
 from ..config import RasterRef, RunConfig
 from ..errors import GridError
 from ..grid import RunGrid
+from ..io.mosaics import RasterInput
 from ..io.rasters import RasterSource, check_overlap, grid_from_raster, inspect_raster
 from ..io.vectors import read_polygons, zone_ids
 
@@ -107,6 +108,8 @@ def open_inputs(cfg: RunConfig) -> Inputs:
 
 
 def _is_raster_path(path) -> bool:
+    if isinstance(path, RasterInput):  # tiles or a URL (io.mosaics)
+        return True
     return str(path).lower().endswith((".tif", ".tiff", ".vrt", ".img", ".nc"))
 
 

@@ -74,20 +74,68 @@ class Factors:
 class RunResult:
     """What a run produced."""
 
-    out_dir: Path
+    out_dir: Path | None
     zones: list[dict]
     totals: dict
     qa: dict
     files: dict = field(default_factory=dict)
     daily: list = field(default_factory=list)
     inventory: list = field(default_factory=list)
+    fires: list = field(default_factory=list)
     provenance: dict = field(default_factory=dict)
     #: the run total's model sums and draw parameters (joint draws of a series), or None without draws
     draw_inputs: dict | None = None
+    #: where the rasters are: ``out_dir``, or a private temporary folder of a run without one (removed
+    #: with the result)
+    raster_dir: Path | None = None
 
     @property
     def total(self) -> dict:
         return self.zones[-1]
+
+    @property
+    def frames(self) -> "ResultFrames":
+        """The tables as pandas objects: ``zones``, ``fires``, ``daily``, ``inventory`` DataFrames (the
+        columns of the CSV files) and the run ``total`` as a Series."""
+        import pandas as pd
+
+        parts = getattr(self, "_parts", None)
+        zcols = parts.columns if parts else None
+        zones = pd.DataFrame(self.zones, columns=zcols)
+        return ResultFrames(zones=zones, fires=pd.DataFrame(self.fires, columns=parts.fire_columns if parts else None),
+                            total=zones.iloc[-1].rename("total"),
+                            daily=pd.DataFrame(self.daily, columns=parts.daily_columns if parts else None),
+                            inventory=pd.DataFrame(self.inventory, columns=tables.INVENTORY_COLUMNS))
+
+    def write(self, out_dir, *, overwrite: bool = False, pdf: bool = False) -> dict:
+        """Write the result's files (tables, results.gpkg, rasters, report, provenance, SHA256SUMS) into
+        ``out_dir`` as one set, as ``peatburn run`` does; an existing, non-empty folder is refused
+        unless ``overwrite``. Returns the written files by name."""
+        from ..io.lock import output_lock
+        from ..io.result_set import staged
+
+        if getattr(self, "_parts", None) is None or self.raster_dir is None or not Path(self.raster_dir).exists():
+            raise OutputExistsError("this result cannot be written again: its rasters are gone; run again")
+        out_dir = Path(out_dir)
+        with output_lock(out_dir):
+            with staged(out_dir, overwrite) as stage:
+                self.files = {}
+                write_outputs(self, stage)
+                seal(stage, self, pdf)
+            self.out_dir = out_dir
+            self.files = {k: _moved(v, stage, out_dir) for k, v in self.files.items()}
+        return self.files
+
+
+@dataclass(frozen=True)
+class ResultFrames:
+    """A run's tables as pandas objects (:attr:`RunResult.frames`)."""
+
+    zones: object
+    fires: object
+    total: object
+    daily: object
+    inventory: object
 
 
 def prepare_out_dir(out_dir: Path, overwrite: bool) -> None:
@@ -122,12 +170,16 @@ def load_factors(cfg: RunConfig) -> Factors:
     )
 
 
-def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, progress=None,
+def run(cfg: RunConfig, out_dir=None, *, overwrite: bool = False, workers: int = 1, progress=None,
         scheduler: str | None = None, pdf: bool = False) -> RunResult:
-    """Run ``cfg`` and write zones.csv, totals.json, inventory.csv/json, daily.csv, burn_depth.tif,
-    carbon_smouldering.tif, depth_method.tif, report.html (and report.pdf with ``pdf``),
-    provenance.json and SHA256SUMS into ``out_dir``, swapped in as one set
+    """Run ``cfg`` and write zones.csv, fires.csv, results.gpkg, totals.json, inventory.csv/json,
+    daily.csv, burn_depth.tif, carbon_smouldering.tif, depth_method.tif, report.html (and report.pdf
+    with ``pdf``), provenance.json and SHA256SUMS into ``out_dir``, swapped in as one set
     (:mod:`peatburn.io.result_set`; ``peatburn check --outputs`` verifies it).
+
+    ``out_dir`` None computes without writing any output: the result holds the tables in memory
+    (:attr:`RunResult.frames`), the rasters wait in a private temporary folder removed with the
+    result, and :meth:`RunResult.write` writes everything when asked.
 
     GDAL's block cache is bounded for the whole run (:func:`peatburn.engine.executors.gdal_env`, sized
     by :func:`peatburn.engine.executors.run_cache_bytes`): peak memory depends on the block size and the
@@ -140,6 +192,8 @@ def run(cfg: RunConfig, out_dir, *, overwrite: bool = False, workers: int = 1, p
     client = connect(scheduler) if isinstance(scheduler, str) else scheduler  # a Client or cluster: as given
     try:
         with gdal_env():
+            if out_dir is None:
+                return _compute_only(cfg, workers=workers, progress=progress, scheduler=client)
             return _run(cfg, out_dir, overwrite=overwrite, workers=workers, progress=progress, scheduler=client,
                         pdf=pdf)
     finally:
@@ -163,6 +217,21 @@ def _run(cfg: RunConfig, out_dir, *, overwrite: bool, workers: int, progress, sc
         except Exception as exc:
             _raise_if_disk_full(out_dir, exc)
             raise
+
+
+def _compute_only(cfg: RunConfig, *, workers: int, progress, scheduler) -> RunResult:
+    import shutil
+    import tempfile
+    import weakref
+
+    tmp = Path(tempfile.mkdtemp(prefix="peatburn-rasters-"))
+    try:
+        result = _run_locked(cfg, None, workers=workers, progress=progress, scheduler=scheduler, raster_dir=tmp)
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    weakref.finalize(result, shutil.rmtree, str(tmp), True)
+    return result
 
 
 def _raise_if_disk_full(out_dir: Path, exc: BaseException) -> None:
@@ -215,7 +284,8 @@ def seal(stage: Path, result: RunResult, pdf: bool = False) -> None:
     result.files["checksums"] = checksums.write_sums(stage, known=result.provenance["output_sha256"])
 
 
-def _run_locked(cfg: RunConfig, out_dir: Path, *, workers: int, progress, scheduler) -> RunResult:
+def _run_locked(cfg: RunConfig, out_dir: Path | None, *, workers: int, progress, scheduler,
+                raster_dir: Path | None = None) -> RunResult:
     factors = load_factors(cfg)
 
     inputs = open_inputs(cfg)
@@ -225,24 +295,30 @@ def _run_locked(cfg: RunConfig, out_dir: Path, *, workers: int, progress, schedu
     pool = WorkerPool(workers) if workers > 1 and scheduler is None else None
     try:
         with gdal_env(run_cache_bytes(inputs.grid.width, cfg.block_size)):
-            return _run_inputs(cfg, out_dir, inputs, factors, progress=progress, scheduler=scheduler, pool=pool)
+            return _run_inputs(cfg, out_dir, inputs, factors, progress=progress, scheduler=scheduler, pool=pool,
+                               raster_dir=raster_dir or out_dir)
     finally:
         if pool is not None:
             pool.close()
 
 
-def _run_inputs(cfg: RunConfig, out_dir: Path, inputs, factors, *, progress, scheduler, pool) -> RunResult:
+def _run_inputs(cfg: RunConfig, out_dir: Path | None, inputs, factors, *, progress, scheduler, pool,
+                raster_dir: Path) -> RunResult:
     """The run after its inputs are open; ``pool`` (local workers, or None) is closed as soon as the
     block pass ends, so the COG conversion has the cores to itself."""
     try:
-        plan, alignment, models, sums, rasters, notes = _block_pass(cfg, out_dir, inputs, progress, scheduler, pool)
+        plan, alignment, models, sums, rasters, notes = _block_pass(cfg, raster_dir, inputs, progress, scheduler, pool)
     finally:
         if pool is not None:
             pool.close()
     # the COG conversions (GDAL, outside the GIL) run while the tables and intervals are computed
     converting = _background(_finish_rasters, rasters)
     try:
-        return _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, sums, notes, converting)
+        result = _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, factors, sums, notes,
+                                 converting)
+        if out_dir is not None:
+            write_outputs(result, out_dir)
+        return result
     finally:
         converting.wait()
 
@@ -271,7 +347,7 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
         ("burn_depth.tif", dict(description="burn depth", units="m")),
         ("carbon_smouldering.tif", dict(description="carbon burned below ground", units="kg C m-2")),
         ("depth_method.tif", dict(description=raster_description(),
-                                  units="code", dtype="uint8", nodata=0)),
+                                  units="code", dtype="uint8", nodata=0, colormap=method_colormap())),
     ]
     rasters = []
     writes = None
@@ -294,6 +370,20 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
         _finish_rasters(rasters, ok=False)
         raise
     return plan, alignment, models, sums, rasters, notes
+
+
+def method_colormap() -> dict:
+    """depth_method.tif's palette (a TIFF ColorMap): each code in its colour of the depth-method
+    table (peatburn/depth_methods.py), so that a GIS shows the map as the report does."""
+    from ..depth_methods import DEPTH_METHODS, MINERAL_CODE, MINERAL_COLOUR
+
+    def rgba(hex_):
+        return tuple(int(hex_[i:i + 2], 16) for i in (1, 3, 5)) + (255,)
+
+    cmap = {0: (0, 0, 0, 0)}
+    cmap.update({m.code: rgba(m.colour) for m in DEPTH_METHODS})
+    cmap[MINERAL_CODE] = rgba(MINERAL_COLOUR)
+    return cmap
 
 
 def run_notes(cfg) -> list[str]:
@@ -368,7 +458,8 @@ def _finish_rasters(rasters, ok: bool = True) -> None:
         raise err
 
 
-def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, sums, notes, converting):
+def _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, factors, sums, notes, converting):
+    """Every table of the run in memory (a :class:`RunResult`), the rasters in ``raster_dir``."""
     grid = plan.grid
     from .above_ground import flaming_sums
 
@@ -420,7 +511,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     if inputs.plots is not None:
         from ..plots import validate_plots
 
-        plots = validate_plots(inputs, plan, out_dir)
+        plots = validate_plots(inputs, plan, raster_dir)
 
     # the scars' sums add up to the run's: shared pixels of repeat burns are split between their fires
     # in the block pass (outputs.fires), so no rescaling is needed and no scar lends carbon to another
@@ -458,17 +549,7 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
         for c in tables.interval_columns(run_gases):
             if c in tables.INTERVAL_COLUMNS or f"{c}_lo" in total:
                 columns += [f"{c}_lo", f"{c}_hi"]
-    files = {}
-    files["zones"] = write_csv(out_dir / "zones.csv", rows, columns)
-    files["fires"] = write_csv(out_dir / "fires.csv", fire_rows,
-                               fires.fire_columns(bool(uncertainty), list(ignition_cols or ())))
-    files["totals"] = write_json(out_dir / "totals.json", totals)
     inv = tables.inventory_rows(total, shares, factors.gwp.name, run_gases)
-    files["daily"] = write_csv(out_dir / "daily.csv", daily, timeline.daily_columns(run_gases))
-    files["inventory"] = write_csv(out_dir / "inventory.csv", inv, tables.INVENTORY_COLUMNS)
-    files["inventory_json"] = write_json(out_dir / "inventory.json", {"unit": "Gg", "gwp": factors.gwp.name,
-                                                                          "conventions": tables.INVENTORY_CONVENTIONS,
-                                                                          "rows": inv})
     from ..outputs import dossiers
 
     dossier_items = dossiers.plan(cfg, inputs, rows)  # issue 21: one page per burned zone of a layer asking
@@ -477,22 +558,79 @@ def _tables_and_report(cfg, out_dir, inputs, plan, alignment, models, factors, s
     prov = provenance.build(cfg, grid, alignment, factors, models,
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
                                    "outputs": sorted(["zones.csv", "fires.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
-                                                      "burn_depth.tif", "carbon_smouldering.tif",
+                                                      "results.gpkg", "burn_depth.tif", "carbon_smouldering.tif",
                                                       "depth_method.tif", "report.html", "provenance.json",
                                                       "SHA256SUMS"] + dossier_files)})
     # provenance.json and SHA256SUMS are written last, with the outputs' SHA-256 (runner.seal)
-    result = RunResult(out_dir, rows, totals, qa, files, daily=daily, inventory=inv, provenance=prov,
-                       draw_inputs=draw_inputs or None)
-    from ..outputs import report
-
-    zone_layers = [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones]  # not read a second time
-    files["report"] = report.write_report(out_dir / "report.html", result, cfg, prov, factors, zone_layers)
-    if dossier_files:
-        files["dossiers"] = dossiers.write_dossiers(out_dir, dossier_items, result, cfg, prov, inputs, fire_rows,
-                                                    ignitions, flame, periods)
-    for name in ("burn_depth", "carbon_smouldering", "depth_method"):
-        files[name] = out_dir / f"{name}.tif"
+    result = RunResult(out_dir, rows, totals, qa, daily=daily, inventory=inv, fires=fire_rows, provenance=prov,
+                       raster_dir=raster_dir, draw_inputs=draw_inputs or None)
+    result._parts = _WriteParts(cfg, factors, columns, fires.fire_columns(bool(uncertainty), list(ignition_cols or ())),
+                                timeline.daily_columns(run_gases),
+                                [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones],  # not read twice
+                                inputs.scars.frame,
+                                (dossier_items, inputs, ignitions, flame, periods) if dossier_files else None)
     return result
+
+
+@dataclass
+class _WriteParts:
+    """What writing a computed result needs besides its tables."""
+
+    cfg: RunConfig
+    factors: Factors
+    columns: list
+    fire_columns: list
+    daily_columns: list
+    zone_layers: list
+    scars: object
+    #: (items, inputs, ignitions, flame, periods) when a zone layer asks for dossiers (issue 21)
+    dossiers: tuple | None = None
+
+
+RASTER_NAMES = ("burn_depth", "carbon_smouldering", "depth_method")
+
+
+def write_outputs(result: RunResult, out_dir: Path) -> dict:
+    """Write a computed result's files into ``out_dir`` (the folder is ready and locked): the
+    rasters (copied when they were computed elsewhere), zones.csv, fires.csv, results.gpkg,
+    totals.json, inventory.csv/json, daily.csv, report.html and the dossiers (provenance.json and
+    SHA256SUMS follow in :func:`seal`)."""
+    import shutil
+
+    from ..io.writers import atomic_path
+    from ..outputs import report
+    from ..outputs.gis import write_results_gpkg
+
+    parts = result._parts
+    out_dir = Path(out_dir)
+    files = result.files
+    for name in RASTER_NAMES:
+        src = Path(result.raster_dir) / f"{name}.tif"
+        if Path(result.raster_dir).resolve() != out_dir.resolve():
+            with atomic_path(out_dir / f"{name}.tif", suffix=".tif") as tmp:
+                shutil.copyfile(src, tmp)
+    files["zones"] = write_csv(out_dir / "zones.csv", result.zones, parts.columns)
+    files["fires"] = write_csv(out_dir / "fires.csv", result.fires, parts.fire_columns)
+    files["gis"] = write_results_gpkg(out_dir / "results.gpkg", parts.zone_layers, result.zones, parts.columns,
+                                      parts.scars, result.fires, parts.fire_columns)
+    files["totals"] = write_json(out_dir / "totals.json", result.totals)
+    files["daily"] = write_csv(out_dir / "daily.csv", result.daily, parts.daily_columns)
+    files["inventory"] = write_csv(out_dir / "inventory.csv", result.inventory, tables.INVENTORY_COLUMNS)
+    files["inventory_json"] = write_json(out_dir / "inventory.json",
+                                         {"unit": "Gg", "gwp": parts.factors.gwp.name,
+                                          "conventions": tables.INVENTORY_CONVENTIONS, "rows": result.inventory})
+    result.out_dir = out_dir
+    files["report"] = report.write_report(out_dir / "report.html", result, parts.cfg, result.provenance,
+                                          parts.factors, parts.zone_layers)
+    if parts.dossiers is not None:
+        from ..outputs import dossiers
+
+        items, inputs, ignitions, flame, periods = parts.dossiers
+        files["dossiers"] = dossiers.write_dossiers(out_dir, items, result, parts.cfg, result.provenance, inputs,
+                                                    result.fires, ignitions, flame, periods)
+    for name in RASTER_NAMES:
+        files[name] = out_dir / f"{name}.tif"
+    return files
 
 
 def scar_layer_sums(sums, n_scars: int) -> dict:

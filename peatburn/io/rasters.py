@@ -21,6 +21,7 @@ from rasterio.windows import Window
 
 from ..errors import CRSError, GridError, InputFileError, MissingInputError
 from ..grid import RunGrid, normalise_crs
+from .mosaics import RasterInput, remote_reason
 
 
 @dataclass(frozen=True)
@@ -55,11 +56,14 @@ def inspect_raster(path, what: str = "raster") -> RasterInfo:
     CRSError
         The raster has no CRS.
     """
-    path = os.fspath(path)
-    if not os.path.exists(path):
-        raise MissingInputError(f"{what}: file not found: {path}; check the path (paths are relative to the config file)")
+    label = f"{path}"  # what the user wrote (a mosaic or URL formats as such, see io.mosaics)
+    virtual = isinstance(path, RasterInput)
+    name = os.fspath(path)  # a mosaic's tiles are opened and checked to fit here
+    if not virtual and not os.path.exists(name):
+        raise MissingInputError(f"{what}: file not found: {name}; check the path (paths are relative to the config file)")
+    path = label
     try:
-        with rasterio.open(path) as ds:
+        with rasterio.open(name) as ds:
             if ds.crs is None:
                 raise CRSError(
                     f"{what}: {path} has no CRS; set it (e.g. `gdal_edit.py -a_srs EPSG:32749 {path}`) and re-run"
@@ -84,6 +88,8 @@ def inspect_raster(path, what: str = "raster") -> RasterInfo:
     except (CRSError, MissingInputError):
         raise
     except (RasterioIOError, rasterio.errors.RasterioError, OSError) as exc:
+        if virtual:
+            raise InputFileError(f"{what}: cannot read {label} ({remote_reason(exc, name)})") from None
         raise InputFileError(f"{what}: cannot read {path} as a raster ({str(exc).splitlines()[0]}); "
                              f"check the file is a complete GeoTIFF (re-export or re-download it)") from None
     if info.nodata is None and np.dtype(info.dtype).kind != "f":
@@ -186,7 +192,8 @@ class GridReader:
         try:
             self._ds = rasterio.open(source.path)
         except RasterioIOError as exc:
-            raise InputFileError(f"{source.what}: cannot read {source.path} ({exc})") from None
+            shown = source.path if not source.path.startswith("<") else "its tile mosaic"
+            raise InputFileError(f"{source.what}: cannot read {shown} ({remote_reason(exc, shown)})") from None
         self._nodata = self._ds.nodata
         self._offset = _same_grid_offset(self._ds, grid, source.src_transform)
         flags = self._ds.mask_flag_enums[source.band - 1]

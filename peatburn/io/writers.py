@@ -35,6 +35,11 @@ COG_THREADS = "ALL_CPUS"
 #: (``.<output name>.peatburn-tmp.<8 random characters>...``); only such files are ever deleted
 #: as debris of a killed run, never a file by its suffix alone (issue 26).
 TEMP_MARKER = "peatburn-tmp"
+#: Share of a raster's pixels holding values above which its COG uses GDAL's predictor (floating-point
+#: or horizontal differencing). Measured on two rasters only (docs/performance.md, benchmark 8): at
+#: 48 % burned the predictor made the COG 8 % faster and smaller; at about 2 % (the national scene)
+#: leaving it out made the conversion 29 % faster and the file 19 % smaller. Set between them, not tuned.
+PREDICTOR_MIN_SHARE = 0.1
 _TEMP_NAME = re.compile(r"^\..+\." + TEMP_MARKER + r"\.[A-Za-z0-9_]{8}.*(\.part|\.tiled\.tif|\.part\.gpkg(-journal|-wal|-shm)?)$")
 
 
@@ -178,7 +183,8 @@ class BlockRasterWriter:
     """
 
     def __init__(self, final: Path | str, grid: RunGrid, *, description: str = "", units: str = "",
-                 block_size: int = 512, dtype: str = "float32", nodata: float = RASTER_NODATA):
+                 block_size: int = 512, dtype: str = "float32", nodata: float = RASTER_NODATA,
+                 colormap: dict | None = None):
         self.final = Path(final)
         self.grid = grid
         self.final.parent.mkdir(parents=True, exist_ok=True)
@@ -187,9 +193,11 @@ class BlockRasterWriter:
         self._tiled = Path(tmp)
         bs = 256 if block_size % 256 else min(block_size, 512)
         self.dtype, self.nodata = dtype, nodata
+        self._written = 0  # pixels written with a value (the mask's count)
         profile = dict(driver="GTiff", width=grid.width, height=grid.height, count=1, dtype=dtype,
                        crs=grid.crs, transform=grid.transform, nodata=nodata, tiled=True,
-                       blockxsize=bs, blockysize=bs, BIGTIFF="IF_SAFER", **TEMPORARY_COMPRESSION)
+                       blockxsize=bs, blockysize=bs, BIGTIFF="IF_SAFER", SPARSE_OK="TRUE",
+                       **TEMPORARY_COMPRESSION)
         try:
             self._ds = rasterio.open(self._tiled, "w", **profile)
         except rasterio.errors.RasterioIOError:  # a GDAL built without ZSTD
@@ -200,8 +208,11 @@ class BlockRasterWriter:
         if units:
             self._ds.update_tags(1, units=units)
             self._ds.units = (units,)
+        if colormap:  # a TIFF palette (TIFF 6.0 ColorMap): value -> (r, g, b, a), for a uint8 class raster
+            self._ds.write_colormap(1, colormap)
 
     def write(self, window, array: np.ndarray):
+        self._written = -1  # whole windows of values: dense
         if np.dtype(self.dtype).kind == "f":
             a = np.where(np.isfinite(array), array, self.nodata).astype(self.dtype)
         else:
@@ -210,7 +221,11 @@ class BlockRasterWriter:
 
     def write_at(self, window, mask: np.ndarray | None, values: np.ndarray):
         """Write a window holding ``values`` at the pixels of ``mask`` and nodata elsewhere (NaN
-        values are nodata too); ``mask`` None writes a window of nodata."""
+        values are nodata too); ``mask`` None (or all False) writes nothing: the file is sparse
+        (GDAL's SPARSE_OK), a block never written reads as nodata and costs neither compression nor
+        space, in the temporary file and in the COG (most blocks of a national run hold no scar)."""
+        if mask is None or not mask.any():
+            return
         shape = (int(window.height), int(window.width))
         a = np.full(shape, self.nodata, dtype=self.dtype)
         if mask is not None:
@@ -218,15 +233,24 @@ class BlockRasterWriter:
             if np.dtype(self.dtype).kind == "f":
                 v = np.where(np.isfinite(v), v, self.nodata)
             a[mask] = v
+            self._written += int(np.count_nonzero(mask))
         self._ds.write(a, 1, window=window)
+
+    @property
+    def dense(self) -> bool:
+        """More than :data:`PREDICTOR_MIN_SHARE` of the grid written with values (through
+        :meth:`write_at`; :meth:`write` counts as dense). GDAL's predictor then pays; on a raster of
+        mostly nodata it costs time and size (docs/performance.md, benchmark 8)."""
+        return self._written < 0 or self._written > PREDICTOR_MIN_SHARE * self.grid.width * self.grid.height
 
     def close(self, ok: bool = True):
         self._ds.close()
         try:
             if ok:
                 with atomic_path(self.final, suffix=".tif") as tmp:
-                    rasterio.shutil.copy(self._tiled, tmp, driver="COG", COMPRESS="DEFLATE", PREDICTOR="YES",
-                                         BLOCKSIZE="512", BIGTIFF="IF_SAFER", OVERVIEWS="AUTO",
+                    rasterio.shutil.copy(self._tiled, tmp, driver="COG", COMPRESS="DEFLATE",
+                                         PREDICTOR="YES" if self.dense else "NO",
+                                         BLOCKSIZE="512", BIGTIFF="IF_SAFER", OVERVIEWS="AUTO", SPARSE_OK="TRUE",
                                          NUM_THREADS=COG_THREADS,
                                          RESAMPLING="NEAREST" if np.dtype(self.dtype).kind != "f" else "AVERAGE")
                     check_space(tmp.parent)  # GDAL only prints a failed write: never rename a cut file

@@ -11,6 +11,7 @@ from importlib import metadata
 from pathlib import Path
 
 from ..errors import ProvenanceMismatch
+from ..io.mosaics import RasterInput, is_url, resolved_files
 from ..io.writers import file_record
 
 DEPENDENCIES = ("numpy", "scipy", "rasterio", "geopandas", "shapely", "pyproj", "pint", "xdem", "click")
@@ -39,14 +40,27 @@ def _sidecars(path: Path) -> list[Path]:
 
 
 def input_records(paths: dict) -> dict:
-    """key -> path, size and SHA-256 of each input (and a shapefile's sidecar files)."""
+    """key -> path, size and SHA-256 of each input (and a shapefile's sidecar files).
+
+    A virtual input (tiles read as a mosaic, a ``.vrt`` file, a URL) also lists every file it
+    resolves to under ``files``, each with its SHA-256, so that ``check --against`` sees a changed
+    tile; a URL is recorded as it is (reading a remote raster whole to hash it would defeat the
+    windowed reads).
+    """
     out = {}
     for key, p in paths.items():
-        p = Path(p)
-        rec = file_record(p)
-        side = _sidecars(p)
-        if side:
-            rec["sidecars"] = [file_record(s) for s in sorted(side)]
+        files = resolved_files(p)
+        if isinstance(p, RasterInput):
+            rec = {"path": p.text}
+        else:
+            p = Path(p)
+            rec = file_record(p)
+            side = _sidecars(p)
+            if side:
+                rec["sidecars"] = [file_record(s) for s in sorted(side)]
+            files = files[1:]  # the .vrt file itself is the record
+        if files or isinstance(p, RasterInput):
+            rec["files"] = [{"url": f, "sha256": None} if is_url(f) else file_record(f) for f in files]
         out[key] = rec
     return out
 
@@ -100,19 +114,25 @@ def compare_inputs(record: dict, base: Path | None = None) -> list[str]:
     """
     problems = []
     for key, rec in record.get("inputs", {}).items():
-        p = Path(rec["path"])
-        if not p.is_absolute() and base is not None:
-            p = base / p
-        if not p.exists():
-            problems.append(f"{key}: {p} is missing")
-            continue
-        now = file_record(p)
-        if now["sha256"] != rec["sha256"]:
-            problems.append(f"{key}: {p} has changed (SHA-256 {now['sha256'][:12]}… != recorded {rec['sha256'][:12]}…)")
+        for one in ([rec] if "sha256" in rec else []) + [f for f in rec.get("files", []) if "url" not in f]:
+            p = Path(one["path"])
+            if not p.is_absolute() and base is not None:
+                p = base / p
+            if not p.exists():
+                problems.append(f"{key}: {p} is missing")
+                continue
+            now = file_record(p)
+            if now["sha256"] != one["sha256"]:
+                problems.append(f"{key}: {p} has changed (SHA-256 {now['sha256'][:12]}… != recorded "
+                                f"{one['sha256'][:12]}…)")
     return problems
+
+
+def mismatch_error(problems: list[str]) -> ProvenanceMismatch:
+    return ProvenanceMismatch("inputs do not match the provenance record: " + "; ".join(problems))
 
 
 def check_against(record: dict) -> None:
     problems = compare_inputs(record)
     if problems:
-        raise ProvenanceMismatch("inputs do not match the provenance record: " + "; ".join(problems))
+        raise mismatch_error(problems)

@@ -966,8 +966,7 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
         _factor_set(factors.flaming, "Above ground (flaming vegetation)", flaming_estimated),
         _factor_set(factors.tier1, "IPCC Tier 1 (pixels with no depth estimate, and the Tier 1 comparison)", True),
     ]
-    inputs = [{"key": k, "path": rec.get("path", ""), "size": fmt_int(rec.get("size_bytes")),
-               "sha": str(rec.get("sha256", ""))[:16]} for k, rec in (prov.get("inputs") or {}).items()]
+    inputs = [_input_row(k, rec) for k, rec in (prov.get("inputs") or {}).items()]
     versions = [(k, str(v)) for k, v in (prov.get("versions") or {}).items() if v is not None]
 
     return {
@@ -1033,6 +1032,19 @@ def render(context: dict) -> str:
     env = Environment(autoescape=True, undefined=StrictUndefined, trim_blocks=True, lstrip_blocks=True)
     text = resources.files("peatburn.outputs").joinpath("templates/report.html").read_text(encoding="utf-8")
     return env.from_string(text).render(**context)
+
+
+def _input_row(key: str, rec: dict) -> dict:
+    """One input of the provenance table; a mosaic or VRT shows its files' total size and count."""
+    files = rec.get("files") or []
+    size = rec.get("size_bytes")
+    if size is None and files:
+        size = sum(f.get("size_bytes") or 0 for f in files)
+    sha = str(rec.get("sha256") or "")[:16]
+    if files:
+        hashed = sum(1 for f in files if f.get("sha256"))
+        sha = (sha + "; " if sha else "") + f"{len(files)} files read, {hashed} hashed (provenance.json)"
+    return {"key": key, "path": rec.get("path", ""), "size": fmt_int(size), "sha": sha}
 
 
 def write_report(final: Path, result, cfg, prov: dict, factors, zone_layers=None) -> Path:
