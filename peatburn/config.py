@@ -85,6 +85,18 @@ MIN_RESOLUTION_M = 0.01
 
 
 @dataclass(frozen=True)
+class BurnMaskConfig:
+    """A burned-area raster's reading (burned_area.path a raster; docs/configuration.md)."""
+
+    burned_values: tuple | None = None  # class codes meaning burned; None: every non-zero value
+    close_m: float = 0.0  # radius of the disk of the closing [m]; 0: none
+    open_m: float = 0.0  # radius of the disk of the opening [m]; 0: none
+    min_area_ha: float = 0.0  # burned patches below this are removed [ha]
+    min_hole_ha: float | None = None  # unburned holes below this are filled [ha]; None: min_area_ha
+    date_path: Path | None = None  # day of burn raster (day of year or YYYYMMDD) on the mask's grid
+
+
+@dataclass(frozen=True)
 class ZoneLayerConfig:
     path: Path
     id: str
@@ -197,6 +209,7 @@ class RunConfig:
     #: (burn_depth.tif, depth_method.tif) of each earlier year of a series (set by ``peatburn series``,
     #: not by the TOML): the thickness left and the repeat-fire status of this run (docs/method.md 7.7)
     earlier_burns: tuple[tuple[Path, Path], ...] = ()
+    burn_mask: BurnMaskConfig | None = None  # burned_area.path is a raster mask
     raw: dict = field(default_factory=dict, compare=False, repr=False)
 
     @property
@@ -207,6 +220,8 @@ class RunConfig:
     def input_paths(self) -> dict[str, Path]:
         """Every input file of the run, by config key."""
         out = {"burned_area.path": self.burned_area}
+        if self.burn_mask is not None and self.burn_mask.date_path is not None:
+            out["burned_area.date_path"] = self.burn_mask.date_path
         if self.survey is not None:
             out["depth.survey.pre"] = self.survey.pre
             out["depth.survey.post"] = self.survey.post
@@ -250,9 +265,14 @@ class RunConfig:
 # --------------------------------------------------------------------------------------------
 # schema helpers
 
+#: [burned_area] keys of a raster mask, and those of a polygon layer only.
+_MASK_KEYS = ("burned_values", "close_m", "open_m", "min_area_ha", "min_hole_ha", "date_path")
+_POLYGON_KEYS = ("layer", "fire_count_field", "id_field")
+
 _SCHEMA = {
     "run": {"name", "year", "crs", "block_size", "force_ranges", "resolution"},
-    "burned_area": {"path", "layer", "fire_count_field", "start_field", "end_field", "id_field"},
+    "burned_area": {"path", "layer", "fire_count_field", "start_field", "end_field", "id_field",
+                    *_MASK_KEYS},
     "depth": {*(m.section.removeprefix("depth.") for m in DEPTH_METHODS), "plots"},  # peatburn.depth_methods
     "depth.water_table": {"depth", "value_column", "crs", "date_column", "model", "intercept", "slope",
                           "fit_method", "idw_power", "idw_neighbours", "idw_max_distance_m", "units",
@@ -429,6 +449,7 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         raise ConfigError(f"{where}: [burned_area] must be a table with `path`")
     _check_keys(ba, "burned_area", where)
     burned = _path(_require(ba, "path", "burned_area", where), base, "burned_area.path", where)
+    burn_mask = _burn_mask(ba, burned, base, where)
 
     depth = raw.get("depth", {})  # no [depth] at all: a Tier-1-only run
     if not isinstance(depth, dict):
@@ -542,8 +563,41 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         water_table=water_table, plots=plots, tier1=tier1, flaming=flaming, fire_count_field=fire_count_field,
         resolution=resolution, start_field=str(ba.get("start_field", "fire_start")),
         end_field=str(ba.get("end_field", "fire_end")),
-        id_field=str(ba["id_field"]) if ba.get("id_field") is not None else None, raw=raw,
+        id_field=str(ba["id_field"]) if ba.get("id_field") is not None else None, raw=raw, burn_mask=burn_mask,
     )
+
+
+def _burn_mask(ba: dict, burned: Path, base: Path, where: str) -> BurnMaskConfig | None:
+    """The raster-mask keys of [burned_area]; None for a polygon file (which refuses them)."""
+    if not _looks_like_path(str(burned)):
+        given = [k for k in _MASK_KEYS if k in ba]
+        if given:
+            raise ConfigError(f"{where}: `burned_area.{given[0]}` applies to a burned-area raster (.tif); "
+                              f"{burned.name} is read as polygons; remove the key or give the raster")
+        return None
+    given = [k for k in _POLYGON_KEYS if k in ba]
+    if given:
+        raise ConfigError(f"{where}: `burned_area.{given[0]}` applies to a polygon file; {burned.name} is a raster "
+                          f"mask whose fires are numbered F0001, F0002...; remove the key")
+    values = ba.get("burned_values")
+    if values is not None:
+        if (not isinstance(values, list) or not values
+                or not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in values)):
+            raise ConfigError(f"{where}: `burned_area.burned_values` must be a list of class codes such as [1] or "
+                              f"[2, 3], got {values!r}")
+        values = tuple(values)
+    amounts = {}
+    for key, unit in (("close_m", "m"), ("open_m", "m"), ("min_area_ha", "ha"), ("min_hole_ha", "ha")):
+        if key in ba:
+            try:
+                v = to_magnitude(ba[key], unit, f"burned_area.{key}")
+            except UnitError as exc:
+                raise UnitError(f"{where}: {exc}") from None
+            if not 0 <= v < float("inf"):
+                raise ConfigError(f"{where}: `burned_area.{key}` = {v:g} {unit} must be 0 or more (0: no such step)")
+            amounts[key] = v
+    date_path = _path(ba["date_path"], base, "burned_area.date_path", where) if "date_path" in ba else None
+    return BurnMaskConfig(burned_values=values, date_path=date_path, **amounts)
 
 
 def _fill_value(peat_raw: dict, key: str, quantity: str, base: Path, where: str, force: bool) -> float | None:

@@ -69,7 +69,8 @@ def check(config, against=None, *, strict: bool = True) -> CheckReport:
     for key, info in inputs.rasters.items():
         aligned = "on grid" if (info.crs == g.crs and info.transform == g.transform) else "warped onto grid"
         out.append(f"raster {key}: {info.path} ({info.width} x {info.height}, nodata {info.nodata}, {aligned})")
-    out.append(f"burn scars: {len(inputs.scars.frame)} polygons from {cfg.burned_area}")
+    kind = "fires labelled in the raster mask" if inputs.burn_mask is not None else "polygons from"
+    out.append(f"burn scars: {len(inputs.scars.frame)} {kind} {cfg.burned_area}")
     for z, layer, ids in inputs.zones:
         out.append(f"zones {z.name}: {len(ids)} polygons, id field {z.id!r}"
                    f"{'; a dossier per burned zone (dossiers/)' if z.dossiers else ''}")

@@ -32,6 +32,7 @@ class Inputs:
     notes: list[str] = field(default_factory=list)
     extent: object | None = None  # PolygonLayer of the organic-soil extent (a raster extent is in ``rasters``)
     fill: dict | None = None  # fallbacks for holes in the peat properties (fill_values), found once
+    burn_mask: object | None = None  # io.burn_rasters.MaskFires when burned_area.path is a raster mask
 
     @property
     def has_survey(self) -> bool:
@@ -42,7 +43,8 @@ def open_inputs(cfg: RunConfig) -> Inputs:
     """Open and check every input; build the run grid.
 
     The grid is the pre-fire survey's by default; without a survey, the water-table raster's, then
-    the peat rasters'; else ``run.crs`` and ``run.resolution`` over the burn scars.
+    the peat rasters'; else ``run.crs`` and ``run.resolution`` over the burn scars; else a burned-area
+    mask's own grid.
     """
     rasters = {}
     if cfg.survey is not None:
@@ -51,11 +53,12 @@ def open_inputs(cfg: RunConfig) -> Inputs:
     for key, val in _raster_params(cfg).items():
         rasters[key] = inspect_raster(val.path, key)
     notes = []
-    grid = _run_grid(cfg, rasters, notes)
+    mask = _read_burn_mask(cfg)
+    grid = _run_grid(cfg, rasters, notes, mask)
     for key, info in rasters.items():
         check_overlap(info, grid, key)
-    scars = read_polygons(cfg.burned_area, grid.crs, "burned_area.path", cfg.burned_area_layer)
-    notes += [f"burned_area: {n}" for n in scars.notes]
+    scars = _burn_scars(cfg, grid.crs, mask)
+    notes += [f"burned_area: {n}" for n in ([mask.describe()] if mask is not None else []) + scars.notes]
     if len(scars.frame) == 0:
         raise GridError(f"burned_area.path: {cfg.burned_area} holds no polygon; nothing burned to estimate")
     if cfg.fire_count_field and cfg.fire_count_field not in scars.frame.columns:
@@ -104,7 +107,23 @@ def open_inputs(cfg: RunConfig) -> Inputs:
     if cfg.peat.extent is not None and not _is_raster_path(cfg.peat.extent):
         extent = read_polygons(cfg.peat.extent, grid.crs, "peat.extent")
         notes += [f"peat.extent: {n}" for n in extent.notes]
-    return Inputs(cfg, grid, rasters, scars, zones, stable, stations, plots, notes, extent)
+    return Inputs(cfg, grid, rasters, scars, zones, stable, stations, plots, notes, extent, burn_mask=mask)
+
+
+def _read_burn_mask(cfg: RunConfig):
+    """The fires of a burned-area raster (io.burn_rasters), or None for burn-scar polygons."""
+    if cfg.burn_mask is None:
+        return None
+    from ..io.burn_rasters import read_burn_mask
+
+    return read_burn_mask(cfg.burned_area, cfg.burn_mask, cfg.year, cfg.start_field, cfg.end_field)
+
+
+def _burn_scars(cfg: RunConfig, crs, mask=None):
+    """The burn scars in ``crs``: the polygon file, or the fires of the raster mask."""
+    if mask is not None:
+        return mask.to_layer(crs)
+    return read_polygons(cfg.burned_area, crs, "burned_area.path", cfg.burned_area_layer)
 
 
 def _is_raster_path(path) -> bool:
@@ -140,9 +159,14 @@ def _note_rejected(notes: list, what: str, points) -> None:
             notes.append(f"{what}: {n} row(s) not used ({reason}) from {points.path}")
 
 
-def _run_grid(cfg: RunConfig, rasters: dict, notes: list) -> RunGrid:
-    for key in ("depth.survey.pre", "depth.water_table.depth", "peat.thickness", "peat.bulk_density",
-                "peat.carbon_fraction"):
+def _run_grid(cfg: RunConfig, rasters: dict, notes: list, mask=None) -> RunGrid:
+    keys = ("depth.survey.pre", "depth.water_table.depth", "peat.thickness", "peat.bulk_density",
+            "peat.carbon_fraction")
+    if mask is not None and not (cfg.crs and cfg.resolution) and not any(k in rasters for k in keys):
+        # no other raster and no stated grid: the burned-area mask's own grid
+        rasters = {**rasters, "burned_area.path": inspect_raster(cfg.burned_area, "burned_area.path")}
+        keys += ("burned_area.path",)
+    for key in keys:
         if key in rasters:
             info = rasters[key]
             run_crs = cfg.crs
@@ -155,7 +179,7 @@ def _run_grid(cfg: RunConfig, rasters: dict, notes: list) -> RunGrid:
                 grid = _regrid(grid, cfg.resolution)
             return grid
     if cfg.crs and cfg.resolution:
-        scars = read_polygons(cfg.burned_area, cfg.crs, "burned_area.path", cfg.burned_area_layer)
+        scars = _burn_scars(cfg, cfg.crs, mask)
         minx, miny, maxx, maxy = scars.frame.total_bounds
         r = cfg.resolution
         minx, miny = math.floor(minx / r) * r, math.floor(miny / r) * r
@@ -166,7 +190,7 @@ def _run_grid(cfg: RunConfig, rasters: dict, notes: list) -> RunGrid:
 
         return RunGrid(normalise_crs(cfg.crs, "run.crs"), _A(r, 0, minx, 0, -r, maxy),
                        max(1, int(round((maxx - minx) / r))), max(1, int(round((maxy - miny) / r))))
-    raise GridError("no raster defines the run grid (no survey, water-table raster or peat raster); "
+    raise GridError("no raster defines the run grid (no survey, water-table raster, peat raster or burn mask); "
                     "set run.crs and run.resolution")
 
 
