@@ -44,6 +44,17 @@ def run(cfg: RunConfig | str | os.PathLike, out_dir: str | os.PathLike | None = 
     return _run(cfg, out_dir, **kwargs)
 
 
+def run_series(series, out_dir, **kwargs):
+    """Run a series (a :class:`peatburn.series_config.SeriesConfig` or a path to SERIES.toml); see
+    :func:`peatburn.engine.series.run_series`."""
+    from .engine.series import run_series as _run_series
+    from .series_config import SeriesConfig, load_series
+
+    if not isinstance(series, SeriesConfig):
+        series = load_series(series)
+    return _run_series(series, out_dir, **kwargs)
+
+
 def check(cfg: RunConfig | str | os.PathLike, against: str | os.PathLike | None = None, **kwargs) -> CheckReport:
     """Validate a configuration and its inputs; see :func:`peatburn.engine.check.check`."""
     from .engine.check import check as _check
@@ -59,4 +70,4 @@ def check_outputs(folder: str | os.PathLike) -> list[str]:
     return _check(folder)
 
 
-__all__ = ["__version__", "load_config", "run", "check", "check_outputs", "RunConfig", "PeatburnError"]
+__all__ = ["__version__", "load_config", "run", "run_series", "check", "check_outputs", "RunConfig", "PeatburnError"]

@@ -207,6 +207,9 @@ class RunConfig:
     start_field: str = "fire_start"
     end_field: str = "fire_end"
     id_field: str | None = None  # fires.csv id; None: the scar layer's first text field
+    #: (burn_depth.tif, depth_method.tif) of each earlier year of a series (set by ``peatburn series``,
+    #: not by the TOML): the thickness left and the repeat-fire status of this run (docs/method.md 7.7)
+    earlier_burns: tuple[tuple[Path, Path], ...] = ()
     burn_mask: BurnMaskConfig | None = None  # burned_area.path is a raster mask
     raw: dict = field(default_factory=dict, compare=False, repr=False)
 
@@ -250,6 +253,9 @@ class RunConfig:
             out["peat.extent"] = self.peat.extent
         for i, z in enumerate(self.zones):
             out[f"zones[{i}].path"] = z.path
+        for i, (depth, method) in enumerate(self.earlier_burns):
+            out[f"series.earlier_burns[{i}].depth"] = depth
+            out[f"series.earlier_burns[{i}].method"] = method
         for key in ("smouldering", "flaming"):
             v = getattr(self.factors, key)
             if v.lower().endswith(".csv"):
@@ -407,15 +413,19 @@ def load_config(path: str | os.PathLike) -> RunConfig:
         Quantities of the wrong dimension or outside plausible ranges.
     """
     path = Path(path)
+    return config_from_dict(read_toml(path, "config"), base=path.parent.resolve(), source=path.resolve())
+
+
+def read_toml(path: Path, what: str) -> dict:
+    """A TOML file as a dict; a missing file or a syntax error is one line naming the file."""
     if not path.exists():
         from .errors import MissingInputError
 
-        raise MissingInputError(f"config: file not found: {path}")
+        raise MissingInputError(f"{what}: file not found: {path}")
     try:
-        raw = tomllib.loads(path.read_text(encoding="utf-8"))
+        return tomllib.loads(path.read_text(encoding="utf-8"))
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(f"{path}: TOML syntax error: {exc}; fix that line") from None
-    return config_from_dict(raw, base=path.parent.resolve(), source=path.resolve())
 
 
 def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunConfig:

@@ -21,7 +21,9 @@ from .options import handle_errors, overwrite_option, quiet_option, workers_opti
 def demo_cmd(out_dir, inputs_dir, overwrite, workers, pdf, quiet):
     """Generate the invented demo region and run the whole pipeline on it.
 
-    Every name and number of the demo is invented; no real place, company or person is shown.
+    The first fire year's results go to OUT/results; the two invented fire years together run as a
+    series (peatburn series) into OUT/series. Every name and number of the demo is invented; no real
+    place, company or person is shown.
     """
     from ..config import load_config
     from ..demo import make_demo_region
@@ -44,7 +46,13 @@ def demo_cmd(out_dir, inputs_dir, overwrite, workers, pdf, quiet):
     tune_malloc()  # block-sized numpy temporaries reuse the heap (docs/performance.md)
     result = run(load_config(region.config_path), out / "results", overwrite=True, workers=workers,
                  progress=progress_bar(quiet=quiet), pdf=pdf)
+    from ..engine.series import run_series
+    from ..series_config import load_series
+
+    series = run_series(load_series(region.folder / "series.toml"), out / "series", overwrite=True, workers=workers,
+                        progress=progress_bar(quiet=quiet))
     if not quiet:
         print_summary(result)
         click.echo(f"report: {result.files['report']}")
+        click.echo(f"two-year series ({', '.join(map(str, series.years))}): {series.files['report']}")
         echo_pdfs_and_dossiers(result, pdf)

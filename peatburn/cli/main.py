@@ -11,6 +11,7 @@ from .demo import demo_cmd
 from .factors import factors_cmd
 from .options import configure_logging
 from .run import run_cmd
+from .series import series_cmd
 
 
 @click.group()
@@ -29,3 +30,4 @@ cli.add_command(check_cmd)
 cli.add_command(demo_cmd)
 cli.add_command(factors_cmd)
 cli.add_command(calibrate_cmd)
+cli.add_command(series_cmd)

@@ -100,6 +100,9 @@ def _state(plan: RunPlan):
             src = getattr(plan, name)
             if isinstance(src, RasterSource):
                 readers[name] = GridReader(src, plan.grid)
+        for i, (depth, method) in enumerate(plan.earlier_burns):
+            readers[f"earlier_depth_{i}"] = GridReader(depth, plan.grid)
+            readers[f"earlier_method_{i}"] = GridReader(method, plan.grid)
         st = {
             "readers": readers,
             "scars": WindowRasterizer(plan.scars),
@@ -142,11 +145,30 @@ def survey_depth(st, plan: RunPlan, window: Window, where: np.ndarray | None = N
     return raw, capped
 
 
+def thickness_at(st, plan: RunPlan, window: Window, sel: np.ndarray):
+    """Peat thickness at the pixels ``sel`` [m] (1-D, a scalar for a constant, None unknown); in a later
+    year of a series, the peat the earlier years left (science.peat.thickness_left, docs/method.md 7.7)."""
+    thick = _at(_param(st, plan, "thickness", window), sel, sel.shape)
+    if plan.earlier_burns:
+        thick = peat.thickness_left(thick, [d for d, _ in _earlier_burns(st, plan, window, sel)])
+    return thick
+
+
+def series_fire_count(st, plan: RunPlan, window: Window, sel: np.ndarray):
+    """Fire count at the pixels ``sel``: the scars' own count where they carry one, else 1 + the
+    earlier years of a series that burned there; None when neither is known."""
+    if st["fire_count"] is not None:
+        return st["fire_count"].rasterize(plan.grid, window, dtype="float64")[sel]
+    if plan.earlier_burns:
+        return 1.0 + peat.fires_before([b for _, b in _earlier_burns(st, plan, window, sel)])
+    return None
+
+
 def _survey_inputs(st, plan: RunPlan, window: Window, sel: np.ndarray):
     """Pre survey, post survey, subsidence rate and peat thickness at the pixels ``sel`` (1-D
     arrays, or scalars for constants; the surveys None without a survey)."""
     shape = sel.shape
-    thick = _at(_param(st, plan, "thickness", window), sel, shape)
+    thick = thickness_at(st, plan, window, sel)
     if plan.pre is None:
         return None, None, None, thick
     pre = st["readers"]["pre"].read(window)[sel]
@@ -249,11 +271,11 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
     def at(x):
         return _at(x, burned, shape)
 
-    pre, post, rate, thick = _survey_inputs(st, plan, window, burned)
+    pre, post, rate, thick = _survey_inputs(st, plan, window, burned)  # thickness left, in a series
     fire_count = None
     m = plan.models
-    if m is not None and m.first is not None and m.repeat is not None and st["fire_count"] is not None:
-        fire_count = st["fire_count"].rasterize(grid, window, dtype="float64")[burned]
+    if m is not None and m.first is not None and m.repeat is not None:
+        fire_count = series_fire_count(st, plan, window, burned)
     return BlockData(
         window, burned, area=np.broadcast_to(grid.pixel_area(window), shape)[burned],
         rho=at(_param(st, plan, "bulk_density", window)), cf=at(_param(st, plan, "carbon_fraction", window)),
@@ -265,6 +287,17 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
         edge=edge_distance(st, plan, window, EDGE_REACH * _taper_m(m))[burned] if _taper_m(m) > 0 else None,
         zone_bins=[[b[burned] for b in z.bin_rasters(grid, window)] for z in st["zones"]],
     )
+
+
+def _earlier_burns(st, plan: RunPlan, window: Window, burned: np.ndarray) -> list:
+    """Per earlier year of a series, (burn depth [m], burned) at the burned pixels: the depth of its
+    burn_depth.tif (NaN: none) and whether its depth_method.tif marks the pixel burned (code > 0)."""
+    out = []
+    for i in range(len(plan.earlier_burns)):
+        d = st["readers"][f"earlier_depth_{i}"].read(window)[burned]
+        code = st["readers"][f"earlier_method_{i}"].read(window)[burned]
+        out.append((d, np.isfinite(code) & (code > 0)))
+    return out
 
 
 def _in_extent(st, plan: RunPlan, window: Window, burned: np.ndarray):

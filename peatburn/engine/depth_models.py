@@ -13,7 +13,8 @@ from rasterio.windows import Window
 from ..io.rasters import GridReader
 from ..science import peat
 from .alignment import sample_windows
-from .blocks import EDGE_REACH, _at, _in_extent, _param, _state, edge_distance, survey_depth, water_table_depth
+from .blocks import (EDGE_REACH, _at, _in_extent, _param, _state, edge_distance, series_fire_count, survey_depth,
+                     thickness_at, water_table_depth)
 from .inputs import Inputs
 from .plan import RunPlan
 
@@ -61,8 +62,9 @@ def depth_sample_table(inputs: Inputs, plan: RunPlan, max_samples: int = 200_000
         # mineral soil (thickness 0, outside the peat extent) burns no peat: not a calibration pair
         everywhere = np.ones(burned.shape, bool)
         ext = _in_extent(st, plan, w, everywhere)
-        mineral = peat.mineral_soil(_param(st, plan, "thickness", w),
-                                    None if ext is None else ext.reshape(burned.shape))
+        th = thickness_at(st, plan, w, everywhere)  # the peat left, in a later year of a series
+        th = th.reshape(burned.shape) if np.ndim(th) == 1 else th
+        mineral = peat.mineral_soil(th, None if ext is None else ext.reshape(burned.shape))
         ok = burned & np.isfinite(d) & ~mineral
         wt = water_table_depth(st, plan, w, ok)
         ok &= np.isfinite(wt)
@@ -74,7 +76,7 @@ def depth_sample_table(inputs: Inputs, plan: RunPlan, max_samples: int = 200_000
             v = _at(_param(st, plan, name, w), ok, shape)
             return np.broadcast_to(unknown if v is None else v, n_ok).astype("float64")
 
-        thick = at_ok("thickness", np.nan)
+        thick = np.broadcast_to(np.nan if th is None else th, shape)[ok].astype("float64")
         # carbon per metre of depth [kg m-1] (density unknown: 1 per m2, so the CV weighs by area)
         weight = (at_ok("bulk_density", 1.0 / peat.KG_M3_PER_G_CM3) * peat.KG_M3_PER_G_CM3
                   * at_ok("carbon_fraction", 1.0) * np.broadcast_to(grid.pixel_area(w), shape)[ok])
@@ -85,8 +87,9 @@ def depth_sample_table(inputs: Inputs, plan: RunPlan, max_samples: int = 200_000
         wgs.append(weight)
         if edge_reach_m > 0:
             eds.append(edge_distance(st, plan, w, edge_reach_m)[ok])
-        if st["fire_count"] is not None:
-            fcs.append(st["fire_count"].rasterize(grid, w, dtype="float64")[ok])
+        fc = series_fire_count(st, plan, w, ok)
+        if fc is not None:
+            fcs.append(fc)
     if not wts:
         return {"wt": np.array([]), "depth": np.array([]), "fire_count": None, "scar": None,
                 "thickness": np.array([]), "weight": np.array([]), "edge": None}

@@ -215,10 +215,13 @@ def draw_cost(draws: int, n_zones: int, threads: int | None = None) -> tuple[flo
     return seconds, memory
 
 
-def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire_rows=None, fill_cv=0.0) -> dict:
+def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire_rows=None, fill_cv=0.0,
+                  keep: dict | None = None) -> dict:
     """Fill ``<col>_lo``/``<col>_hi`` of every interval column in ``rows`` (in place), and of the
     smouldering carbon in ``fire_rows`` (fires.csv, one per burn-scar polygon, when given), and
-    return the uncertainty summary for totals.json."""
+    return the uncertainty summary for totals.json. ``keep`` (a dict), when given, receives the run
+    total's model sums and draw parameters (``sums``, ``params``): the joint draws of a series
+    (peatburn.engine.series) redraw each year's total from them."""
     params, sources, survey = build_params(cfg, factors, alignment, models, sums, grid, fill_cv)
     draws, seed = cfg.uncertainty.draws, cfg.uncertainty.seed
     frp = factors.frp_route
@@ -243,6 +246,8 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
     tot = {k: np.array([v]) for k, v in sums.total.items()}
     ms = _model_sums(tot, np.array([0]), {"dry_matter_kg": np.array([flame.total["dry_matter_kg"]])} if flame else None,
                      frp, factors.vegetation_carbon_fraction)
+    if keep is not None:
+        keep.update(sums=ms, params=params)
     iv = unc.intervals(ms, params, draws=draws, seed=seed, quantities=_WITH_COLUMN)
     assert rows[row_i]["layer"] == TOTAL_LAYER
     _fill(rows[row_i], iv, 0)

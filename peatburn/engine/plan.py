@@ -51,6 +51,8 @@ class RunPlan:
     rho_fill: float = float("nan")  # fallback bulk density for holes [g cm-3] (science.peat.fill_missing)
     cf_fill: float = float("nan")  # fallback carbon fraction for holes [-]
     fill_cv: float = 0.0  # relative spread of a filled value (uncertainty source peat_property_fill)
+    # earlier years of a series: (burn depth, depth method) RasterSources per year (docs/method.md 7.7)
+    earlier_burns: tuple = ()
     token: str = field(default_factory=lambda: uuid.uuid4().hex)
 
 
@@ -139,6 +141,9 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
         tier1_fuel_t_ha=cfg.tier1.fuel_consumption_t_ha or tier1_default_fuel(),
         biomass=_param_source(cfg.flaming.biomass, "flaming.biomass") if cfg.flaming else None,
         extent=_extent_source(inputs), **fill,
+        earlier_burns=tuple((RasterSource(str(d), f"series.earlier_burns[{i}].depth", resampling="nearest"),
+                             RasterSource(str(m), f"series.earlier_burns[{i}].method", resampling="nearest"))
+                            for i, (d, m) in enumerate(cfg.earlier_burns)),
     )
 
 

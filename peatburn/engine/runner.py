@@ -83,6 +83,8 @@ class RunResult:
     inventory: list = field(default_factory=list)
     fires: list = field(default_factory=list)
     provenance: dict = field(default_factory=dict)
+    #: the run total's model sums and draw parameters (joint draws of a series), or None without draws
+    draw_inputs: dict | None = None
     #: where the rasters are: ``out_dir``, or a private temporary folder of a run without one (removed
     #: with the result)
     raster_dir: Path | None = None
@@ -392,6 +394,13 @@ def run_notes(cfg) -> list[str]:
     if cfg.tier1_only:
         notes.append("Tier 1 only: no survey and no water table, so every burned pixel on organic soil gets the "
                      "IPCC 2013 Wetlands Supplement default fuel consumption (no measured or modelled depth)")
+    if cfg.earlier_burns:  # a later year of a series (docs/method.md 7.7)
+        n = len(cfg.earlier_burns)
+        notes.append(f"fire history: {n} earlier year(s) of the series burned before this run; the peat thickness "
+                     f"is reduced by their burn depths (a pixel with no peat left burns none) and, where the scars "
+                     f"carry no fire count, a pixel they burned counts as a repeat fire"
+                     + ("" if cfg.peat.thickness is not None else
+                        "; no peat.thickness is given, so only the repeat-fire status applies"))
     sv = cfg.survey
     if sv is not None and sv.subsidence_rate is not None and not isinstance(sv.subsidence_rate, RasterRef):
         notes.append(f"subsidence: the rate is one constant ({float(sv.subsidence_rate):g} m/yr); the vertical "
@@ -490,12 +499,13 @@ def _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, f
     ignition_cols, ignitions = run_ignition(cfg, inputs, flame, periods)
     fire_rows = fire_table(cfg, inputs, sums, flame, factors, periods, scar_sums, extra=ignition_cols)
     uncertainty = None
+    draw_inputs = {}
     if cfg.uncertainty.draws > 0:
         from .intervals import add_intervals
 
         log.info("intervals: %d Monte Carlo draws, seed %d", cfg.uncertainty.draws, cfg.uncertainty.seed)
         uncertainty = add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire_rows=fire_rows,
-                                    fill_cv=plan.fill_cv)
+                                    fill_cv=plan.fill_cv, keep=draw_inputs)
         if uncertainty.get("survey_calibration"):
             # the user's calibration check of the survey error model (engine.survey_calibration)
             qa["survey_error_calibration"] = uncertainty["survey_calibration"]
@@ -556,7 +566,7 @@ def _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, f
                                                       "SHA256SUMS"] + dossier_files)})
     # provenance.json and SHA256SUMS are written last, with the outputs' SHA-256 (runner.seal)
     result = RunResult(out_dir, rows, totals, qa, daily=daily, inventory=inv, fires=fire_rows, provenance=prov,
-                       raster_dir=raster_dir)
+                       raster_dir=raster_dir, draw_inputs=draw_inputs or None)
     result._parts = _WriteParts(cfg, factors, columns, fires.fire_columns(bool(uncertainty), list(ignition_cols or ())),
                                 timeline.daily_columns(run_gases),
                                 [(z.name, layer.frame, ids) for z, layer, ids in inputs.zones],  # not read twice

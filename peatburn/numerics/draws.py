@@ -29,13 +29,15 @@ def key_id(name: str) -> int:
     return zlib.crc32(name.encode("utf-8"))
 
 
-def run_wide_draws(model, draws: int, seed: int, fixed: set):
-    """Standard normals of the run-wide additive sources and the multiplicative factors (mean 1)."""
+def run_wide_draws(model, draws: int, seed: int, fixed: set, group_seeds=None):
+    """Standard normals of the run-wide additive sources and the multiplicative factors (mean 1).
+    ``group_seeds`` (source group -> seed) keys the groups it names by their own seed."""
+    seeds = group_seeds or {}
     zr = {}
     for k, (group, run_wide) in model.additive.items():
         if run_wide:
             zr[k] = (np.zeros(draws) if group in fixed
-                     else stream(seed, model.stream_id(group), 0, key_id(k)).standard_normal(draws))
+                     else stream(seeds.get(group, seed), model.stream_id(group), 0, key_id(k)).standard_normal(draws))
     mult = {}
     for k, (group, cv) in model.factors.items():
         if group in fixed or cv == 0:
@@ -43,7 +45,7 @@ def run_wide_draws(model, draws: int, seed: int, fixed: set):
         else:
             # lognormal with mean 1 and coefficient of variation cv: s^2 = ln(1 + cv^2), mu = -s^2/2
             s2 = math.log1p(cv * cv)
-            z = stream(seed, model.stream_id(group), 0, key_id(k)).standard_normal(draws)
+            z = stream(seeds.get(group, seed), model.stream_id(group), 0, key_id(k)).standard_normal(draws)
             mult[k] = np.exp(math.sqrt(s2) * z - 0.5 * s2)
     for k, (fn, _) in getattr(model, "derived", {}).items():  # functions of the drawn factors
         mult[k] = fn(mult)
@@ -63,9 +65,11 @@ class Drawer:
     are alive at once. Chunks are independent (their random streams are keyed by zone block), so
     they may run in threads."""
 
-    def __init__(self, model, draws: int, seed: int, fixed: set, quantities=None):
+    def __init__(self, model, draws: int, seed: int, fixed: set, quantities=None, group_seeds=None):
         self.model, self.draws, self.seed, self.fixed = model, draws, seed, fixed
-        zr, mult = run_wide_draws(model, draws, seed, fixed)
+        # source group -> seed of its streams, where not ``seed`` (common random numbers of a series)
+        self.group_seeds = dict(group_seeds or {})
+        zr, mult = run_wide_draws(model, draws, seed, fixed, self.group_seeds)
         wanted = list(model.quantities) if quantities is None else list(quantities)
         # per quantity and core: the per-draw weight sum_t coef_t prod_m m
         weights = {}
@@ -104,12 +108,13 @@ class Drawer:
             for k in pz_keys:
                 if k not in model.fields[f]:
                     continue
-                gid = model.stream_id(model.additive[k][0])
+                group = model.additive[k][0]
+                gid, gseed = model.stream_id(group), self.group_seeds.get(group, seed)
                 z = np.empty((nz, draws))
                 for b0 in range(start, stop, BLOCK):
                     # one stream per block of BLOCK zones, always drawn in full: a zone's draws do
                     # not depend on how zones are chunked
-                    full = stream(seed, gid, 1 + b0 // BLOCK, key_id(k)).standard_normal((BLOCK, draws))
+                    full = stream(gseed, gid, 1 + b0 // BLOCK, key_id(k)).standard_normal((BLOCK, draws))
                     nb = min(BLOCK, stop - b0)
                     z[b0 - start:b0 - start + nb] = full[:nb]
                 z *= np.broadcast_to(np.asarray(model.fields[f][k], dtype="float64"), (model.n,))[sl, None]

@@ -450,12 +450,7 @@ def method_share_chart(rows: list[dict]) -> str | None:
     with _style():
         fig = _figure(7.4, 0.28 * len(items) + 1.1)
         ax = fig.add_subplot()
-        y = np.arange(len(items))
-        left = np.zeros(len(items))
-        for m in METHOD_CODES:
-            s = np.array([100.0 * (_finite(r.get(f"carbon_share_{m}")) or 0.0) for _, r in items])
-            ax.barh(y, s, left=left, height=0.62, color=METHOD_COLOURS[m], label=METHOD_LABELS[m])
-            left += s
+        y = method_bars(ax, [{m: r.get(f"carbon_share_{m}") for m in METHOD_CODES} for _, r in items])
         ax.set_yticks(y, [_mpl(lab) for lab, _ in items])
         if total:
             ax.get_yticklabels()[0].set_fontweight("bold")
@@ -465,6 +460,18 @@ def method_share_chart(rows: list[dict]) -> str | None:
         ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.12 if len(items) > 6 else -0.3), ncols=3,
                   frameon=False)
         return _png(fig)
+
+
+def method_bars(ax, shares: list[dict], height: float = 0.62) -> np.ndarray:
+    """Horizontal bars stacked to 100 %, one per item of ``shares`` (method -> share of carbon, 0..1),
+    in the method colours; returns the bars' y positions."""
+    y = np.arange(len(shares))
+    left = np.zeros(len(shares))
+    for m in METHOD_CODES:
+        s = np.array([100.0 * (_finite(sh.get(m)) or 0.0) for sh in shares])
+        ax.barh(y, s, left=left, height=height, color=METHOD_COLOURS[m], label=METHOD_LABELS[m])
+        left += s
+    return y
 
 
 def daily_chart(daily: list[dict]) -> str | None:

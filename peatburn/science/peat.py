@@ -109,6 +109,64 @@ def mineral_soil(thickness, in_extent=None):
     return out
 
 
+def thickness_left(thickness, earlier_depths):
+    """Peat left for a later fire after the earlier burns of a series [m]: ``max(T - sum_k d_k, 0)``.
+
+    A pixel that burned before has less peat the next time it burns: the later fire's depth is
+    capped by the thickness minus the depths burned by the earlier fires of the series (the cap at
+    the peat that exists, of Page et al. 2002 and Ballhorn et al. 2009, applied to what an earlier
+    fire left; the bookkeeping is common practice). A NaN earlier depth (no burn there, or a burn
+    without a depth estimate) removes nothing; a negative earlier depth (survey noise about 0)
+    removes nothing either. A NaN thickness stays NaN (unknown: no cap).
+
+    Parameters
+    ----------
+    thickness : array_like or None
+        Peat thickness before the first fire of the series [m]; None: unknown (returned as None).
+    earlier_depths : sequence of array_like
+        Burn depth of each earlier fire at the same pixels [m] (NaN: not burned, or no estimate).
+
+    Returns
+    -------
+    numpy.ndarray or None
+        Thickness left [m], >= 0 where known.
+
+    References
+    ----------
+    Page, S. E. et al. (2002). Nature 420:61-65. Ballhorn, U. et al. (2009). PNAS 106:21213-21218
+    (burn depth times area is a volume of peat that existed).
+    """
+    if thickness is None:
+        return None
+    t = np.asarray(thickness, dtype="float64")
+    burned = np.zeros(np.broadcast_shapes(t.shape, *(np.shape(d) for d in earlier_depths)))
+    for d in earlier_depths:
+        d = np.asarray(d, dtype="float64")
+        burned = burned + np.where(np.isfinite(d) & (d > 0), d, 0.0)
+    with np.errstate(invalid="ignore"):
+        return np.where(np.isfinite(t), np.maximum(t - burned, 0.0), np.nan)
+
+
+def fires_before(earlier_burned) -> np.ndarray:
+    """How many earlier fires of a series burned each pixel (the repeat-fire status a series gives
+    where the burn scars carry no fire count: a fire is a repeat fire when this is >= 1).
+
+    Parameters
+    ----------
+    earlier_burned : sequence of array_like of bool
+        True where each earlier fire burned.
+
+    Returns
+    -------
+    numpy.ndarray of float
+    """
+    shapes = [np.shape(b) for b in earlier_burned]
+    out = np.zeros(np.broadcast_shapes(*shapes) if shapes else ())
+    for b in earlier_burned:
+        out = out + np.asarray(b, bool)
+    return out
+
+
 def fill_missing(values, fallback):
     """Missing values (NaN) replaced by ``fallback``; returns ``(filled, was_missing)``.
 

@@ -97,6 +97,14 @@ def test_demo_end_to_end(runner, tmp_path):
     for name in written:
         assert name in help_text, name
         assert name in demo_paragraph, name
+    # the two invented fire years as a series: 2031 equals the single run; 2032's depth comes from the
+    # stated water-table relation, capped by the peat 2031 left; its truth is the generator's (truth.json)
+    series = tmp_path / "demo" / "series"
+    assert (series / "2031" / "zones.csv").read_bytes() == (results / "zones.csv").read_bytes()
+    total_2032 = next(r for r in csv.DictReader(open(series / "2032" / "zones.csv")) if r["layer"] == "total")
+    assert float(total_2032["carbon_smouldering_t"]) == pytest.approx(
+        truth["second_year"]["totals"]["carbon_smouldering_t"], rel=0.05)
+    assert (series / "series_report.html").exists() and "two-year series" in res.output
 
 
 def test_calibrate_writes_fit_and_plot_that_run_reuses(runner, tmp_path):

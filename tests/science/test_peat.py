@@ -115,3 +115,26 @@ def test_mineral_soil_from_thickness_and_extent():
     m = peat.mineral_soil(np.array([0.0, 1.0, np.nan, 2.0]), np.array([True, True, True, False]))
     assert m.tolist() == [True, False, False, True]
     assert not peat.mineral_soil(None, None)
+
+
+# --- fire history across the years of a series (docs/method.md) ----------------------------------
+
+def test_thickness_left_by_hand():
+    from peatburn.science.peat import thickness_left
+
+    # hand arithmetic: 0.5 m of peat; burned 0.3 m then 0.15 m -> 0.05 m left; a second pixel burned
+    # 0.4 + 0.4 > 0.5 -> nothing left (never negative); a third never burned; a fourth of unknown
+    # thickness stays unknown; negative survey noise (-0.02) and a burn without a depth (NaN) remove nothing
+    t = np.array([0.5, 0.5, 0.5, np.nan, 0.5])
+    d1 = np.array([0.3, 0.4, np.nan, 0.2, -0.02])
+    d2 = np.array([0.15, 0.4, np.nan, 0.1, np.nan])
+    np.testing.assert_allclose(thickness_left(t, [d1, d2]), [0.05, 0.0, 0.5, np.nan, 0.5])
+    np.testing.assert_allclose(thickness_left(t, []), t)
+    assert thickness_left(None, [d1]) is None
+
+
+def test_fires_before_counts_earlier_burns():
+    from peatburn.science.peat import fires_before
+
+    np.testing.assert_array_equal(fires_before([np.array([True, False, True]), np.array([True, False, False])]),
+                                  [2, 0, 1])

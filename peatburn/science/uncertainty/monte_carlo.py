@@ -12,6 +12,7 @@ import numpy as np
 from ...errors import ConfigError
 from ...numerics.draws import MAX_FLOATS, Drawer, block_sums, map_chunks
 from ...numerics.percentiles import row_quantiles
+from .sources import SOURCE_NAMES
 from .zone_model import _build, _check_fixed
 
 def _check_draws(draws, seed):
@@ -24,7 +25,7 @@ def _check_draws(draws, seed):
 
 
 def draw_zone_totals(sums: Mapping, params: Mapping, *, draws: int, seed: int, fixed=frozenset(),
-                     chunk_zones=2000) -> dict[str, np.ndarray]:
+                     chunk_zones=2000, group_seeds: Mapping | None = None) -> dict[str, np.ndarray]:
     """Monte Carlo draws of every quantity for every zone.
 
     Parameters
@@ -41,6 +42,10 @@ def draw_zone_totals(sums: Mapping, params: Mapping, *, draws: int, seed: int, f
         Sources held at their nominal value (names from :data:`SOURCE_NAMES`).
     chunk_zones : int
         Upper bound on zones per chunk (also capped so that memory stays near :data:`MAX_FLOATS`).
+    group_seeds : mapping of str to int, optional
+        Seed of the random streams of the source groups named (from :data:`SOURCE_NAMES`) instead of
+        ``seed``: draws of several runs made with one seed for their shared sources take common
+        random numbers for those (the joint draws of a series, peatburn.engine.series).
 
     Returns
     -------
@@ -67,7 +72,10 @@ def draw_zone_totals(sums: Mapping, params: Mapping, *, draws: int, seed: int, f
         for q in model.quantities:
             out[q][:, sl] = evaluate(q).T
 
-    for _ in map_chunks(Drawer(model, draws, seed, fixed), chunk_zones, 1, store):
+    bad = set(group_seeds or {}) - set(SOURCE_NAMES)
+    if bad:
+        raise ConfigError(f"group_seeds: unknown source(s) {', '.join(sorted(bad))}; known: {', '.join(SOURCE_NAMES)}")
+    for _ in map_chunks(Drawer(model, draws, seed, fixed, group_seeds=group_seeds), chunk_zones, 1, store):
         pass
     return out
 
