@@ -16,6 +16,7 @@ from ..depth_methods import METHODS
 from ..factors import gas_label
 from ..names import OUTSIDE, TOTAL_LAYER, TOTAL_ZONE  # noqa: F401  (reserved labels, see peatburn.names)
 from ..science import gases
+from ..science.uncertainty.sources import DEFAULT_CARBON_FRACTION
 
 #: Gases every run reports (the Tier 1 set has all three); a factor set's other gases follow them.
 GASES = ("co2", "ch4", "co")
@@ -73,8 +74,9 @@ HA_PER_M2 = 1e-4  # exact
 #: left empty (the FRE and the carbon are still given).
 MIN_AREA_FOR_FRE_RATIO_HA = 300.0
 T_PER_KG = 1e-3  # exact
-#: Carbon fraction of tropical peat where a zone burned none: 0.560 (Hu et al. 2018, abstract, checked).
-PEAT_CARBON_FRACTION = 0.56
+#: Carbon fraction of tropical peat where a zone burned none: the project's one default, 0.56
+#: (science.uncertainty.sources.DEFAULT_CARBON_FRACTION; Hu et al. 2018, abstract, checked).
+PEAT_CARBON_FRACTION = DEFAULT_CARBON_FRACTION  # Hu et al. 2018 (abstract, checked): 0.56
 
 
 def quantities(sums: dict, factors, flame: dict | None = None) -> dict:
