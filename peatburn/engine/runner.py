@@ -351,9 +351,11 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
     ]
     rasters = []
     writes = None
+    share = burned_share(plan)
     try:
         for name, kw in specs:
-            rasters.append(BlockRasterWriter(out_dir / name, grid, block_size=cfg.block_size, **kw))
+            rasters.append(BlockRasterWriter(out_dir / name, grid, block_size=cfg.block_size, expected_share=share,
+                                             **kw))
         # blocks computed in other processes: write in a thread per raster, so the main process keeps up
         writes = BlockWrites(rasters, threads=pool is not None or scheduler is not None)
         for i, r in enumerate(map_blocks(process_block, plan, windows, scheduler=scheduler, pool=pool,
@@ -370,6 +372,19 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
         _finish_rasters(rasters, ok=False)
         raise
     return plan, alignment, models, sums, rasters, notes
+
+
+def burned_share(plan) -> float:
+    """Share of the grid inside the burn scars (their summed area over the grid's; overlaps count
+    twice, at most 1): the output rasters' predictor is chosen from it before the first tile is written."""
+    import shapely
+
+    scars = np.asarray(plan.scars, dtype=object)
+    if scars.size == 0:
+        return 0.0
+    a, e = abs(plan.grid.transform.a), abs(plan.grid.transform.e)
+    area = float(np.nansum(shapely.area(scars[~shapely.is_missing(scars)])))
+    return min(1.0, area / (plan.grid.width * plan.grid.height * a * e))
 
 
 def method_colormap() -> dict:

@@ -176,33 +176,51 @@ def _jsonable(obj):
 
 
 class BlockRasterWriter:
-    """Write a float32 raster of the run grid block by block; finish into a COG atomically.
+    """Write a raster of the run grid block by block; finish into a COG atomically.
 
-    Use as a context manager; :meth:`write` takes a window and an array with NaN for nodata.
+    Use as a context manager; :meth:`write` takes a window and an array with NaN for nodata,
+    :meth:`write_at` the values at the pixels of a mask.
+
+    The tiles are compressed once, in their final form (DEFLATE, :data:`~peatburn.io.cog_layout.COG_TILE`
+    px tiles), as they are written: the full resolution into a temporary tiled GeoTIFF, and, from each
+    window, the first overview level (:mod:`peatburn.numerics.pyramids`) into another; :meth:`close`
+    builds the further levels from the first and assembles the COG from the compressed tiles
+    (:mod:`peatburn.io.cog_layout`; before, GDAL's COG driver read the finished raster again, computed
+    every overview from the full resolution and compressed everything a second time).
+
+    ``predictor`` (GDAL's floating-point or horizontal differencing) has to be chosen before the first
+    tile is compressed: pass the share of the grid expected to hold values as ``expected_share``; the
+    predictor is used above :data:`PREDICTOR_MIN_SHARE` (docs/performance.md, benchmark 8).
     On error the temporary files are removed and nothing appears under the final name.
     """
 
     def __init__(self, final: Path | str, grid: RunGrid, *, description: str = "", units: str = "",
                  block_size: int = 512, dtype: str = "float32", nodata: float = RASTER_NODATA,
-                 colormap: dict | None = None):
+                 colormap: dict | None = None, expected_share: float = 1.0):
+        from .cog_layout import COG_TILE, overview_shapes
+
         self.final = Path(final)
         self.grid = grid
         self.final.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(prefix=_temp_prefix(self.final), suffix=".tiled.tif", dir=self.final.parent)
-        os.close(fd)
-        self._tiled = Path(tmp)
-        bs = 256 if block_size % 256 else min(block_size, 512)
         self.dtype, self.nodata = dtype, nodata
+        self.categorical = np.dtype(dtype).kind != "f"
+        self.predictor = expected_share > PREDICTOR_MIN_SHARE
         self._written = 0  # pixels written with a value (the mask's count)
-        profile = dict(driver="GTiff", width=grid.width, height=grid.height, count=1, dtype=dtype,
-                       crs=grid.crs, transform=grid.transform, nodata=nodata, tiled=True,
-                       blockxsize=bs, blockysize=bs, BIGTIFF="IF_SAFER", SPARSE_OK="TRUE",
-                       **TEMPORARY_COMPRESSION)
+        self._levels = overview_shapes(grid.width, grid.height)
+        self._level1_stale = False  # a window that does not halve onto level 1's pixels: rebuild it at close
+        self._paths = [self._temp(".tiled.tif")] + [self._temp(f".o{k + 1}.tiled.tif") for k in range(len(self._levels))]
+        self._profile = dict(driver="GTiff", count=1, dtype=dtype, nodata=nodata, tiled=True, blockxsize=COG_TILE,
+                             blockysize=COG_TILE, BIGTIFF="IF_SAFER", SPARSE_OK="TRUE", compress="deflate",
+                             predictor=(3 if not self.categorical else 2) if self.predictor else 1)
+        self._ds = self._level1 = None
         try:
-            self._ds = rasterio.open(self._tiled, "w", **profile)
-        except rasterio.errors.RasterioIOError:  # a GDAL built without ZSTD
-            profile.update(compress="deflate", zstd_level=None)
-            self._ds = rasterio.open(self._tiled, "w", **{k: v for k, v in profile.items() if v is not None})
+            self._ds = rasterio.open(self._paths[0], "w", width=grid.width, height=grid.height, crs=grid.crs,
+                                     transform=grid.transform, **self._profile)
+            if self._levels:
+                self._level1 = self._open_level(1)
+        except BaseException:
+            self._cleanup()
+            raise
         if description:
             self._ds.set_band_description(1, description)
         if units:
@@ -211,6 +229,33 @@ class BlockRasterWriter:
         if colormap:  # a TIFF palette (TIFF 6.0 ColorMap): value -> (r, g, b, a), for a uint8 class raster
             self._ds.write_colormap(1, colormap)
 
+    def _temp(self, suffix: str) -> Path:
+        fd, tmp = tempfile.mkstemp(prefix=_temp_prefix(self.final), suffix=suffix, dir=self.final.parent)
+        os.close(fd)
+        return Path(tmp)
+
+    def _open_level(self, k: int):
+        from affine import Affine
+
+        h, w = self._levels[k - 1]
+        return rasterio.open(self._paths[k], "w", width=w, height=h, crs=self.grid.crs,
+                             transform=self.grid.transform * Affine.scale(2**k), **self._profile)
+
+    def _halve_into_level1(self, window, flat_index, values) -> None:
+        """Write the window's first overview level (:func:`peatburn.numerics.pyramids.halve`)."""
+        from rasterio.windows import Window
+
+        from ..numerics.pyramids import halve
+
+        r0, c0, h, w = int(window.row_off), int(window.col_off), int(window.height), int(window.width)
+        if (r0 % 2 or c0 % 2 or (h % 2 and r0 + h != self.grid.height)
+                or (w % 2 and c0 + w != self.grid.width)):
+            self._level1_stale = True  # its pixels straddle windows: level 1 is rebuilt from the full resolution
+            return
+        piece = halve((h, w), flat_index, values, categorical=self.categorical, nodata=self.nodata)
+        self._level1.write(piece.astype(self.dtype, copy=False), 1,
+                           window=Window(c0 // 2, r0 // 2, piece.shape[1], piece.shape[0]))
+
     def write(self, window, array: np.ndarray):
         self._written = -1  # whole windows of values: dense
         if np.dtype(self.dtype).kind == "f":
@@ -218,6 +263,9 @@ class BlockRasterWriter:
         else:
             a = np.asarray(array).astype(self.dtype)
         self._ds.write(a, 1, window=window)
+        if self._level1 is not None and not self._level1_stale:
+            idx = np.flatnonzero(a != self.nodata)
+            self._halve_into_level1(window, idx, a.ravel()[idx])
 
     def write_at(self, window, mask: np.ndarray | None, values: np.ndarray):
         """Write a window holding ``values`` at the pixels of ``mask`` and nodata elsewhere (NaN
@@ -228,35 +276,100 @@ class BlockRasterWriter:
             return
         shape = (int(window.height), int(window.width))
         a = np.full(shape, self.nodata, dtype=self.dtype)
-        if mask is not None:
-            v = np.asarray(values)
-            if np.dtype(self.dtype).kind == "f":
-                v = np.where(np.isfinite(v), v, self.nodata)
-            a[mask] = v
-            self._written += int(np.count_nonzero(mask))
+        v = np.asarray(values)
+        if np.dtype(self.dtype).kind == "f":
+            v = np.where(np.isfinite(v), v, self.nodata)
+        a[mask] = v
+        self._written += int(np.count_nonzero(mask))
         self._ds.write(a, 1, window=window)
+        if self._level1 is not None and not self._level1_stale:
+            idx = np.flatnonzero(mask)
+            v = a.ravel()[idx]
+            keep = v != self.nodata
+            self._halve_into_level1(window, idx[keep], v[keep])
 
     @property
     def dense(self) -> bool:
         """More than :data:`PREDICTOR_MIN_SHARE` of the grid written with values (through
-        :meth:`write_at`; :meth:`write` counts as dense). GDAL's predictor then pays; on a raster of
-        mostly nodata it costs time and size (docs/performance.md, benchmark 8)."""
+        :meth:`write_at`; :meth:`write` counts as dense)."""
         return self._written < 0 or self._written > PREDICTOR_MIN_SHARE * self.grid.width * self.grid.height
 
+    def _build_levels(self) -> None:
+        """Levels 2, 3, ... each from the level below (and level 1 from the full resolution when a window
+        did not halve onto it), by strips of two rows of tiles, written as they come."""
+        from rasterio.windows import Window
+
+        from ..numerics.pyramids import halve_dense
+        from .cog_layout import level_windows
+
+        self._level1.close()
+        self._level1 = None
+        for k in range(1 if self._level1_stale else 2, len(self._levels) + 1):
+            h, w = (self.grid.height, self.grid.width) if k == 1 else self._levels[k - 2]
+            with rasterio.open(self._paths[k - 1]) as src, self._open_level(k) as dst:
+                for r, n in level_windows(h, w):
+                    piece = halve_dense(src.read(1, window=Window(0, r, w, n)), categorical=self.categorical,
+                                        nodata=self.nodata)
+                    if (piece != self.nodata).any():  # an empty strip stays sparse
+                        dst.write(piece.astype(self.dtype, copy=False), 1,
+                                  window=Window(0, r // 2, piece.shape[1], piece.shape[0]))
+
     def close(self, ok: bool = True):
-        self._ds.close()
+        from .cog_layout import OffsetOverflow, fill_skeleton, skeleton_vrt, write_skeleton
+
         try:
-            if ok:
-                with atomic_path(self.final, suffix=".tif") as tmp:
-                    rasterio.shutil.copy(self._tiled, tmp, driver="COG", COMPRESS="DEFLATE",
-                                         PREDICTOR="YES" if self.dense else "NO",
-                                         BLOCKSIZE="512", BIGTIFF="IF_SAFER", OVERVIEWS="AUTO", SPARSE_OK="TRUE",
-                                         NUM_THREADS=COG_THREADS,
-                                         RESAMPLING="NEAREST" if np.dtype(self.dtype).kind != "f" else "AVERAGE")
-                    check_space(tmp.parent)  # GDAL only prints a failed write: never rename a cut file
+            self._ds.close()
+            if not ok:
+                if self._level1 is not None:
+                    self._level1.close()
+                return
+            if self._levels:
+                self._build_levels()
+            with atomic_path(self.final, suffix=".tif") as tmp:
+                self._assemble(tmp, skeleton_vrt, write_skeleton, fill_skeleton, OffsetOverflow)
+                check_space(tmp.parent)  # GDAL only prints a failed write: never rename a cut file
+        finally:
+            self._cleanup()
+
+    def _assemble(self, tmp: Path, skeleton_vrt, write_skeleton, fill_skeleton, overflow) -> None:
+        """The COG into ``tmp``: GDAL's skeleton, then the tiles (peatburn.io.cog_layout)."""
+        import uuid
+
+        from affine import Affine
+
+        empties = []
+        vrt = self._temp(".skeleton.vrt.part")
+        try:
+            for k, (h, w) in enumerate(self._levels, start=1):  # empty sparse overviews: nothing to read or write
+                p = f"/vsimem/peatburn-skeleton-{uuid.uuid4().hex}-{k}.tif"
+                with rasterio.open(p, "w", width=w, height=h, crs=self.grid.crs,
+                                   transform=self.grid.transform * Affine.scale(2**k), **self._profile):
+                    pass
+                empties.append(p)
+            skeleton_vrt(self._paths[0], empties, vrt)
+            for bigtiff in ("IF_SAFER", "YES"):
+                write_skeleton(vrt, tmp, dtype=self.dtype, predictor=self.predictor, bigtiff=bigtiff)
+                try:
+                    fill_skeleton(tmp, self._paths)
+                    return
+                except overflow:
+                    if bigtiff == "YES":
+                        raise
         finally:
             with contextlib.suppress(FileNotFoundError):
-                self._tiled.unlink()
+                vrt.unlink()
+            for p in empties:
+                with contextlib.suppress(Exception):
+                    rasterio.shutil.delete(p)
+
+    def _cleanup(self) -> None:
+        for ds in (self._ds, self._level1):
+            if ds is not None and not ds.closed:
+                with contextlib.suppress(Exception):
+                    ds.close()
+        for p in self._paths:
+            with contextlib.suppress(FileNotFoundError):
+                p.unlink()
 
     def __enter__(self):
         return self
