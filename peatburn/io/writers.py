@@ -207,17 +207,20 @@ class BlockRasterWriter:
         self.predictor = expected_share > PREDICTOR_MIN_SHARE
         self._written = 0  # pixels written with a value (the mask's count)
         self._levels = overview_shapes(grid.width, grid.height)
-        self._level1_stale = False  # a window that does not halve onto level 1's pixels: rebuild it at close
+        #: first level that a window did not halve onto (its pixels straddle windows): that level and the
+        #: ones above are rebuilt at close from the level below (len(levels) + 1: none)
+        self._stale = len(self._levels) + 1
         self._paths = [self._temp(".tiled.tif")] + [self._temp(f".o{k + 1}.tiled.tif") for k in range(len(self._levels))]
         self._profile = dict(driver="GTiff", count=1, dtype=dtype, nodata=nodata, tiled=True, blockxsize=COG_TILE,
                              blockysize=COG_TILE, BIGTIFF="IF_SAFER", SPARSE_OK="TRUE", compress="deflate",
                              predictor=(3 if not self.categorical else 2) if self.predictor else 1)
-        self._ds = self._level1 = None
+        self._ds = None
+        self._level_ds = []
         try:
             self._ds = rasterio.open(self._paths[0], "w", width=grid.width, height=grid.height, crs=grid.crs,
                                      transform=grid.transform, **self._profile)
-            if self._levels:
-                self._level1 = self._open_level(1)
+            for k in range(1, len(self._levels) + 1):
+                self._level_ds.append(self._open_level(k))
         except BaseException:
             self._cleanup()
             raise
@@ -241,20 +244,27 @@ class BlockRasterWriter:
         return rasterio.open(self._paths[k], "w", width=w, height=h, crs=self.grid.crs,
                              transform=self.grid.transform * Affine.scale(2**k), **self._profile)
 
-    def _halve_into_level1(self, window, flat_index, values) -> None:
-        """Write the window's first overview level (:func:`peatburn.numerics.pyramids.halve`)."""
+    def _halve_into_levels(self, window, flat_index, values) -> None:
+        """Write the window's piece of each overview level (:func:`peatburn.numerics.pyramids.halve`,
+        each level from the one below), up to the first level whose pixels the window does not hold whole."""
         from rasterio.windows import Window
 
-        from ..numerics.pyramids import halve
+        from ..numerics.pyramids import halve, halve_dense
 
         r0, c0, h, w = int(window.row_off), int(window.col_off), int(window.height), int(window.width)
-        if (r0 % 2 or c0 % 2 or (h % 2 and r0 + h != self.grid.height)
-                or (w % 2 and c0 + w != self.grid.width)):
-            self._level1_stale = True  # its pixels straddle windows: level 1 is rebuilt from the full resolution
-            return
-        piece = halve((h, w), flat_index, values, categorical=self.categorical, nodata=self.nodata)
-        self._level1.write(piece.astype(self.dtype, copy=False), 1,
-                           window=Window(c0 // 2, r0 // 2, piece.shape[1], piece.shape[0]))
+        H, W = self.grid.height, self.grid.width
+        piece = None
+        for k in range(1, self._stale):
+            if r0 % 2 or c0 % 2 or (h % 2 and r0 + h != H) or (w % 2 and c0 + w != W):
+                self._stale = k  # rebuilt at close from level k - 1
+                return
+            if piece is None:
+                piece = halve((h, w), flat_index, values, categorical=self.categorical, nodata=self.nodata)
+            else:
+                piece = halve_dense(piece, categorical=self.categorical, nodata=self.nodata)
+            r0, c0, H, W = r0 // 2, c0 // 2, (H + 1) // 2, (W + 1) // 2
+            h, w = piece.shape
+            self._level_ds[k - 1].write(piece.astype(self.dtype, copy=False), 1, window=Window(c0, r0, w, h))
 
     def write(self, window, array: np.ndarray):
         self._written = -1  # whole windows of values: dense
@@ -263,9 +273,8 @@ class BlockRasterWriter:
         else:
             a = np.asarray(array).astype(self.dtype)
         self._ds.write(a, 1, window=window)
-        if self._level1 is not None and not self._level1_stale:
-            idx = np.flatnonzero(a != self.nodata)
-            self._halve_into_level1(window, idx, a.ravel()[idx])
+        idx = np.flatnonzero(a != self.nodata)
+        self._halve_into_levels(window, idx, a.ravel()[idx])
 
     def write_at(self, window, mask: np.ndarray | None, values: np.ndarray):
         """Write a window holding ``values`` at the pixels of ``mask`` and nodata elsewhere (NaN
@@ -282,11 +291,10 @@ class BlockRasterWriter:
         a[mask] = v
         self._written += int(np.count_nonzero(mask))
         self._ds.write(a, 1, window=window)
-        if self._level1 is not None and not self._level1_stale:
-            idx = np.flatnonzero(mask)
-            v = a.ravel()[idx]
-            keep = v != self.nodata
-            self._halve_into_level1(window, idx[keep], v[keep])
+        idx = np.flatnonzero(mask)
+        v = a.ravel()[idx]
+        keep = v != self.nodata
+        self._halve_into_levels(window, idx[keep], v[keep])
 
     @property
     def dense(self) -> bool:
@@ -295,16 +303,16 @@ class BlockRasterWriter:
         return self._written < 0 or self._written > PREDICTOR_MIN_SHARE * self.grid.width * self.grid.height
 
     def _build_levels(self) -> None:
-        """Levels 2, 3, ... each from the level below (and level 1 from the full resolution when a window
-        did not halve onto it), by strips of two rows of tiles, written as they come."""
+        """Close the levels; rebuild the stale ones (a window did not halve onto them), each from the
+        level below, by strips of two rows of tiles, written as they come."""
         from rasterio.windows import Window
 
         from ..numerics.pyramids import halve_dense
         from .cog_layout import level_windows
 
-        self._level1.close()
-        self._level1 = None
-        for k in range(1 if self._level1_stale else 2, len(self._levels) + 1):
+        for ds in self._level_ds:
+            ds.close()
+        for k in range(self._stale, len(self._levels) + 1):
             h, w = (self.grid.height, self.grid.width) if k == 1 else self._levels[k - 2]
             with rasterio.open(self._paths[k - 1]) as src, self._open_level(k) as dst:
                 for r, n in level_windows(h, w):
@@ -320,11 +328,8 @@ class BlockRasterWriter:
         try:
             self._ds.close()
             if not ok:
-                if self._level1 is not None:
-                    self._level1.close()
                 return
-            if self._levels:
-                self._build_levels()
+            self._build_levels()
             with atomic_path(self.final, suffix=".tif") as tmp:
                 self._assemble(tmp, skeleton_vrt, write_skeleton, fill_skeleton, OffsetOverflow)
                 check_space(tmp.parent)  # GDAL only prints a failed write: never rename a cut file
@@ -363,7 +368,7 @@ class BlockRasterWriter:
                     rasterio.shutil.delete(p)
 
     def _cleanup(self) -> None:
-        for ds in (self._ds, self._level1):
+        for ds in [self._ds] + self._level_ds:
             if ds is not None and not ds.closed:
                 with contextlib.suppress(Exception):
                     ds.close()
