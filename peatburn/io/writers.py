@@ -40,6 +40,9 @@ TEMP_MARKER = "peatburn-tmp"
 #: 48 % burned the predictor made the COG 8 % faster and smaller; at about 2 % (the national scene)
 #: leaving it out made the conversion 29 % faster and the file 19 % smaller. Set between them, not tuned.
 PREDICTOR_MIN_SHARE = 0.1
+#: Overview levels of at most this many pixels are held in memory while the block pass writes them
+#: (16 MiB of float32; the levels of a raster together hold at most a third more).
+MEMORY_LEVEL_PX = 2**22
 _TEMP_NAME = re.compile(r"^\..+\." + TEMP_MARKER + r"\.[A-Za-z0-9_]{8}.*(\.part|\.tiled\.tif|\.part\.gpkg(-journal|-wal|-shm)?)$")
 
 
@@ -216,6 +219,10 @@ class BlockRasterWriter:
                              predictor=(3 if not self.categorical else 2) if self.predictor else 1)
         self._ds = None
         self._level_ds = []
+        #: the small levels, held in memory and written whole at close (a GDAL write costs about 60 us,
+        #: more than the halving of a block's piece of a small level)
+        self._level_mem = {k: np.full(hw, nodata, dtype=dtype) for k, hw in enumerate(self._levels, start=1)
+                           if hw[0] * hw[1] <= MEMORY_LEVEL_PX}
         try:
             self._ds = rasterio.open(self._paths[0], "w", width=grid.width, height=grid.height, crs=grid.crs,
                                      transform=grid.transform, **self._profile)
@@ -264,7 +271,10 @@ class BlockRasterWriter:
                 piece = halve_dense(piece, categorical=self.categorical, nodata=self.nodata)
             r0, c0, H, W = r0 // 2, c0 // 2, (H + 1) // 2, (W + 1) // 2
             h, w = piece.shape
-            self._level_ds[k - 1].write(piece.astype(self.dtype, copy=False), 1, window=Window(c0, r0, w, h))
+            if k in self._level_mem:
+                self._level_mem[k][r0:r0 + h, c0:c0 + w] = piece
+            else:
+                self._level_ds[k - 1].write(piece.astype(self.dtype, copy=False), 1, window=Window(c0, r0, w, h))
 
     def write(self, window, array: np.ndarray):
         self._written = -1  # whole windows of values: dense
@@ -310,6 +320,10 @@ class BlockRasterWriter:
         from ..numerics.pyramids import halve_dense
         from .cog_layout import level_windows
 
+        for k, a in self._level_mem.items():
+            if k < self._stale and (a != self.nodata).any():
+                self._level_ds[k - 1].write(a, 1)
+        self._level_mem = {}
         for ds in self._level_ds:
             ds.close()
         for k in range(self._stale, len(self._levels) + 1):
