@@ -287,13 +287,14 @@ def seal(stage: Path, result: RunResult, pdf: bool = False) -> None:
 def _run_locked(cfg: RunConfig, out_dir: Path | None, *, workers: int, progress, scheduler,
                 raster_dir: Path | None = None) -> RunResult:
     factors = load_factors(cfg)
-
-    inputs = open_inputs(cfg)
     from .executors import WorkerPool, gdal_env, run_cache_bytes
 
-    # local workers start now: their start-up overlaps the co-registration (docs/performance.md)
+    # local workers start now: their start-up overlaps opening the inputs (remote ones take a while) and the
+    # co-registration (docs/performance.md); what the inputs set up for remote reads reaches them with
+    # each task (executors.network_env)
     pool = WorkerPool(workers) if workers > 1 and scheduler is None else None
     try:
+        inputs = open_inputs(cfg)
         with gdal_env(run_cache_bytes(inputs.grid.width, cfg.block_size)):
             return _run_inputs(cfg, out_dir, inputs, factors, progress=progress, scheduler=scheduler, pool=pool,
                                raster_dir=raster_dir or out_dir)
