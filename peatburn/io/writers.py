@@ -1,8 +1,9 @@
 """Atomic writers: every output is written under a temporary name and renamed when complete.
 
-Rasters are written block by block into a tiled GeoTIFF, then copied to a Cloud Optimized
-GeoTIFF with GDAL's COG driver reading that tiled file (the copy streams by blocks; the COG
-driver's direct-create path would buffer the whole raster, which we avoid).
+Rasters are written block by block as the tiles of a Cloud Optimized GeoTIFF, each tile compressed
+once, and the COG is assembled from them at the end (:class:`BlockRasterWriter`,
+:mod:`peatburn.io.cog_layout`; the COG driver's direct-create path would buffer the whole raster, and
+its copy from a finished raster compressed everything twice).
 """
 
 from __future__ import annotations
@@ -24,13 +25,6 @@ import rasterio.shutil
 from ..grid import RunGrid
 
 RASTER_NODATA = -9999.0  # on-disk nodata of float outputs (in memory: NaN)
-#: Compression of the temporary tiled GeoTIFF, read once by the COG conversion and deleted: ZSTD
-#: level 1 writes 2.4x faster than DEFLATE with a predictor and is read back faster, for a file
-#: about 30 % larger (measured on a 67 Mpx float32 raster; docs/performance.md).
-TEMPORARY_COMPRESSION = {"compress": "zstd", "zstd_level": 1}
-#: Threads of the COG conversion (compression of the final tiles). It runs after the block pass,
-#: when no worker competes for the cores: 1.7x faster on 2 cores than one thread (same page).
-COG_THREADS = "ALL_CPUS"
 #: Every temporary file peatburn creates beside an output carries this marker in its name
 #: (``.<output name>.peatburn-tmp.<8 random characters>...``); only such files are ever deleted
 #: as debris of a killed run, never a file by its suffix alone (issue 26).
@@ -39,6 +33,8 @@ TEMP_MARKER = "peatburn-tmp"
 #: or horizontal differencing). Measured on two rasters only (docs/performance.md, benchmark 8): at
 #: 48 % burned the predictor made the COG 8 % faster and smaller; at about 2 % (the national scene)
 #: leaving it out made the conversion 29 % faster and the file 19 % smaller. Set between them, not tuned.
+#: The predictor is chosen before the first tile is written, from the scars' share of the grid
+#: (:func:`peatburn.engine.runner.burned_share`).
 PREDICTOR_MIN_SHARE = 0.1
 #: Overview levels of at most this many pixels are held in memory while the block pass writes them
 #: (16 MiB of float32; the levels of a raster together hold at most a third more).
@@ -208,7 +204,6 @@ class BlockRasterWriter:
         self.dtype, self.nodata = dtype, nodata
         self.categorical = np.dtype(dtype).kind != "f"
         self.predictor = expected_share > PREDICTOR_MIN_SHARE
-        self._written = 0  # pixels written with a value (the mask's count)
         self._levels = overview_shapes(grid.width, grid.height)
         #: first level that a window did not halve onto (its pixels straddle windows): that level and the
         #: ones above are rebuilt at close from the level below (len(levels) + 1: none)
@@ -277,7 +272,6 @@ class BlockRasterWriter:
                 self._level_ds[k - 1].write(piece.astype(self.dtype, copy=False), 1, window=Window(c0, r0, w, h))
 
     def write(self, window, array: np.ndarray):
-        self._written = -1  # whole windows of values: dense
         if np.dtype(self.dtype).kind == "f":
             a = np.where(np.isfinite(array), array, self.nodata).astype(self.dtype)
         else:
@@ -299,18 +293,11 @@ class BlockRasterWriter:
         if np.dtype(self.dtype).kind == "f":
             v = np.where(np.isfinite(v), v, self.nodata)
         a[mask] = v
-        self._written += int(np.count_nonzero(mask))
         self._ds.write(a, 1, window=window)
         idx = np.flatnonzero(mask)
         v = a.ravel()[idx]
         keep = v != self.nodata
         self._halve_into_levels(window, idx[keep], v[keep])
-
-    @property
-    def dense(self) -> bool:
-        """More than :data:`PREDICTOR_MIN_SHARE` of the grid written with values (through
-        :meth:`write_at`; :meth:`write` counts as dense)."""
-        return self._written < 0 or self._written > PREDICTOR_MIN_SHARE * self.grid.width * self.grid.height
 
     def _build_levels(self) -> None:
         """Close the levels; rebuild the stale ones (a window did not halve onto them), each from the

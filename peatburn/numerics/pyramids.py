@@ -43,7 +43,7 @@ def halve(shape: tuple[int, int], flat_index: np.ndarray, values: np.ndarray, *,
     numpy.ndarray of :func:`half_shape` (``shape``), float32 for values, the dtype of ``values``
     for codes.
     """
-    h, w = int(shape[0]), int(shape[1])
+    w = int(shape[1])
     h2, w2 = half_shape(shape)
     n = h2 * w2
     flat_index = np.asarray(flat_index, dtype=np.int64)
