@@ -12,6 +12,8 @@ import hashlib
 import numpy as np
 import pytest
 import rasterio
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from rasterio.crs import CRS
 from rasterio.enums import Resampling
 from rasterio.transform import from_origin
@@ -137,3 +139,25 @@ def test_same_file_twice_and_same_pixels_whatever_the_block_size(tmp_path):
                 arrays.append(ds.read(1))
         for x in arrays[1:]:
             np.testing.assert_array_equal(x, arrays[0])
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.integers(1, 9), st.integers(1, 9), st.floats(0, 1), st.booleans(), st.integers(0, 2**31 - 1))
+def test_dense_halving_equals_halving_the_valid_pixels(h, w, share, categorical, seed):
+    """The footprint form (overview levels above the first) and the valid-pixel form (the first level,
+    from a block's burned pixels) give the same level, odd edges and ties included."""
+    from peatburn.numerics.pyramids import halve, halve_dense
+
+    rng = np.random.default_rng(seed)
+    keep = rng.random((h, w)) < share
+    if categorical:
+        a = np.where(keep, rng.integers(1, 4, (h, w)), 0).astype("uint8")
+        nodata = 0
+    else:
+        a = np.where(keep, rng.normal(0.4, 0.2, (h, w)), -9999.0).astype("float32")
+        nodata = -9999.0
+    idx = np.flatnonzero(keep)
+    want = halve((h, w), idx, a.ravel()[idx], categorical=categorical, nodata=nodata)
+    got = halve_dense(a, categorical=categorical, nodata=nodata)
+    assert got.dtype == want.dtype and got.shape == want.shape
+    np.testing.assert_array_equal(got, want)
