@@ -15,6 +15,8 @@ import peatburn
 from conftest import X0, Y0, make_scene
 from peatburn.config import load_config
 from peatburn.errors import ConfigError, PhysicalRangeError
+from test_config import _cfg
+from test_flaming_run import _detections
 
 DRAWS = '[uncertainty]\ndraws = 400\nseed = 3\n'
 
@@ -84,14 +86,6 @@ def test_inventory_lines_carry_approach_1_and_2(base_run):
     assert "Approach 1" in html and "Approach 2" in html
 
 
-def _detections(path, x, y):
-    with open(path, "w", newline="") as fh:
-        w = csv.writer(fh)
-        w.writerow(["x", "y", "time", "frp_mw"])
-        w.writerow([x, y, "2030-09-01T06:00:00Z", 40.0])
-        w.writerow([x + 50, y, "2030-09-01T18:00:00Z", 60.0])
-
-
 def test_fre_integration_term_widens_the_flaming_interval(tmp_path):
     widths = {}
     for name, extra in (("off", "fre_integration_cv = 0\n"), ("default", ""), ("doubled", "fre_integration_cv = 2.0\n")):
@@ -109,22 +103,6 @@ def test_fre_integration_term_widens_the_flaming_interval(tmp_path):
     assert widths["doubled"] > widths["default"]
 
 
-BASE = """
-[run]
-name = "t"
-[burned_area]
-path = "scars.gpkg"
-[depth.survey]
-pre = "pre.tif"
-post = "post.tif"
-interval_years = 3.0
-[peat]
-thickness = "thick.tif"
-bulk_density = 0.1
-carbon_fraction = 0.55
-"""
-
-
 @pytest.mark.parametrize("acc, err, words", [
     ("area_ratio = 0.9\n", ConfigError, "area_ratio_se"),
     ("area_ratio = 0.9\narea_ratio_se = 0.1\nomission = 0.1\n", ConfigError, "not both"),
@@ -135,17 +113,13 @@ carbon_fraction = 0.55
     ("area_rate = 0.9\n", ConfigError, "did you mean 'area_ratio'"),
 ])
 def test_accuracy_keys_are_checked(tmp_path, acc, err, words):
-    p = tmp_path / "c.toml"
-    p.write_text(BASE + "[burned_area.accuracy]\n" + acc)
     with pytest.raises(err, match=words):
-        load_config(p)
+        load_config(_cfg(tmp_path, extra="[burned_area.accuracy]\n" + acc))
 
 
 def test_accuracy_from_sample_sizes(tmp_path):
-    p = tmp_path / "c.toml"
-    p.write_text(BASE + "[burned_area.accuracy]\nomission = 0.1\ncommission = 0.1\nomission_n = 101\n"
-                        "commission_n = 101\n[uncertainty]\nfre_integration_cv = 0.5\n")
-    cfg = load_config(p)
+    cfg = load_config(_cfg(tmp_path, extra="[burned_area.accuracy]\nomission = 0.1\ncommission = 0.1\n"
+                                           "omission_n = 101\ncommission_n = 101\n[uncertainty]\nfre_integration_cv = 0.5\n"))
     # R = 0.9 / 0.9 = 1; SE(R)/R = sqrt(2) x 0.03 / 0.9 (each rate's SE sqrt(0.09/100) = 0.03)
     assert cfg.area_accuracy.ratio == pytest.approx(1.0)
     assert cfg.area_accuracy.ratio_se == pytest.approx(math.sqrt(2) * 0.03 / 0.9)
