@@ -28,15 +28,16 @@ def _check_outputs(folder) -> None:
     import sys
 
     from ..names import printable
-    from ..outputs.checksums import check_outputs, describe
+    from ..outputs.checksums import check_outputs, describe, is_series
 
     problems = check_outputs(folder)
+    one = "one series'" if is_series(folder) else "one run's"
     for line in problems:
         click.echo(printable(line))  # file names in the folder may hold control characters
     if problems:
-        click.echo(f"not one run's complete, unaltered set: {len(problems)} problem(s) in {printable(str(folder))}")
+        click.echo(f"not {one} complete, unaltered set: {len(problems)} problem(s) in {printable(str(folder))}")
         sys.exit(1)
-    click.echo(f"ok: {printable(str(folder))} is one run's complete, unaltered set: {printable(describe(folder))}")
+    click.echo(f"ok: {printable(str(folder))} is {one} complete, unaltered set: {printable(describe(folder))}")
 
 
 def _check_config(config, against) -> None:

@@ -29,7 +29,7 @@ from ..outputs.tables import run_gases, units
 from ..science import trend
 from ..series_config import SeriesConfig
 from .intervals import _column
-from .runner import CAUTIONS, RunResult, load_factors, prepare_out_dir, run
+from .runner import CAUTIONS, RunResult, load_factors, run
 
 
 @dataclass
@@ -45,10 +45,24 @@ class SeriesResult:
     recalculation: list | None = None
 
 
-def with_history(cfg, earlier: list[RunResult]):
-    """``cfg`` with the burn-depth and depth-method rasters of the earlier years of the series."""
-    return dataclasses.replace(cfg, earlier_burns=tuple((Path(r.files["burn_depth"]), Path(r.files["depth_method"]))
-                                                        for r in earlier))
+def tier1_fuel_of(cfg) -> float:
+    """The Tier 1 fuel consumption a year's run uses [t/ha] (its setting, else the default: engine.plan)."""
+    from .plan import tier1_default_fuel
+
+    return float(cfg.tier1.fuel_consumption_t_ha or tier1_default_fuel())
+
+
+def with_history(cfg, earlier: list[RunResult], recorded_dir=None, earlier_configs=()):
+    """``cfg`` with the burn-depth and depth-method rasters of the earlier years of the series and the
+    Tier 1 fuel consumption each used (from ``earlier_configs``, their configurations). ``recorded_dir`` (the series folder once swapped in): where
+    provenance.json records them, when the runs read them from the series' staging folder."""
+    burns = tuple((Path(r.files["burn_depth"]), Path(r.files["depth_method"])) for r in earlier)
+    shown = ()
+    if recorded_dir is not None:
+        shown = tuple((f"series.earlier_burns[{i}].{kind}", str(Path(recorded_dir) / Path(r.out_dir).name / p.name))
+                      for i, (r, pair) in enumerate(zip(earlier, burns)) for kind, p in zip(("depth", "method"), pair))
+    fuel = tuple(tier1_fuel_of(c) for c in earlier_configs)
+    return dataclasses.replace(cfg, earlier_burns=burns, earlier_tier1_fuel_t_ha=fuel, recorded_as=shown)
 
 
 def year_seed(seed: int, year: int, base: bool) -> int:
@@ -180,22 +194,34 @@ def run_series(series: SeriesConfig, out_dir, *, overwrite: bool = False, worker
     that differ. An existing, non-empty ``out_dir`` is refused unless ``overwrite``.
     """
     from ..io.lock import output_lock
+    from ..io.result_set import staged
+    from ..outputs.checksums import write_series_sums
     from .executors import connect
+    from .runner import _moved
 
     out_dir = Path(out_dir)
     old = _read_earlier(Path(against), series.years) if against is not None else None
     client = connect(scheduler) if isinstance(scheduler, str) else scheduler
     try:
-        with output_lock(out_dir):
-            prepare_out_dir(out_dir, overwrite)
-            results = []
-            for entry in series.runs:
-                cfg = entry.config
-                if series.fire_history and results:
-                    cfg = with_history(cfg, results)
-                results.append(run(cfg, out_dir / str(entry.year), overwrite=overwrite, workers=workers,
-                                   scheduler=client, progress=progress))
-            return _write(series, out_dir, results, old)
+        with output_lock(out_dir):  # one writer per series folder (io.lock)
+            # every year and the series tables go into a staging folder, sealed with SHA256SUMS and swapped
+            # in whole (io.result_set): a series killed midway leaves the folder's old set as it was
+            with staged(out_dir, overwrite) as stage:
+                results = []
+                for entry in series.runs:
+                    cfg = entry.config
+                    if series.fire_history and results:
+                        cfg = with_history(cfg, results, out_dir, [e.config for e in series.runs[:len(results)]])
+                    results.append(run(cfg, stage / str(entry.year), workers=workers, scheduler=client,
+                                       progress=progress))
+                result = _write(series, stage, results, old)
+                result.files["checksums"] = write_series_sums(stage, [str(y) for y in series.years])
+            for r in results:
+                r.out_dir = out_dir / Path(r.out_dir).name
+                r.files = {k: _moved(v, stage, out_dir) for k, v in r.files.items()}
+            result.out_dir = out_dir
+            result.files = {k: _moved(v, stage, out_dir) for k, v in result.files.items()}
+            return result
     finally:
         if client is not scheduler and client is not None:
             client.close()
