@@ -119,3 +119,61 @@ def check(config, against=None, *, strict: bool = True) -> CheckReport:
         out.append("ok: the configuration is valid")
     return CheckReport(cfg, g, dict(inputs.rasters), list(inputs.notes), out, str(against) if against else None,
                        problems)
+
+
+@dataclass
+class SeriesCheckReport:
+    """What :func:`check_series` found: the series, each year's :class:`CheckReport`, the series' notes
+    (years missing in the middle, stated differences) and the lines ``peatburn check SERIES.toml`` prints."""
+
+    series: object
+    years: dict  # year -> CheckReport
+    notes: list
+    lines: list = field(default_factory=list)
+
+    @property
+    def ok(self) -> bool:
+        return True  # a problem raises
+
+    def __str__(self) -> str:
+        return "\n".join(self.lines)
+
+
+def check_series(series) -> SeriesCheckReport:
+    """Validate a series (a :class:`peatburn.series_config.SeriesConfig` or a path to SERIES.toml)
+    before anything runs: the series file (duplicate years refused; the shared and consistent
+    settings of every year agree, refused with the messages ``peatburn series`` gives; years missing
+    in the middle reported), then every year's configuration and inputs as :func:`check` does.
+
+    Raises
+    ------
+    PeatburnError
+        The first problem, one line; a year's problem names the year and its configuration file.
+    """
+    from ..errors import PeatburnError
+    from ..series_config import SeriesConfig, load_series
+
+    s = series if isinstance(series, SeriesConfig) else load_series(series)
+    lines = [f"series: {s.name}: {len(s.years)} year(s) {', '.join(map(str, s.years))}; base year {s.base_year}"]
+    if s.shared:
+        lines.append("shared settings: " + "; ".join(f"{k} = {v}" for k, v in s.shared.items()))
+    reports = {}
+    for entry in s.runs:
+        try:
+            rep = check(entry.config)
+        except PeatburnError as exc:
+            try:
+                err = type(exc)(f"year {entry.year} ({entry.path}): {exc}")
+            except TypeError:  # an error class with other arguments: the message as it is
+                raise exc from None
+            raise err from exc
+        reports[entry.year] = rep
+        lines.append(f"year {entry.year} ({entry.path}):")
+        lines += [f"  {line}" for line in rep.lines]
+    if s.fire_history and len(s.runs) > 1:
+        lines.append("note: fire history: each year after the first reads the burn depths of the earlier years once "
+                     "they have run (thickness left, repeat-fire status; docs/method.md 7.7): not checked here")
+    for n in s.notes:
+        lines.append(f"note: {n}")
+    lines.append(f"ok: the series is valid ({len(s.years)} year(s), one method)")
+    return SeriesCheckReport(s, reports, list(s.notes), lines)
