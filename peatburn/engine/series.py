@@ -104,16 +104,17 @@ def _with_total_co2e(q: dict) -> dict:
     return q
 
 
-def joint_summary(series: SeriesConfig, results: list[RunResult], gases) -> dict:
+def joint_summary(series: SeriesConfig, results: list[RunResult], gases, joint=False) -> dict:
     """The multi-year sum and the trend (last year vs base year) of each quantity with an interval,
     from the joint draws and from the same draws made independent between years (for comparison),
-    and the correlation of the years' below-ground carbon."""
+    and the correlation of the years' below-ground carbon. ``joint``: the :func:`joint_draws`
+    already made (drawn here when not given)."""
     years = series.years
     base_i, last_i = years.index(series.base_year), len(years) - 1
     span = f"{years[0]}-{years[-1]}"
     summary = {"span": span, "trend_years": f"{series.base_year}-{years[-1]}", "base_year": series.base_year,
                "last_year": years[-1], "shared_sources": list(series.shared_sources), "quantities": []}
-    joint = joint_draws(series, results)
+    joint = joint_draws(series, results) if joint is False else joint
     unit_of = units(gases)
     totals = [r.total for r in results]
     cols = ["peat_burned_t", "carbon_smouldering_t", "carbon_flaming_t", "co2e_smouldering_t", "co2e_flaming_t",
@@ -227,6 +228,87 @@ def run_series(series: SeriesConfig, out_dir, *, overwrite: bool = False, worker
             client.close()
 
 
+def _line_draws(years: list, results: list[RunResult], rows: list[dict], joint: dict | None) -> dict:
+    """Joint draws of inventory lines [Gg]: a line is its run's total times the calendar year's share
+    (outputs.tables.inventory_rows), so its draws are the run's joint draws times the same ratio."""
+    if joint is None:
+        return {}
+    from ..outputs.tables import gas_key
+
+    out = {}
+    for r in rows:
+        phase, gas = r["phase"], r["gas"]
+        stem = "co2e" if gas.startswith("CO2e") else "co2" if gas == "CO2-C" else gas_key(gas)
+        i = years.index(r["run_year"])
+        total, d = results[i].total.get(f"{stem}_{phase}_t"), joint["quantities"].get(f"{stem}_{phase}_kg")
+        if d is None or total is None or not math.isfinite(float(total)):
+            continue
+        ratio = float(r["emissions_gg"]) / (float(total) * 1e-3) if float(total) else 0.0
+        out[(r["run_year"], r["year"], phase, gas)] = d[i] * 1e-6 * ratio  # kg -> Gg
+    return out
+
+
+def refuse_double_count(series: SeriesConfig, results: list[RunResult], cal: int, idx: list[int]) -> None:
+    """Refuse to add lines of calendar year ``cal`` from the runs ``idx`` when that counts a fire twice:
+    two scars of two runs that overlap in place (an intersection of positive area) and in dates (their
+    days of burning meet; a scar without dates burns all of its run's year), or two runs with flaming
+    detections on one day of ``cal`` (the same detections may be in both runs)."""
+    import datetime as dt
+    from itertools import combinations
+
+    import shapely
+
+    from ..outputs import timeline
+
+    first, last = dt.date(cal, 1, 1), dt.date(cal, 12, 31)
+    scars = []
+    for i in idx:
+        parts, year = results[i]._parts, series.runs[i].year
+        frame = parts.scars
+        periods = [(a, b) if a is not None else (dt.date(year, 1, 1), dt.date(year, 12, 31))
+                   for a, b in timeline.scar_periods(frame, parts.cfg.start_field, parts.cfg.end_field)]
+        keep = [k for k, (a, b) in enumerate(periods) if a <= last and b >= first]
+        scars.append((i, frame, periods, keep))
+    where = f"{series.source or 'series'}"
+    for (i, fa, pa, ka), (j, fb, pb, kb) in combinations(scars, 2):
+        gb = fb.geometry if fb.crs == fa.crs else fb.geometry.to_crs(fa.crs)
+        ga = np.asarray(fa.geometry.values, dtype=object)
+        tree = shapely.STRtree(ga[ka]) if ka else None
+        for k in kb:
+            if tree is None:
+                break
+            g = gb.values[k]
+            for hit in tree.query(g, predicate="intersects"):
+                m = ka[int(hit)]
+                (a0, a1), (b0, b1) = pa[m], pb[k]
+                overlap = shapely.intersection(ga[m], g).area
+                if a0 <= b1 and b0 <= a1 and overlap > 1e-6 * min(ga[m].area, g.area):
+                    raise ConfigError(
+                        f"{where}: calendar year {cal} would count a fire twice: scar {_scar(fa, results[i], m)} of "
+                        f"the {series.runs[i].year} run ({a0} to {a1}) and scar {_scar(fb, results[j], k)} of the "
+                        f"{series.runs[j].year} run ({b0} to {b1}) overlap in place and dates; keep the fire in one "
+                        f"run's burned area, or correct its fire dates")
+        days_a = _flaming_days(results[i], cal)
+        both = sorted(days_a & _flaming_days(results[j], cal))
+        if both:
+            raise ConfigError(f"{where}: calendar year {cal} would count flaming detections twice: the "
+                              f"{series.runs[i].year} and {series.runs[j].year} runs both have flaming emissions on "
+                              f"{both[0]}{' and later days' if len(both) > 1 else ''}; give each run only the "
+                              f"detections of its own fire season")
+
+
+def _scar(frame, result, k: int) -> str:
+    col = result._parts.cfg.id_field
+    if col and col in frame.columns:
+        return repr(str(frame[col].iloc[k]))
+    return f"#{k + 1}"
+
+
+def _flaming_days(result: RunResult, cal: int) -> set:
+    return {str(r["date"]) for r in result.daily if r.get("phase") == "flaming" and str(r["date"]).startswith(f"{cal}-")
+            and (r.get("dry_matter_t") or 0) > 0}
+
+
 def _read_earlier(folder: Path, years) -> dict:
     if not folder.is_dir():
         raise MissingInputError(f"--against: {folder} is not a folder; give the output folder of an earlier "
@@ -249,7 +331,8 @@ def _write(series: SeriesConfig, out_dir: Path, results: list[RunResult], old: d
     rows = []
     for entry, r in zip(series.runs, results):
         rows += st.year_rows(entry.year, r.total, run_gases(load_factors(entry.config)), st.flaming_estimated(r.totals))
-    summary = joint_summary(series, results, gases)
+    joint = joint_draws(series, results)
+    summary = joint_summary(series, results, gases, joint)
     rows += st.joint_rows(summary)
     records = [{"totals": r.totals, "provenance": json.loads((Path(r.out_dir) / "provenance.json").read_text(encoding="utf-8"))}
                for r in results]
@@ -258,11 +341,25 @@ def _write(series: SeriesConfig, out_dir: Path, results: list[RunResult], old: d
                for i in range(1, len(years))]
     inv = [row for y, r in zip(years, results) for row in st.inventory_rows(y, r.inventory)]
     notes = list(series.notes)
-    cal = sorted({str(row["year"]) for y, r in zip(years, results) for row in r.inventory if str(row["year"]) != str(y)})
-    if cal:
-        notes.append(f"inventory lines of calendar year(s) {', '.join(cal)} come from a run of another series year "
-                     f"(scar fire dates): add lines of one calendar year from different runs by their values; their "
-                     f"intervals do not add")
+    runs_of: dict = {}
+    for row in inv:
+        runs_of.setdefault(str(row["year"]), []).append(row["run_year"])
+    shared = {c: sorted(set(v)) for c, v in runs_of.items() if len(set(v)) > 1}
+    for cal, run_years in shared.items():
+        refuse_double_count(series, results, int(cal), [years.index(y) for y in run_years])
+    inv = st.combine_calendar_years(inv, _line_draws(years, results, [r for r in inv if str(r["year"]) in shared],
+                                                     joint))
+    for cal, run_years in sorted(shared.items()):
+        how = sorted({r["interval"] for r in inv if str(r["year"]) == cal and r["interval"]})
+        notes.append(f"inventory: calendar year {cal} has fires of the runs of {' and '.join(map(str, run_years))} "
+                     f"(scar fire dates across the new year): one line per phase and gas, their sum (no scar of one run "
+                     f"overlaps a scar of the other in place and dates); intervals: {', '.join(how) or 'none'} "
+                     f"(docs/series.md)")
+    other = sorted({str(row["year"]) for row in inv if str(row["year"]) not in shared
+                    and str(row["year"]) != str(row["run_year"])})
+    if other:
+        notes.append(f"inventory lines of calendar year(s) {', '.join(other)} come from a run of another series year "
+                     f"(scar fire dates)")
     if summary.get("note_flaming"):
         notes.append(summary["note_flaming"])
     if series.fire_history and len(years) > 1:
