@@ -29,6 +29,7 @@ def sealed(tmp_path_factory):
     c1 = make_year(root / "a", 2031, [box(2, 2, 12, 12)])
     c2 = make_year(root / "b", 2032, [box(6, 6, 16, 16)])
     s = write_series(root, {2031: c1, 2032: c2})
+    s.write_text(s.read_text().replace('name = "tiny series"', 'name = "<script>x()</script> & co"'))
     return root, s, run_series(load_series(s), root / "out")
 
 
@@ -53,6 +54,10 @@ def test_series_folder_is_one_sealed_set(sealed):
     assert sorted(p.name for p in root.iterdir() if p.name.startswith(".")) == []
     for f in _files(out):
         assert b"peatburn-stage" not in (out / f).read_bytes(), f
+    # the series' name is escaped in its report (autoescape); without draws there is no sum/trend chart
+    report = (out / "series_report.html").read_text(encoding="utf-8")
+    assert "&lt;script&gt;x()&lt;/script&gt; &amp; co" in report and "<script>" not in report
+    assert "Sum of the years and trend of CO2e" not in report
     # the later year records the earlier year's burn depth where it now is
     prov = json.loads((out / "2032" / "provenance.json").read_text())
     assert prov["inputs"]["series.earlier_burns[0].depth"]["path"] == str(out / "2031" / "burn_depth.tif")
