@@ -7,8 +7,12 @@ peat left and its repeat-fire status comes from the series where the scars do no
 count (docs/method.md, "Fire history across years"). Then the years' totals are drawn jointly
 (common random numbers for the sources the years share, :data:`peatburn.series_config.SHARED_SOURCES`)
 for the intervals of the multi-year sum and of the trend (peatburn.science.trend), and the series
-tables and report are written: ``inventory.csv`` / ``inventory.json`` (every year),
-``series.csv``, ``series.json``, ``series_report.html`` (and ``recalculation.csv`` with ``against``).
+tables and report are written: ``inventory.csv`` / ``inventory.json`` (every year; one line per
+calendar year x phase x gas where two runs reach one calendar year, refused when that counts a fire
+twice), ``series.csv``, ``series.json``, ``series_report.html`` (and ``recalculation.csv`` with
+``against``). Everything is written into a staging folder under the folder's lock, sealed with a
+``SHA256SUMS`` over every file below it and swapped in whole (peatburn.io.result_set), as a run's
+folder is; ``peatburn check --outputs DIR`` verifies it (peatburn.outputs.checksums).
 """
 
 from __future__ import annotations
@@ -354,7 +358,7 @@ def _write(series: SeriesConfig, out_dir: Path, results: list[RunResult], old: d
         notes.append(f"inventory: calendar year {cal} has fires of the runs of {' and '.join(map(str, run_years))} "
                      f"(scar fire dates across the new year): one line per phase and gas, their sum (no scar of one run "
                      f"overlaps a scar of the other in place and dates); intervals: {', '.join(how) or 'none'} "
-                     f"(docs/series.md)")
+                     f"(docs/configuration.md, \"The series file\")")
     other = sorted({str(row["year"]) for row in inv if str(row["year"]) not in shared
                     and str(row["year"]) != str(row["run_year"])})
     if other:
