@@ -23,6 +23,8 @@ class CheckReport:
     against: str | None = None
     #: with ``against``: one line per input that no longer matches (empty: all match)
     mismatches: list = field(default_factory=list)
+    #: the burn scars as read (a GeoDataFrame in the run grid's CRS; a series checks them across years)
+    scars: object = field(default=None, repr=False)
 
     @property
     def ok(self) -> bool:
@@ -118,7 +120,7 @@ def check(config, against=None, *, strict: bool = True) -> CheckReport:
     if not problems:
         out.append("ok: the configuration is valid")
     return CheckReport(cfg, g, dict(inputs.rasters), list(inputs.notes), out, str(against) if against else None,
-                       problems)
+                       problems, inputs.scars.frame)
 
 
 @dataclass
@@ -170,6 +172,7 @@ def check_series(series) -> SeriesCheckReport:
         reports[entry.year] = rep
         lines.append(f"year {entry.year} ({entry.path}):")
         lines += [f"  {line}" for line in rep.lines]
+    _same_fire_twice(s, reports)
     if s.fire_history and len(s.runs) > 1:
         lines.append("note: fire history: each year after the first reads the burn depths of the earlier years once "
                      "they have run (thickness left, repeat-fire status; docs/method.md 7.7): not checked here")
@@ -177,3 +180,18 @@ def check_series(series) -> SeriesCheckReport:
         lines.append(f"note: {n}")
     lines.append(f"ok: the series is valid ({len(s.years)} year(s), one method)")
     return SeriesCheckReport(s, reports, list(s.notes), lines)
+
+
+def _same_fire_twice(s, reports: dict) -> None:
+    """Refuse a series whose runs hold the same fire in one calendar year (their scars overlap in place
+    and dates): what ``peatburn series`` refuses when it adds their inventory lines
+    (peatburn.engine.series.refuse_same_fire). Flaming detections shared by two runs are found when
+    the series runs."""
+    from .series import calendar_years, refuse_same_fire, scar_periods_of
+
+    scars = [(reports[e.year].scars, e.config) for e in s.runs]
+    reach = [calendar_years(scar_periods_of(f, cfg, e.year)) | {e.year} for (f, cfg), e in zip(scars, s.runs)]
+    for cal in sorted(set().union(*reach)):
+        idx = [i for i, years in enumerate(reach) if cal in years]
+        if len(idx) > 1:
+            refuse_same_fire(s, scars, cal, idx)

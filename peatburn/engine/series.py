@@ -254,55 +254,73 @@ def _line_draws(years: list, results: list[RunResult], rows: list[dict], joint: 
 
 def refuse_double_count(series: SeriesConfig, results: list[RunResult], cal: int, idx: list[int]) -> None:
     """Refuse to add lines of calendar year ``cal`` from the runs ``idx`` when that counts a fire twice:
-    two scars of two runs that overlap in place (an intersection of positive area) and in dates (their
-    days of burning meet; a scar without dates burns all of its run's year), or two runs with flaming
-    detections on one day of ``cal`` (the same detections may be in both runs)."""
+    two scars of two runs that overlap in place and in dates (:func:`refuse_same_fire`), or two runs
+    with flaming detections on one day of ``cal`` (the same detections may be in both runs)."""
+    from itertools import combinations
+
+    refuse_same_fire(series, [(r._parts.scars, r._parts.cfg) for r in results], cal, idx)
+    for i, j in combinations(idx, 2):
+        both = sorted(_flaming_days(results[i], cal) & _flaming_days(results[j], cal))
+        if both:
+            raise ConfigError(f"{series.source or 'series'}: calendar year {cal} would count flaming detections "
+                              f"twice: the {series.runs[i].year} and {series.runs[j].year} runs both have flaming "
+                              f"emissions on {both[0]}{' and later days' if len(both) > 1 else ''}; give each run "
+                              f"only the detections of its own fire season")
+
+
+def scar_periods_of(frame, cfg, year: int) -> list[tuple]:
+    """(first, last) day of burning of each scar; a scar without dates burns all of ``year`` (its run's)."""
+    import datetime as dt
+
+    from ..outputs import timeline
+
+    return [(a, b) if a is not None else (dt.date(year, 1, 1), dt.date(year, 12, 31))
+            for a, b in timeline.scar_periods(frame, cfg.start_field, cfg.end_field)]
+
+
+def calendar_years(periods: list[tuple]) -> set[int]:
+    """The calendar years the scars' days of burning reach."""
+    return {y for a, b in periods for y in range(a.year, b.year + 1)}
+
+
+def refuse_same_fire(series: SeriesConfig, scars: list[tuple], cal: int, idx: list[int]) -> None:
+    """Refuse when two runs ``idx`` hold the same fire in calendar year ``cal``: a scar of each that
+    overlap in place (an intersection of positive area: more than 1e-6 of the smaller scar) and in
+    dates (their days of burning meet, :func:`scar_periods_of`). ``scars``: (scar frame, run
+    configuration) of every run of the series, in its order. A scar on ground another run burned on
+    other dates is a repeat fire, not refused."""
     import datetime as dt
     from itertools import combinations
 
     import shapely
 
-    from ..outputs import timeline
-
     first, last = dt.date(cal, 1, 1), dt.date(cal, 12, 31)
-    scars = []
+    picked = []
     for i in idx:
-        parts, year = results[i]._parts, series.runs[i].year
-        frame = parts.scars
-        periods = [(a, b) if a is not None else (dt.date(year, 1, 1), dt.date(year, 12, 31))
-                   for a, b in timeline.scar_periods(frame, parts.cfg.start_field, parts.cfg.end_field)]
-        keep = [k for k, (a, b) in enumerate(periods) if a <= last and b >= first]
-        scars.append((i, frame, periods, keep))
-    where = f"{series.source or 'series'}"
-    for (i, fa, pa, ka), (j, fb, pb, kb) in combinations(scars, 2):
+        frame, cfg = scars[i]
+        periods = scar_periods_of(frame, cfg, series.runs[i].year)
+        picked.append((i, frame, cfg, periods, [k for k, (a, b) in enumerate(periods) if a <= last and b >= first]))
+    for (i, fa, ca, pa, ka), (j, fb, cb, pb, kb) in combinations(picked, 2):
+        if not ka or not kb:
+            continue
         gb = fb.geometry if fb.crs == fa.crs else fb.geometry.to_crs(fa.crs)
         ga = np.asarray(fa.geometry.values, dtype=object)
-        tree = shapely.STRtree(ga[ka]) if ka else None
+        tree = shapely.STRtree(ga[ka])
         for k in kb:
-            if tree is None:
-                break
             g = gb.values[k]
             for hit in tree.query(g, predicate="intersects"):
                 m = ka[int(hit)]
                 (a0, a1), (b0, b1) = pa[m], pb[k]
-                overlap = shapely.intersection(ga[m], g).area
-                if a0 <= b1 and b0 <= a1 and overlap > 1e-6 * min(ga[m].area, g.area):
+                if a0 <= b1 and b0 <= a1 and shapely.intersection(ga[m], g).area > 1e-6 * min(ga[m].area, g.area):
                     raise ConfigError(
-                        f"{where}: calendar year {cal} would count a fire twice: scar {_scar(fa, results[i], m)} of "
-                        f"the {series.runs[i].year} run ({a0} to {a1}) and scar {_scar(fb, results[j], k)} of the "
-                        f"{series.runs[j].year} run ({b0} to {b1}) overlap in place and dates; keep the fire in one "
-                        f"run's burned area, or correct its fire dates")
-        days_a = _flaming_days(results[i], cal)
-        both = sorted(days_a & _flaming_days(results[j], cal))
-        if both:
-            raise ConfigError(f"{where}: calendar year {cal} would count flaming detections twice: the "
-                              f"{series.runs[i].year} and {series.runs[j].year} runs both have flaming emissions on "
-                              f"{both[0]}{' and later days' if len(both) > 1 else ''}; give each run only the "
-                              f"detections of its own fire season")
+                        f"{series.source or 'series'}: calendar year {cal} would count a fire twice: scar "
+                        f"{_scar(fa, ca, m)} of the {series.runs[i].year} run ({a0} to {a1}) and scar {_scar(fb, cb, k)} "
+                        f"of the {series.runs[j].year} run ({b0} to {b1}) overlap in place and dates; keep the fire "
+                        f"in one run's burned area, or correct its fire dates")
 
 
-def _scar(frame, result, k: int) -> str:
-    col = result._parts.cfg.id_field
+def _scar(frame, cfg, k: int) -> str:
+    col = cfg.id_field
     if col and col in frame.columns:
         return repr(str(frame[col].iloc[k]))
     return f"#{k + 1}"

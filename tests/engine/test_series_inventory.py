@@ -83,3 +83,21 @@ def test_the_same_fire_in_two_runs_is_refused_a_repeat_fire_is_not(tmp_path):
     assert len(rows) == 1 and float(rows[0]["emissions_gg"]) == pytest.approx(want, rel=1e-6)
     assert rows[0]["interval"] == ""  # no draws: no interval
     assert res.years == [2031, 2032]
+
+
+def test_check_refuses_the_same_fire_before_anything_runs(tmp_path):
+    from click.testing import CliRunner
+
+    import peatburn
+    from peatburn.cli.main import cli
+
+    c1 = make_year(tmp_path / "a", 2031, [S_A], dates=[ACROSS])
+    twice = make_year(tmp_path / "b", 2032, [box(5, 5, 15, 15)], dates=[("2032-01-10", "2032-01-20")])
+    s = write_series(tmp_path, {2031: c1, 2032: twice})
+    with pytest.raises(ConfigError, match="calendar year 2032 would count a fire twice"):
+        peatburn.check_series(s)
+    res = CliRunner().invoke(cli, ["check", str(s)])
+    assert res.exit_code == 2 and len(res.output.strip().splitlines()) == 1 and "scar #1 of the 2031 run" in res.output
+    # a repeat fire on other dates passes the check
+    again = make_year(tmp_path / "c", 2032, [box(5, 5, 15, 15)], dates=[("2032-06-01", "2032-06-10")])
+    assert peatburn.check_series(write_series(tmp_path, {2031: c1, 2032: again})).years
