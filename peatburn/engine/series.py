@@ -366,7 +366,7 @@ def _write(series: SeriesConfig, out_dir: Path, results: list[RunResult], old: d
     runs_of: dict = {}
     for row in inv:
         runs_of.setdefault(str(row["year"]), []).append(row["run_year"])
-    shared = {c: sorted(set(v)) for c, v in runs_of.items() if len(set(v)) > 1}
+    shared = {c: sorted(set(v)) for c, v in runs_of.items() if len(set(v)) > 1 and c}
     for cal, run_years in shared.items():
         refuse_double_count(series, results, int(cal), [years.index(y) for y in run_years])
     inv = st.combine_calendar_years(inv, _line_draws(years, results, [r for r in inv if str(r["year"]) in shared],

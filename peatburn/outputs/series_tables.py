@@ -103,7 +103,8 @@ def combine_calendar_years(rows: list[dict], draws: dict) -> list[dict]:
 
     groups: dict = {}
     for r in rows:
-        groups.setdefault((str(r["year"]), r["phase"], r["gas"]), []).append(r)
+        cal = str(r["year"]) or f"run {r['run_year']}"  # a line without a year (no run.year) stays its run's
+        groups.setdefault((cal, r["phase"], r["gas"]), []).append(r)
     out = []
     for (_, phase, gas), members in groups.items():
         if len(members) == 1:

@@ -30,3 +30,4 @@ def test_chart_is_a_png_with_both_panels():
     none = {**summary, "quantities": [_q("smouldering", 100.0, None, None, None, None)]}
     assert sum_trend_chart(none) is None
     assert sum_trend_chart({"span": "2031-2031", "trend_years": "2031-2031", "quantities": []}) is None
+
