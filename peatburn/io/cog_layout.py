@@ -33,6 +33,8 @@ import numpy as np
 
 #: Tile size of the output COGs [px] (GDAL's COG default).
 COG_TILE = 512
+#: Largest offset of a classic TIFF [bytes] (32-bit offsets, TIFF 6.0); past it the COG must be a BigTIFF.
+CLASSIC_TIFF_MAX = 2**32 - 1
 _TILE_OFFSETS, _TILE_BYTE_COUNTS = 324, 325
 _TYPES = {3: ("H", 2), 4: ("I", 4), 16: ("Q", 8)}  # SHORT, LONG, LONG8
 
@@ -76,14 +78,14 @@ def _ifds(fh) -> tuple[str, bool, list[dict]]:
             vpos = pos + (8 if big else 2) + i * size + (12 if big else 8)
             if typ in _TYPES and count * _TYPES[typ][1] > inline:
                 vpos = struct.unpack(bo + ("Q" if big else "I"), field)[0]
-            tags[tag] = (typ, count, vpos)
+            tags[tag] = (typ, count, vpos, pos + (8 if big else 2) + i * size)
         out.append(tags)
         pos = struct.unpack(bo + ("Q" if big else "I"), raw[n * size:])[0]
     return bo, big, out
 
 
 def _array(fh, bo: str, entry) -> np.ndarray:
-    typ, count, vpos = entry
+    typ, count, vpos, _ = entry
     code, size = _TYPES[typ]
     fh.seek(vpos)
     return np.frombuffer(fh.read(count * size), dtype=np.dtype(bo + code)).astype(np.uint64)
@@ -133,40 +135,70 @@ def fill_skeleton(skeleton, level_files: list) -> None:
     TIFFs with the skeleton's tile size, compression and predictor) to ``skeleton`` in the COG
     order and fill its tile arrays (step 2 of the module docstring).
 
-    Raises :class:`OffsetOverflow` when the file would pass 4 GiB and the skeleton is a classic TIFF.
+    Raises :class:`OffsetOverflow` when the file would pass :data:`CLASSIC_TIFF_MAX` and the skeleton is
+    a classic TIFF. In a BigTIFF skeleton libtiff may store the (all zero) arrays in a narrower type
+    (LONG, SHORT); where the values need more, LONG8 arrays are written after the skeleton, before the
+    tiles (the IFDs and their arrays stay ahead of the data, as the layout requires), and the IFD entries
+    are pointed at them.
     """
     with open(skeleton, "r+b") as out:
         bo, big, ifds = _ifds(out)
         if len(ifds) != len(level_files):
             raise ValueError(f"{skeleton}: {len(ifds)} image(s) in the COG skeleton, {len(level_files)} level(s)")
-        out.seek(0, os.SEEK_END)
-        pos = out.tell()
-        tables = [None] * len(level_files)
-        for k in reversed(range(len(level_files))):  # smallest overview first, full resolution last
-            src_off, src_len = tile_table(level_files[k])
-            ifd = ifds[k]
+        tables = [tile_table(f) for f in level_files]
+        for k, (ifd, (src_off, _)) in enumerate(zip(ifds, tables)):
             if ifd[_TILE_OFFSETS][1] != src_off.size:
                 raise ValueError(f"{skeleton}: level {k} has {ifd[_TILE_OFFSETS][1]} tiles, its file {src_off.size}")
+        out.seek(0, os.SEEK_END)
+        pos = out.tell()
+        data = sum(int(n.sum()) + 8 * int(np.count_nonzero(n)) for _, n in tables)
+        widen = {}  # (IFD index, tag) -> where its 64-bit array goes (None: one value, inline)
+        for k, ifd in enumerate(ifds):
+            for tag, need in ((_TILE_OFFSETS, pos + data), (_TILE_BYTE_COUNTS, int(tables[k][1].max(initial=0)))):
+                typ, count, _, _ = ifd[tag]
+                if need <= _capacity(typ):
+                    continue
+                if not big:
+                    raise OffsetOverflow(f"{skeleton}: {pos + data} bytes do not fit a classic TIFF's fields")
+                widen[(k, tag)] = None
+        for key in sorted(widen):  # the arrays ahead of the tiles, 8-byte aligned
+            count = ifds[key[0]][key[1]][1]
+            if count > 1:
+                pos += -pos % 8
+                widen[key] = pos
+                pos += count * 8
+        out.write(b"\0" * (pos - out.tell()))
+        filled = [None] * len(level_files)
+        for k in reversed(range(len(level_files))):  # smallest overview first, full resolution last
+            src_off, src_len = tables[k]
             offsets = np.zeros(src_off.size, dtype=np.uint64)
             with open(level_files[k], "rb") as src:
                 for i in np.flatnonzero(src_len):
                     n = int(src_len[i])
                     src.seek(int(src_off[i]))
-                    data = src.read(n)
-                    out.write(struct.pack("<I", n) + data + data[-4:])
+                    chunk = src.read(n)
+                    out.write(struct.pack("<I", n) + chunk + chunk[-4:])
                     offsets[i] = pos + 4
                     pos += n + 8
-            tables[k] = (offsets, src_len)
-        if not big and pos > 2**32 - 1:
-            raise OffsetOverflow(f"{skeleton}: {pos} bytes do not fit a classic TIFF")
-        for ifd, (offsets, counts) in zip(ifds, tables):
-            for tag, values in ((_TILE_OFFSETS, offsets), (_TILE_BYTE_COUNTS, counts)):
-                typ, count, vpos = ifd[tag]
-                code, _ = _TYPES[typ]
-                if typ != 16 and values.size and int(values.max()) > np.iinfo(np.dtype(code)).max:
-                    raise OffsetOverflow(f"{skeleton}: tile offsets beyond the TIFF field's range")
+            filled[k] = {_TILE_OFFSETS: offsets, _TILE_BYTE_COUNTS: src_len}
+        for k, (ifd, values) in enumerate(zip(ifds, filled)):
+            for tag in (_TILE_OFFSETS, _TILE_BYTE_COUNTS):
+                typ, count, vpos, epos = ifd[tag]
+                if (k, tag) in widen:  # the entry becomes LONG8: inline for one value, else at its new array
+                    at = widen[(k, tag)]
+                    out.seek(epos + 2)
+                    out.write(struct.pack(bo + "H", 16))
+                    typ, vpos = 16, (epos + 12 if at is None else at)
+                    if at is not None:
+                        out.seek(epos + 12)
+                        out.write(struct.pack(bo + "Q", at))
                 out.seek(vpos)
-                out.write(values.astype(np.dtype(bo + code)).tobytes())
+                out.write(values[tag].astype(np.dtype(bo + _TYPES[typ][0])).tobytes())
+
+
+def _capacity(typ: int) -> int:
+    """Largest value a tile-array field of TIFF type ``typ`` holds (LONG: also the classic file's limit)."""
+    return {3: 2**16 - 1, 4: min(2**32 - 1, CLASSIC_TIFF_MAX)}.get(typ, 2**64 - 1)
 
 
 def level_windows(height: int, width: int, rows: int = 2 * COG_TILE):

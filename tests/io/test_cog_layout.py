@@ -161,3 +161,21 @@ def test_dense_halving_equals_halving_the_valid_pixels(h, w, share, categorical,
     got = halve_dense(a, categorical=categorical, nodata=nodata)
     assert got.dtype == want.dtype and got.shape == want.shape
     np.testing.assert_array_equal(got, want)
+
+
+def test_tiles_past_the_classic_tiff_limit_make_a_bigtiff(tmp_path, monkeypatch):
+    """GDAL's skeleton is a classic TIFF while the uncompressed raster is under 4 GiB; tiles that end past
+    the 32-bit offsets (here: a limit lowered to 100 kB) make the writer redo it as a BigTIFF."""
+    from peatburn.io import cog_layout
+
+    grid = _grid(1200, 900)
+    full = _scene(grid, 0.5)
+    classic = _write(tmp_path / "classic.tif", grid, full, 512)
+    monkeypatch.setattr(cog_layout, "CLASSIC_TIFF_MAX", 100_000)
+    big = _write(tmp_path / "big.tif", grid, full, 512)
+    assert classic.read_bytes()[2:4] == b"\x2a\x00" and big.read_bytes()[2:4] == b"\x2b\x00"  # 42 / 43 (BigTIFF)
+    assert big.stat().st_size > 100_000 and cogeo.cog_validate(str(big))[0]
+    for level in (None, 0):
+        kw = {} if level is None else {"overview_level": level}
+        with rasterio.open(classic, **kw) as a, rasterio.open(big, **kw) as b:
+            np.testing.assert_array_equal(a.read(1), b.read(1))
