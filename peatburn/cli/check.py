@@ -27,6 +27,7 @@ def check_cmd(config, against, outputs):
 def _check_outputs(folder) -> None:
     import sys
 
+    from . import exit_codes
     from ..names import printable
     from ..outputs.checksums import check_outputs, describe
 
@@ -35,7 +36,7 @@ def _check_outputs(folder) -> None:
         click.echo(printable(line))  # file names in the folder may hold control characters
     if problems:
         click.echo(f"not one run's complete, unaltered set: {len(problems)} problem(s) in {printable(str(folder))}")
-        sys.exit(1)
+        sys.exit(exit_codes.DIFFERENCES)
     click.echo(f"ok: {printable(str(folder))} is one run's complete, unaltered set: {printable(describe(folder))}")
 
 
