@@ -14,6 +14,7 @@ non-terminal stream).
 from __future__ import annotations
 
 import logging
+import os
 import sys
 
 from tqdm import tqdm
@@ -49,12 +50,21 @@ class BlockProgress:
         if bar is None or done < bar.n or total != bar.total:  # the first call of a run
             if bar is not None:
                 bar.close()
-            bar = self._bar = _Bar(total=total, initial=done, file=self.stream or sys.stderr, disable=None,
-                                   delay=self.delay, mininterval=self.interval, desc="blocks", unit="block",
-                                   dynamic_ncols=True)
+            stream = self.stream or sys.stderr
+            bar = self._bar = _Bar(total=total, initial=done, file=stream, disable=None, delay=self.delay,
+                                   mininterval=self.interval, desc="blocks", unit="block", ncols=_columns(stream))
         bar.update(done - bar.n)
         if done >= total:
             bar.close()
+
+
+def _columns(stream) -> int:
+    """The terminal's width, or 80 where it tells none: with a width of 0 (a terminal of unset size, as
+    under ``script`` or a CI runner's pty) tqdm's dynamic width trims the whole line away."""
+    try:
+        return os.get_terminal_size(stream.fileno()).columns or 80
+    except (AttributeError, OSError, ValueError):
+        return 80
 
 
 def progress_bar(quiet: bool = False, stream=None, **kwargs):

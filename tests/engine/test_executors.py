@@ -283,6 +283,21 @@ def test_progress_throttles_redraws(clock):
     assert "100/100" in s.getvalue() and s.getvalue().endswith("\n")
 
 
+@pytest.mark.skipif(not hasattr(os, "openpty"), reason="needs a pseudo-terminal")
+def test_progress_draws_on_a_terminal_of_unset_size():
+    """A pseudo-terminal whose size was never set reports 0 columns (as under `script` or a CI runner):
+    the bar still draws, 80 columns wide."""
+    master, slave = os.openpty()
+    assert os.get_terminal_size(slave).columns == 0  # the premise: an unsized terminal
+    with os.fdopen(slave, "w") as stream:
+        p = BlockProgress(stream, delay=0.0, interval=0.0)
+        for i in range(1, 4):
+            p(i, 3)
+    text = os.read(master, 65536).decode("utf-8", "replace")
+    os.close(master)
+    assert "3/3 [" in text and "blocks: 100%" in text
+
+
 def test_progress_one_bar_per_run(clock):
     """`peatburn series` passes one callable to every year's run: each run gets its own bar."""
     s = FakeTTY()
