@@ -7,7 +7,7 @@ from .options import handle_errors
 
 @click.command("check")
 @click.argument("config", type=click.Path(dir_okay=False), required=False)
-@click.option("--against", "against", type=click.Path(dir_okay=False, exists=True), default=None,
+@click.option("--against", "against", type=click.Path(dir_okay=False), default=None,
               help="A provenance.json: tell whether the inputs still match it.")
 @click.option("--outputs", "outputs", type=click.Path(file_okay=False), default=None,
               help="A run's output folder: tell whether it is one run's complete, unaltered set (one line per "

@@ -108,9 +108,7 @@ def check(config, against=None, *, strict: bool = True) -> CheckReport:
         out.append(f"note: {printable(n)}")  # notes may quote names from input files
     problems = []
     if against:
-        with open(against, encoding="utf-8") as fh:
-            record = json.load(fh)
-        problems = compare_inputs(record)
+        problems = compare_inputs(_read_record(against))
         if problems and strict:
             raise mismatch_error(problems)
         if not problems:
@@ -119,3 +117,21 @@ def check(config, against=None, *, strict: bool = True) -> CheckReport:
         out.append("ok: the configuration is valid")
     return CheckReport(cfg, g, dict(inputs.rasters), list(inputs.notes), out, str(against) if against else None,
                        problems)
+
+
+def _read_record(path) -> dict:
+    """A provenance.json given as ``against``; a missing or unreadable file is bad input (one line)."""
+    from ..errors import InputFileError, MissingInputError
+
+    try:
+        with open(path, encoding="utf-8") as fh:
+            record = json.load(fh)
+    except FileNotFoundError:
+        raise MissingInputError(f"--against: {path} not found; give the provenance.json of an earlier run") from None
+    except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise InputFileError(f"--against: {path} is not a readable provenance.json ({exc.__class__.__name__}); "
+                             f"give the provenance.json of an earlier run") from None
+    if not isinstance(record, dict):
+        raise InputFileError(f"--against: {path} is not a provenance.json (no JSON object); give the "
+                             f"provenance.json of an earlier run")
+    return record

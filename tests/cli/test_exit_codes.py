@@ -74,6 +74,20 @@ def test_bad_config_content_exits_2(tmp_path):
     assert res.exit_code == 2 and len(res.output.strip().splitlines()) == 1, res.output
 
 
+@pytest.mark.parametrize("content", [None, "not json {", "[1, 2]"])
+def test_missing_or_unreadable_against_exits_2(scene, tmp_path, content):
+    """A file named on the command line that is missing or unreadable is bad input (2), as a missing
+    CONFIG is, not a usage error."""
+    against = tmp_path / "provenance.json"
+    if content is not None:
+        against.write_text(content)
+    res = _invoke("check", scene.config, "--against", against)
+    assert res.exit_code == 2, res.output
+    lines = res.output.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("peatburn: error: --against: ") and "provenance.json" in lines[0]
+    assert "Traceback" not in res.output and "Usage:" not in res.output
+
+
 def test_unexpected_error_exits_3_with_one_line(scene, tmp_path, monkeypatch):
     import peatburn.engine.runner
 
