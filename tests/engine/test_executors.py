@@ -293,8 +293,17 @@ def test_progress_draws_on_a_terminal_of_unset_size():
         p = BlockProgress(stream, delay=0.0, interval=0.0)
         for i in range(1, 4):
             p(i, 3)
-    text = os.read(master, 65536).decode("utf-8", "replace")
+    chunks = []
+    while True:  # a pty hands its output over in pieces; read until the closed slave ends it
+        try:
+            chunk = os.read(master, 65536)
+        except OSError:  # EIO: the slave side is closed and drained
+            break
+        if not chunk:
+            break
+        chunks.append(chunk)
     os.close(master)
+    text = b"".join(chunks).decode("utf-8", "replace")
     assert "3/3 [" in text and "blocks: 100%" in text
 
 
