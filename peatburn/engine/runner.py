@@ -357,8 +357,9 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
         for name, kw in specs:
             rasters.append(BlockRasterWriter(out_dir / name, grid, block_size=cfg.block_size, expected_share=share,
                                              **kw))
-        # blocks computed in other processes: write in a thread per raster, so the main process keeps up
-        writes = BlockWrites(rasters, threads=pool is not None or scheduler is not None)
+        # a thread per raster: the DEFLATE compression of the output tiles (once, in their final form) overlaps
+        # the computation, serial or parallel (docs/performance.md, benchmark 8)
+        writes = BlockWrites(rasters, threads=True)
         for i, r in enumerate(map_blocks(process_block, plan, windows, scheduler=scheduler, pool=pool,
                                          stages=(read_block, compute_block))):
             sums.add(r)

@@ -428,9 +428,9 @@ class BlockWrites:
     GDAL compresses a tile in the thread that writes it and releases the GIL meanwhile, so with
     threads the writes of the output rasters overlap each other and the caller's next block: the
     main process of a parallel run takes in a block in about 2.9 ms instead of 4.6 ms on the
-    benchmark scene (1.2x-2.3x over five measurements; benchmarks/bench_writes.py). A serial run
-    gains nothing from them on 2 cores (its reading thread and its computation already fill
-    them; docs/performance.md) and writes in its own thread.
+    benchmark scene (1.2x-2.3x over five measurements; benchmarks/bench_writes.py). Since the tiles are
+    compressed once in their final form (DEFLATE, slower than the former temporary ZSTD), a serial run
+    writes through them too (docs/performance.md, benchmark 8).
     """
 
     def __init__(self, writers: list, threads: bool = True, depth: int = 2):
