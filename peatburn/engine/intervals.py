@@ -33,9 +33,14 @@ def survey_error_model(alignment, pixel_area_m2: float, range_override: float | 
     from ..science import zone_error
 
     x, y, r = alignment.stable_sample
-    return zone_error.model_from_stable_sample(x, y, r, pixel_area_m2=pixel_area_m2,
-                                               stable_area_m2=alignment.n_stable_sample * pixel_area_m2,
-                                               sigma=float(alignment.nmad_after), range_m=range_override)
+    scale = getattr(alignment, "stable_scale", None)
+    out = zone_error.model_from_stable_sample(x, y, r, pixel_area_m2=pixel_area_m2,
+                                              stable_area_m2=alignment.n_stable_sample * pixel_area_m2,
+                                              sigma=float(alignment.nmad_after), range_m=range_override,
+                                              scale=scale)
+    # which spread was used: constant, or varying with the explanatory variables (science.error_scale)
+    out["error_scale"] = getattr(alignment, "error_scale", None)
+    return out
 
 
 def subsidence_map_sd(cfg) -> float:
@@ -143,6 +148,8 @@ def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0
                    for s in sources]
     params = unc.sources_to_params(sources, gwp=factors.gwp.gwp)
     params["gas_form"] = form
+    if survey and survey.get("scale_ref_m"):  # each zone at the RMS of its pixels' sd (zone sum sd2_area_survey)
+        params["survey_scale_ref_m"] = survey["scale_ref_m"]
     return params, sources, survey or {}
 
 

@@ -6,6 +6,8 @@ Patches of a zone's area are laid on the stable-ground sample the co-registratio
 of that size carries, measured; the model predicts ``sqrt(zone_sd^2 + bias_sd^2)``
 (:func:`peatburn.science.zone_error.coregistered_zone_sd`). Their ratio near 1 means calibrated
 (Rolstad et al. 2009 Sect. 4; Hugonnet et al. 2022, the patches method; recalled, unchecked).
+When the run chose a survey error spread that varies in space (science.error_scale), the patches are
+laid on the residuals standardised by the modelled per-pixel sd, so the check tests the same model.
 """
 
 from __future__ import annotations
@@ -42,6 +44,11 @@ def patch_check(alignment, survey: dict, pixel_area_m2: float, areas: dict, seed
         Seed of the patch positions.
     """
     x, y, r = alignment.stable_sample
+    scale = getattr(alignment, "stable_scale", None)
+    if survey.get("scale_ref_m") and scale is not None:
+        # a spread varying in space: the residuals standardised by their modelled sd (at the reference sd
+        # the model is stated at), so that each patch is compared with the same model the zones get
+        r, _ = zone_error.standardise(x, y, r, scale, survey.get("trend_coefficients"))
     n_all = max(int(alignment.n_stable_sample), 1)
     frac = min(max(len(r) / n_all, 1e-12), 1.0)
     comps = [(c["partial_sill_m2"], c["range_m"]) for c in survey["components"]]

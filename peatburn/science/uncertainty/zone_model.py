@@ -27,6 +27,8 @@ SUM_KEYS = {
     "carbon_kg": "sum d rho f A x 1000 [kg C]",
     "rho_area_survey": "sum rho A x 1000 over survey-depth pixels [kg/m]: peat mass per metre of depth",
     "rho_f_area_survey": "sum rho f A x 1000 over survey-depth pixels [kg C/m]",
+    "sd2_area_survey": "sum A sd^2 over survey-depth pixels [m4] (optional; a survey error spread that varies in "
+                       "space, with the parameter survey_scale_ref_m: science.error_scale)",
     "wt_area": "sum A over unclipped water-table-depth pixels [m2]",
     "wt_area_wt": "sum A wt over water-table pixels [m3] (optional)",
     "wt_rho_area": "sum rho A x 1000 over water-table pixels [kg/m] (optional)",
@@ -66,6 +68,8 @@ _PARAM_KEYS = {
     "subsidence_rate_map_sd_m_per_yr", "tier1_fuel_cv", "peat_fill_cv", "gas_form",
     # multi-range survey error (issue 16; science.zone_error): replaces sigma / range / nugget share when given
     "survey_nugget_m2", "survey_components", "survey_trend_sd_m", "surface_change_sd_m",
+    # the per-pixel sd the multi-range model is stated at, when the spread varies in space (sd2_area_survey)
+    "survey_scale_ref_m",
 }
 
 
@@ -161,8 +165,15 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
     if params.get("survey_components") is not None:
         from ..zone_error import zone_mean_sd  # here: zone_error imports this package
 
-        sz = zone_mean_sd(area, _nonneg(params, "survey_nugget_m2"), params["survey_components"],
-                          params.get("pixel_area_m2") or 1.0, _nonneg(params, "survey_trend_sd_m"))
+        s_ref = _nonneg(params, "survey_scale_ref_m")
+        if s_ref > 0:  # each zone at its own RMS sd: (s_z / s_ref)^2 x the zone-mean variance, + the trend
+            rel2 = ratio(get("sd2_area_survey"), area * s_ref**2)
+            sz = zone_mean_sd(area, _nonneg(params, "survey_nugget_m2"), params["survey_components"],
+                              params.get("pixel_area_m2") or 1.0)
+            sz = np.sqrt(sz**2 * np.where(area > 0, rel2, 1.0) + _nonneg(params, "survey_trend_sd_m") ** 2)
+        else:
+            sz = zone_mean_sd(area, _nonneg(params, "survey_nugget_m2"), params["survey_components"],
+                              params.get("pixel_area_m2") or 1.0, _nonneg(params, "survey_trend_sd_m"))
     elif sig > 0:
         rng_m = params.get("survey_range_m")
         if rng_m is None:
