@@ -70,12 +70,19 @@ def _spread_words(choice: dict | None) -> str:
     vt, loc = choice["variables_test"], choice["local"]
     if not choice["chosen"]:
         return (f"constant over the scene: {', '.join(vt['variables'])} tested, {vt['reason']}; "
-                f"{loc.get('reason', 'local spread not tested')}")
+                f"{loc.get('reason', 'local spread not tested')}" + _shift_words(choice))
     c = choice["coefficients"]
     terms = " + ".join([f"{c['const']:.3g} m2"] + [f"{c[k]:.3g} x {k}^2" for k in choice["variables"]])
     parts = [f"sd^2 = {terms} ({vt['reason']})" if choice["variables"] else f"no variable explains it ({vt['reason']})"]
     parts.append(f"times a map of the local spread ({loc['reason']})" if loc["chosen"] else loc.get("reason", ""))
-    return "varies in space (Hugonnet et al. 2022): " + "; ".join(p for p in parts if p)
+    words = "varies in space (Hugonnet et al. 2022): " + "; ".join(p for p in parts if p)
+    return words + _shift_words(choice)
+
+
+def _shift_words(choice: dict) -> str:
+    sh = choice.get("shift") or {}
+    return (f"; zones also carry a residual shift times their mean slope ({sh['reason']})" if sh.get("chosen")
+            else "")
 
 
 def _stable_mask(inputs: Inputs, grid: RunGrid, window: Window) -> np.ndarray:
@@ -161,6 +168,7 @@ def coregister(inputs: Inputs, random_state: int = 0) -> SurveyAlignment:
     # stable-ground statistics at full resolution on the same windows
     before, after, xs, ys = [], [], [], []
     cov = {"slope": []}
+    grads = ([], [])
     quality = None
     if cfg.survey.quality is not None:
         quality = GridReader(RasterSource(str(cfg.survey.quality), "depth.survey.quality"), grid)
@@ -178,7 +186,10 @@ def coregister(inputs: Inputs, random_state: int = 0) -> SurveyAlignment:
                 x, y = grid.pixel_centres(w)
                 xs.append(np.broadcast_to(x, a.shape)[ok])
                 ys.append(np.broadcast_to(y, a.shape)[ok])
-                cov["slope"].append(error_scale.surface_slope(s.pre, *pixel_sides_m(grid, w))[ok])
+                gx, gy = error_scale.surface_gradient(s.pre, *pixel_sides_m(grid, w))
+                grads[0].append(gx[ok])
+                grads[1].append(gy[ok])
+                cov["slope"].append(np.hypot(gx, gy)[ok])
                 if quality is not None:
                     cov["quality"].append(quality.read(w)[ok])
     finally:
@@ -195,7 +206,8 @@ def coregister(inputs: Inputs, random_state: int = 0) -> SurveyAlignment:
     xs_all, ys_all = np.concatenate(xs), np.concatenate(ys)
     keep = np.random.default_rng(random_state).permutation(after.size)[:STABLE_SAMPLE_MAX]
     choice, scale = _error_scale(xs_all[keep], ys_all[keep], after[keep],
-                                 {k: np.concatenate(v)[keep] for k, v in cov.items()})
+                                 {k: np.concatenate(v)[keep] for k, v in cov.items()},
+                                 tuple(np.concatenate(g)[keep] for g in grads))
     return SurveyAlignment(
         shift_x=est.shift_x, shift_y=est.shift_y, shift_z=est.shift_z, tilt=tilt, post_transform=post_t,
         nmad_before=float(survey.nmad(before)), nmad_after=s_after,
@@ -215,14 +227,16 @@ def pixel_sides_m(grid: RunGrid, window: Window) -> tuple[float, float]:
     return side * aspect, side / aspect
 
 
-def _error_scale(x, y, residual, variables: dict):
+def _error_scale(x, y, residual, variables: dict, gradient=None):
     """The survey error spread on the stable sample (science.error_scale), after removing a
     least-squares plane (a trend is not a spread): first a per-pixel sd from the explanatory
     variables (slope, quality raster), then a map of the local spread of the differences over that sd
     (or over one constant sd). Returns ``(choice, sd at each sample point or None)``; ``choice`` holds
     both tests (``variables_test``, ``local``), whether either was chosen (``chosen``), the
     ``coefficients`` and ``variables`` of the sd applied (a constant NMAD^2 when the variables were not
-    chosen) and the ``fill`` of missing variables (their median on stable ground)."""
+    chosen) and the ``fill`` of missing variables (their median on stable ground); and, with the
+    pre-fire survey's ``gradient`` (dz/dx, dz/dy) at the points, the test of a residual shift that
+    varies across the scene (``shift``, science.error_scale.choose_local_shift)."""
     if residual.size < 200:
         return None, None
     coef = coregistration.fit_plane(x, y, residual)
@@ -238,7 +252,9 @@ def _error_scale(x, y, residual, variables: dict):
         sd = np.full(r.size, math.sqrt(coefficients["const"]))
     local = error_scale.choose_local_scale(x, y, r / sd) if np.all(sd > 0) else {"chosen": False, "reason": "no spread"}
     choice = {"chosen": bool(var_test["chosen"] or local["chosen"]), "coefficients": coefficients, "variables": used,
-              "fill": fill, "variables_test": var_test, "local": local}
+              "fill": fill, "variables_test": var_test, "local": local,
+              "shift": error_scale.choose_local_shift(x, y, r, *gradient) if gradient is not None else
+              {"chosen": False, "reason": "not tested"}}
     if not choice["chosen"]:
         return choice, None
     if local["chosen"]:

@@ -157,10 +157,11 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
 def _error_scale(alignment) -> dict | None:
     """The per-pixel sd model the blocks apply, when the co-registration chose one."""
     ch = getattr(alignment, "error_scale", None)
-    if not ch or not ch.get("chosen"):
+    if not ch or not (ch.get("chosen") or ch.get("shift", {}).get("chosen")):
         return None
     return {"coefficients": dict(ch["coefficients"]), "fill": dict(ch["fill"]), "variables": list(ch["variables"]),
-            "local": ch["local"] if ch["local"].get("chosen") else None}
+            "local": ch["local"] if ch["local"].get("chosen") else None, "spread": bool(ch["chosen"]),
+            "shift": ch["shift"] if ch["shift"].get("chosen") else None}
 
 
 def _extent_source(inputs: Inputs):

@@ -45,7 +45,7 @@ import numpy as np
 
 from ..errors import PhysicalRangeError
 
-__all__ = ["surface_slope", "binned_nmad", "fit_error_scale", "error_scale_at", "choose_error_scale",
+__all__ = ["surface_gradient", "surface_slope", "choose_local_shift", "local_shift_at", "binned_nmad", "fit_error_scale", "error_scale_at", "choose_error_scale",
            "N_BINS", "CHOICE_ALPHA", "MIN_SPREAD_RATIO", "NMAD_SE_FACTOR"]
 
 #: Quantile bins per variable (with two variables, N_BINS x N_BINS cross bins).
@@ -63,14 +63,15 @@ NMAD_SE_FACTOR = 1.167
 MIN_BIN_COUNT = 30
 
 
-def surface_slope(z, dx_m, dy_m=None):
-    """tan(slope) = |grad z| of a surface [m/m] by central differences (one-sided at the edges;
-    ``numpy.gradient``; common practice). NaN where a neighbour is missing.
+def surface_gradient(z, dx_m, dy_m=None):
+    """Gradient of a surface, ``(dz/dx, dz/dy)`` [m/m], x east and y north on a north-up grid (rows run
+    south), by central differences (one-sided at the edges; ``numpy.gradient``; common practice). NaN
+    where a neighbour is missing.
 
     Parameters
     ----------
     z : array_like
-        Surface elevation [m], 2-D.
+        Surface elevation [m], 2-D (rows north to south).
     dx_m, dy_m : float
         Pixel width and height [m] (``dy_m`` defaults to ``dx_m``).
     """
@@ -78,13 +79,19 @@ def surface_slope(z, dx_m, dy_m=None):
     dx = float(dx_m)
     dy = dx if dy_m is None else float(dy_m)
     if not (dx > 0 and dy > 0):
-        raise PhysicalRangeError("surface_slope: pixel sizes must be > 0 m")
+        raise PhysicalRangeError("surface_gradient: pixel sizes must be > 0 m")
     if z.ndim != 2:
-        raise PhysicalRangeError("surface_slope: z must be 2-D")
+        raise PhysicalRangeError("surface_gradient: z must be 2-D")
     if min(z.shape) < 2:
-        return np.full(z.shape, np.nan)
-    gy, gx = np.gradient(z, dy, dx)
-    return np.hypot(gx, gy)
+        nan = np.full(z.shape, np.nan)
+        return nan, nan.copy()
+    g_row, gx = np.gradient(z, dy, dx)
+    return gx, -g_row
+
+
+def surface_slope(z, dx_m, dy_m=None):
+    """tan(slope) = |grad z| of a surface [m/m] (:func:`surface_gradient`)."""
+    return np.hypot(*surface_gradient(z, dx_m, dy_m))
 
 
 def binned_nmad(values, variables: dict, n_bins: int = N_BINS):
@@ -173,6 +180,21 @@ def error_scale_at(coef: dict, variables: dict):
     return np.maximum(np.sqrt(var), coef.get("floor_m", 0.0))
 
 
+def _support(rel_nmad, counts, fitted):
+    """The test of a varying spread: ``(chi2, dof, p, ratio, supported)`` from binned NMADs relative to
+    the NMAD of all (``rel_nmad``), their counts, and the fitted sd (or factor) at the stable points."""
+    from scipy.stats import chi2 as chi2_dist
+
+    se = NMAD_SE_FACTOR / np.sqrt(np.asarray(counts, dtype="float64"))
+    chi2 = float(np.sum(((np.asarray(rel_nmad) - 1.0) / se) ** 2))
+    dof = int(np.size(rel_nmad) - 1)
+    p = float(chi2_dist.sf(chi2, dof))
+    lo, hi = np.quantile(fitted, [0.1, 0.9])
+    ratio = float(hi / lo) if lo > 0 else float("inf")
+    supported = p < CHOICE_ALPHA and math.isfinite(ratio) and ratio >= MIN_SPREAD_RATIO
+    return chi2, dof, p, ratio, bool(supported)
+
+
 def choose_error_scale(values, variables: dict, n_bins: int = N_BINS):
     """Fit the varying sd on stable ground and say whether it is supported (module docstring).
 
@@ -190,8 +212,6 @@ def choose_error_scale(values, variables: dict, n_bins: int = N_BINS):
         ``spread_ratio`` (fitted sd at the 90th over the 10th percentile of the stable pixels),
         ``bins`` (the binned NMADs, as lists), ``reason`` (words).
     """
-    from scipy.stats import chi2 as chi2_dist
-
     from .survey import nmad
 
     v = np.asarray(values, dtype="float64")
@@ -210,20 +230,14 @@ def choose_error_scale(values, variables: dict, n_bins: int = N_BINS):
         out["reason"] = "fewer than 3 bins of the explanatory variables hold enough stable pixels"
         return out
     m0 = float(nmad(v))
-    se = NMAD_SE_FACTOR * m0 / np.sqrt(b["count"])
-    chi2 = float(np.sum(((b["nmad"] - m0) / se) ** 2))
-    dof = int(b["nmad"].size - 1)
-    p = float(chi2_dist.sf(chi2, dof))
     coef = fit_error_scale(b)
     sd = error_scale_at(coef, var)
-    lo, hi = np.quantile(sd, [0.1, 0.9])
-    coef["floor_m"] = float(lo) / 4.0
-    ratio = float(hi / lo) if lo > 0 else float("inf")
+    chi2, dof, p, ratio, supported = _support(b["nmad"] / m0, b["count"], sd)
+    coef["floor_m"] = float(np.quantile(sd, 0.1)) / 4.0
     out.update(coefficients=coef, chi2=chi2, dof=dof, p_value=p, spread_ratio=ratio,
                bins={"centre": {k: c.tolist() for k, c in b["centre"].items()}, "nmad_m": b["nmad"].tolist(),
                      "count": b["count"].astype(int).tolist()})
-    supported = p < CHOICE_ALPHA and ratio >= MIN_SPREAD_RATIO and math.isfinite(ratio) and lo > 0
-    out["chosen"] = bool(supported)
+    out["chosen"] = supported
     out["reason"] = (f"binned NMAD varies beyond sampling noise (chi-square {chi2:.0f} on {dof} dof, p = {p:.2g}) "
                      f"and the fitted sd varies {ratio:.2f}-fold between the 10th and 90th percentile"
                      if supported else
@@ -262,8 +276,6 @@ def choose_local_scale(x, y, values):
         ``chosen``, ``x_centres``, ``y_centres`` [m], ``factor`` (K x K list of lists, rows by y),
         ``chi2``, ``dof``, ``p_value``, ``spread_ratio``, ``reason``.
     """
-    from scipy.stats import chi2 as chi2_dist
-
     from .survey import nmad
 
     x = np.asarray(x, dtype="float64")
@@ -273,14 +285,11 @@ def choose_local_scale(x, y, values):
     x, y, v = x[ok], y[ok], v[ok]
     out = {"chosen": False, "x_centres": None, "y_centres": None, "factor": None, "chi2": float("nan"), "dof": 0,
            "p_value": float("nan"), "spread_ratio": 1.0}
-    k = int(min(MAX_CELLS, math.isqrt(max(v.size // POINTS_PER_CELL, 0))))
-    if k < 2 or not (np.ptp(x) > 0 and np.ptp(y) > 0):
+    cells = _cells(x, y, v.size)
+    if cells is None:
         out["reason"] = "too few stable pixels for a map of the local spread"
         return out
-    ex = np.linspace(x.min(), x.max(), k + 1)
-    ey = np.linspace(y.min(), y.max(), k + 1)
-    ix = np.clip(np.searchsorted(ex, x, side="right") - 1, 0, k - 1)
-    iy = np.clip(np.searchsorted(ey, y, side="right") - 1, 0, k - 1)
+    k, ex, ey, ix, iy = cells
     m0 = float(nmad(v))
     if not m0 > 0:
         out["reason"] = "no spread on stable ground"
@@ -297,20 +306,13 @@ def choose_local_scale(x, y, values):
     if good.sum() < 3:
         out["reason"] = "fewer than 3 cells hold enough stable pixels"
         return out
-    se = NMAD_SE_FACTOR / np.sqrt(n[good])
-    chi2 = float(np.sum(((g[good] - 1.0) / se) ** 2))
-    dof = int(good.sum() - 1)
-    p = float(chi2_dist.sf(chi2, dof))
+    g_cells, n_cells = g[good], n[good]
     g = np.where(good, g, np.nanmedian(g[good]))  # cells without enough points: the median factor
     g = np.maximum(g, 0.25 * float(np.quantile(g, 0.1)))
     cx, cy = (ex[:-1] + ex[1:]) / 2, (ey[:-1] + ey[1:]) / 2
-    out.update(x_centres=cx.tolist(), y_centres=cy.tolist(), factor=g.tolist(), chi2=chi2, dof=dof, p_value=p)
-    f = local_scale_at(out, x, y)
-    lo, hi = np.quantile(f, [0.1, 0.9])
-    ratio = float(hi / lo) if lo > 0 else float("inf")
-    out["spread_ratio"] = ratio
-    supported = p < CHOICE_ALPHA and ratio >= MIN_SPREAD_RATIO and math.isfinite(ratio)
-    out["chosen"] = bool(supported)
+    out.update(x_centres=cx.tolist(), y_centres=cy.tolist(), factor=g.tolist())
+    chi2, dof, p, ratio, supported = _support(g_cells, n_cells, local_scale_at(out, x, y))
+    out.update(chi2=chi2, dof=dof, p_value=p, spread_ratio=ratio, chosen=supported)
     out["reason"] = (f"local spread varies beyond sampling noise over {k} x {k} cells (chi-square {chi2:.0f} on "
                      f"{dof} dof, p = {p:.2g}; {ratio:.2f}-fold between the 10th and 90th percentile)"
                      if supported else
@@ -332,3 +334,93 @@ def local_scale_at(local: dict, x, y):
     xx, yy = np.broadcast_arrays(xx, yy)
     f = RegularGridInterpolator((cy, cx), g, method="linear")
     return f(np.column_stack([yy.ravel(), xx.ravel()])).reshape(xx.shape)
+
+
+def _cells(x, y, n_points):
+    """K x K cells over the extent of the points (K = sqrt(n / POINTS_PER_CELL), 2 to MAX_CELLS): edges, cell
+    index of each point; None when fewer than 2 x 2 cells are possible."""
+    k = int(min(MAX_CELLS, math.isqrt(max(n_points // POINTS_PER_CELL, 0))))
+    if k < 2 or not (np.ptp(x) > 0 and np.ptp(y) > 0):
+        return None
+    ex = np.linspace(x.min(), x.max(), k + 1)
+    ey = np.linspace(y.min(), y.max(), k + 1)
+    ix = np.clip(np.searchsorted(ex, x, side="right") - 1, 0, k - 1)
+    iy = np.clip(np.searchsorted(ey, y, side="right") - 1, 0, k - 1)
+    return k, ex, ey, ix, iy
+
+
+def choose_local_shift(x, y, values, gx, gy):
+    """A map of the residual horizontal shift left after a global co-registration, and whether it is
+    supported.
+
+    A shift (dx, dy) of one survey against the other changes the difference by ``dx dz/dx + dy dz/dy``
+    (Nuth & Kääb 2011, recalled, unchecked). A global co-registration removes one shift for the scene;
+    a shift that varies across it stays. In each of the K x K cells of :func:`choose_local_scale` the
+    stable-ground differences are regressed on (1, dz/dx, dz/dy) by least squares; the cell's shift
+    estimate less its sampling variance gives the local shift size, per component
+    ``s_c^2 = max((dx^2 - se_x^2 + dy^2 - se_y^2) / 2, 0)`` [m^2]. The shift is not corrected (the
+    estimates stay as they are); its local size is taken as the sd of a shift of unknown direction,
+    so a zone's mean error from it has the variance ``s^2 ((mean dz/dx)^2 + (mean dz/dy)^2)`` over the
+    zone's pixels: the shift times the zone's *mean* gradient, a long-range error the variogram of the
+    pixels barely shows. Chosen when the cells' shifts differ from zero beyond their least-squares
+    standard errors (chi-square on 2 x cells dof at :data:`CHOICE_ALPHA`; the standard errors take the
+    differences as independent, so correlated error makes the test readier to choose).
+
+    Returns
+    -------
+    dict
+        ``chosen``, ``x_centres``, ``y_centres``, ``shift_sd_m`` (K x K, rows by y), ``shifts_m``
+        (K x K x 2 estimates), ``chi2``, ``dof``, ``p_value``, ``reason``.
+    """
+    from scipy.stats import chi2 as chi2_dist
+
+    x, y, v, gx, gy = (np.asarray(a, dtype="float64") for a in (x, y, values, gx, gy))
+    ok = np.isfinite(x) & np.isfinite(y) & np.isfinite(v) & np.isfinite(gx) & np.isfinite(gy)
+    x, y, v, gx, gy = x[ok], y[ok], v[ok], gx[ok], gy[ok]
+    out = {"chosen": False, "x_centres": None, "y_centres": None, "shift_sd_m": None, "shifts_m": None,
+           "chi2": float("nan"), "dof": 0, "p_value": float("nan")}
+    cells = _cells(x, y, v.size)
+    if cells is None:
+        out["reason"] = "too few stable pixels for a map of the residual shift"
+        return out
+    k, ex, ey, ix, iy = cells
+    s2 = np.full((k, k), np.nan)
+    shifts = np.zeros((k, k, 2))
+    chi2, dof = 0.0, 0
+    for j in range(k):
+        for i in range(k):
+            sel = (iy == j) & (ix == i)
+            if sel.sum() < MIN_BIN_COUNT:
+                continue
+            a = np.column_stack([np.ones(sel.sum()), gx[sel], gy[sel]])
+            coef, _res, rank, _sv = np.linalg.lstsq(a, v[sel], rcond=None)
+            if rank < 3:
+                continue
+            resid = v[sel] - a @ coef
+            var = float(resid @ resid) / max(sel.sum() - 3, 1)
+            se2 = np.diag(np.linalg.inv(a.T @ a)) * var
+            shifts[j, i] = coef[1:]
+            s2[j, i] = max((coef[1] ** 2 - se2[1] + coef[2] ** 2 - se2[2]) / 2.0, 0.0)
+            chi2 += float(coef[1] ** 2 / se2[1] + coef[2] ** 2 / se2[2])
+            dof += 2
+    if dof < 6:
+        out["reason"] = "fewer than 3 cells hold enough stable pixels with a slope"
+        return out
+    p = float(chi2_dist.sf(chi2, dof))
+    s2 = np.where(np.isfinite(s2), s2, np.nanmedian(s2))
+    out.update(x_centres=((ex[:-1] + ex[1:]) / 2).tolist(), y_centres=((ey[:-1] + ey[1:]) / 2).tolist(),
+               shift_sd_m=np.sqrt(s2).tolist(), shifts_m=shifts.tolist(), chi2=chi2, dof=dof, p_value=p,
+               chosen=bool(p < CHOICE_ALPHA))
+    med = float(np.median(np.sqrt(s2)))
+    out["reason"] = (f"a residual shift varies over {k} x {k} cells (chi-square {chi2:.0f} on {dof} dof, p = {p:.2g}; "
+                     f"median local shift sd {med:.2g} m per axis)" if out["chosen"] else
+                     f"residual shift over {k} x {k} cells not supported: chi-square {chi2:.0f} on {dof} dof "
+                     f"(p = {p:.2g})")
+    return out
+
+
+def local_shift_at(shift: dict, x, y):
+    """The local residual shift sd of :func:`choose_local_shift` at points [m] (bilinear between cell
+    centres, constant beyond)."""
+    return local_scale_at({"x_centres": shift["x_centres"], "y_centres": shift["y_centres"],
+                           "factor": shift["shift_sd_m"]}, x, y)

@@ -137,8 +137,11 @@ def test_run_intervals_cover_and_are_not_too_wide(tmp_path, kind):
     cover, width, res = _coverage(tmp_path, kind)
     # a plane's values over the scene are spread uniformly, not normally: an interval of calibrated sd covers
     # a uniform error wholly (1.96 sd > sqrt(3) sd, its half-range), so the upper bound does not apply there;
+    # likewise the misregistration: the scene's shift has one direction (x), which the model takes as unknown
+    # (sd s per axis), so a zone's error dx mean(dz/dx) is at most sqrt(2) x its modelled sd
+    # (s^2 = dx^2 / 2; sd^2 = s^2 (mean(dz/dx)^2 + mean(dz/dy)^2)) and a calibrated interval always covers it;
     # the width check below still fails an interval that is too wide
-    assert 0.90 <= cover <= (1.0 if kind == "tilt" else 0.99), f"{kind}: coverage {cover:.2f}"
+    assert 0.90 <= cover <= (1.0 if kind in ("tilt", "shift_field") else 0.99), f"{kind}: coverage {cover:.2f}"
     assert 0.67 <= width <= 1.5, f"{kind}: median half-width / 1.96 RMS = {width:.2f}"
 
 

@@ -57,3 +57,23 @@ def test_local_map_follows_strips_and_not_white_noise():
     f = es.local_scale_at(ch, np.array([50.0, 950.0]), np.array([500.0, 500.0]))
     # the factors are relative to the NMAD of the whole mixture; their ratio is the strips' ratio, 3
     assert f[1] / f[0] == pytest.approx(3.0, rel=0.1)
+
+
+def test_local_shift_map_finds_a_growing_misregistration_and_not_noise():
+    """A residual shift growing from -0.6 to +0.6 m along x, dz = shift(x) dz/dx (Nuth & Kääb 2011): the cells'
+    shift sd per axis is |shift| / sqrt(2) (model: a shift of unknown direction, the estimate's size shared
+    by two axes); noise unrelated to the slope is not taken for a shift."""
+    rng = np.random.default_rng(7)
+    n = 40_000
+    x, y = rng.uniform(0, 1000, n), rng.uniform(0, 1000, n)
+    gx, gy = rng.normal(0, 0.15, n), rng.normal(0, 0.15, n)
+    noise = rng.normal(0, 0.04, n)
+    assert not es.choose_local_shift(x, y, noise, gx, gy)["chosen"]
+    shift = (x / 1000 - 0.5) * 1.2
+    ch = es.choose_local_shift(x, y, noise + shift * gx, gx, gy)
+    assert ch["chosen"]
+    k = len(ch["x_centres"])
+    edge = (np.asarray(ch["x_centres"])[-1] / 1000 - 0.5) * 1.2  # the shift at the last cells' centre
+    s = es.local_shift_at(ch, np.array([ch["x_centres"][-1]] * 3), np.array(ch["y_centres"][:3]))
+    assert np.allclose(s, abs(edge) / math.sqrt(2), rtol=0.1)
+    assert k >= 2
