@@ -364,7 +364,11 @@ def choose_local_shift(x, y, values, gx, gy):
     zone's pixels: the shift times the zone's *mean* gradient, a long-range error the variogram of the
     pixels barely shows. Chosen when the cells' shifts differ from zero beyond their least-squares
     standard errors (chi-square on 2 x cells dof at :data:`CHOICE_ALPHA`; the standard errors take the
-    differences as independent, so correlated error makes the test readier to choose).
+    differences as independent, so correlated error alone makes this test readier to choose) **and** a
+    held-out check agrees: each cell's quarters are split into two diagonal halves (NW + SE, NE + SW)
+    fitted apart, and their shift estimates must correlate over the cells (one-sided test of Pearson's
+    r at the same level): a real shift field is seen by both halves, a shift fitted on noise of a
+    shorter range than a quarter is not.
 
     Returns
     -------
@@ -384,39 +388,64 @@ def choose_local_shift(x, y, values, gx, gy):
         out["reason"] = "too few stable pixels for a map of the residual shift"
         return out
     k, ex, ey, ix, iy = cells
+    from scipy.stats import t as t_dist
+
     s2 = np.full((k, k), np.nan)
     shifts = np.zeros((k, k, 2))
     chi2, dof = 0.0, 0
+    # held-out check: each cell's 2 x 2 quarters in two diagonal halves, fitted apart
+    qx = (x - ex[ix]) > (ex[ix + 1] - ex[ix]) / 2
+    qy = (y - ey[iy]) > (ey[iy + 1] - ey[iy]) / 2
+    diag = qx == qy
+    halves = ([], [])
     for j in range(k):
         for i in range(k):
             sel = (iy == j) & (ix == i)
-            if sel.sum() < MIN_BIN_COUNT:
+            fit = _shift_fit(v[sel], gx[sel], gy[sel])
+            if fit is None:
                 continue
-            a = np.column_stack([np.ones(sel.sum()), gx[sel], gy[sel]])
-            coef, _res, rank, _sv = np.linalg.lstsq(a, v[sel], rcond=None)
-            if rank < 3:
-                continue
-            resid = v[sel] - a @ coef
-            var = float(resid @ resid) / max(sel.sum() - 3, 1)
-            se2 = np.diag(np.linalg.inv(a.T @ a)) * var
+            coef, se2 = fit
             shifts[j, i] = coef[1:]
             s2[j, i] = max((coef[1] ** 2 - se2[1] + coef[2] ** 2 - se2[2]) / 2.0, 0.0)
             chi2 += float(coef[1] ** 2 / se2[1] + coef[2] ** 2 / se2[2])
             dof += 2
+            fa = _shift_fit(v[sel & diag], gx[sel & diag], gy[sel & diag])
+            fb = _shift_fit(v[sel & ~diag], gx[sel & ~diag], gy[sel & ~diag])
+            if fa is not None and fb is not None:
+                halves[0].extend(fa[0][1:])
+                halves[1].extend(fb[0][1:])
     if dof < 6:
         out["reason"] = "fewer than 3 cells hold enough stable pixels with a slope"
         return out
     p = float(chi2_dist.sf(chi2, dof))
+    m = len(halves[0])
+    r = float(np.corrcoef(halves[0], halves[1])[0, 1]) if m >= 6 else float("nan")
+    p_r = float(t_dist.sf(r * math.sqrt((m - 2) / max(1.0 - r * r, 1e-12)), m - 2)) if math.isfinite(r) else 1.0
     s2 = np.where(np.isfinite(s2), s2, np.nanmedian(s2))
     out.update(x_centres=((ex[:-1] + ex[1:]) / 2).tolist(), y_centres=((ey[:-1] + ey[1:]) / 2).tolist(),
                shift_sd_m=np.sqrt(s2).tolist(), shifts_m=shifts.tolist(), chi2=chi2, dof=dof, p_value=p,
-               chosen=bool(p < CHOICE_ALPHA))
+               held_out_r=r, held_out_p=p_r, chosen=bool(p < CHOICE_ALPHA and p_r < CHOICE_ALPHA))
     med = float(np.median(np.sqrt(s2)))
-    out["reason"] = (f"a residual shift varies over {k} x {k} cells (chi-square {chi2:.0f} on {dof} dof, p = {p:.2g}; "
-                     f"median local shift sd {med:.2g} m per axis)" if out["chosen"] else
-                     f"residual shift over {k} x {k} cells not supported: chi-square {chi2:.0f} on {dof} dof "
-                     f"(p = {p:.2g})")
+    test = (f"chi-square {chi2:.0f} on {dof} dof, p = {p:.2g}; the two diagonal halves of the cells agree, "
+            f"r = {r:.2f} over {m} shift components, p = {p_r:.2g}")
+    out["reason"] = (f"a residual shift varies over {k} x {k} cells ({test}; median local shift sd {med:.2g} m per "
+                     f"axis)" if out["chosen"] else
+                     f"residual shift over {k} x {k} cells not supported ({test}; both p need < {CHOICE_ALPHA:g})")
     return out
+
+
+def _shift_fit(v, gx, gy):
+    """Least squares of differences on (1, dz/dx, dz/dy): coefficients and their variances (independent
+    differences), or None with fewer than MIN_BIN_COUNT points or a rank-deficient design."""
+    if v.size < MIN_BIN_COUNT:
+        return None
+    a = np.column_stack([np.ones(v.size), gx, gy])
+    coef, _res, rank, _sv = np.linalg.lstsq(a, v, rcond=None)
+    if rank < 3:
+        return None
+    resid = v - a @ coef
+    var = float(resid @ resid) / max(v.size - 3, 1)
+    return coef, np.diag(np.linalg.inv(a.T @ a)) * var
 
 
 def local_shift_at(shift: dict, x, y):

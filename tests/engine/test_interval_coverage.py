@@ -135,6 +135,8 @@ def _coverage(tmp_path, kind, seed=0):
 @pytest.mark.parametrize("kind", ["white", "gauss20", "shift_field", "tilt"])
 def test_run_intervals_cover_and_are_not_too_wide(tmp_path, kind):
     cover, width, res = _coverage(tmp_path, kind)
+    # the residual shift map: found where the scene has one, not taken from correlated noise (held-out check)
+    assert ("residual shift times" in res.qa["survey_error_spread"]) == (kind == "shift_field")
     # a plane's values over the scene are spread uniformly, not normally: an interval of calibrated sd covers
     # a uniform error wholly (1.96 sd > sqrt(3) sd, its half-range), so the upper bound does not apply there;
     # likewise the misregistration: the scene's shift has one direction (x), which the model takes as unknown
