@@ -53,6 +53,7 @@ class RunPlan:
     fill_cv: float = 0.0  # relative spread of a filled value (uncertainty source peat_property_fill)
     # earlier years of a series: (burn depth, depth method) RasterSources per year (docs/method.md 7.7)
     earlier_burns: tuple = ()
+    earlier_tier1_fuel: tuple = ()  # the Tier 1 fuel consumption [t/ha] each earlier year used
     #: a survey error spread varying in space, when chosen on stable ground (science.error_scale):
     #: ``{"coefficients", "fill", "variables"}``; the blocks sum A sd^2 over the surveyed pixels
     error_scale: dict | None = None
@@ -148,6 +149,7 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
         earlier_burns=tuple((RasterSource(str(d), f"series.earlier_burns[{i}].depth", resampling="nearest"),
                              RasterSource(str(m), f"series.earlier_burns[{i}].method", resampling="nearest"))
                             for i, (d, m) in enumerate(cfg.earlier_burns)),
+        earlier_tier1_fuel=tuple(float(v) for v in getattr(cfg, "earlier_tier1_fuel_t_ha", ())),
         error_scale=_error_scale(alignment),
         quality=RasterSource(str(sv.quality), "depth.survey.quality")
         if sv and sv.quality is not None and "quality" in (_error_scale(alignment) or {}).get("variables", ()) else None,
