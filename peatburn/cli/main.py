@@ -9,6 +9,7 @@ from .calibrate import calibrate_cmd
 from .check import check_cmd
 from .demo import demo_cmd
 from .factors import factors_cmd
+from .ground import ground_cmd
 from .options import ExitStatusGroup, configure_logging
 from .run import run_cmd
 from .series import series_cmd
@@ -31,3 +32,4 @@ cli.add_command(demo_cmd)
 cli.add_command(factors_cmd)
 cli.add_command(calibrate_cmd)
 cli.add_command(series_cmd)
+cli.add_command(ground_cmd)

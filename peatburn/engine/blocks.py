@@ -277,7 +277,12 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
     st = _state(plan)
     grid = plan.grid
     shape = (int(window.height), int(window.width))
-    burned = st["scars"].mask(grid, window)
+    # the scars' own zone layer, rasterized once: its bins give the burned mask too (a pixel is burned
+    # where a pass of the layer puts a scar: the same polygons and GDAL rule as rasterizing all at once)
+    zones = st["zones"]
+    scar_i = next((i for i, z in enumerate(zones) if z.name == SCAR_LAYER and len(z.ids) == len(plan.scars)), None)
+    scar_bins = zones[scar_i].bin_rasters(grid, window) if scar_i is not None else None
+    burned = scar_bins[-1] == 0 if scar_bins is not None else st["scars"].mask(grid, window)
     if not burned.any():  # most blocks of a national mosaic: no reads, no zone rasterization
         return BlockData(window, None)
 
@@ -298,7 +303,8 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
         in_extent=_in_extent(st, plan, window, burned),
         scar=st["scars"].rasterize(grid, window)[burned] if plan.station_days is not None and m is not None else None,
         edge=edge_distance(st, plan, window, EDGE_REACH * _taper_m(m))[burned] if _taper_m(m) > 0 else None,
-        zone_bins=[[b[burned] for b in z.bin_rasters(grid, window)] for z in st["zones"]],
+        zone_bins=[[b[burned] for b in (scar_bins if i == scar_i else z.bin_rasters(grid, window))]
+                   for i, z in enumerate(zones)],
         **(survey_error_terms(st, plan, window, burned) if plan.error_scale is not None and pre is not None else {}),
     )
 

@@ -181,8 +181,39 @@ def _started() -> int:
     return os.getpid()
 
 
-def _pool_task(fn, plan_path: str, windows):
-    """Run a chunk of blocks in a worker; the plan is read from ``plan_path`` once per worker."""
+#: Environment variables GDAL reads as configuration options for remote rasters (its own settings and
+#: those of its cloud file systems: GDAL documentation, "Configuration options" and "GDAL Virtual File
+#: Systems"). A worker started before the inputs were opened, or from a process started earlier (the
+#: forkserver), does not have what was set since; they are sent along with each task (:func:`network_env`).
+NETWORK_ENV_PREFIXES = ("GDAL_", "CPL_", "VSI_", "AWS_", "GS_", "GOOGLE_", "AZURE_", "OSS_", "SWIFT_", "WEBHDFS_")
+#: Names that look like credentials; never sent to dask workers (other machines, possibly over an
+#: unencrypted connection): a cluster's workers need their own (docs/configuration.md, "Remote rasters").
+SECRET_WORDS = ("SECRET", "TOKEN", "KEY", "PASSWORD", "USERPWD", "SAS", "CREDENTIAL", "HEADER", "AUTH", "BEARER",
+                "COOKIE")
+
+
+def network_env(secrets: bool = True) -> dict:
+    """This process's GDAL remote-access settings (:data:`NETWORK_ENV_PREFIXES`); without ``secrets``,
+    the names holding one of :data:`SECRET_WORDS` are left out."""
+    out = {}
+    for k, v in os.environ.items():
+        if k.startswith(NETWORK_ENV_PREFIXES) and (secrets or not any(w in k for w in SECRET_WORDS)):
+            out[k] = v
+    return out
+
+
+def _apply_env(env: dict | None) -> None:
+    """Set ``env`` in this worker's environment (GDAL reads these at each request)."""
+    for k, v in (env or {}).items():
+        if os.environ.get(k) != v:
+            os.environ[k] = v
+
+
+def _pool_task(fn, plan_path: str, windows, env: dict | None = None):
+    """Run a chunk of blocks in a worker; the plan is read from ``plan_path`` once per worker, after
+    the parent's remote-access settings ``env`` are applied (they travel through the pool's pipe,
+    never through the plan file)."""
+    _apply_env(env)
     if _WORKER.get("path") != plan_path:
         with open(plan_path, "rb") as fh:
             _WORKER["plan"] = pickle.load(fh)
@@ -232,7 +263,8 @@ class WorkerPool:
             pickle.dump(plan, fh, protocol=pickle.HIGHEST_PROTOCOL)
         chunk = max(1, min(chunk, len(windows) // self.workers))
         try:
-            yield from _ordered(lambda ch: self._pool.submit(_pool_task, fn, path, ch), _chunks(windows, chunk),
+            env = network_env()
+            yield from _ordered(lambda ch: self._pool.submit(_pool_task, fn, path, ch, env), _chunks(windows, chunk),
                                 PREFETCH * self.workers)
         finally:
             with contextlib.suppress(OSError):
@@ -258,10 +290,11 @@ _DASK_LOCK = threading.Lock()
 _DASK_CONFIGURED: dict = {}
 
 
-def _dask_task(fn, plan, windows, cache_bytes):
+def _dask_task(fn, plan, windows, cache_bytes, env: dict | None = None):
     """Run a chunk of blocks on a dask worker.
 
-    The GDAL settings are applied once per worker process. The blocks keep their open datasets
+    The GDAL settings are applied once per worker process, the client's remote-access settings
+    ``env`` (no credentials: :func:`network_env`) before each chunk. The blocks keep their open datasets
     per thread, so a worker may run several threads; numpy work holds the GIL for part of each
     block, so one single-threaded worker process per core runs fastest (``--nthreads 1``).
     """
@@ -269,6 +302,7 @@ def _dask_task(fn, plan, windows, cache_bytes):
         if _DASK_CONFIGURED.get("cache") != cache_bytes:
             configure_worker(cache_bytes)
             _DASK_CONFIGURED["cache"] = cache_bytes
+        _apply_env(env)
     return [fn(plan, w) for w in windows]
 
 
@@ -306,7 +340,8 @@ def _dask_map(fn, plan, windows, scheduler, cache_bytes, chunk):
         [plan_f] = client.scatter([plan], broadcast=True, hash=False)
         threads = sum(client.nthreads().values()) or 1
         chunk = max(1, min(chunk, len(windows) // threads))
-        yield from _ordered(lambda ch: client.submit(_dask_task, fn, plan_f, ch, cache_bytes, pure=False),
+        env = network_env(secrets=False)
+        yield from _ordered(lambda ch: client.submit(_dask_task, fn, plan_f, ch, cache_bytes, env, pure=False),
                             _chunks(windows, chunk), PREFETCH * threads)
     finally:
         if own:

@@ -287,13 +287,14 @@ def seal(stage: Path, result: RunResult, pdf: bool = False) -> None:
 def _run_locked(cfg: RunConfig, out_dir: Path | None, *, workers: int, progress, scheduler,
                 raster_dir: Path | None = None) -> RunResult:
     factors = load_factors(cfg)
-
-    inputs = open_inputs(cfg)
     from .executors import WorkerPool, gdal_env, run_cache_bytes
 
-    # local workers start now: their start-up overlaps the co-registration (docs/performance.md)
+    # local workers start now: their start-up overlaps opening the inputs (remote ones take a while) and the
+    # co-registration (docs/performance.md); what the inputs set up for remote reads reaches them with
+    # each task (executors.network_env)
     pool = WorkerPool(workers) if workers > 1 and scheduler is None else None
     try:
+        inputs = open_inputs(cfg)
         with gdal_env(run_cache_bytes(inputs.grid.width, cfg.block_size)):
             return _run_inputs(cfg, out_dir, inputs, factors, progress=progress, scheduler=scheduler, pool=pool,
                                raster_dir=raster_dir or out_dir)
@@ -351,11 +352,14 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
     ]
     rasters = []
     writes = None
+    share = burned_share(plan)
     try:
         for name, kw in specs:
-            rasters.append(BlockRasterWriter(out_dir / name, grid, block_size=cfg.block_size, **kw))
-        # blocks computed in other processes: write in a thread per raster, so the main process keeps up
-        writes = BlockWrites(rasters, threads=pool is not None or scheduler is not None)
+            rasters.append(BlockRasterWriter(out_dir / name, grid, block_size=cfg.block_size, expected_share=share,
+                                             **kw))
+        # a thread per raster: the DEFLATE compression of the output tiles (once, in their final form) overlaps
+        # the computation, serial or parallel (docs/performance.md, benchmark 8)
+        writes = BlockWrites(rasters, threads=True)
         for i, r in enumerate(map_blocks(process_block, plan, windows, scheduler=scheduler, pool=pool,
                                          stages=(read_block, compute_block))):
             sums.add(r)
@@ -370,6 +374,19 @@ def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
         _finish_rasters(rasters, ok=False)
         raise
     return plan, alignment, models, sums, rasters, notes
+
+
+def burned_share(plan) -> float:
+    """Share of the grid inside the burn scars (their summed area over the grid's; overlaps count
+    twice, at most 1): the output rasters' predictor is chosen from it before the first tile is written."""
+    import shapely
+
+    scars = np.asarray(plan.scars, dtype=object)
+    if scars.size == 0:
+        return 0.0
+    a, e = abs(plan.grid.transform.a), abs(plan.grid.transform.e)
+    area = float(np.nansum(shapely.area(scars[~shapely.is_missing(scars)])))
+    return min(1.0, area / (plan.grid.width * plan.grid.height * a * e))
 
 
 def method_colormap() -> dict:

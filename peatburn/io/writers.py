@@ -1,8 +1,9 @@
 """Atomic writers: every output is written under a temporary name and renamed when complete.
 
-Rasters are written block by block into a tiled GeoTIFF, then copied to a Cloud Optimized
-GeoTIFF with GDAL's COG driver reading that tiled file (the copy streams by blocks; the COG
-driver's direct-create path would buffer the whole raster, which we avoid).
+Rasters are written block by block as the tiles of a Cloud Optimized GeoTIFF, each tile compressed
+once, and the COG is assembled from them at the end (:class:`BlockRasterWriter`,
+:mod:`peatburn.io.cog_layout`; the COG driver's direct-create path would buffer the whole raster, and
+its copy from a finished raster compressed everything twice).
 """
 
 from __future__ import annotations
@@ -24,13 +25,6 @@ import rasterio.shutil
 from ..grid import RunGrid
 
 RASTER_NODATA = -9999.0  # on-disk nodata of float outputs (in memory: NaN)
-#: Compression of the temporary tiled GeoTIFF, read once by the COG conversion and deleted: ZSTD
-#: level 1 writes 2.4x faster than DEFLATE with a predictor and is read back faster, for a file
-#: about 30 % larger (measured on a 67 Mpx float32 raster; docs/performance.md).
-TEMPORARY_COMPRESSION = {"compress": "zstd", "zstd_level": 1}
-#: Threads of the COG conversion (compression of the final tiles). It runs after the block pass,
-#: when no worker competes for the cores: 1.7x faster on 2 cores than one thread (same page).
-COG_THREADS = "ALL_CPUS"
 #: Every temporary file peatburn creates beside an output carries this marker in its name
 #: (``.<output name>.peatburn-tmp.<8 random characters>...``); only such files are ever deleted
 #: as debris of a killed run, never a file by its suffix alone (issue 26).
@@ -39,7 +33,12 @@ TEMP_MARKER = "peatburn-tmp"
 #: or horizontal differencing). Measured on two rasters only (docs/performance.md, benchmark 8): at
 #: 48 % burned the predictor made the COG 8 % faster and smaller; at about 2 % (the national scene)
 #: leaving it out made the conversion 29 % faster and the file 19 % smaller. Set between them, not tuned.
+#: The predictor is chosen before the first tile is written, from the scars' share of the grid
+#: (:func:`peatburn.engine.runner.burned_share`).
 PREDICTOR_MIN_SHARE = 0.1
+#: Overview levels of at most this many pixels are held in memory while the block pass writes them
+#: (16 MiB of float32; the levels of a raster together hold at most a third more).
+MEMORY_LEVEL_PX = 2**22
 _TEMP_NAME = re.compile(r"^\..+\." + TEMP_MARKER + r"\.[A-Za-z0-9_]{8}.*(\.part|\.tiled\.tif|\.part\.gpkg(-journal|-wal|-shm)?)$")
 
 
@@ -176,33 +175,57 @@ def _jsonable(obj):
 
 
 class BlockRasterWriter:
-    """Write a float32 raster of the run grid block by block; finish into a COG atomically.
+    """Write a raster of the run grid block by block; finish into a COG atomically.
 
-    Use as a context manager; :meth:`write` takes a window and an array with NaN for nodata.
+    Use as a context manager; :meth:`write` takes a window and an array with NaN for nodata,
+    :meth:`write_at` the values at the pixels of a mask.
+
+    The tiles are compressed once, in their final form (DEFLATE, :data:`~peatburn.io.cog_layout.COG_TILE`
+    px tiles), as they are written: the full resolution into a temporary tiled GeoTIFF, and, from each
+    window, the first overview level (:mod:`peatburn.numerics.pyramids`) into another; :meth:`close`
+    builds the further levels from the first and assembles the COG from the compressed tiles
+    (:mod:`peatburn.io.cog_layout`; before, GDAL's COG driver read the finished raster again, computed
+    every overview from the full resolution and compressed everything a second time).
+
+    ``predictor`` (GDAL's floating-point or horizontal differencing) has to be chosen before the first
+    tile is compressed: pass the share of the grid expected to hold values as ``expected_share``; the
+    predictor is used above :data:`PREDICTOR_MIN_SHARE` (docs/performance.md, benchmark 8).
     On error the temporary files are removed and nothing appears under the final name.
     """
 
     def __init__(self, final: Path | str, grid: RunGrid, *, description: str = "", units: str = "",
                  block_size: int = 512, dtype: str = "float32", nodata: float = RASTER_NODATA,
-                 colormap: dict | None = None):
+                 colormap: dict | None = None, expected_share: float = 1.0):
+        from .cog_layout import COG_TILE, overview_shapes
+
         self.final = Path(final)
         self.grid = grid
         self.final.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(prefix=_temp_prefix(self.final), suffix=".tiled.tif", dir=self.final.parent)
-        os.close(fd)
-        self._tiled = Path(tmp)
-        bs = 256 if block_size % 256 else min(block_size, 512)
         self.dtype, self.nodata = dtype, nodata
-        self._written = 0  # pixels written with a value (the mask's count)
-        profile = dict(driver="GTiff", width=grid.width, height=grid.height, count=1, dtype=dtype,
-                       crs=grid.crs, transform=grid.transform, nodata=nodata, tiled=True,
-                       blockxsize=bs, blockysize=bs, BIGTIFF="IF_SAFER", SPARSE_OK="TRUE",
-                       **TEMPORARY_COMPRESSION)
+        self.categorical = np.dtype(dtype).kind != "f"
+        self.predictor = expected_share > PREDICTOR_MIN_SHARE
+        self._levels = overview_shapes(grid.width, grid.height)
+        #: first level that a window did not halve onto (its pixels straddle windows): that level and the
+        #: ones above are rebuilt at close from the level below (len(levels) + 1: none)
+        self._stale = len(self._levels) + 1
+        self._paths = [self._temp(".tiled.tif")] + [self._temp(f".o{k + 1}.tiled.tif") for k in range(len(self._levels))]
+        self._profile = dict(driver="GTiff", count=1, dtype=dtype, nodata=nodata, tiled=True, blockxsize=COG_TILE,
+                             blockysize=COG_TILE, BIGTIFF="IF_SAFER", SPARSE_OK="TRUE", compress="deflate",
+                             predictor=(3 if not self.categorical else 2) if self.predictor else 1)
+        self._ds = None
+        self._level_ds = []
+        #: the small levels, held in memory and written whole at close (a GDAL write costs about 60 us,
+        #: more than the halving of a block's piece of a small level)
+        self._level_mem = {k: np.full(hw, nodata, dtype=dtype) for k, hw in enumerate(self._levels, start=1)
+                           if hw[0] * hw[1] <= MEMORY_LEVEL_PX}
         try:
-            self._ds = rasterio.open(self._tiled, "w", **profile)
-        except rasterio.errors.RasterioIOError:  # a GDAL built without ZSTD
-            profile.update(compress="deflate", zstd_level=None)
-            self._ds = rasterio.open(self._tiled, "w", **{k: v for k, v in profile.items() if v is not None})
+            self._ds = rasterio.open(self._paths[0], "w", width=grid.width, height=grid.height, crs=grid.crs,
+                                     transform=grid.transform, **self._profile)
+            for k in range(1, len(self._levels) + 1):
+                self._level_ds.append(self._open_level(k))
+        except BaseException:
+            self._cleanup()
+            raise
         if description:
             self._ds.set_band_description(1, description)
         if units:
@@ -211,13 +234,51 @@ class BlockRasterWriter:
         if colormap:  # a TIFF palette (TIFF 6.0 ColorMap): value -> (r, g, b, a), for a uint8 class raster
             self._ds.write_colormap(1, colormap)
 
+    def _temp(self, suffix: str) -> Path:
+        fd, tmp = tempfile.mkstemp(prefix=_temp_prefix(self.final), suffix=suffix, dir=self.final.parent)
+        os.close(fd)
+        return Path(tmp)
+
+    def _open_level(self, k: int):
+        from affine import Affine
+
+        h, w = self._levels[k - 1]
+        return rasterio.open(self._paths[k], "w", width=w, height=h, crs=self.grid.crs,
+                             transform=self.grid.transform * Affine.scale(2**k), **self._profile)
+
+    def _halve_into_levels(self, window, flat_index, values) -> None:
+        """Write the window's piece of each overview level (:func:`peatburn.numerics.pyramids.halve`,
+        each level from the one below), up to the first level whose pixels the window does not hold whole."""
+        from rasterio.windows import Window
+
+        from ..numerics.pyramids import halve, halve_dense
+
+        r0, c0, h, w = int(window.row_off), int(window.col_off), int(window.height), int(window.width)
+        H, W = self.grid.height, self.grid.width
+        piece = None
+        for k in range(1, self._stale):
+            if r0 % 2 or c0 % 2 or (h % 2 and r0 + h != H) or (w % 2 and c0 + w != W):
+                self._stale = k  # rebuilt at close from level k - 1
+                return
+            if piece is None:
+                piece = halve((h, w), flat_index, values, categorical=self.categorical, nodata=self.nodata)
+            else:
+                piece = halve_dense(piece, categorical=self.categorical, nodata=self.nodata)
+            r0, c0, H, W = r0 // 2, c0 // 2, (H + 1) // 2, (W + 1) // 2
+            h, w = piece.shape
+            if k in self._level_mem:
+                self._level_mem[k][r0:r0 + h, c0:c0 + w] = piece
+            else:
+                self._level_ds[k - 1].write(piece.astype(self.dtype, copy=False), 1, window=Window(c0, r0, w, h))
+
     def write(self, window, array: np.ndarray):
-        self._written = -1  # whole windows of values: dense
         if np.dtype(self.dtype).kind == "f":
             a = np.where(np.isfinite(array), array, self.nodata).astype(self.dtype)
         else:
             a = np.asarray(array).astype(self.dtype)
         self._ds.write(a, 1, window=window)
+        idx = np.flatnonzero(a != self.nodata)
+        self._halve_into_levels(window, idx, a.ravel()[idx])
 
     def write_at(self, window, mask: np.ndarray | None, values: np.ndarray):
         """Write a window holding ``values`` at the pixels of ``mask`` and nodata elsewhere (NaN
@@ -228,35 +289,93 @@ class BlockRasterWriter:
             return
         shape = (int(window.height), int(window.width))
         a = np.full(shape, self.nodata, dtype=self.dtype)
-        if mask is not None:
-            v = np.asarray(values)
-            if np.dtype(self.dtype).kind == "f":
-                v = np.where(np.isfinite(v), v, self.nodata)
-            a[mask] = v
-            self._written += int(np.count_nonzero(mask))
+        v = np.asarray(values)
+        if np.dtype(self.dtype).kind == "f":
+            v = np.where(np.isfinite(v), v, self.nodata)
+        a[mask] = v
         self._ds.write(a, 1, window=window)
+        idx = np.flatnonzero(mask)
+        v = a.ravel()[idx]
+        keep = v != self.nodata
+        self._halve_into_levels(window, idx[keep], v[keep])
 
-    @property
-    def dense(self) -> bool:
-        """More than :data:`PREDICTOR_MIN_SHARE` of the grid written with values (through
-        :meth:`write_at`; :meth:`write` counts as dense). GDAL's predictor then pays; on a raster of
-        mostly nodata it costs time and size (docs/performance.md, benchmark 8)."""
-        return self._written < 0 or self._written > PREDICTOR_MIN_SHARE * self.grid.width * self.grid.height
+    def _build_levels(self) -> None:
+        """Close the levels; rebuild the stale ones (a window did not halve onto them), each from the
+        level below, by strips of two rows of tiles, written as they come."""
+        from rasterio.windows import Window
+
+        from ..numerics.pyramids import halve_dense
+        from .cog_layout import level_windows
+
+        for k, a in self._level_mem.items():
+            if k < self._stale and (a != self.nodata).any():
+                self._level_ds[k - 1].write(a, 1)
+        self._level_mem = {}
+        for ds in self._level_ds:
+            ds.close()
+        for k in range(self._stale, len(self._levels) + 1):
+            h, w = (self.grid.height, self.grid.width) if k == 1 else self._levels[k - 2]
+            with rasterio.open(self._paths[k - 1]) as src, self._open_level(k) as dst:
+                for r, n in level_windows(h, w):
+                    piece = halve_dense(src.read(1, window=Window(0, r, w, n)), categorical=self.categorical,
+                                        nodata=self.nodata)
+                    if (piece != self.nodata).any():  # an empty strip stays sparse
+                        dst.write(piece.astype(self.dtype, copy=False), 1,
+                                  window=Window(0, r // 2, piece.shape[1], piece.shape[0]))
 
     def close(self, ok: bool = True):
-        self._ds.close()
+        from .cog_layout import OffsetOverflow, fill_skeleton, skeleton_vrt, write_skeleton
+
         try:
-            if ok:
-                with atomic_path(self.final, suffix=".tif") as tmp:
-                    rasterio.shutil.copy(self._tiled, tmp, driver="COG", COMPRESS="DEFLATE",
-                                         PREDICTOR="YES" if self.dense else "NO",
-                                         BLOCKSIZE="512", BIGTIFF="IF_SAFER", OVERVIEWS="AUTO", SPARSE_OK="TRUE",
-                                         NUM_THREADS=COG_THREADS,
-                                         RESAMPLING="NEAREST" if np.dtype(self.dtype).kind != "f" else "AVERAGE")
-                    check_space(tmp.parent)  # GDAL only prints a failed write: never rename a cut file
+            self._ds.close()
+            if not ok:
+                return
+            self._build_levels()
+            with atomic_path(self.final, suffix=".tif") as tmp:
+                self._assemble(tmp, skeleton_vrt, write_skeleton, fill_skeleton, OffsetOverflow)
+                check_space(tmp.parent)  # GDAL only prints a failed write: never rename a cut file
+        finally:
+            self._cleanup()
+
+    def _assemble(self, tmp: Path, skeleton_vrt, write_skeleton, fill_skeleton, overflow) -> None:
+        """The COG into ``tmp``: GDAL's skeleton, then the tiles (peatburn.io.cog_layout)."""
+        import uuid
+
+        from affine import Affine
+
+        empties = []
+        vrt = self._temp(".skeleton.vrt.part")
+        try:
+            for k, (h, w) in enumerate(self._levels, start=1):  # empty sparse overviews: nothing to read or write
+                p = f"/vsimem/peatburn-skeleton-{uuid.uuid4().hex}-{k}.tif"
+                with rasterio.open(p, "w", width=w, height=h, crs=self.grid.crs,
+                                   transform=self.grid.transform * Affine.scale(2**k), **self._profile):
+                    pass
+                empties.append(p)
+            skeleton_vrt(self._paths[0], empties, vrt)
+            for bigtiff in ("IF_SAFER", "YES"):
+                write_skeleton(vrt, tmp, dtype=self.dtype, predictor=self.predictor, bigtiff=bigtiff)
+                try:
+                    fill_skeleton(tmp, self._paths)
+                    return
+                except overflow:
+                    if bigtiff == "YES":
+                        raise
         finally:
             with contextlib.suppress(FileNotFoundError):
-                self._tiled.unlink()
+                vrt.unlink()
+            for p in empties:
+                with contextlib.suppress(Exception):
+                    rasterio.shutil.delete(p)
+
+    def _cleanup(self) -> None:
+        for ds in [self._ds] + self._level_ds:
+            if ds is not None and not ds.closed:
+                with contextlib.suppress(Exception):
+                    ds.close()
+        for p in self._paths:
+            with contextlib.suppress(FileNotFoundError):
+                p.unlink()
 
     def __enter__(self):
         return self
@@ -309,9 +428,9 @@ class BlockWrites:
     GDAL compresses a tile in the thread that writes it and releases the GIL meanwhile, so with
     threads the writes of the output rasters overlap each other and the caller's next block: the
     main process of a parallel run takes in a block in about 2.9 ms instead of 4.6 ms on the
-    benchmark scene (1.2x-2.3x over five measurements; benchmarks/bench_writes.py). A serial run
-    gains nothing from them on 2 cores (its reading thread and its computation already fill
-    them; docs/performance.md) and writes in its own thread.
+    benchmark scene (1.2x-2.3x over five measurements; benchmarks/bench_writes.py). Since the tiles are
+    compressed once in their final form (DEFLATE, slower than the former temporary ZSTD), a serial run
+    writes through them too (docs/performance.md, benchmark 8).
     """
 
     def __init__(self, writers: list, threads: bool = True, depth: int = 2):

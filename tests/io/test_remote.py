@@ -90,3 +90,75 @@ def test_silent_server_times_out_with_the_timeout_stated(scene, tmp_path, monkey
             inspect_raster(cfg.survey.post, "depth.survey.post")
     msg = str(exc.value)
     assert "\n" not in msg and "within 1 s" in msg and "GDAL_HTTP_TIMEOUT" in msg
+
+
+def _s3_env(monkeypatch, url):
+    # GDAL's documented S3 settings: a local endpoint, plain HTTP, path-style, no signature
+    monkeypatch.setenv("AWS_S3_ENDPOINT", url.removeprefix("http://"))
+    monkeypatch.setenv("AWS_HTTPS", "NO")
+    monkeypatch.setenv("AWS_VIRTUAL_HOSTING", "FALSE")
+    monkeypatch.setenv("AWS_NO_SIGN_REQUEST", "YES")
+
+
+def _bucket(scene, tmp_path):
+    root = tmp_path / "root"
+    (root / "bucket").mkdir(parents=True)
+    for name in ("pre", "post", "thickness"):
+        shutil.copy(scene.folder / f"{name}.tif", root / "bucket" / f"{name}.tif")
+    return root
+
+
+def _same_rasters(a_dir, b_dir):
+    import numpy as np
+    import rasterio
+
+    for name in ("burn_depth.tif", "carbon_smouldering.tif", "depth_method.tif"):
+        with rasterio.open(a_dir / name) as a, rasterio.open(b_dir / name) as b:
+            np.testing.assert_array_equal(a.read(1), b.read(1), err_msg=name)
+
+
+@pytest.mark.slow
+def test_s3_inputs_read_by_local_workers_started_before(scene, scene_run, tmp_path, monkeypatch):
+    """Local workers fork from Python's process server, started here before the S3 settings exist (as an
+    earlier run in the same session would have started it); the run starts its pool before it opens the
+    inputs. The settings reach the workers with their tasks: the local files' result, read over S3."""
+    import peatburn
+    from peatburn.engine.executors import WorkerPool
+
+    with WorkerPool(1):  # starts the process server now, with today's environment
+        pass
+    with serve(_bucket(scene, tmp_path)) as (url, log):
+        _s3_env(monkeypatch, url)
+        cfg = load_config(_remote_config(scene, tmp_path / "cfg", url, bucket="bucket"))
+        res = peatburn.run(cfg, tmp_path / "out", overwrite=True, workers=2)
+    _same_zones(scene_run, res)
+    _same_rasters(scene_run.out_dir, tmp_path / "out")
+    assert any(r[1].startswith("/bucket/post.tif") and r[2] for r in log)
+
+
+@pytest.mark.slow
+def test_s3_inputs_read_by_dask_workers_started_before(scene, scene_run, tmp_path, monkeypatch):
+    """A dask cluster whose workers started before the S3 settings were set: the client sends them
+    (they hold no credential) with the tasks; the local files' result comes out."""
+    import peatburn
+
+    distributed = pytest.importorskip("distributed")
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cl:
+        with serve(_bucket(scene, tmp_path)) as (url, log):
+            _s3_env(monkeypatch, url)
+            cfg = load_config(_remote_config(scene, tmp_path / "cfg", url, bucket="bucket"))
+            res = peatburn.run(cfg, tmp_path / "out", overwrite=True, scheduler=cl)
+    _same_zones(scene_run, res)
+    _same_rasters(scene_run.out_dir, tmp_path / "out")
+    assert any(r[1].startswith("/bucket/post.tif") and r[2] for r in log)
+
+
+def test_credentials_are_not_sent_to_dask_workers(monkeypatch):
+    from peatburn.engine.executors import network_env
+
+    monkeypatch.setenv("AWS_SECRET_ACCESS_KEY", "s")
+    monkeypatch.setenv("GDAL_HTTP_HEADERS", "Authorization: Bearer t")
+    monkeypatch.setenv("AWS_S3_ENDPOINT", "h:1")
+    assert network_env()["AWS_SECRET_ACCESS_KEY"] == "s" and "GDAL_HTTP_HEADERS" in network_env()
+    safe = network_env(secrets=False)
+    assert safe["AWS_S3_ENDPOINT"] == "h:1" and "AWS_SECRET_ACCESS_KEY" not in safe and "GDAL_HTTP_HEADERS" not in safe
