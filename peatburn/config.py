@@ -139,6 +139,9 @@ class WaterTableConfig:
     # burn depth tapered to the scar edge: "cv" (the taper distance chosen by leave-scar-out
     # cross-validation, none if it does not help), a distance [m], or None (no taper, the default)
     edge_taper: object = None
+    # burn depth reduced on thin peat, x (1 - exp(-thickness / L_T)): "cv" (L_T chosen by leave-scar-out
+    # cross-validation with the edge taper, none if it does not help), a scale [m], or None (the default)
+    thickness_taper: object = None
     idw_power: float = 2.0
     idw_neighbours: int = 12
     idw_max_distance_m: float | None = None
@@ -277,7 +280,7 @@ _SCHEMA = {
     "depth": {*(m.section.removeprefix("depth.") for m in DEPTH_METHODS), "plots"},  # peatburn.depth_methods
     "depth.water_table": {"depth", "value_column", "crs", "date_column", "model", "intercept", "slope",
                           "fit_method", "idw_power", "idw_neighbours", "idw_max_distance_m", "units",
-                          "fit_target", "error", "date_window_days", "edge_taper"},
+                          "fit_target", "error", "date_window_days", "edge_taper", "thickness_taper"},
     "depth.plots": {"path", "value_column", "crs", "date_column"},
     "depth.tier1": {"fuel_consumption"},
     "flaming": {"method", "detections", "crs", "columns", "event_distance_m", "event_gap_hours", "coefficient", "peat_coefficient",
@@ -684,24 +687,26 @@ def _water_table(wt: dict, base: Path, where: str) -> WaterTableConfig:
         idw_max_distance_m=_opt_number(wt, "idw_max_distance_m", "depth.water_table", where, 0, None),
         date_window_days=_opt_number(wt, "date_window_days", "depth.water_table", where, 0, 366) if
         "date_window_days" in wt else 15.0,
-        edge_taper=_edge_taper(wt, where),
+        edge_taper=_taper(wt, "edge_taper", where, 1000.0, "a distance such as 20 or \"20 m\""),
+        thickness_taper=_taper(wt, "thickness_taper", where, 20.0, "a thickness scale such as 0.5 or \"50 cm\""),
     )
 
 
-def _edge_taper(wt: dict, where: str):
-    """``depth.water_table.edge_taper``: "cv", a distance [m] (number or quantity string), or absent."""
-    if "edge_taper" not in wt:
+def _taper(wt: dict, key: str, where: str, hi: float, example: str):
+    """``depth.water_table.<key>`` (edge_taper, thickness_taper): "cv", a length [m] (number or quantity
+    string) in (0, hi], or absent (None)."""
+    if key not in wt:
         return None
-    v = wt["edge_taper"]
+    v = wt[key]
     if v == "cv":
         return "cv"
     try:
-        m = to_magnitude(v, "m", "depth.water_table.edge_taper")
+        m = to_magnitude(v, "m", f"depth.water_table.{key}")
     except UnitError:
-        raise ConfigError(f"{where}: `depth.water_table.edge_taper` must be \"cv\" (chosen by cross-validation) "
-                          f"or a distance such as 20 or \"20 m\", got {v!r}") from None
-    if not (0 < m <= 1000):
-        raise PhysicalRangeError(f"{where}: `depth.water_table.edge_taper` = {v!r} must be between 0 and 1000 m")
+        raise ConfigError(f"{where}: `depth.water_table.{key}` must be \"cv\" (chosen by cross-validation) "
+                          f"or {example}, got {v!r}") from None
+    if not (0 < m <= hi):
+        raise PhysicalRangeError(f"{where}: `depth.water_table.{key}` = {v!r} must be between 0 and {hi:g} m")
     return float(m)
 
 

@@ -358,11 +358,9 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         if m_wt.any():
             wt, m_out = _clamp_to_fit(plan.models, wt, m_wt)
             depth = np.where(m_wt, _model_depth(plan, wt, thick, data.fire_count, data.edge), depth)
-            taper = 1.0
-            if data.edge is not None:
-                from ..science.water_table import edge_taper
+            from ..science.water_table import covariate_factor
 
-                taper = edge_taper(data.edge, plan.models.all.edge_taper_m)
+            taper = covariate_factor(plan.models.all, data.edge, thick)  # edge taper x thin-peat factor (1: none)
             lin = (plan.models.all.intercept + plan.models.all.slope * np.where(m_wt, wt, 0.0)) * taper
             cap = np.inf if thick is None else np.where(np.isfinite(thick), thick, np.inf)
             m_lin = m_wt & (lin > 0) & (lin < cap)
@@ -447,8 +445,8 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         put("wt_extrapolated_area_m2", m_out, area)
     if m_lin.any():
         wt_f = np.where(m_lin, wt, 0.0)
-        # depth = f (a + b wt) with the edge taper f (1 without): its derivatives carry f
-        f_a, f_rho_a, f_rho_f_a = (area, rho_a, rho_f_a) if data.edge is None else (
+        # depth = f (a + b wt) with the covariate factor f (1 without): its derivatives carry f
+        f_a, f_rho_a, f_rho_f_a = (area, rho_a, rho_f_a) if np.ndim(taper) == 0 and taper == 1.0 else (
             area * taper, rho_a * taper, rho_f_a * taper)
         put("wt_area", m_lin, f_a)
         put("wt_area_wt", m_lin, f_a * wt_f)

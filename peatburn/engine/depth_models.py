@@ -4,7 +4,7 @@ fits (one model, or first and repeat fires apart), and a model file written by `
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
@@ -191,18 +191,8 @@ def fit_models(inputs: Inputs, plan: RunPlan, notes: list, pairs: dict | None = 
     # standard errors by a bootstrap over whole scars (pixels of one scar are not independent)
     clusters = cl if cl is not None and len(np.unique(cl)) >= 3 else None
 
-    taper = 0.0
-    if chosen_taper == "cv" and clusters is not None and ed is not None:
-        pick = wtm.select_edge_taper(wt, d, cl, ed, weight=wg, thickness_m=th, **kw)
-        taper = pick["taper_m"]
-        notes.append("water table: edge taper by leave-scar-out cross-validation (rms relative error of scar carbon "
-                     "per taper distance: " + ", ".join(f"{k:g} m {v:.1%}" for k, v in pick["rmse"].items())
-                     + f"): {'none' if not taper else f'{taper:g} m'}")
-    elif chosen_taper == "cv":
-        notes.append("water table: no edge taper: choosing one needs at least 3 surveyed scars")
-    elif chosen_taper and ed is not None:
-        taper = float(chosen_taper)
-    kw = {**kw, "edge_taper_m": taper}
+    taper, thin, scores = _covariates(cfg, wt, d, cl, ed, th, wg, clusters is not None, kw, notes)
+    kw = {**kw, "edge_taper_m": taper, "thickness_taper_m": thin}
 
     def fit(sel):
         """The model on the pairs ``sel``, with its leave-scar-out error when there are scars."""
@@ -214,7 +204,7 @@ def fit_models(inputs: Inputs, plan: RunPlan, notes: list, pairs: dict | None = 
             cv = wtm.scar_cross_validation(wt[sel], d[sel], c, weight=wg[sel], thickness_m=th[sel],
                                            edge_distance_m=e, **kw)
             m = wtm.with_cross_validation(m, cv)
-        return m
+        return replace(m, cv_scores=scores) if scores else m
 
     every = np.ones(wt.size, bool)
     models = DepthModels(fit(every))
@@ -240,6 +230,36 @@ def fit_models(inputs: Inputs, plan: RunPlan, notes: list, pairs: dict | None = 
                          f"{wtm.MIN_SCARS_PER_GROUP} surveyed scars (and {MIN_FIT_SAMPLES} pairs) of each "
                          f"({n_first} first-fire, {n_rep} repeat-fire scars)")
     return models
+
+
+def _covariates(cfg, wt, d, cl, ed, th, wg, have_scars: bool, kw: dict, notes: list):
+    """The edge taper and thin-peat scales of the run's model [m] (0: none) and the leave-scar-out
+    scores of the covariate sets tried (empty without a selection): fixed values from the
+    configuration, or chosen by :func:`peatburn.science.water_table.select_covariates`."""
+    from ..science import water_table as wtm
+
+    edge, thick = cfg.edge_taper, cfg.thickness_taper
+    if ed is None and edge is not None and edge != "cv":
+        edge = None
+    known_t = th is not None and np.isfinite(th).any() and np.nanmax(th) > np.nanmin(th)
+    if thick is not None and not known_t:
+        notes.append("water table: no thin-peat factor: it needs a peat thickness that varies over the surveyed "
+                     "scars (peat.thickness as a raster)")
+        thick = None
+    asked = [name for name, v in (("edge taper", edge), ("thin-peat factor", thick)) if v == "cv"]
+    fixed = (float(edge) if edge not in (None, "cv") else 0.0, float(thick) if thick not in (None, "cv") else 0.0)
+    if not asked:
+        return fixed[0], fixed[1], {}
+    if not have_scars:
+        notes.append(f"water table: no {' or '.join(asked)}: choosing one needs at least 3 surveyed scars")
+        return fixed[0], fixed[1], {}
+    pick = wtm.select_covariates(wt, d, cl, edge_distance_m=ed, thickness_m=th, edge=edge, thickness=thick,
+                                 weight=wg, **kw)
+    chosen = wtm.covariate_labels(pick["edge_taper_m"], pick["thickness_taper_m"])
+    notes.append(f"water table: covariates chosen by leave-scar-out cross-validation among {' and '.join(asked)} "
+                 "(rms relative error of scar carbon per covariate set: "
+                 + ", ".join(f"{k} {v:.1%}" for k, v in pick["scores"].items()) + f"): {' + '.join(chosen) or 'none'}")
+    return pick["edge_taper_m"], pick["thickness_taper_m"], pick["scores"]
 
 
 def load_models(path) -> DepthModels:

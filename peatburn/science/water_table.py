@@ -159,6 +159,7 @@ __all__ = [
     "edge_taper",
     "thickness_taper",
     "covariate_factor",
+    "covariate_labels",
     "extrapolated_share",
     "user_model",
     "check_water_table",
@@ -375,7 +376,7 @@ class DepthModel:
     @property
     def covariates(self) -> tuple[str, ...]:
         """The covariates beside the water table, in words (empty: the water table alone)."""
-        return _covariate_labels(self.edge_taper_m, self.thickness_taper_m)
+        return covariate_labels(self.edge_taper_m, self.thickness_taper_m)
 
 
 #: Default coefficients, used only when neither surveyed scars nor field plots allow a fit and
@@ -801,7 +802,7 @@ def _factor(taper: float, thick: float, edge_distance_m, thickness_m):
     return f
 
 
-def _covariate_labels(edge_taper_m: float, thickness_taper_m: float) -> tuple[str, ...]:
+def covariate_labels(edge_taper_m: float, thickness_taper_m: float) -> tuple[str, ...]:
     out = []
     if edge_taper_m and edge_taper_m > 0:
         out.append(f"edge {edge_taper_m:g} m")
@@ -1400,7 +1401,7 @@ def select_covariates(water_table_m, depth_m, scar, *, edge_distance_m=None, thi
         current, base = list(key), ok[(pos, key)]
         del free[pos]
     tried = {k: (math.nan if v is None else v["rel_rmse"]) for k, v in cvs.items()}
-    scores = {(" + ".join(_covariate_labels(*k)) or "none"): v for k, v in tried.items()}
+    scores = {(" + ".join(covariate_labels(*k)) or "none"): v for k, v in tried.items()}
     return {"edge_taper_m": current[0], "thickness_taper_m": current[1], "tried": tried, "scores": scores,
             "cv": cvs[tuple(current)]}
 
