@@ -113,21 +113,63 @@ def plot_samples(inputs: Inputs, plan: RunPlan):
     f = inputs.plots.frame
     x, y = f.geometry.x.to_numpy(), f.geometry.y.to_numpy()
     obs = f["value"].to_numpy(dtype=float)
-    wt = sample_points(plan, "water_table", x, y) if plan.water_table is not None else None
-    if wt is None and plan.stations is not None:
-        from ..science.water_table import idw
-
-        power, k, dmax = plan.idw
-        sx, sy, sv = plan.stations
-        wt = idw(sx, sy, sv, x, y, power=power, k=k, max_distance=dmax)
+    wt = water_table_at_points(plan, x, y)
     if wt is None:
         return np.array([]), np.array([])
     return wt, obs
 
 
+def dated_raster_note(plan: RunPlan) -> str:
+    """What the dated water-table rasters did, in one note: which raster the scars took, the window,
+    and the scars with none in it (no water-table depth) or without a start date (the mean)."""
+    pick, window, n_without, n_undated = plan.raster_days
+    dates = [d for _, d in plan.water_table_dated]
+    if not window > 0:
+        return (f"water table: {len(dates)} dated rasters ({dates[0]} to {dates[-1]}) pooled: every scar uses their "
+                f"mean (date_window_days = 0)")
+    used = ", ".join(f"{dates[i]}: {int(np.sum(pick == i))}" for i in range(len(dates)))
+    text = (f"water table: {len(dates)} dated rasters, each scar takes the one nearest its fire start within "
+            f"{window:g} days (scars per raster: {used})")
+    if n_without:
+        text += (f"; {n_without} scar(s) have no raster within {window:g} days of their fire start and get no "
+                 f"water-table depth (Tier 1 fills them; widen date_window_days to accept a farther raster)")
+    if n_undated:
+        text += f"; {n_undated} scar(s) have no fire start and use the mean of the rasters"
+    return text
+
+
+def water_table_at_points(plan: RunPlan, x, y) -> np.ndarray | None:
+    """Water-table depth at points (field plots) [m]: the raster's value; with several dated rasters the
+    one the scar holding the point took (``plan.raster_days``: nearest its fire start, the same raster as
+    the scar's pixels; the mean of the rasters for a point in no scar or in an undated scar, NaN for a
+    scar with none in the window); or IDW of the stations; None without a water table."""
+    if plan.water_table_dated:
+        import shapely
+
+        # the scar holding each point (the last polygon wins, as when the scars are rasterized)
+        pt, scar = shapely.STRtree(plan.scars).query(shapely.points(x, y), predicate="within")
+        holder = np.full(len(x), -1)
+        np.maximum.at(holder, pt, scar)
+        pick = np.where(holder >= 0, plan.raster_days[0][np.maximum(holder, 0)], -1)
+        values = [sample_points(plan, src, x, y) for src, _ in plan.water_table_dated]
+        with np.errstate(invalid="ignore"):
+            mean = np.nanmean(np.stack(values), axis=0) if values else np.full(len(x), np.nan)
+        return np.array([mean[i] if g == -1 else (np.nan if g == -2 else values[g][i]) for i, g in enumerate(pick)],
+                        dtype="float64")
+    if plan.water_table is not None:
+        return sample_points(plan, "water_table", x, y)
+    if plan.stations is not None:
+        from ..science.water_table import idw
+
+        power, k, dmax = plan.idw
+        sx, sy, sv = plan.stations
+        return idw(sx, sy, sv, x, y, power=power, k=k, max_distance=dmax)
+    return None
+
+
 def sample_points(plan: RunPlan, name: str, x, y) -> np.ndarray | None:
-    """Values of a plan raster at points (nearest pixel of the run grid), NaN outside."""
-    src = getattr(plan, name)
+    """Values of a plan raster (its name, or a RasterSource) at points (nearest pixel of the run grid), NaN outside."""
+    src = getattr(plan, name) if isinstance(name, str) else name
     if src is None:
         return None
     if isinstance(src, float):
@@ -160,6 +202,8 @@ def fit_models(inputs: Inputs, plan: RunPlan, notes: list, pairs: dict | None = 
         notes.append(f"water table: station readings chosen per scar, nearest its fire start within {window:g} days "
                      f"({len(subsets)} fire date(s))" + (f"; {n_without} scar(s) have no reading in that window and "
                                                          f"get no water-table depth" if n_without else ""))
+    if plan.raster_days is not None:
+        notes.append(dated_raster_note(plan))
     if cfg.model == "user":
         m = wtm.DepthModel(cfg.intercept, cfg.slope, float("nan"), float("nan"), float("nan"), 0, float("nan"),
                            float("nan"), "user-given coefficients", "user")

@@ -166,6 +166,7 @@ __all__ = [
     "idw",
     "idw_cross_validation",
     "readings_near_date",
+    "nearest_dated",
     "validate_against_plots",
 ]
 
@@ -1605,6 +1606,38 @@ def readings_near_date(station, day, target_day, *, max_days: float) -> np.ndarr
             best[key] = i
     chosen[list(best.values())] = True
     return chosen
+
+
+def nearest_dated(day, target_day, *, max_days: float) -> np.ndarray:
+    """For each target time, the index of the dated item (e.g. a water-table raster) nearest to it
+    within ``max_days``; -1 where none is that near, or where the target is undated (NaN).
+
+    Parameters
+    ----------
+    day : array_like of float
+        Date of each item [days on a common scale, e.g. days since 1970-01-01].
+    target_day : array_like of float
+        Target times (fire starts) on the same scale [days]; NaN: undated.
+    max_days : float
+        Largest allowed |day - target_day| [days].
+
+    Returns
+    -------
+    numpy.ndarray of int
+        Index into ``day`` per target; the earlier item wins a tie (as in :func:`readings_near_date`).
+    """
+    t = np.asarray(day, dtype="float64").ravel()
+    x = np.asarray(target_day, dtype="float64").ravel()
+    out = np.full(x.size, -1, dtype=np.int64)
+    if t.size == 0:
+        return out
+    order = np.argsort(t, kind="stable")  # earlier first, so argmin takes the earlier of a tie
+    gap = np.abs(t[order][None, :] - x[:, None])
+    with np.errstate(invalid="ignore"):
+        best = np.argmin(np.where(np.isfinite(gap), gap, np.inf), axis=1)
+        near = np.isfinite(x) & (gap[np.arange(x.size), best] <= float(max_days))
+    out[near] = order[best[near]]
+    return out
 
 
 # ----------------------------------------------------------------------------- validation
