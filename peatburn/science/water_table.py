@@ -745,11 +745,14 @@ def thickness_taper(thickness_m, taper_m) -> np.ndarray:
     """Share of the full burn depth on peat of a given thickness: ``1 - exp(-T / L_T)`` [-].
 
     The thin-peat covariate of the depth model. Peat near its mineral substrate is wetter and
-    richer in mineral matter, and the probability that organic soil ignites and sustains
-    smouldering falls with both moisture and inorganic content (Frandsen 1997, Can. J. For. Res.
-    27:1471-1477, abstract checked; Reardon, Hungerford & Ryan 2007, Int. J. Wildland Fire
-    16:107-118, abstract checked); on thin peat that layer is a larger share of the column, so the
-    burn is expected to stay further from the line than the hard cap at ``T`` alone gives. The
+    richer in mineral matter. The probability that organic soil ignites depends on its moisture
+    and inorganic content (Frandsen 1997, Can. J. For. Res. 27:1471-1477, abstract checked; that it
+    falls as the inorganic content rises is recalled, unchecked), and the odds of sustained
+    smouldering fall by 19.3 % for each 5 % more moisture (Reardon, Hungerford & Ryan 2007, Int. J.
+    Wildland Fire 16:107-118, abstract checked, for root-mat soils; there a little more mineral
+    content *raised* the odds, so the mineral effect is not one-signed). On thin peat the wet base
+    layer is a larger share of the column, so the burn may stay further from the line than the
+    hard cap at ``T`` alone gives: a hypothesis the cross-validation tests, not a premise. The
     saturating form (0 at no peat, 1 on thick peat, the scale ``L_T`` [m] chosen by leave-scar-out
     cross-validation in :func:`select_covariates`) is a choice of this project, the same form as
     :func:`edge_taper`, not a published curve. ``L_T = 0``: no factor (1 everywhere); NaN
