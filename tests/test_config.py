@@ -135,6 +135,7 @@ def test_dated_water_table_rasters(tmp_path):
 
     def cfg(depth):
         return config_from_dict({"run": {"name": "x"}, "burned_area": {"path": "s.gpkg"},
+                                 "peat": {"bulk_density": 0.1, "carbon_fraction": 0.55},
                                  "depth": {"water_table": {"depth": depth, "units": "cm"}}},
                                 base=tmp_path, source=tmp_path / "c.toml")
 

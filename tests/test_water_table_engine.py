@@ -166,7 +166,7 @@ def test_run_chooses_covariates_by_cross_validation_and_reports_the_scores(tmp_p
     region = make_demo_region(tmp_path / "in", shape=(300, 375))
     cfg = region.config_path.read_text().replace(
         "[depth.water_table]", '[depth.water_table]\nedge_taper = "cv"\nthickness_taper = "cv"')
-    region.config_path.write_text(cfg.replace("draws = 2000", "draws = 200"))
+    region.config_path.write_text(cfg.replace("draws = 2000", "draws = 0"))
     res = peatburn.run(region.config_path, tmp_path / "out")
     m = res.totals["water_table_model"]["all"]
     scores = m["cv_scores"]

@@ -79,13 +79,11 @@ def _scene(folder):
 
 
 def _config(folder, water_table: str, name: str) -> object:
-    text = f"""[run]
-name = "dated water table"
-year = 2031
-block_size = 64
-
-[burned_area]
-path = "scars.gpkg"
+    text = f"""run = {{ name = "dated water table", year = 2031, block_size = 64 }}
+burned_area = {{ path = "scars.gpkg" }}
+peat = {{ thickness = 4.0, bulk_density = "{BD} g/cm^3", carbon_fraction = {CF} }}
+emission_factors = {{ smouldering = "smouldering_akagi2011", gwp = "AR6" }}
+zones = [{{ path = "scars.gpkg", id = "scar_id", name = "scars" }}]
 
 [depth.survey]
 pre = "pre.tif"
@@ -94,20 +92,6 @@ interval_years = 1.0
 
 [depth.water_table]
 {water_table}
-
-[peat]
-thickness = 4.0
-bulk_density = "{BD} g/cm^3"
-carbon_fraction = {CF}
-
-[emission_factors]
-smouldering = "smouldering_akagi2011"
-gwp = "AR6"
-
-[[zones]]
-path = "scars.gpkg"
-id = "scar_id"
-name = "scars"
 """
     path = folder / f"{name}.toml"
     path.write_text(text)
