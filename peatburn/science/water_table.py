@@ -1303,7 +1303,8 @@ def select_edge_taper(water_table_m, depth_m, scar, edge_distance_m, *, candidat
 
     :func:`select_covariates` with the edge distance as the only covariate: each candidate ``L``
     (and no taper) is cross-validated with the same folds and the best is taken only if it lowers
-    the score of no taper by at least ``min_gain`` (relative). Not a default.
+    the score of no taper by at least ``min_gain`` (relative) and by more than one standard error of
+    the paired per-scar difference. Not a default.
 
     Returns
     -------
@@ -1315,6 +1316,27 @@ def select_edge_taper(water_table_m, depth_m, scar, edge_distance_m, *, candidat
                             edge_candidates=candidates, min_gain=min_gain, **cv_kwargs)
     rmse = {e: v for (e, _), v in sel["tried"].items()}
     return {"taper_m": sel["edge_taper_m"], "rmse": rmse, "cv": sel["cv"]}
+
+
+def _squared_relative_errors(cv) -> dict:
+    """Per scar label, the squared relative error ((P - O) / O)^2 of a cross-validation (O > 0 only)."""
+    o, p = np.asarray(cv["observed"]), np.asarray(cv["predicted"])
+    keep = (o > 0) & np.isfinite(p)
+    return dict(zip(np.asarray(cv["scar"])[keep].tolist(), (((p[keep] - o[keep]) / o[keep]) ** 2).tolist()))
+
+
+def _beats_by_one_se(cand, cur) -> bool:
+    """True when ``cand`` lowers the mean squared relative error of the scars by more than one standard
+    error of the paired difference over the same scars (the one-standard-error rule of Hastie,
+    Tibshirani & Friedman 2009, section 7.10, recalled, unchecked, applied to each step): a gain
+    within the noise of a few scars with a tiny observed carbon (whose relative error is huge) is
+    not taken."""
+    a, b = _squared_relative_errors(cand), _squared_relative_errors(cur)
+    common = sorted(set(a) & set(b), key=str)
+    if len(common) < 3:
+        return False
+    diff = np.array([b[k] - a[k] for k in common])
+    return bool(diff.mean() > diff.std(ddof=1) / math.sqrt(diff.size))
 
 
 def select_covariates(water_table_m, depth_m, scar, *, edge_distance_m=None, thickness_m=None, edge=None,
@@ -1329,8 +1351,11 @@ def select_covariates(water_table_m, depth_m, scar, *, edge_distance_m=None, thi
     once, so a bias of small scars or of scars on thin peat is seen, which the RMSE of absolute
     sums, dominated by the large scars, hides). Starting from the fixed covariates (or none), each
     step tries every candidate of every covariate still to choose and takes the best, only if it
-    lowers the current score by at least ``min_gain`` (relative; a covariate must earn its place);
-    the selection stops at the first step that does not. Forward stepwise selection is common
+    lowers the current score by at least ``min_gain`` (relative; a covariate must earn its place)
+    **and** lowers the mean squared relative error by more than one standard error of the paired
+    per-scar difference (so that a gain made by a few scars with a tiny observed carbon, whose
+    relative errors are huge and noisy, is not taken); the selection stops at the first step that
+    does not. Forward stepwise selection is common
     practice (Hastie, Tibshirani & Friedman 2009, section 3.3; recalled, unchecked); the gain
     threshold is this project's. Not a default: a covariate is only tried when asked for.
 
@@ -1400,7 +1425,8 @@ def select_covariates(water_table_m, depth_m, scar, *, edge_distance_m=None, thi
         if not ok:
             break
         pos, key = min(ok, key=ok.get)
-        if not ok[(pos, key)] <= (1.0 - min_gain) * base:
+        if not (ok[(pos, key)] <= (1.0 - min_gain) * base
+                and _beats_by_one_se(cvs[key], cvs[tuple(current)])):
             break
         current, base = list(key), ok[(pos, key)]
         del free[pos]
