@@ -9,7 +9,8 @@ Public API::
     result.frames.zones                   # pandas DataFrame, the columns of zones.csv
     result.frames.total["carbon_smouldering_t"]
     result.write("out/")                  # the files of `peatburn run`, when asked
-    peatburn.check_outputs("out/")        # [] for one run's complete, unaltered set
+    peatburn.check_outputs("out/")        # [] for one run's (or series') complete, unaltered set
+    peatburn.check_series("SERIES.toml")  # every year checked, one method across the years, nothing run
 """
 
 from __future__ import annotations
@@ -62,6 +63,14 @@ def check(cfg: RunConfig | str | os.PathLike, against: str | os.PathLike | None 
     return _check(cfg, against, **kwargs)
 
 
+def check_series(series):
+    """Validate a series file and every year's configuration and inputs before anything runs; see
+    :func:`peatburn.engine.check.check_series`."""
+    from .engine.check import check_series as _check_series
+
+    return _check_series(series)
+
+
 def check_outputs(folder: str | os.PathLike) -> list[str]:
     """Problems that keep ``folder`` from being one run's complete, unaltered set, one line each (an
     empty list when it is one); see :func:`peatburn.outputs.checksums.check_outputs`."""
@@ -70,4 +79,4 @@ def check_outputs(folder: str | os.PathLike) -> list[str]:
     return _check(folder)
 
 
-__all__ = ["__version__", "load_config", "run", "run_series", "check", "check_outputs", "RunConfig", "PeatburnError"]
+__all__ = ["__version__", "load_config", "run", "run_series", "check", "check_series", "check_outputs", "RunConfig", "PeatburnError"]

@@ -216,6 +216,12 @@ class RunConfig:
     #: (burn_depth.tif, depth_method.tif) of each earlier year of a series (set by ``peatburn series``,
     #: not by the TOML): the thickness left and the repeat-fire status of this run (docs/method.md 7.7)
     earlier_burns: tuple[tuple[Path, Path], ...] = ()
+    #: Tier 1 fuel consumption [t/ha] each earlier year used (one per ``earlier_burns``; set by ``peatburn
+    #: series``): its Tier 1 pixels remove the equivalent depth from the thickness (docs/method.md 7.7)
+    earlier_tier1_fuel_t_ha: tuple[float, ...] = ()
+    #: (input key, path) pairs provenance.json records instead of the path read: a series reads the earlier
+    #: years from its staging folder and records where they are once it is swapped in (set by ``peatburn series``)
+    recorded_as: tuple[tuple[str, str], ...] = ()
     burn_mask: BurnMaskConfig | None = None  # burned_area.path is a raster mask
     raw: dict = field(default_factory=dict, compare=False, repr=False)
 

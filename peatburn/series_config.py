@@ -139,6 +139,11 @@ def load_series(path) -> SeriesConfig:
     return series_from_dict(read_toml(path, "series"), base=path.parent.resolve(), source=path.resolve())
 
 
+def is_series_file(path) -> bool:
+    """Whether the TOML file ``path`` is a series file (it lists ``[[runs]]``) rather than a run's."""
+    return "runs" in read_toml(Path(path), "config")
+
+
 def series_from_dict(raw: dict, base: Path, source: Path | None = None) -> SeriesConfig:
     """Validate a series already parsed into a dict (run config paths relative to ``base``)."""
     where = str(source) if source else "series"

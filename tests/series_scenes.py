@@ -31,7 +31,7 @@ def box(c0, r0, c1, r1):
 
 def make_year(folder: Path, year: int, scars: list, *, wt=0.6, thickness=0.5, intercept=0.1, slope=0.5,
               draws=0, seed=1, extra="", model_file: dict | None = None, gwp="AR6",
-              smouldering="smouldering_akagi2011", fire_counts=None) -> Path:
+              smouldering="smouldering_akagi2011", fire_counts=None, dates=None) -> Path:
     """Write one year's inputs and config.toml into ``folder``; returns the config path."""
     folder.mkdir(parents=True, exist_ok=True)
     t = from_origin(X0, Y0, PIXEL, PIXEL)
@@ -40,6 +40,9 @@ def make_year(folder: Path, year: int, scars: list, *, wt=0.6, thickness=0.5, in
     cols = {"fire": [f"{year}-{i}" for i in range(len(scars))]}
     if fire_counts is not None:
         cols["times_burned"] = fire_counts
+    if dates is not None:  # (first, last) day of burning of each scar, ISO dates
+        cols["fire_start"] = [a for a, _ in dates]
+        cols["fire_end"] = [b for _, b in dates]
     gpd.GeoDataFrame(cols, geometry=scars, crs=f"EPSG:{EPSG}").to_file(folder / "scars.gpkg", driver="GPKG")
     if model_file is not None:
         (folder / "model.json").write_text(json.dumps({"models": model_file}))

@@ -23,7 +23,9 @@ def series_cmd(series_file, out_dir, overwrite, workers, scheduler, against, qui
     (every year), series.csv (year x phase x quantity with intervals; the multi-year sum and the
     trend from joint draws), series.json and series_report.html. A year whose factor set, GWP set
     or [shared] settings differ from the others is refused unless its [[runs]] entry states it
-    (allow_differences). An existing, non-empty output folder is refused unless --overwrite is given.
+    (allow_differences). The folder is written as one set: staged, swapped in whole, with SHA256SUMS
+    over every file (each year's too; `peatburn check --outputs` verifies it). An existing, non-empty
+    output folder is refused unless --overwrite is given.
     """
     from ..engine.executors import tune_malloc
     from ..engine.progress import progress_bar

@@ -151,9 +151,20 @@ def thickness_at(st, plan: RunPlan, window: Window, sel: np.ndarray):
     """Peat thickness at the pixels ``sel`` [m] (1-D, a scalar for a constant, None unknown); in a later
     year of a series, the peat the earlier years left (science.peat.thickness_left, docs/method.md 7.7)."""
     thick = _at(_param(st, plan, "thickness", window), sel, sel.shape)
-    if plan.earlier_burns:
-        thick = peat.thickness_left(thick, [d for d, _ in _earlier_burns(st, plan, window, sel)])
+    if plan.earlier_burns and thick is not None:
+        rho = _at(_param(st, plan, "bulk_density", window), sel, sel.shape)
+        rho = peat.fill_missing(np.broadcast_to(np.asarray(rho, "float64"), (int(np.count_nonzero(sel)),)),
+                                plan.rho_fill)[0]
+        removed = [peat.earlier_removed_depth(d, code == METHOD_CODES["tier1"], _earlier_fuel(plan, i), rho)
+                   for i, (d, code) in enumerate(_earlier_codes(st, plan, window, sel))]
+        thick = peat.thickness_left(thick, removed)
     return thick
+
+
+def _earlier_fuel(plan: RunPlan, i: int) -> float:
+    """Tier 1 fuel consumption [t/ha] of the i-th earlier year (this run's when not given)."""
+    fuel = getattr(plan, "earlier_tier1_fuel", ())
+    return float(fuel[i]) if i < len(fuel) else float(plan.tier1_fuel_t_ha)
 
 
 def series_fire_count(st, plan: RunPlan, window: Window, sel: np.ndarray):
@@ -320,12 +331,13 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
 def _earlier_burns(st, plan: RunPlan, window: Window, burned: np.ndarray) -> list:
     """Per earlier year of a series, (burn depth [m], burned) at the burned pixels: the depth of its
     burn_depth.tif (NaN: none) and whether its depth_method.tif marks the pixel burned (code > 0)."""
-    out = []
-    for i in range(len(plan.earlier_burns)):
-        d = st["readers"][f"earlier_depth_{i}"].read(window)[burned]
-        code = st["readers"][f"earlier_method_{i}"].read(window)[burned]
-        out.append((d, np.isfinite(code) & (code > 0)))
-    return out
+    return [(d, np.isfinite(code) & (code > 0)) for d, code in _earlier_codes(st, plan, window, burned)]
+
+
+def _earlier_codes(st, plan: RunPlan, window: Window, burned: np.ndarray) -> list:
+    """Per earlier year of a series, (burn depth [m], depth-method code) at the burned pixels."""
+    return [(st["readers"][f"earlier_depth_{i}"].read(window)[burned],
+             st["readers"][f"earlier_method_{i}"].read(window)[burned]) for i in range(len(plan.earlier_burns))]
 
 
 def _in_extent(st, plan: RunPlan, window: Window, burned: np.ndarray):

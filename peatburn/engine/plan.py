@@ -58,6 +58,7 @@ class RunPlan:
     fill_cv: float = 0.0  # relative spread of a filled value (uncertainty source peat_property_fill)
     # earlier years of a series: (burn depth, depth method) RasterSources per year (docs/method.md 7.7)
     earlier_burns: tuple = ()
+    earlier_tier1_fuel: tuple = ()  # the Tier 1 fuel consumption [t/ha] each earlier year used
     token: str = field(default_factory=lambda: uuid.uuid4().hex)
 
 
@@ -177,6 +178,7 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
         earlier_burns=tuple((RasterSource(str(d), f"series.earlier_burns[{i}].depth", resampling="nearest"),
                              RasterSource(str(m), f"series.earlier_burns[{i}].method", resampling="nearest"))
                             for i, (d, m) in enumerate(cfg.earlier_burns)),
+        earlier_tier1_fuel=tuple(float(v) for v in getattr(cfg, "earlier_tier1_fuel_t_ha", ())),
     )
 
 

@@ -25,6 +25,8 @@ from ..io.writers import file_record, sha256_of, write_text
 
 SUMS_NAME = "SHA256SUMS"
 PROVENANCE_NAME = "provenance.json"
+#: The file that makes a folder a series' (``peatburn series``): its ``year_folders`` name the years' folders.
+SERIES_NAME = "series.json"
 _LINE = re.compile(r"^([0-9a-f]{64}) [ *](.+)$")
 
 
@@ -59,6 +61,25 @@ def write_sums(folder: Path, known: dict | None = None) -> Path:
     return write_text(folder / SUMS_NAME, "".join(lines))
 
 
+def write_series_sums(folder: Path, year_folders: list[str]) -> Path:
+    """Write the ``SHA256SUMS`` of a series folder: every file of the folder, each year folder's files
+    (its own SHA256SUMS and provenance.json included) listed by their path below ``folder``. The
+    hashes a year's own SHA256SUMS holds are taken from it (the year was sealed a moment before), so
+    the rasters are not read twice."""
+    folder = Path(folder)
+    known = {}
+    for sub in year_folders:
+        for name, digest in read_sums(folder / sub / SUMS_NAME)[0].items():
+            known[f"{sub}/{name}"] = {"sha256": digest}
+    return write_sums(folder, known)
+
+
+def is_series(folder: Path | str) -> bool:
+    """Whether ``folder`` holds a series' outputs (series.json, no run's provenance.json)."""
+    folder = Path(folder)
+    return (folder / SERIES_NAME).is_file() and not (folder / PROVENANCE_NAME).exists()
+
+
 def read_sums(path: Path) -> tuple[dict, list[str]]:
     """The ``name -> sha256`` of a SHA256SUMS file and a problem line for each malformed line."""
     sums, problems = {}, []
@@ -74,6 +95,10 @@ def read_sums(path: Path) -> tuple[dict, list[str]]:
 def check_outputs(folder: Path | str) -> list[str]:
     """Problems that keep ``folder`` from being one run's complete, unaltered set, one line each
     (``missing: ...``, ``altered: ...``, ``extra: ...``, ``malformed: ...``); empty when it is one.
+
+    A series folder (:func:`is_series`) is checked as one set too: its SHA256SUMS covers every file
+    below it, and each year folder's own SHA256SUMS and provenance.json must agree with it
+    (:func:`_series_years`).
 
     Raises
     ------
@@ -96,13 +121,50 @@ def check_outputs(folder: Path | str) -> list[str]:
             problems.append(f"missing: {name} (listed in {SUMS_NAME})")
         elif sha256_of(p) != digest:
             problems.append(f"altered: {name} (its SHA-256 differs from {SUMS_NAME})")
+    what = "series" if is_series(folder) else "run"
     for name in sorted(present - set(sums) - {SUMS_NAME}):
-        problems.append(f"extra: {name} (not listed in {SUMS_NAME}: not an output of this run)")
+        problems.append(f"extra: {name} (not listed in {SUMS_NAME}: not an output of this {what})")
     for p in sorted(folder.rglob("*")):
         if p.is_dir() and not p.is_symlink() and not any(p.iterdir()):
-            problems.append(f"extra: {p.relative_to(folder).as_posix()}/ (an empty folder, not an output of this run)")
-    problems += _against_provenance(folder, sums)
+            problems.append(f"extra: {p.relative_to(folder).as_posix()}/ (an empty folder, not an output of this {what})")
+    problems += _series_years(folder, sums) if what == "series" else _against_provenance(folder, sums)
+    return list(dict.fromkeys(problems))
+
+
+def _series_years(folder: Path, sums: dict) -> list[str]:
+    """Each year folder of a series: its own SHA256SUMS lists the files and hashes the series'
+    SHA256SUMS lists below it, and its provenance.json's record agrees (no file is read twice)."""
+    if SERIES_NAME not in sums:
+        return [f"missing: {SERIES_NAME} (not listed in {SUMS_NAME})"]
+    try:
+        subs = [str(v) for v in json.loads((folder / SERIES_NAME).read_text(encoding="utf-8"))["year_folders"].values()]
+    except (ValueError, KeyError, TypeError, AttributeError):
+        return [f"malformed: {SERIES_NAME} has no year_folders record"]
+    problems = []
+    for sub in subs:
+        listed = {n[len(sub) + 1:]: d for n, d in sums.items() if n.startswith(sub + "/")}
+        if SUMS_NAME not in listed:
+            problems.append(f"missing: {sub}/{SUMS_NAME} (a year's own checksums, not listed in {SUMS_NAME})")
+            continue
+        if not (folder / sub / SUMS_NAME).is_file():
+            continue  # reported as missing above
+        own, bad = read_sums(folder / sub / SUMS_NAME)
+        problems += [_within(sub, line) for line in bad]
+        for name in sorted((set(own) | set(listed)) - {SUMS_NAME}):
+            if name not in own:
+                problems.append(f"extra: {sub}/{name} (in {SUMS_NAME}, not in {sub}/{SUMS_NAME})")
+            elif name not in listed:
+                problems.append(f"missing: {sub}/{name} (in {sub}/{SUMS_NAME}, not in {SUMS_NAME})")
+            elif own[name] != listed[name]:
+                problems.append(f"altered: {sub}/{name} ({sub}/{SUMS_NAME} and {SUMS_NAME} record different SHA-256)")
+        problems += [_within(sub, line) for line in _against_provenance(folder / sub, own)]
     return problems
+
+
+def _within(sub: str, line: str) -> str:
+    """A problem line of a year folder with the file named by its path in the series folder."""
+    kind, _, rest = line.partition(": ")
+    return f"{kind}: {sub}/{rest}"
 
 
 def _against_provenance(folder: Path, sums: dict) -> list[str]:
@@ -130,6 +192,14 @@ def _against_provenance(folder: Path, sums: dict) -> list[str]:
 def describe(folder: Path | str) -> str:
     """One line naming the set of a checked folder: run name, creation time, the SHA-256 of SHA256SUMS."""
     folder = Path(folder)
+    if is_series(folder):
+        try:
+            doc = json.loads((folder / SERIES_NAME).read_text(encoding="utf-8"))
+            name, years = doc.get("series", "?"), ", ".join(str(y) for y in doc.get("years", []))
+        except (OSError, ValueError, AttributeError):
+            name, years = "?", "?"
+        return (f"series {name!r} (years {years}); SHA-256 of {SUMS_NAME} {sha256_of(folder / SUMS_NAME)} "
+                f"(keep it elsewhere to detect deliberate rewriting)")
     try:
         prov = json.loads((folder / PROVENANCE_NAME).read_text(encoding="utf-8"))
         run = (prov.get("config") or {}).get("run", {}).get("name", "?")

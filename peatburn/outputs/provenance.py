@@ -88,7 +88,7 @@ def build(cfg, grid, alignment, factors, models=None, extra: dict | None = None)
         "versions": versions(),
         "config_file": str(cfg.source) if cfg.source else None,
         "config": cfg.raw,
-        "inputs": input_records(cfg.input_paths()),
+        "inputs": _recorded(input_records(cfg.input_paths()), getattr(cfg, "recorded_as", ())),
         "grid": grid.to_dict(),
         "parameters": params,
         "emission_factors": {"smouldering": _set(factors.smouldering), "flaming": _set(factors.flaming),
@@ -99,6 +99,15 @@ def build(cfg, grid, alignment, factors, models=None, extra: dict | None = None)
         "draws": cfg.uncertainty.draws,
         **(extra or {}),
     }
+
+
+def _recorded(inputs: dict, recorded_as) -> dict:
+    """``inputs`` with the path of each key of ``recorded_as`` replaced by the path to record (the file's
+    place once a series' staging folder is swapped in; its size and SHA-256 are those read)."""
+    for key, path in recorded_as:
+        if key in inputs:
+            inputs[key]["path"] = str(path)
+    return inputs
 
 
 def _set(fs) -> dict:

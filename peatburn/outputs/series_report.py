@@ -57,6 +57,51 @@ def timeseries_chart(rows: list[dict]) -> str | None:
         return _png(fig)
 
 
+_SUM_TREND = (("smouldering", "below ground"), ("flaming", "above ground"), ("both", "both phases"))
+
+
+def sum_trend_chart(summary: dict) -> str | None:
+    """The multi-year sum [t CO2e] and the trend [%] of each phase's CO2e, each with its 95 % interval
+    from the joint draws (filled marker) beside the same draws made independent between years
+    (hollow marker, dashed): how much the shared factors widen or narrow them."""
+    by = {q["phase"]: q for q in summary.get("quantities", []) if q["quantity"] == "co2e_t"}
+    picked = [(phase, label, by[phase]) for phase, label in _SUM_TREND if phase in by]
+    if not picked or all(_finite(q["sum"]["lo"]) is None for _, _, q in picked):
+        return None
+    colour = {**PHASE_COLOURS, "both": "#000000"}
+    with _style():
+        fig = _figure(7.4, 2.8)
+        axes = fig.subplots(1, 2)
+        for ax, part, ylabel in ((axes[0], "sum", f"t CO₂e, {summary['span']}"),
+                                 (axes[1], "trend", f"% change {summary['trend_years'].replace('-', '→')}")):
+            for k, (phase, _, q) in enumerate(picked):
+                d = q[part]
+                if _finite(d["value"]) is None:
+                    continue
+                for dx, lo, hi, filled in ((-0.14, d["lo"], d["hi"], True),
+                                           (0.14, d["lo_independent"], d["hi_independent"], False)):
+                    if _finite(lo) is None or _finite(hi) is None:
+                        continue
+                    v = d["value"]
+                    bars = ax.errorbar([k + dx], [v], yerr=[[max(v - lo, 0.0)], [max(hi - v, 0.0)]], fmt="o",
+                                       capsize=4, ms=5, lw=1.4, color=colour[phase],
+                                       mfc=colour[phase] if filled else "white",
+                                       label=("joint draws" if filled else "years independent") if k == 0 else None)
+                    if not filled:
+                        bars[-1][0].set_linestyle("--")
+            ax.set_xticks(range(len(picked)), [label for _, label, _ in picked])
+            ax.set_xlim(-0.6, len(picked) - 0.4)
+            ax.set_ylabel(ylabel)
+            if part == "sum":
+                ax.set_ylim(bottom=0)
+            else:
+                ax.axhline(0.0, color="#888888", lw=0.8)
+        axes[0].set_title("Sum of the years, 95 % intervals")
+        axes[1].set_title("Trend, 95 % intervals")
+        axes[0].legend(frameon=False, loc="best")
+        return _png(fig)
+
+
 def method_share_by_year_chart(shares: dict) -> str | None:
     """Share of below-ground carbon by depth method, one bar per year (stacked to 100 %)."""
     years = sorted(shares, key=int)
@@ -125,6 +170,7 @@ def build_context(series, results, rows: list[dict], doc: dict, recalc=None) -> 
         "base_year": doc["base_year"],
         "created": dt.datetime.now(dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"),
         "timeseries": timeseries_chart(rows),
+        "sum_trend": sum_trend_chart(doc["joint"]),
         "method_chart": method_share_by_year_chart(shares),
         "year_table": _year_table(rows, shares),
         "joint": _joint_table(doc["joint"]),

@@ -16,8 +16,14 @@ from .tables import PHASES, TOTAL_LAYER, gas_key, interval_columns, units
 #: draws, ``lo_independent``/``hi_independent`` (sum and trend only) from the same draws with the
 #: years made independent, for comparison.
 SERIES_COLUMNS = ["kind", "year", "phase", "quantity", "unit", "value", "lo", "hi", "lo_independent", "hi_independent"]
-#: inventory.csv of a series: the yearly runs' inventory lines, each with the series year of its run.
-SERIES_INVENTORY_COLUMNS = ["run_year", "year", "phase", "gas", "emissions_gg", "emissions_gg_lo", "emissions_gg_hi"]
+#: inventory.csv of a series: one line per calendar year x phase x gas, with the series year(s) of the
+#: run(s) it comes from (``2031+2032`` when two runs burned in that calendar year: combined, see
+#: :func:`combine_calendar_years`) and where its interval comes from (``interval``: ``run`` its run's own,
+#: ``joint draws`` the series' joint draws, ``added bounds (conservative)``, or empty without draws).
+SERIES_INVENTORY_COLUMNS = ["run_year", "year", "phase", "gas", "emissions_gg", "emissions_gg_lo", "emissions_gg_hi",
+                            "interval"]
+#: ``interval`` of a combined line whose gas has no joint draws: the runs' bounds added.
+ADDED_BOUNDS = "added bounds (conservative)"
 #: recalculation.csv (``--against``): per year, each input, setting or figure that differs.
 RECALCULATION_COLUMNS = ["year", "what", "key", "old", "new"]
 
@@ -80,6 +86,53 @@ def joint_rows(summary: dict) -> list[dict]:
 def inventory_rows(year: int, inventory: list[dict]) -> list[dict]:
     """A year's inventory lines (inventory.csv of its run) with the series year of the run first."""
     return [{"run_year": year, **r} for r in inventory]
+
+
+def combine_calendar_years(rows: list[dict], draws: dict) -> list[dict]:
+    """One inventory line per calendar year x phase x gas from the runs' lines (each with ``run_year``).
+
+    Lines of one calendar year from two runs (a fire season across the new year) are added: the
+    mean is the sum of the runs' lines; the interval is the 2.5-97.5 % of the sum of the lines' joint
+    draws (``draws[(run_year, year, phase, gas)]``: the run's joint draws scaled to the line, in Gg)
+    where every line has them, else the runs' bounds added (as if the runs' errors were perfectly
+    correlated: wider than the joint interval for the usual errors, not a proven bound; ``interval``
+    says which). Whether adding counts a fire twice is the caller's check
+    (peatburn.engine.series). Lines of a calendar year from one run are kept as they are.
+    """
+    from ..science import trend
+
+    groups: dict = {}
+    for r in rows:
+        cal = str(r["year"]) or f"run {r['run_year']}"  # a line without a year (no run.year) stays its run's
+        groups.setdefault((cal, r["phase"], r["gas"]), []).append(r)
+    out = []
+    for (_, phase, gas), members in groups.items():
+        if len(members) == 1:
+            r = members[0]
+            out.append({**r, "interval": "run" if _finite(r["emissions_gg_lo"]) else ""})
+            continue
+        value = math.fsum(float(r["emissions_gg"]) for r in members)
+        d = [draws.get((r["run_year"], r["year"], phase, gas)) for r in members]
+        if all(x is not None for x in d):
+            lo, hi = trend.interval(sum(d[1:], d[0]))
+            how = "joint draws"
+        elif all(_finite(r["emissions_gg_lo"]) and _finite(r["emissions_gg_hi"]) for r in members):
+            lo = math.fsum(float(r["emissions_gg_lo"]) for r in members)
+            hi = math.fsum(float(r["emissions_gg_hi"]) for r in members)
+            how = ADDED_BOUNDS
+        else:
+            lo, hi, how = math.nan, math.nan, ""
+        out.append({"run_year": "+".join(str(r["run_year"]) for r in members), "year": members[0]["year"],
+                    "phase": phase, "gas": gas, "emissions_gg": value, "emissions_gg_lo": lo, "emissions_gg_hi": hi,
+                    "interval": how})
+    return sorted(out, key=lambda r: str(r["year"]))  # stable: each year's lines in the runs' order
+
+
+def _finite(v) -> bool:
+    try:
+        return v is not None and v != "" and math.isfinite(float(v))
+    except (TypeError, ValueError):
+        return False
 
 
 def method_shares(totals: dict) -> dict:

@@ -147,6 +147,50 @@ def thickness_left(thickness, earlier_depths):
         return np.where(np.isfinite(t), np.maximum(t - burned, 0.0), np.nan)
 
 
+def earlier_removed_depth(depth, tier1, fuel_consumption_t_ha, bulk_density_g_cm3):
+    """Depth of peat an earlier fire of a series removed at each pixel [m], for :func:`thickness_left`.
+
+    Where the earlier fire has a burn depth (survey, water-table model) it is that depth. An earlier
+    Tier 1 pixel has none (Tier 1 is area-based: a fuel consumption per hectare, IPCC 2013 Wetlands
+    Supplement Ch. 2, Eq. 2.8, Table 2.6; recalled, unchecked), so it removes the depth that holds the
+    fuel it was assigned at the pixel's dry bulk density, ``d = FC x 0.1 / (rho_b x 1000)``
+    (:func:`peatburn.science.tier1.tier1_equivalent_depth`: 353 t/ha at 0.1 g/cm3 is 0.353 m; the
+    conversion is common practice). :func:`thickness_left` caps what is removed at the thickness. A
+    Tier 1 pixel without a positive, finite bulk density removes nothing (NaN).
+
+    Parameters
+    ----------
+    depth : array_like
+        The earlier fire's burn depth [m] (NaN: none).
+    tier1 : array_like of bool
+        True where the earlier fire's depth method was Tier 1.
+    fuel_consumption_t_ha : float
+        Tier 1 fuel consumption the earlier fire was assigned [t dry matter / ha].
+    bulk_density_g_cm3 : array_like
+        Dry bulk density at the pixels [g/cm3].
+
+    Returns
+    -------
+    numpy.ndarray
+        Depth removed [m] (NaN: none).
+
+    References
+    ----------
+    IPCC (2014). 2013 Wetlands Supplement, Ch. 2, Eq. 2.8 and Table 2.6 (recalled, unchecked).
+    """
+    from .tier1 import tier1_equivalent_depth
+
+    d = np.asarray(depth, dtype="float64")
+    rho = np.asarray(bulk_density_g_cm3, dtype="float64")
+    t1 = np.asarray(tier1, bool) & ~np.isfinite(d)
+    if not t1.any():
+        return d
+    ok = np.isfinite(rho) & (rho > 0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        eq = tier1_equivalent_depth(fuel_consumption_t_ha, np.where(ok, rho, 1.0))
+    return np.where(t1 & ok, eq, d)
+
+
 def fires_before(earlier_burned) -> np.ndarray:
     """How many earlier fires of a series burned each pixel (the repeat-fire status a series gives
     where the burn scars carry no fire count: a fire is a repeat fire when this is >= 1).

@@ -105,6 +105,9 @@ def test_demo_end_to_end(runner, tmp_path):
     assert float(total_2032["carbon_smouldering_t"]) == pytest.approx(
         truth["second_year"]["totals"]["carbon_smouldering_t"], rel=0.05)
     assert (series / "series_report.html").exists() and "two-year series" in res.output
+    # the series folder is one sealed set (SHA256SUMS over every file of both years)
+    checked = runner.invoke(cli, ["check", "--outputs", str(series)])
+    assert checked.exit_code == 0 and "one series' complete, unaltered set" in checked.output, checked.output
 
 
 def test_calibrate_writes_fit_and_plot_that_run_reuses(runner, tmp_path):

@@ -59,3 +59,32 @@ def test_repeat_fire_status_comes_from_the_series(tmp_path):
     c2b = make_year(tmp_path / "b2", 2032, [S2], model_file=models, fire_counts=[1])
     kept = run_series(load_series(write_series(tmp_path, {2031: c1, 2032: c2b})), tmp_path / "kept")
     assert _carbon(kept, 2032) == pytest.approx(carbon_t({0.4: 250, 0.1: 150}), rel=1e-6)
+
+
+def test_earlier_tier1_pixels_remove_their_equivalent_depth(tmp_path):
+    """2031 has no water-table value (NaN raster): every burned pixel gets the Tier 1 fuel consumption,
+    which removes FC / rho_b of peat (docs/method.md 7.7). Truth by hand: 353 t/ha x 0.1 kg m-2 per t/ha
+    / (0.1 g cm-3 x 1000) = 0.353 m (IPCC 2013 Wetlands Supplement Table 2.6 default, recalled); 0.5 m
+    of peat leaves 0.147 m for 2032's 0.4 m fire on the 150 px S1 and S2 share."""
+    c1 = make_year(tmp_path / "a", 2031, [S1], wt=float("nan"))
+    c2 = make_year(tmp_path / "b", 2032, [S2])
+    result = run_series(load_series(write_series(tmp_path, {2031: c1, 2032: c2})), tmp_path / "out")
+    t1 = result.results[0].total
+    assert t1["area_tier1_ha"] == pytest.approx(4.0, rel=1e-9)  # 400 px x 100 m2
+    left = 0.5 - 353.0 * 0.1 / (0.1 * 1000.0)
+    assert _carbon(result, 2032) == pytest.approx(carbon_t({0.4: 250, left: 150}), rel=1e-6)
+    # a larger stated fuel consumption (600 t/ha = 0.6 m at 0.1 g cm-3) removes more than the 0.5 m there
+    # is: the shared pixels have no peat left (capped at the thickness) and burn nothing below ground in 2032
+    c1b = make_year(tmp_path / "a2", 2031, [S1], wt=float("nan"),
+                    extra='\n[depth.tier1]\nfuel_consumption = "600 t/ha"\n')
+    s = write_series(tmp_path, {2031: c1b, 2032: c2})
+    text = s.read_text().replace('config = "a2/config.toml"',
+                                 'config = "a2/config.toml"\nallow_differences = ["depth.tier1.fuel_consumption"]')
+    s.write_text(text)
+    capped = run_series(load_series(s), tmp_path / "capped")
+    assert _carbon(capped, 2032) == pytest.approx(carbon_t({0.4: 250}), rel=1e-6)
+    assert capped.results[1].total["mineral_soil_area_ha"] == pytest.approx(1.5, rel=1e-9)
+    # without fire history, the Tier 1 year removes nothing: 2032 burns 0.4 m everywhere
+    off = run_series(load_series(write_series(tmp_path, {2031: c1, 2032: c2}, extra="fire_history = false\n")),
+                     tmp_path / "off")
+    assert _carbon(off, 2032) == pytest.approx(carbon_t({0.4: 400}), rel=1e-6)

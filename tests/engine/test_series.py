@@ -64,6 +64,12 @@ def test_series_tables_hold_every_year(two_years):
     assert json.loads((root / "out" / "inventory.json").read_text())["years"] == [2031, 2032]
     report = (root / "out" / "series_report.html").read_text(encoding="utf-8")
     assert "2031/report.html" in report and "not legal findings" in report and "if independent" in report
+    # the sum and trend chart, self-contained: every image is a data: URI, every link a year's own report
+    import re
+
+    assert 'alt="Sum of the years and trend of CO2e, joint and independent intervals" src="data:image/png' in report
+    links = re.findall(r'(?:href|src)="([^"]*)"', report)
+    assert all(u.startswith("data:") or re.fullmatch(r"\d{4}/report\.html", u) for u in links), links
     assert (root / "out" / "2032" / "report.html").exists()
 
 
