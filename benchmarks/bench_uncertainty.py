@@ -1,6 +1,6 @@
 """Benchmark: zone-level Monte Carlo intervals against the cost of reducing a raster to zone sums.
 
-    python benchmarks/bench_uncertainty.py [--draws 10000] [--zones 10000] [--pixels 4000000]
+    python benchmarks/bench_uncertainty.py [--draws 10000] [--zones 10000] [--pixels 4000000] [--terms]
 
 Measured in one run, on one machine, so the ratios are what matter:
 
@@ -12,6 +12,11 @@ Measured in one run, on one machine, so the ratios are what matter:
   carbon fraction and emission factors, on 1 thread and on 2 threads.
 
 The draws never touch pixels: their cost depends on draws x zones only.
+
+``--terms`` (issue 16 items 5-6) adds flaming from FRE (dry matter, carbon, flaming emission factors and
+the per-zone FRE integration sum) and times the draws of every quantity without and with the
+burned-area term (CV 0.1) and the FRE integration term (cv_1 = 1), one thread: the ratio is the cost of
+the two terms.
 """
 
 from __future__ import annotations
@@ -51,7 +56,10 @@ def main(argv=None):
     ap.add_argument("--draws", type=int, default=10_000)
     ap.add_argument("--zones", type=int, default=10_000)
     ap.add_argument("--pixels", type=int, default=4_000_000)
+    ap.add_argument("--terms", action="store_true", help="time the burned-area and FRE integration terms")
     args = ap.parse_args(argv)
+    if args.terms:
+        return terms(args)
 
     sums, t_base = zone_sums(args.pixels, args.zones)
     sources = u.default_sources(survey_bias_sd_m=0.02, survey_sigma_m=0.15, survey_range_m=100.0, interval_years=3.0,
@@ -81,6 +89,29 @@ def main(argv=None):
               f"{t / t_base:6.1f} x baseline")
     per = timings[1] / (args.draws * args.zones * len(quantities)) * 1e9
     print(f"          {per:.1f} ns per draw x zone x quantity (1 thread)")
+
+
+def terms(args):
+    """The draws of every quantity with flaming from FRE, without and with the issue-16 terms (one thread)."""
+    sums, _ = zone_sums(args.pixels, args.zones)
+    rng = np.random.default_rng(1)
+    dm = rng.uniform(1e5, 1e7, args.zones)
+    sums.update(flaming_dm_fre_kg=dm, flaming_carbon_kg=0.47 * dm,
+                flaming_fre_ssq_kg2=dm * dm / rng.integers(1, 40, args.zones))  # invented: 1-40 looks per zone
+    sources = u.default_sources(survey_bias_sd_m=0.02, survey_sigma_m=0.15, survey_range_m=100.0, interval_years=3.0,
+                                smouldering_factors={"co2": (1703.0, 38.0), "co": (210.0, 109.0), "ch4": (20.8, 11.4)},
+                                flaming_factors={"co2": (1580.0, 90.0), "co": (104.0, 20.0), "ch4": (6.8, 2.0)})
+    base = u.sources_to_params(sources, gwp={"co2": 1.0, "ch4": 27.0})
+    timings = {}
+    for name, extra in (("without", {}), ("with", {"burned_area_cv": 0.1, "fre_integration_cv": 1.0})):
+        t0 = time.perf_counter()
+        res = u.intervals(sums, {**base, **extra}, draws=args.draws, seed=1, total=True, workers=1)
+        timings[name] = time.perf_counter() - t0
+    print(f"zones {args.zones:,}, draws {args.draws:,}; quantities: {', '.join(res)}")
+    for name, t in timings.items():
+        print(f"draws {name:7s} the burned-area and FRE integration terms  {t:8.3f} s")
+    print(f"  RATIO with / without: {timings['with'] / timings['without']:.2f}")
+    return timings
 
 
 if __name__ == "__main__":

@@ -114,6 +114,20 @@ class UncertaintyConfig:
     subsidence_rate_sd: float | None = None
     correlation_range_m: float | None = None
     surface_change_sd: float | None = None  # [m] non-fire surface change over the survey interval (issue 16)
+    # relative sd of the FRE of a fire event observed once (issue 16; None: the stated default,
+    # science.uncertainty.fre_sampling; 0: no term)
+    fre_integration_cv: float | None = None
+
+
+@dataclass(frozen=True)
+class AreaAccuracyConfig:
+    """[burned_area.accuracy]: the burned-area map's accuracy as an area term (issue 16;
+    science.uncertainty.area_accuracy). ``ratio`` is the error-adjusted area over the mapped area."""
+
+    ratio: float
+    ratio_se: float
+    adjust: bool = False  # scale the estimates by the ratio (bias-corrected); else they follow the mapped area
+    basis: str = ""  # how the ratio was given (for the QA and the report)
 
 
 @dataclass(frozen=True)
@@ -223,6 +237,7 @@ class RunConfig:
     #: years from its staging folder and records where they are once it is swapped in (set by ``peatburn series``)
     recorded_as: tuple[tuple[str, str], ...] = ()
     burn_mask: BurnMaskConfig | None = None  # burned_area.path is a raster mask
+    area_accuracy: AreaAccuracyConfig | None = None  # [burned_area.accuracy] (issue 16); None: no area term
     raw: dict = field(default_factory=dict, compare=False, repr=False)
 
     @property
@@ -287,7 +302,9 @@ _POLYGON_KEYS = ("layer", "fire_count_field", "id_field")
 _SCHEMA = {
     "run": {"name", "year", "crs", "block_size", "force_ranges", "resolution"},
     "burned_area": {"path", "layer", "fire_count_field", "start_field", "end_field", "id_field",
-                    *_MASK_KEYS},
+                    "accuracy", *_MASK_KEYS},
+    "burned_area.accuracy": {"area_ratio", "area_ratio_se", "omission", "commission", "omission_se",
+                             "commission_se", "omission_n", "commission_n", "adjust"},
     "depth": {*(m.section.removeprefix("depth.") for m in DEPTH_METHODS), "plots"},  # peatburn.depth_methods
     "depth.water_table": {"depth", "value_column", "crs", "date_column", "model", "intercept", "slope",
                           "fit_method", "idw_power", "idw_neighbours", "idw_max_distance_m", "units",
@@ -303,7 +320,7 @@ _SCHEMA = {
     "emission_factors": {"smouldering", "flaming", "gwp", "form"},
     "zones": {"path", "id", "name", "layer", "dossiers"},
     "uncertainty": {"draws", "seed", "bulk_density_cv", "carbon_fraction_sd", "subsidence_rate_sd",
-                    "correlation_range_m", "surface_change_sd"},
+                    "correlation_range_m", "surface_change_sd", "fre_integration_cv"},
 }
 _TOP = {"run", "burned_area", "depth", "peat", "emission_factors", "zones", "uncertainty", "flaming"}
 #: Sections of the contract that later work fills in; refused until then so no input is silently ignored.
@@ -465,6 +482,7 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
     _check_keys(ba, "burned_area", where)
     burned = _path(_require(ba, "path", "burned_area", where), base, "burned_area.path", where)
     burn_mask = _burn_mask(ba, burned, base, where)
+    area_accuracy = _area_accuracy(ba["accuracy"], where) if "accuracy" in ba else None
 
     depth = raw.get("depth", {})  # no [depth] at all: a Tier-1-only run
     if not isinstance(depth, dict):
@@ -570,6 +588,7 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         if "correlation_range_m" in un else None,
         surface_change_sd=to_magnitude(un["surface_change_sd"], "m", "uncertainty.surface_change_sd")
         if "surface_change_sd" in un else None,
+        fre_integration_cv=_opt_number(un, "fre_integration_cv", "uncertainty", where, 0, 5),
     )
     flaming = _flaming(raw["flaming"], base, where, force) if "flaming" in raw else None
 
@@ -581,6 +600,7 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
         resolution=resolution, start_field=str(ba.get("start_field", "fire_start")),
         end_field=str(ba.get("end_field", "fire_end")),
         id_field=str(ba["id_field"]) if ba.get("id_field") is not None else None, raw=raw, burn_mask=burn_mask,
+        area_accuracy=area_accuracy,
     )
 
 
@@ -615,6 +635,64 @@ def _burn_mask(ba: dict, burned: Path, base: Path, where: str) -> BurnMaskConfig
             amounts[key] = v
     date_path = _path(ba["date_path"], base, "burned_area.date_path", where) if "date_path" in ba else None
     return BurnMaskConfig(burned_values=values, date_path=date_path, **amounts)
+
+
+def _area_accuracy(acc, where: str) -> AreaAccuracyConfig:
+    """[burned_area.accuracy]: either `area_ratio` and `area_ratio_se` (the error-adjusted burned area over
+    the mapped one, and its standard error, from an accuracy assessment: Olofsson et al. 2014), or
+    `omission` and `commission` rates with their standard errors (`omission_se`, `commission_se`) or the
+    reference sample sizes they came from (`omission_n`, `commission_n`); `adjust` (default false) scales
+    the estimates by the ratio."""
+    from .science.uncertainty import area_accuracy as aa
+
+    if not isinstance(acc, dict):
+        raise ConfigError(f"{where}: [burned_area.accuracy] must be a table (area_ratio and area_ratio_se, or "
+                          f"omission and commission)")
+    _check_keys(acc, "burned_area.accuracy", where)
+    adjust = acc.get("adjust", False)
+    if not isinstance(adjust, bool):
+        raise ConfigError(f"{where}: `burned_area.accuracy.adjust` must be true or false, got {adjust!r}")
+    rates = [k for k in ("omission", "commission", "omission_se", "commission_se", "omission_n", "commission_n")
+             if k in acc]
+    try:
+        if "area_ratio" in acc:
+            if rates:
+                raise ConfigError(f"{where}: [burned_area.accuracy] takes either area_ratio (with area_ratio_se) or "
+                                  f"omission and commission, not both; remove `{rates[0]}`")
+            if "area_ratio_se" not in acc:
+                raise ConfigError(f"{where}: [burned_area.accuracy] needs `area_ratio_se` (the standard error of "
+                                  f"area_ratio) beside `area_ratio`")
+            r = _opt_number(acc, "area_ratio", "burned_area.accuracy", where, 0.05, 20)
+            se = _opt_number(acc, "area_ratio_se", "burned_area.accuracy", where, 0, 20)
+            basis = f"error-adjusted area ratio {r:g} +/- {se:g} (standard error), as given"
+        else:
+            missing = [k for k in ("omission", "commission") if k not in acc]
+            if missing:
+                raise ConfigError(f"{where}: [burned_area.accuracy] needs `area_ratio` and `area_ratio_se`, or "
+                                  f"`omission` and `commission`; `{missing[0]}` is missing")
+            o = _opt_number(acc, "omission", "burned_area.accuracy", where, 0, 0.99)
+            c = _opt_number(acc, "commission", "burned_area.accuracy", where, 0, 0.99)
+            ses = {}
+            for k, rate in (("omission", o), ("commission", c)):
+                if f"{k}_se" in acc and f"{k}_n" in acc:
+                    raise ConfigError(f"{where}: give `burned_area.accuracy.{k}_se` or `{k}_n`, not both")
+                if f"{k}_n" in acc:
+                    n = acc[f"{k}_n"]
+                    if not isinstance(n, int) or isinstance(n, bool):
+                        raise ConfigError(f"{where}: `burned_area.accuracy.{k}_n` must be a whole number of reference "
+                                          f"units, got {n!r}")
+                    ses[k] = aa.proportion_se(rate, n)
+                elif f"{k}_se" in acc:
+                    ses[k] = _opt_number(acc, f"{k}_se", "burned_area.accuracy", where, 0, 1)
+                else:
+                    raise ConfigError(f"{where}: [burned_area.accuracy] needs `{k}_se` (standard error of the rate) "
+                                      f"or `{k}_n` (reference units it was estimated from)")
+            r, se = aa.area_ratio_from_rates(o, c, ses["omission"], ses["commission"])
+            basis = (f"omission {o:g} +/- {ses['omission']:.3g}, commission {c:g} +/- {ses['commission']:.3g}: "
+                     f"area ratio (1 - commission) / (1 - omission) = {r:.4g} +/- {se:.3g}")
+    except PhysicalRangeError as exc:
+        raise PhysicalRangeError(f"{where}: {exc}") from None
+    return AreaAccuracyConfig(ratio=float(r), ratio_se=float(se), adjust=adjust, basis=basis)
 
 
 def _fill_value(peat_raw: dict, key: str, quantity: str, base: Path, where: str, force: bool) -> float | None:

@@ -46,7 +46,8 @@ def test_configuration_sections_and_inputs_exist():
 def test_one_vocabulary_of_sums():
     """The uncertainty model reads the engine's sums by the engine's names; only the flaming sums,
     made by the above-ground route, are not block sums."""
-    assert set(unc.SUM_KEYS) - set(sums.SUM_KEYS) == {"flaming_dm_fre_kg", "flaming_dm_area_kg", "flaming_carbon_kg"}
+    assert set(unc.SUM_KEYS) - set(sums.SUM_KEYS) == {"flaming_dm_fre_kg", "flaming_dm_area_kg", "flaming_carbon_kg",
+                                                      "flaming_fre_ssq_kg2"}  # issue 16: FRE integration
     assert set(intervals.MODEL_SUMS) == set(unc.SUM_KEYS) & set(sums.SUM_KEYS)
 
 

@@ -24,6 +24,7 @@ import shapely
 
 from .sums import SCAR_LAYER
 from ..science import flaming
+from ..science.uncertainty import fre_sampling
 
 
 @dataclass
@@ -93,6 +94,11 @@ def flaming_sums(cfg, inputs, sums) -> FlamingSums | None:
         dm, note = _cap_fre_dry_matter(dm, hits, sums)
         notes.append(note)
     total = {"dry_matter_kg": float(np.sum(dm)), "fre_mj": float(np.sum(energy)), "n_detections": float(len(f))}
+    # FRE integration error (science.uncertainty.fre_sampling): sum_e D_ez^2 / n_e per zone and in total
+    n_obs = fre_sampling.observation_count(events, t) if len(f) else np.zeros(0, int)
+    every = np.arange(len(f))
+    total["fre_ssq_kg2"] = float(fre_sampling.hits_ssq(dm, events, n_obs, every, np.zeros(len(f), int),
+                                                       np.ones(len(f)), 1)[0]) if len(f) else 0.0
     layers = []
     for name, n_bins, pi, gi, share in hits:
         d = _empty(n_bins)
@@ -106,6 +112,13 @@ def flaming_sums(cfg, inputs, sums) -> FlamingSums | None:
             for k in KEYS:
                 vals = {"dry_matter_kg": dm, "fre_mj": energy, "n_detections": np.ones(len(f))}[k]
                 d[k][n_bins - 1] += vals[out].sum()
+            # the detections outside every zone go to the layer's outside bin, whole
+            d["fre_ssq_kg2"] = fre_sampling.hits_ssq(
+                dm, events, n_obs, np.concatenate([pi, every[out]]),
+                np.concatenate([gi + 1, np.full(int(out.sum()), n_bins - 1)]),
+                np.concatenate([share, np.ones(int(out.sum()))]), n_bins)
+        else:
+            d["fre_ssq_kg2"] = np.zeros(n_bins)
         layers.append((name, d))
     daily = {}
     if len(f):  # UTC days since 1970-01-01 (one pass, not one per day: a season of dense detections)

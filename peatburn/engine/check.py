@@ -83,6 +83,9 @@ def check(config, against=None, *, strict: bool = True) -> CheckReport:
         seconds, memory = draw_cost(cfg.uncertainty.draws, n_rows)
         out.append(f"uncertainty: {cfg.uncertainty.draws:,} draws x {n_rows:,} zone rows: about {seconds:.0f} s "
                    f"and at most {memory / 2**20:.0f} MiB for the intervals (after the block pass)")
+        from .intervals import area_basis
+
+        out.append(f"uncertainty, burned-area map accuracy: {area_basis(cfg) or 'none given, no area term'}")
     if cfg.survey is not None:
         sv = cfg.survey
         sub = "raster" if hasattr(sv.subsidence_rate, "path") else sv.subsidence_rate

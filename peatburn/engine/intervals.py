@@ -117,6 +117,8 @@ def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0
         reference_factor_sets=list_factor_sets("smouldering") + list_factor_sets("flaming"),
         fre_coefficient=factors.coefficient,
         combustion_factor=fl.combustion_factor if fl and fl.combustion_factor else unc.DEFAULT_COMBUSTION_FACTOR,
+        burned_area_cv=area_term(cfg)[1], burned_area_basis=area_basis(cfg),
+        fre_integration_cv=fre_integration_cv(cfg, factors),
         **kw,
     )
     if survey:
@@ -158,12 +160,45 @@ _CARBON_BALANCE_NOTES = {
 }
 
 
+def area_term(cfg) -> tuple[float, float]:
+    """(scale, relative sd) of the burned-area term of a run ([burned_area.accuracy];
+    :func:`peatburn.science.uncertainty.area_accuracy.area_term`); (1, 0) without one (the default)."""
+    from ..science.uncertainty.area_accuracy import area_term as term
+
+    acc = getattr(cfg, "area_accuracy", None)
+    return (1.0, 0.0) if acc is None else term(acc.ratio, acc.ratio_se, acc.adjust)
+
+
+def area_basis(cfg) -> str:
+    """Where the burned-area term comes from, in words (the source's citation in totals.json)."""
+    acc = getattr(cfg, "area_accuracy", None)
+    if acc is None:
+        return ""
+    how = ("estimates scaled by the ratio (adjust = true), relative sd SE/R" if acc.adjust else
+           "estimates follow the mapped area (adjust = false); relative sd sqrt(SE^2 + (R - 1)^2): the bias left in "
+           "counted as uncertainty")
+    return f"[burned_area.accuracy]: {acc.basis}; {how} (Olofsson et al. 2014, recalled)"
+
+
+def fre_integration_cv(cfg, factors) -> float:
+    """Relative sd of the FRE of an event observed once: ``uncertainty.fre_integration_cv``, else the stated
+    default (science.uncertainty.fre_sampling) on the detection route; 0 on the burned-area route."""
+    from ..science.uncertainty.fre_sampling import DEFAULT_FRE_SINGLE_OBSERVATION_CV
+
+    if not getattr(factors, "frp_route", False):
+        return 0.0
+    v = getattr(cfg.uncertainty, "fre_integration_cv", None)
+    return DEFAULT_FRE_SINGLE_OBSERVATION_CV if v is None else float(v)
+
+
 def _model_sums(acc: dict, idx, flame_layer: dict | None, frp_route: bool, vegetation_cf: float) -> dict:
     out = {k: np.asarray(acc[k], dtype=float)[idx] for k in MODEL_SUMS}
     if flame_layer is not None:
         dm = np.asarray(flame_layer["dry_matter_kg"], dtype=float)[idx]
         out["flaming_dm_fre_kg" if frp_route else "flaming_dm_area_kg"] = dm
         out["flaming_carbon_kg"] = dm * vegetation_cf
+        if frp_route and "fre_ssq_kg2" in flame_layer:
+            out["flaming_fre_ssq_kg2"] = np.asarray(flame_layer["fre_ssq_kg2"], dtype=float)[idx]
     return out
 
 
@@ -244,14 +279,16 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
                           for k in range(len(idx))}
         row_i += len(idx)
     tot = {k: np.array([v]) for k, v in sums.total.items()}
-    ms = _model_sums(tot, np.array([0]), {"dry_matter_kg": np.array([flame.total["dry_matter_kg"]])} if flame else None,
+    ms = _model_sums(tot, np.array([0]), {k: np.array([flame.total[k]]) for k in ("dry_matter_kg", "fre_ssq_kg2")
+                                          if k in flame.total} if flame else None,
                      frp, factors.vegetation_carbon_fraction)
     if keep is not None:
         keep.update(sums=ms, params=params)
     iv = unc.intervals(ms, params, draws=draws, seed=seed, quantities=_WITH_COLUMN)
     assert rows[row_i]["layer"] == TOTAL_LAYER
     _fill(rows[row_i], iv, 0)
-    ipcc = ipcc_percentages(ms, params, iv, rows[row_i])
+    means = unc.draw_means(ms, params, draws=draws, seed=seed, quantities=_WITH_COLUMN)
+    ipcc = ipcc_percentages(ms, params, iv, rows[row_i], means)
     con = unc.contributions(ms, params, quantity="carbon_kg")
     calibration = None
     if alignment is not None and survey and len(alignment.stable_sample[2]):
@@ -270,9 +307,11 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
         "ipcc_total_uncertainty_pct": ipcc,
         "ipcc_note": "Uncertainty of the run total as a percentage of the estimate, 95 % (IPCC 2006 Guidelines Vol. 1 "
                      "Ch. 3; section numbers recalled, unchecked): Approach 1 = first-order propagation of the same "
-                     "sources (the law of propagation of uncertainty; symmetric +-); Approach 2 = Monte Carlo, the "
-                     "2.5 and 97.5 percentiles of the draws less / more than the estimate. They differ where the "
-                     "lognormal factors make the draws skewed.",
+                     "sources (the law of propagation of uncertainty; symmetric +-, over the estimate); Approach 2 = "
+                     "Monte Carlo, the mean of the draws less the 2.5 percentile and the 97.5 percentile less the mean, "
+                     "over the mean. They agree for small uncertainties and part where the lognormal factors make the "
+                     "draws skewed. inventory.csv gives the same percentages on every row (approach1_pct, "
+                     "approach2_minus_pct, approach2_plus_pct): a year's row is the run total times its share.",
         "contributions": {s: _f(v[0]) for s, v in con.items()},
         "contributions_by_zone": per_zone,
         "contributions_quantity": "carbon_smouldering_t",
@@ -284,12 +323,13 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
     }
 
 
-def ipcc_percentages(ms: dict, params: dict, iv: dict, row: dict) -> dict:
+def ipcc_percentages(ms: dict, params: dict, iv: dict, row: dict, means: dict | None = None) -> dict:
     """Per interval column of the run total: ``<col>_approach1_pct`` (1.96 x the first-order sd from
-    :func:`peatburn.science.uncertainty.variance_components`, over the estimate, x 100) and
-    ``<col>_approach2_minus_pct`` / ``_plus_pct`` (estimate less the 2.5 percentile, 97.5 percentile less
-    the estimate, over the estimate, x 100): IPCC (2006) Vol. 1 Ch. 3, Approach 1 (error propagation)
-    and Approach 2 (Monte Carlo) (recalled, unchecked)."""
+    :func:`peatburn.science.uncertainty.variance_components`, over the estimate, x 100: for a product of
+    independent factors this is IPCC 2006 Vol. 1 Ch. 3 Eq. 3.1, U = sqrt(U_1^2 + ... + U_n^2), and for a
+    sum Eq. 3.2; equation numbers recalled, unchecked) and ``<col>_approach2_minus_pct`` / ``_plus_pct``
+    (Approach 2, Monte Carlo: the mean of the draws less their 2.5 percentile, and their 97.5 percentile
+    less the mean, over the mean, x 100; the estimate stands for the mean when ``means`` is not given)."""
     out = {}
     for q, (lo, hi) in iv.items():
         col = _column(q)
@@ -299,8 +339,11 @@ def ipcc_percentages(ms: dict, params: dict, iv: dict, row: dict) -> dict:
         est_kg = est * 1e3
         var = sum(float(v[0]) for v in unc.variance_components(ms, params, quantity=q).values())
         out[f"{col}_approach1_pct"] = 100.0 * 1.96 * math.sqrt(max(var, 0.0)) / est_kg
-        out[f"{col}_approach2_minus_pct"] = 100.0 * (est_kg - float(lo[0])) / est_kg
-        out[f"{col}_approach2_plus_pct"] = 100.0 * (float(hi[0]) - est_kg) / est_kg
+        mean = float(means[q][0]) if means is not None and q in means else est_kg
+        if not mean > 0:
+            continue
+        out[f"{col}_approach2_minus_pct"] = 100.0 * (mean - float(lo[0])) / mean
+        out[f"{col}_approach2_plus_pct"] = 100.0 * (float(hi[0]) - mean) / mean
     return out
 
 

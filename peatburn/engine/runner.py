@@ -458,11 +458,28 @@ def _finish_rasters(rasters, ok: bool = True) -> None:
         raise err
 
 
+def area_adjusted(cfg, sums: Sums, notes: list) -> Sums:
+    """The run's sums scaled by the error-adjusted burned-area ratio when ``[burned_area.accuracy] adjust =
+    true`` (issue 16; science.uncertainty.area_accuracy); else ``sums`` unchanged. Every sum is an area
+    integral (areas, volumes, masses), so one scale keeps each table consistent (zones add up to the total,
+    mean depths and shares unchanged); the rasters keep the mapped scars, pixel by pixel."""
+    from .intervals import area_term
+
+    scale = area_term(cfg)[0]
+    if scale == 1.0:
+        return sums
+    notes.append(f"burned area: every area, mass and emission is scaled by the error-adjusted area ratio {scale:.4g} "
+                 f"([burned_area.accuracy] adjust = true); the rasters show the mapped scars")
+    return Sums({k: v * scale for k, v in sums.total.items()},
+                [(n, ids, {k: np.asarray(v) * scale for k, v in acc.items()}) for n, ids, acc in sums.layers])
+
+
 def _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, factors, sums, notes, converting):
     """Every table of the run in memory (a :class:`RunResult`), the rasters in ``raster_dir``."""
     grid = plan.grid
     from .above_ground import flaming_sums
 
+    sums = area_adjusted(cfg, sums, notes)
     flame = flaming_sums(cfg, inputs, sums)
     if flame is not None:
         notes += flame.notes
@@ -470,6 +487,10 @@ def _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, f
     total = rows[-1]
     run_gases = tables.run_gases(factors)
     qa = qa_summary(sums.total, alignment, models)
+    from .intervals import area_basis
+
+    # issue 16 item 5: the burned-area term is stated either way (default: none)
+    qa["burned_area_accuracy"] = area_basis(cfg) or "none given ([burned_area.accuracy]): no area term"
     notes += fill_notes(cfg, plan, sums.total)
     checks = factor_checks(factors.smouldering, sums.total)
     checks["closure_of_reported_gases"] = 1.0 if factors.form == "carbon_balance" else checks["carbon_closure"]
@@ -552,7 +573,8 @@ def _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, f
         for c in tables.interval_columns(run_gases):
             if c in tables.INTERVAL_COLUMNS or f"{c}_lo" in total:
                 columns += [f"{c}_lo", f"{c}_hi"]
-    inv = tables.inventory_rows(total, shares, factors.gwp.name, run_gases)
+    inv = tables.inventory_rows(total, shares, factors.gwp.name, run_gases,
+                                (uncertainty or {}).get("ipcc_total_uncertainty_pct"))
     from ..outputs import dossiers
 
     dossier_items = dossiers.plan(cfg, inputs, rows)  # issue 21: one page per burned zone of a layer asking

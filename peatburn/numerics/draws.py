@@ -117,7 +117,15 @@ class Drawer:
                     full = stream(gseed, gid, 1 + b0 // BLOCK, key_id(k)).standard_normal((BLOCK, draws))
                     nb = min(BLOCK, stop - b0)
                     z[b0 - start:b0 - start + nb] = full[:nb]
-                z *= np.broadcast_to(np.asarray(model.fields[f][k], dtype="float64"), (model.n,))[sl, None]
+                coef = np.broadcast_to(np.asarray(model.fields[f][k], dtype="float64"), (model.n,))[sl, None]
+                if f in getattr(model, "lognormal_fields", ()):
+                    # a relative error drawn as a lognormal scale of mean 1, less 1 (coef = its cv)
+                    s = np.sqrt(np.log1p(coef * coef))
+                    z *= s
+                    z -= 0.5 * s * s
+                    np.expm1(z, out=z)
+                else:
+                    z *= coef
                 if arr is None:
                     arr = z
                 else:

@@ -149,6 +149,15 @@ REFERENCES = [
 # ----------------------------------------------------------------------------- number formatting
 
 
+
+def _inv_pct(v, sign: str) -> str:
+    """A percentage of an inventory line's uncertainty (Approach 1 or 2), or "" when not estimated."""
+    try:
+        v = float(v)
+    except (TypeError, ValueError):
+        return ""
+    return f"{sign}{v:.1f} %" if v == v else ""
+
 def _finite(v) -> float | None:
     if v is None or isinstance(v, bool):
         return None
@@ -686,6 +695,8 @@ def _qa_rows(qa: dict) -> list[tuple[str, str]]:
     if _finite(qa.get("share_of_modelled_area_extrapolated")) is not None:
         rows.append(("water-table-modelled area outside the fitted water-table range [%]",
                      fmt_pct(qa.get("share_of_modelled_area_extrapolated"))))
+    if qa.get("burned_area_accuracy"):
+        rows.append(("burned-area map accuracy (area term of the intervals)", str(qa["burned_area_accuracy"])))
     for c in qa.get("survey_error_calibration") or []:
         # the patch check of the survey error model (engine.survey_calibration): ratio near 1 = calibrated
         rows.append((f"survey error check, {c['scope']}: patch RMS / model sd [-]",
@@ -968,7 +979,10 @@ def build_context(result, cfg, prov: dict, factors, raster_dir: Path | None = No
 
     inventory = [{"year": str(r.get("year", "")), "phase": r.get("phase", ""), "gas": r.get("gas", ""),
                   "v": fmt_num(r.get("emissions_gg")),
-                  "r": fmt_range(r.get("emissions_gg_lo"), r.get("emissions_gg_hi"))}
+                  "r": fmt_range(r.get("emissions_gg_lo"), r.get("emissions_gg_hi")),
+                  "a1": _inv_pct(r.get("approach1_pct"), "±"),
+                  "a2": (f"{_inv_pct(r.get('approach2_minus_pct'), '−')} / {_inv_pct(r.get('approach2_plus_pct'), '+')}"
+                         if _inv_pct(r.get("approach2_minus_pct"), "") else "")}
                  for r in result.inventory or []]
 
     gwp = getattr(factors, "gwp", None)

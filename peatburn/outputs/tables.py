@@ -252,7 +252,8 @@ _BASE_UNITS = {
 UNITS = units()
 
 
-def inventory_rows(total: dict, year_shares: dict, gwp_name: str, gases_of_run=GASES) -> list[dict]:
+def inventory_rows(total: dict, year_shares: dict, gwp_name: str, gases_of_run=GASES, ipcc: dict | None = None
+                   ) -> list[dict]:
     """Emissions by year, phase and gas in Gg (1 Gg = 1000 t), the lines an inventory adds.
 
     ``year_shares`` maps phase -> {year: share of the phase's run total}; from the scars' fire dates
@@ -260,7 +261,10 @@ def inventory_rows(total: dict, year_shares: dict, gwp_name: str, gases_of_run=G
     CO2-C (x 12.011/44.009) and the CO2e line names its GWP set. ``_lo`` and ``_hi`` are the run
     interval scaled by the year's share (the years of one run share their uncertain parameters).
     Every gas of ``gases_of_run`` that the phase's set has (a finite total) gets a line; a gas the
-    set lacks gets none.
+    set lacks gets none. ``ipcc`` (the run total's ``<col>_approach1_pct`` / ``_approach2_minus_pct`` /
+    ``_approach2_plus_pct``, engine.intervals.ipcc_percentages) gives each line its uncertainty as a
+    percentage (IPCC 2006 Vol. 1 Ch. 3 Approaches 1 and 2): the same on every year's line of a gas and
+    phase, since a line is the run total times its share.
     """
     rows = []
     for phase in PHASES:
@@ -268,18 +272,21 @@ def inventory_rows(total: dict, year_shares: dict, gwp_name: str, gases_of_run=G
             for g in gases_of_run:
                 key = f"{gas_key(g)}_{phase}_t"
                 if math.isfinite(total.get(key, math.nan)):
-                    rows.append(_inv(yr, phase, gas_label(g), total, key, share))
-            rows.append(_inv(yr, phase, "CO2-C", total, f"co2_{phase}_t", share * float(gases.co2_to_carbon(1.0))))
-            rows.append(_inv(yr, phase, f"CO2e ({gwp_name})", total, f"co2e_{phase}_t", share))
+                    rows.append(_inv(yr, phase, gas_label(g), total, key, share, ipcc))
+            rows.append(_inv(yr, phase, "CO2-C", total, f"co2_{phase}_t", share * float(gases.co2_to_carbon(1.0)), ipcc))
+            rows.append(_inv(yr, phase, f"CO2e ({gwp_name})", total, f"co2e_{phase}_t", share, ipcc))
     return rows
 
 
-def _inv(year, phase, gas, total, key, scale):
+def _inv(year, phase, gas, total, key, scale, ipcc=None):
     row = {"year": "" if year is None else year, "phase": phase, "gas": gas,
            "emissions_gg": total[key] * scale * 1e-3}
     for s in ("lo", "hi"):
         v = total.get(f"{key}_{s}")
         row[f"emissions_gg_{s}"] = v * scale * 1e-3 if v is not None else math.nan
+    for name in INVENTORY_PCT_COLUMNS:
+        v = (ipcc or {}).get(f"{key}_{name}")
+        row[name] = float(v) if v is not None else math.nan
     return row
 
 
@@ -296,4 +303,9 @@ INVENTORY_CONVENTIONS = {
         "Ch. 2, recalled, unchecked): add only its non-CO2 gases in that case, so the CO2 is not counted twice."),
 }
 
-INVENTORY_COLUMNS = ["year", "phase", "gas", "emissions_gg", "emissions_gg_lo", "emissions_gg_hi"]
+#: Uncertainty of each inventory line as a percentage, 95 % (issue 16 item 7): Approach 1 (first-order
+#: propagation, symmetric, over the estimate) and Approach 2 (the draws: mean less 2.5 percentile, 97.5
+#: percentile less mean, over the mean); IPCC 2006 Vol. 1 Ch. 3 (recalled, unchecked).
+INVENTORY_PCT_COLUMNS = ["approach1_pct", "approach2_minus_pct", "approach2_plus_pct"]
+INVENTORY_COLUMNS = ["year", "phase", "gas", "emissions_gg", "emissions_gg_lo", "emissions_gg_hi",
+                     *INVENTORY_PCT_COLUMNS]

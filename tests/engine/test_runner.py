@@ -115,4 +115,5 @@ def test_intervals_per_zone_and_reproducible(tmp_path):
     shares = a.totals["uncertainty"]["contributions"]
     assert sum(v for v in shares.values() if v is not None) == pytest.approx(1.0, abs=1e-6)
     inv = (tmp_path / "a" / "inventory.csv").read_text().splitlines()
-    assert inv[0] == "year,phase,gas,emissions_gg,emissions_gg_lo,emissions_gg_hi"
+    assert inv[0] == ("year,phase,gas,emissions_gg,emissions_gg_lo,emissions_gg_hi,"
+                      "approach1_pct,approach2_minus_pct,approach2_plus_pct")  # issue 16 item 7

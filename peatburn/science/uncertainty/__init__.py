@@ -66,7 +66,7 @@ uncertainty in measurement" - Propagation of distributions using a Monte Carlo m
 from __future__ import annotations
 
 from .averaging import MEDIAN_EFFICIENCY_FACTOR, correlated_sum_sd, residual_bias_sd
-from .monte_carlo import MAX_FLOATS, draw_zone_totals, intervals
+from .monte_carlo import MAX_FLOATS, draw_means, draw_zone_totals, intervals
 from .sources import (
     DEFAULT_BIOMASS_CV,
     DEFAULT_BULK_DENSITY_CV,
@@ -110,6 +110,7 @@ __all__ = [
     "default_sources",
     "sources_to_params",
     "draw_zone_totals",
+    "draw_means",
     "intervals",
     "variance_components",
     "contributions",

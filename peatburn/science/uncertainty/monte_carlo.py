@@ -144,3 +144,35 @@ def intervals(sums: Mapping, params: Mapping, *, draws: int, seed: int, quantile
             for out, val in zip(res[q], row_quantiles(tot[q][None, :].copy(), qs)):
                 out[-1] = val[0]
     return {q: tuple(v) for q, v in res.items()}
+
+
+def draw_means(sums: Mapping, params: Mapping, *, draws: int, seed: int, fixed=frozenset(), chunk_zones=2000,
+               quantities=None) -> dict[str, np.ndarray]:
+    """Mean of the Monte Carlo draws of every quantity per zone: the same draws as :func:`intervals`
+    (same seed, same streams), reduced to their mean chunk by chunk. The mean is the reference of the
+    IPCC Approach 2 percentages (IPCC 2006 Vol. 1 Ch. 3, recalled, unchecked: the 2.5 and 97.5
+    percentiles as percentages of the mean).
+
+    Parameters
+    ----------
+    sums, params, draws, seed, fixed, chunk_zones, quantities
+        As :func:`intervals`.
+
+    Returns
+    -------
+    dict of str to numpy.ndarray
+        Quantity -> mean per zone.
+    """
+    draws = _check_draws(draws, seed)
+    model = _build(sums, params)
+    fixed = _check_fixed(fixed)
+    wanted = [q for q in model.quantities if quantities is None or q in quantities]
+    res = {q: np.empty(model.n) for q in wanted}
+
+    def reduce(sl, evaluate):
+        return sl, {q: evaluate(q).mean(axis=1) for q in wanted}
+
+    for sl, part in map_chunks(Drawer(model, draws, seed, fixed, wanted), chunk_zones, 1, reduce):
+        for q, v in part.items():
+            res[q][sl] = v
+    return res

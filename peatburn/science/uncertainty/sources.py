@@ -73,10 +73,12 @@ SOURCE_NAMES = (
     "peat_property_fill",
     # issue 16 (appended likewise)
     "surface_change",
+    "burned_area",
+    "fre_integration",
 )
 _RUN_WIDE = {"survey_bias", "subsidence_rate", "water_table_coefficients", "bulk_density", "carbon_fraction",
              "emission_factors_smouldering", "fre_coefficient", "biomass", "combustion_factor",
-             "emission_factors_flaming", "tier1_fuel", "peat_property_fill", "surface_change"}
+             "emission_factors_flaming", "tier1_fuel", "peat_property_fill", "surface_change", "burned_area"}
 
 
 # ----------------------------------------------------------------------------- sources
@@ -209,7 +211,8 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
                     wt_coef_cov=None, wt_residual_sd_m=0.0, wt_residual_range_m=None,
                     subsidence_rate_map_sd_m_per_yr=0.0, tier1_fuel_cv=0.0, peat_fill_cv=0.0,
                     survey_nugget_m2=None, survey_components=None, survey_trend_sd_m=0.0,
-                    surface_change_sd_m=0.0) -> list[Source]:
+                    surface_change_sd_m=0.0, burned_area_cv=0.0, burned_area_basis="",
+                    fre_integration_cv=0.0) -> list[Source]:
     """The sources of uncertainty of a run, each with its distribution, parameters and basis.
 
     Parameters
@@ -271,6 +274,12 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
     peat_fill_cv : float
         Relative spread of a filled bulk density or carbon fraction [-]; a run-wide scale on the
         mass and carbon of the pixels whose property was filled, on top of ``bulk_density``.
+    burned_area_cv : float
+        Relative sd of the burned-area term [-] (:func:`.area_accuracy.area_term`); 0: no term
+        (the default: no accuracy assessment given). ``burned_area_basis`` says where it comes from.
+    fre_integration_cv : float
+        Relative sd of the FRE of a fire event observed once [-] (:mod:`.fre_sampling`); the zone's
+        spread follows from its ``flaming_fre_ssq_kg2`` sum. 0: no term.
 
     Returns
     -------
@@ -284,7 +293,8 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
                       ("combustion_factor_sd", combustion_factor_sd), ("wt_residual_sd_m", wt_residual_sd_m),
                       ("interval_years", interval_years),
                       ("subsidence_rate_map_sd_m_per_yr", subsidence_rate_map_sd_m_per_yr),
-                      ("tier1_fuel_cv", tier1_fuel_cv), ("peat_fill_cv", peat_fill_cv)):
+                      ("tier1_fuel_cv", tier1_fuel_cv), ("peat_fill_cv", peat_fill_cv),
+                      ("burned_area_cv", burned_area_cv), ("fre_integration_cv", fre_integration_cv)):
         if not (math.isfinite(float(val)) and float(val) >= 0):
             raise PhysicalRangeError(f"uncertainty source {name}: must be a finite number >= 0, got {val!r}")
     src = [
@@ -371,6 +381,12 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
              "filled, on top of the bulk-density scale.")):
         if float(cv) > 0:
             src.append(Source(name, "lognormal scale, mean 1", {"cv": float(cv)}, basis, note))
+    if float(burned_area_cv) > 0:
+        src.append(Source("burned_area", "lognormal scale, mean 1", {"cv": float(burned_area_cv)},
+                          burned_area_basis or "accuracy assessment of the burned-area map (Olofsson et al. 2014)",
+                          "Run-wide scale on every below-ground quantity (all are sums over the mapped burned "
+                          "pixels) and on the flaming dry matter of the burned-area route (area x biomass x "
+                          "combustion factor); not on flaming from FRE (detections, not area)."))
     cf_mean = float(carbon_fraction)
     if not cf_mean > 0:
         raise PhysicalRangeError("carbon_fraction must be > 0")
@@ -395,6 +411,15 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
                           "Wooster et al. 2005, J. Geophys. Res. 110, D24311 "
                           "(0.368 +/- 0.015 kg/MJ; recalled, unchecked)",
                           "Run-wide scale on flaming dry matter from FRE."))
+        if float(fre_integration_cv) > 0:
+            src.append(Source("fre_integration", "lognormal scale per zone, mean 1",
+                              {"single_observation_cv": float(fre_integration_cv)},
+                              "assumption (no checkable source; uncertainty.fre_integration_cv): relative sd of the "
+                              "FRE of an event observed once, / sqrt(observations of the event) (science.uncertainty."
+                              "fre_sampling)",
+                              "Per zone, cv_z = cv_1 sqrt(sum_e D_ez^2 / n_e) / D_z over the fire events e in the zone "
+                              "(events independent, each one value across its zones); independent between zones. "
+                              "Scales flaming dry matter from FRE."))
         src.append(Source("biomass", "lognormal scale, mean 1", {"cv": float(biomass_cv)}, "assumption",
                           "Run-wide scale on flaming dry matter from area x biomass x combustion factor."))
         src.append(Source("combustion_factor", "lognormal scale, mean 1",
@@ -469,6 +494,10 @@ def sources_to_params(sources, *, gwp=None) -> dict:
             p["tier1_fuel_cv"] = q["cv"]
         elif s.name == "surface_change":
             p["surface_change_sd_m"] = q["sd_m"]
+        elif s.name == "burned_area":
+            p["burned_area_cv"] = q["cv"]
+        elif s.name == "fre_integration":
+            p["fre_integration_cv"] = q["single_observation_cv"]
         elif s.name == "peat_property_fill":
             p["peat_fill_cv"] = q["cv"]
         else:

@@ -42,6 +42,8 @@ SUM_KEYS = {
     "flaming_dm_fre_kg": "flaming dry matter from FRE with the nominal combustion coefficient [kg]",
     "flaming_dm_area_kg": "flaming dry matter from area x biomass x combustion factor [kg]",
     "flaming_carbon_kg": "flaming carbon [kg C] (scaled with the flaming dry matter)",
+    "flaming_fre_ssq_kg2": "sum over fire events of (the event's FRE dry matter in the zone)^2 / (its observations) "
+                           "[kg^2] (optional; science.uncertainty.fre_sampling)",
 }
 
 #: Output quantities and the zones.csv column each one's interval belongs to (kg -> t by the caller).
@@ -66,6 +68,8 @@ _PARAM_KEYS = {
     "subsidence_rate_map_sd_m_per_yr", "tier1_fuel_cv", "peat_fill_cv", "gas_form",
     # multi-range survey error (issue 16; science.zone_error): replaces sigma / range / nugget share when given
     "survey_nugget_m2", "survey_components", "survey_trend_sd_m", "surface_change_sd_m",
+    # issue 16 items 5 and 6: the burned-area map's accuracy; the FRE integration error
+    "burned_area_cv", "fre_integration_cv",
 }
 
 
@@ -84,6 +88,10 @@ class _Model:
     #: factors computed from the drawn ones: key -> (function of {factor key: draws}, {factor key:
     #: first derivative at the nominal values}) (the carbon mass-balance normaliser)
     derived: dict = field(default_factory=dict)
+    #: fields whose per-zone coefficient is a relative sd (cv) and that are drawn as a lognormal
+    #: scale less 1, exp(s z - s^2/2) - 1 with s^2 = ln(1 + cv^2), not as cv z (the FRE
+    #: integration term: a relative error that must not make the dry matter negative)
+    lognormal_fields: frozenset = frozenset()
 
     def stream_id(self, group: str) -> int:
         """Index that keys the random stream of a source group (its place in :data:`SOURCE_NAMES`)."""
@@ -191,7 +199,12 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
         r_wt = params.get("wt_residual_range_m")
         swz = np.full(n, s_wt) if r_wt is None else correlated_sum_sd(s_wt, float(r_wt), wt_area)
 
+    # FRE integration (science.uncertainty.fre_sampling): per zone cv_z = cv_1 sqrt(ssq) / D_fre
+    ff_dm = get("flaming_dm_fre_kg")
+    fre_cv = _nonneg(params, "fre_integration_cv") * ratio(np.sqrt(np.clip(get("flaming_fre_ssq_kg2"), 0.0, None)),
+                                                             ff_dm)
     fields = {
+        "fre": {"fre_integration": fre_cv},
         "survey": {"survey_bias": sig_b, "subsidence_rate": sig_r, "survey_random": sz, "subsidence_map": sig_map,
                    "surface_change": _nonneg(params, "surface_change_sd_m")},
         "wt_a": {"wt1": float(wt_l[0, 0]), "wt2": float(wt_l[0, 1]), "wt_residual": swz},
@@ -213,7 +226,7 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
         cores[name] = (base, {f: m for f, m in mult.items() if f in fields and np.any(m != 0)})
     additive_src = {"survey_bias": ("survey_bias", True), "subsidence_rate": ("subsidence_rate", True),
                     "survey_random": ("survey_random", False), "subsidence_map": ("subsidence_rate_map", False),
-                    "surface_change": ("surface_change", True),
+                    "surface_change": ("surface_change", True), "fre_integration": ("fre_integration", False),
                     "wt1": ("water_table_coefficients", True),
                     "wt2": ("water_table_coefficients", True), "wt_residual": ("water_table_residual", False)}
 
@@ -221,14 +234,21 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
                "carbon_fraction": ("carbon_fraction", _nonneg(params, "carbon_fraction_cv")),
                "tier1_fuel": ("tier1_fuel", _nonneg(params, "tier1_fuel_cv")),
                "peat_fill": ("peat_property_fill", _nonneg(params, "peat_fill_cv"))}
+    # the burned-area map's accuracy (science.uncertainty.area_accuracy): one run-wide scale on every
+    # area-driven quantity, added only when given so that runs without it draw exactly as before
+    ba_cv = _nonneg(params, "burned_area_cv")
+    ba = ("burned_area",) if ba_cv > 0 else ()
+    if ba:
+        factors["burned_area"] = ("burned_area", ba_cv)
     # the peat-mass terms: (core, factors of the mass); gases follow the mass, carbon adds f_C
-    mass_terms = [("P", ("bulk_density",)), ("PT1", ("tier1_fuel",)), ("PF", ("bulk_density", "peat_fill"))]
+    mass_terms = [("P", ("bulk_density",) + ba), ("PT1", ("tier1_fuel",) + ba),
+                  ("PF", ("bulk_density", "peat_fill") + ba)]
     mass_terms = [t for t in mass_terms if t[0] == "P" or np.any(cores[t[0]][0] != 0)]
-    carbon_terms = [("C", ("bulk_density", "carbon_fraction")), ("CT1", ("tier1_fuel", "carbon_fraction")),
-                    ("CF", ("bulk_density", "carbon_fraction", "peat_fill"))]
+    carbon_terms = [("C", ("bulk_density", "carbon_fraction") + ba), ("CT1", ("tier1_fuel", "carbon_fraction") + ba),
+                    ("CF", ("bulk_density", "carbon_fraction", "peat_fill") + ba)]
     carbon_terms = [t for t in carbon_terms if t[0] == "C" or np.any(cores[t[0]][0] != 0)]
     quantities = {
-        "volume_m3": [("V", 1.0, ())],
+        "volume_m3": [("V", 1.0, ba)],
         "peat_kg": [(c, 1.0, f) for c, f in mass_terms],
         "carbon_kg": [(c, 1.0, f) for c, f in carbon_terms],
     }
@@ -243,23 +263,25 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
     has_flaming = "flaming_dm_fre_kg" in arrays or "flaming_dm_area_kg" in arrays
     if has_flaming:
         ff, fa = get("flaming_dm_fre_kg"), get("flaming_dm_area_kg")
-        cores["FF"] = (ff, {})
+        fre_mult = {"fre": ff} if "fre" in fields else {}
+        cores["FF"] = (ff, fre_mult)
         cores["FA"] = (fa, {})
         factors["fre_coefficient"] = ("fre_coefficient", _nonneg(params, "fre_coefficient_cv"))
         factors["biomass"] = ("biomass", _nonneg(params, "biomass_cv"))
         factors["combustion_factor"] = ("combustion_factor", _nonneg(params, "combustion_factor_cv"))
-        fre_f, area_f = ("fre_coefficient",), ("biomass", "combustion_factor")
+        fre_f, area_f = ("fre_coefficient",), ("biomass", "combustion_factor") + ba
         quantities["flaming_dm_kg"] = [("FF", 1.0, fre_f), ("FA", 1.0, area_f)]
         if "flaming_carbon_kg" in arrays:
             cfrac = ratio(arrays["flaming_carbon_kg"], ff + fa)
-            cores["FFC"] = (ff * cfrac, {})
+            cores["FFC"] = (ff * cfrac, {"fre": ff * cfrac} if fre_mult else {})
             cores["FAC"] = (fa * cfrac, {})
             quantities["carbon_flaming_kg"] = [("FFC", 1.0, fre_f), ("FAC", 1.0, area_f)]
         c_terms = ([("FFC", 1.0, fre_f), ("FAC", 1.0, area_f)] if "flaming_carbon_kg" in arrays else None)
         _gas_quantities(quantities, factors, derived, _efs(params, "ef_flaming"), "flaming", gwp,
                         form if c_terms else "dry_matter", [("FF", 1.0, fre_f), ("FA", 1.0, area_f)], c_terms)
     return _Model(n=n, fields=fields, cores=cores, additive=additive_src, factors=factors,
-                  quantities=quantities, derived=derived)
+                  quantities=quantities, derived=derived,
+                  lognormal_fields=frozenset({"fre"} & set(fields)))
 
 
 def _gas_quantities(quantities, factors, derived, efs, phase, gwp, form, dm_terms, c_terms) -> None:
