@@ -9,7 +9,9 @@ from __future__ import annotations
 
 import math
 
-from .tables import PHASES, TOTAL_LAYER, gas_key, interval_columns, units
+import numpy as np
+
+from .tables import INVENTORY_PCT_COLUMNS, PHASES, TOTAL_LAYER, gas_key, interval_columns, units
 
 #: series.csv columns. ``kind`` is ``year`` (one run), ``sum`` (the listed years together) or
 #: ``trend`` (last year vs base year [%], IPCC 2006 Vol. 1 Ch. 3); ``lo``/``hi`` come from the joint
@@ -19,9 +21,11 @@ SERIES_COLUMNS = ["kind", "year", "phase", "quantity", "unit", "value", "lo", "h
 #: inventory.csv of a series: one line per calendar year x phase x gas, with the series year(s) of the
 #: run(s) it comes from (``2031+2032`` when two runs burned in that calendar year: combined, see
 #: :func:`combine_calendar_years`) and where its interval comes from (``interval``: ``run`` its run's own,
-#: ``joint draws`` the series' joint draws, ``added bounds (conservative)``, or empty without draws).
+#: ``joint draws`` the series' joint draws, ``added bounds (conservative)``, or empty without draws), and
+#: the line's IPCC Approach 1 / Approach 2 percentages (outputs.tables.INVENTORY_PCT_COLUMNS; a combined
+#: line's as in :func:`combine_calendar_years`).
 SERIES_INVENTORY_COLUMNS = ["run_year", "year", "phase", "gas", "emissions_gg", "emissions_gg_lo", "emissions_gg_hi",
-                            "interval"]
+                            "interval", *INVENTORY_PCT_COLUMNS]
 #: ``interval`` of a combined line whose gas has no joint draws: the runs' bounds added.
 ADDED_BOUNDS = "added bounds (conservative)"
 #: recalculation.csv (``--against``): per year, each input, setting or figure that differs.
@@ -98,6 +102,14 @@ def combine_calendar_years(rows: list[dict], draws: dict) -> list[dict]:
     correlated: wider than the joint interval for the usual errors, not a proven bound; ``interval``
     says which). Whether adding counts a fire twice is the caller's check
     (peatburn.engine.series). Lines of a calendar year from one run are kept as they are.
+
+    The IPCC percentages of a combined line (IPCC 2006 Vol. 1 Ch. 3; equation numbers recalled,
+    unchecked): Approach 2 from the summed joint draws (their mean less the 2.5 percentile, and the
+    97.5 percentile less the mean, over the mean, x 100), empty without joint draws; Approach 1 with
+    the runs' lines taken as fully correlated, U = sum(U_i x_i) / sum(x_i), because the runs share
+    their factor, density and carbon-fraction errors. That is the first-order figure's upper bound
+    for errors correlated between 0 and 1 (the sum-of-squares form, Eq. 3.2, is its lower bound,
+    for independent runs).
     """
     from ..science import trend
 
@@ -113,8 +125,17 @@ def combine_calendar_years(rows: list[dict], draws: dict) -> list[dict]:
             continue
         value = math.fsum(float(r["emissions_gg"]) for r in members)
         d = [draws.get((r["run_year"], r["year"], phase, gas)) for r in members]
+        pct = {name: math.nan for name in INVENTORY_PCT_COLUMNS}
+        if all(_finite(r.get("approach1_pct")) for r in members) and value > 0:
+            pct["approach1_pct"] = math.fsum(float(r["approach1_pct"]) * float(r["emissions_gg"])
+                                             for r in members) / value
         if all(x is not None for x in d):
-            lo, hi = trend.interval(sum(d[1:], d[0]))
+            summed = sum(d[1:], d[0])
+            lo, hi = trend.interval(summed)
+            mean = float(np.nanmean(summed)) if np.isfinite(summed).any() else math.nan
+            if mean > 0:
+                pct["approach2_minus_pct"] = 100.0 * (mean - lo) / mean
+                pct["approach2_plus_pct"] = 100.0 * (hi - mean) / mean
             how = "joint draws"
         elif all(_finite(r["emissions_gg_lo"]) and _finite(r["emissions_gg_hi"]) for r in members):
             lo = math.fsum(float(r["emissions_gg_lo"]) for r in members)
@@ -124,7 +145,7 @@ def combine_calendar_years(rows: list[dict], draws: dict) -> list[dict]:
             lo, hi, how = math.nan, math.nan, ""
         out.append({"run_year": "+".join(str(r["run_year"]) for r in members), "year": members[0]["year"],
                     "phase": phase, "gas": gas, "emissions_gg": value, "emissions_gg_lo": lo, "emissions_gg_hi": hi,
-                    "interval": how})
+                    "interval": how, **pct})
     return sorted(out, key=lambda r: str(r["year"]))  # stable: each year's lines in the runs' order
 
 
