@@ -7,7 +7,7 @@ from .options import handle_errors
 
 @click.command("check")
 @click.argument("config", type=click.Path(dir_okay=False), required=False)
-@click.option("--against", "against", type=click.Path(dir_okay=False, exists=True), default=None,
+@click.option("--against", "against", type=click.Path(dir_okay=False), default=None,
               help="A provenance.json: tell whether the inputs still match it.")
 @click.option("--outputs", "outputs", type=click.Path(file_okay=False), default=None,
               help="A run's output folder: tell whether it is one run's complete, unaltered set (one line per "
@@ -35,6 +35,7 @@ def check_cmd(config, against, outputs):
 def _check_outputs(folder) -> None:
     import sys
 
+    from . import exit_codes
     from ..names import printable
     from ..outputs.checksums import check_outputs, describe, is_series
 
@@ -44,7 +45,7 @@ def _check_outputs(folder) -> None:
         click.echo(printable(line))  # file names in the folder may hold control characters
     if problems:
         click.echo(f"not {one} complete, unaltered set: {len(problems)} problem(s) in {printable(str(folder))}")
-        sys.exit(1)
+        sys.exit(exit_codes.DIFFERENCES)
     click.echo(f"ok: {printable(str(folder))} is {one} complete, unaltered set: {printable(describe(folder))}")
 
 

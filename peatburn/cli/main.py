@@ -9,12 +9,12 @@ from .calibrate import calibrate_cmd
 from .check import check_cmd
 from .demo import demo_cmd
 from .factors import factors_cmd
-from .options import configure_logging
+from .options import ExitStatusGroup, configure_logging
 from .run import run_cmd
 from .series import series_cmd
 
 
-@click.group()
+@click.group(cls=ExitStatusGroup)
 @click.version_option(__version__, prog_name="peatburn")
 @click.option("--debug", is_flag=True, default=False, help="Show tracebacks of errors.")
 @click.option("--verbose", "-v", count=True, help="Log more on stderr: -v the run's steps and notes, -vv debug.")

@@ -11,6 +11,7 @@ import warnings
 import click
 
 from ..errors import PeatburnError
+from . import exit_codes
 
 out_option = click.option("--out", "out_dir", type=click.Path(file_okay=False), required=True,
                           help="Folder to write the outputs into.")
@@ -46,9 +47,32 @@ def configure_logging(verbosity: int) -> None:
         logger.addHandler(handler)
 
 
+class ExitStatusGroup(click.Group):
+    """The command group: click's usage errors exit with 64 (``EX_USAGE``) instead of click's 2, which
+    peatburn keeps for bad input data; Ctrl-C exits with 130 after one line. Every verb gets it, as
+    the group parses the command line and invokes the verb (docs/cli.md, "Exit status")."""
+
+    def make_context(self, info_name, args, parent=None, **extra):
+        try:  # the group's own options, and no verb at all (click's NoArgsIsHelpError)
+            return super().make_context(info_name, args, parent=parent, **extra)
+        except click.UsageError as exc:
+            exc.exit_code = exit_codes.USAGE
+            raise
+
+    def invoke(self, ctx):
+        try:  # an unknown verb, the verb's options and arguments, a UsageError raised by a verb
+            return super().invoke(ctx)
+        except click.UsageError as exc:
+            exc.exit_code = exit_codes.USAGE
+            raise
+        except KeyboardInterrupt:
+            click.echo("\npeatburn: interrupted", err=True)
+            sys.exit(exit_codes.INTERRUPTED)
+
+
 def handle_errors(fn):
     """Turn peatburn errors into one line on stderr and exit status 2 (traceback with --debug);
-    unforeseen errors also give one line, with exit status 1."""
+    unforeseen errors also give one line, with exit status 3 (``exit_codes.INTERNAL``)."""
 
     @functools.wraps(fn)
     def wrapper(*args, **kwargs):
@@ -66,13 +90,13 @@ def handle_errors(fn):
             sys.exit(exc.exit_code)
         except (click.exceptions.Exit, click.ClickException, SystemExit):
             raise
-        except Exception as exc:  # an error we did not foresee: still one line, exit status 1
+        except Exception as exc:  # an error we did not foresee: still one line, exit status 3
             if debug:
                 traceback.print_exc()
             first = str(exc).splitlines()[0] if str(exc) else ""
             click.echo(f"peatburn: unexpected error: {exc.__class__.__name__}: {first} (run with --debug for the "
                        f"traceback and report it; no output was left half-written)", err=True)
-            sys.exit(1)
+            sys.exit(exit_codes.INTERNAL)
 
     return wrapper
 

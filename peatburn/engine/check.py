@@ -116,9 +116,7 @@ def check(config, against=None, *, strict: bool = True) -> CheckReport:
         out.append(f"note: {printable(n)}")  # notes may quote names from input files
     problems = []
     if against:
-        with open(against, encoding="utf-8") as fh:
-            record = json.load(fh)
-        problems = compare_inputs(record)
+        problems = compare_inputs(_read_record(against))
         if problems and strict:
             raise mismatch_error(problems)
         if not problems:
@@ -201,3 +199,21 @@ def _same_fire_twice(s, reports: dict) -> None:
         idx = [i for i, years in enumerate(reach) if cal in years]
         if len(idx) > 1:
             refuse_same_fire(s, scars, cal, idx)
+
+
+def _read_record(path) -> dict:
+    """A provenance.json given as ``against``; a missing or unreadable file is bad input (one line)."""
+    from ..errors import InputFileError, MissingInputError
+
+    try:
+        with open(path, encoding="utf-8") as fh:
+            record = json.load(fh)
+    except FileNotFoundError:
+        raise MissingInputError(f"--against: {path} not found; give the provenance.json of an earlier run") from None
+    except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise InputFileError(f"--against: {path} is not a readable provenance.json ({exc.__class__.__name__}); "
+                             f"give the provenance.json of an earlier run") from None
+    if not isinstance(record, dict):
+        raise InputFileError(f"--against: {path} is not a provenance.json (no JSON object); give the "
+                             f"provenance.json of an earlier run")
+    return record

@@ -9,6 +9,11 @@ and renamed when complete.
 Chromium is found on ``PATH`` as ``chromium`` or ``chromium-browser`` (Debian and Ubuntu package
 names). It is not a Python dependency: install it with the system's package manager
 (``apt-get install chromium``).
+
+Why a browser and not a pip-installable HTML-to-PDF library: WeasyPrint was measured on the demo's
+report and a dossier (docs/performance.md, "report.pdf: headless chromium or WeasyPrint"). It prints the
+dossiers as well, but cuts the report's wide tables at the page edge where chromium shrinks the page to
+fit, and it needs the system's Pango all the same.
 """
 
 from __future__ import annotations

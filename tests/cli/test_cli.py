@@ -140,5 +140,5 @@ def test_unforeseen_error_is_one_line(runner, scene, tmp_path, monkeypatch):
 
     monkeypatch.setattr(peatburn.engine.runner, "run", boom)
     res = runner.invoke(cli, ["run", str(scene.config), "--out", str(tmp_path / "o")])
-    assert res.exit_code == 1
+    assert res.exit_code == 3  # an unforeseen error: 3, apart from 1 (differences) and 2 (bad input), docs/cli.md
     assert "unexpected error: RuntimeError: disk on fire" in res.output and "second line" not in res.output

@@ -20,7 +20,7 @@ import peatburn
 from peatburn.engine import executors
 from peatburn.errors import ExecutorError, GridError
 from peatburn.engine.executors import map_blocks
-from peatburn.engine.progress import Progress, progress_bar
+from peatburn.engine.progress import BlockProgress, progress_bar
 
 WINDOWS = [Window(c, r, 10, 10) for r in range(0, 40, 10) for c in range(0, 30, 10)]  # 12 windows
 
@@ -208,43 +208,114 @@ class Clock:
         return self.t
 
 
-def test_progress_draws_on_a_terminal_after_the_delay():
-    s, clock = FakeTTY(), Clock()
-    p = Progress(s, delay=1.0, interval=0.0, clock=clock)
+@pytest.fixture
+def clock(monkeypatch):
+    import tqdm.std
+
+    c = Clock()
+    monkeypatch.setattr(tqdm.std, "time", c)  # tqdm reads its clock from tqdm.std.time
+    return c
+
+
+def test_progress_draws_on_a_terminal_after_the_delay(clock):
+    s = FakeTTY()
+    p = BlockProgress(s, delay=1.0, interval=0.0)
     p(1, 10)  # t = 0: within the delay, nothing drawn
     assert s.getvalue() == ""
     clock.t = 4.0
     p(5, 10)
     # 4 blocks finished in 4 s since the first call -> 5 remaining take 5 s (hand arithmetic)
-    assert s.getvalue() == "\r[###############...............] 5/10 blocks  50%  00:04  ETA 00:05"
+    assert "5/10 [00:04<00:05" in s.getvalue() and " 50%" in s.getvalue()
     clock.t = 8.0
     p(10, 10)
-    assert s.getvalue().endswith("10/10 blocks 100%  00:08  done\n")
+    assert "10/10 [00:08<00:00" in s.getvalue() and s.getvalue().endswith("\n")
+
+
+def test_progress_short_run_prints_nothing(clock):
+    s = FakeTTY()
+    p = BlockProgress(s, delay=1.0, interval=0.0)
+    for i in range(1, 11):
+        clock.t = i * 0.05  # the whole run within the delay
+        p(i, 10)
+    assert s.getvalue() == ""
 
 
 def test_progress_silent_off_a_terminal_and_when_quiet():
     s = io.StringIO()  # not a TTY (e.g. a log file or a pipe)
-    p = Progress(s, delay=0.0)
+    p = BlockProgress(s, delay=0.0)
     for i in range(1, 4):
         p(i, 3)
     assert s.getvalue() == ""
-    q = progress_bar(quiet=True, stream=FakeTTY())
-    q(1, 1)  # a no-op
     t = FakeTTY()
     progress_bar(quiet=True, stream=t)(3, 3)
     assert t.getvalue() == ""
 
 
-def test_progress_throttles_redraws():
-    s, clock = FakeTTY(), Clock()
-    p = Progress(s, delay=0.0, interval=1.0, clock=clock)
+def test_progress_silent_with_the_groups_quiet():
+    import logging
+
+    from peatburn.cli.options import configure_logging
+
+    logger = logging.getLogger("peatburn")
+    level = logger.level
+    try:
+        configure_logging(-1)  # peatburn -q: errors only
+        t = FakeTTY()
+        bar = progress_bar(stream=t, delay=0.0)
+        bar(1, 2)
+        bar(2, 2)
+        assert t.getvalue() == ""
+        configure_logging(0)
+        assert isinstance(progress_bar(stream=t), BlockProgress)
+    finally:
+        logger.setLevel(level)
+
+
+def test_progress_throttles_redraws(clock):
+    s = FakeTTY()
+    p = BlockProgress(s, delay=0.0, interval=1.0)
     for i in range(1, 100):
         clock.t = i * 0.01  # 99 blocks within 1 s
         p(i, 100)
     assert s.getvalue().count("\r") == 1  # only the first draw; the next waits 1 s
     clock.t = 1.0
     p(100, 100)  # the last block always draws
-    assert s.getvalue().count("\r") == 2 and s.getvalue().endswith("\n")
+    assert "100/100" in s.getvalue() and s.getvalue().endswith("\n")
+
+
+@pytest.mark.skipif(not hasattr(os, "openpty"), reason="needs a pseudo-terminal")
+def test_progress_draws_on_a_terminal_of_unset_size():
+    """A pseudo-terminal whose size was never set reports 0 columns (as under `script` or a CI runner):
+    the bar still draws, 80 columns wide."""
+    master, slave = os.openpty()
+    assert os.get_terminal_size(slave).columns == 0  # the premise: an unsized terminal
+    with os.fdopen(slave, "w") as stream:
+        p = BlockProgress(stream, delay=0.0, interval=0.0)
+        for i in range(1, 4):
+            p(i, 3)
+    chunks = []
+    while True:  # a pty hands its output over in pieces; read until the closed slave ends it
+        try:
+            chunk = os.read(master, 65536)
+        except OSError:  # EIO: the slave side is closed and drained
+            break
+        if not chunk:
+            break
+        chunks.append(chunk)
+    os.close(master)
+    text = b"".join(chunks).decode("utf-8", "replace")
+    assert "3/3 [" in text and "blocks: 100%" in text
+
+
+def test_progress_one_bar_per_run(clock):
+    """`peatburn series` passes one callable to every year's run: each run gets its own bar."""
+    s = FakeTTY()
+    p = BlockProgress(s, delay=0.0, interval=0.0)
+    for run in range(2):
+        for i in range(1, 5):
+            clock.t += 1.0
+            p(i, 4)
+    assert s.getvalue().count("4/4 [") >= 2 and s.getvalue().count("\n") == 2
 
 
 def test_counting_plan_pickles():

@@ -86,8 +86,8 @@ def test_unfinished_or_foreign_folder(out, tmp_path):
     assert res.exit_code == 1 and len(res.output.splitlines()) == 2
     res = _check(tmp_path / "nowhere")
     assert res.exit_code == 2 and res.output.startswith("peatburn: error: ") and len(res.output.splitlines()) == 1
-    res = CliRunner().invoke(cli, ["check"])
-    assert res.exit_code == 2 and "give a CONFIG to check, or --outputs DIR" in res.output
+    res = CliRunner().invoke(cli, ["check"])  # neither CONFIG nor --outputs: a usage error, 64 (docs/cli.md)
+    assert res.exit_code == 64 and "give a CONFIG to check, or --outputs DIR" in res.output
 
 
 def test_hostile_file_name_stays_on_one_line(out):
