@@ -43,6 +43,9 @@ class SurveyConfig:
     stable_buffer_m: float = 30.0
     tilt: bool = False
     lod_t: float = 1.96
+    #: survey quality: a raster of per-pixel sd [m] (point density, flight strips) that may explain a
+    #: spread varying in space (peatburn.science.error_scale)
+    quality: Path | RasterInput | None = None
 
 
 @dataclass(frozen=True)
@@ -257,6 +260,8 @@ class RunConfig:
                 out["depth.survey.subsidence_rate"] = self.survey.subsidence_rate.path
             if self.survey.stable is not None:
                 out["depth.survey.stable"] = self.survey.stable
+            if self.survey.quality is not None:
+                out["depth.survey.quality"] = self.survey.quality
         wt = self.water_table
         if wt is not None:
             if wt.raster is not None:
@@ -315,7 +320,7 @@ _SCHEMA = {
                 "biomass", "combustion_factor", "vegetation_carbon_fraction", "footprint_m", "ignition_tie_hours",
                 "ignition_layer"},
     "depth.survey": {"pre", "post", "interval_years", "pre_date", "post_date", "subsidence_rate", "stable",
-                     "stable_buffer_m", "tilt", "lod_t"},
+                     "stable_buffer_m", "tilt", "lod_t", "quality"},
     "peat": {"thickness", "bulk_density", "carbon_fraction", "extent", "bulk_density_fill", "carbon_fraction_fill"},
     "emission_factors": {"smouldering", "flaming", "gwp", "form"},
     "zones": {"path", "id", "name", "layer", "dossiers"},
@@ -927,7 +932,8 @@ def _survey(sv: dict, base: Path, where: str, force: bool = False) -> SurveyConf
     lod_t = sv.get("lod_t", 1.96)
     if not isinstance(lod_t, (int, float)) or lod_t <= 0:
         raise ConfigError(f"{where}: `depth.survey.lod_t` must be a positive number, got {lod_t!r}")
-    return SurveyConfig(pre, post, float(interval), subsidence, stable, float(buf), tilt, float(lod_t))
+    quality = _raster(sv["quality"], base, "depth.survey.quality", where) if "quality" in sv else None
+    return SurveyConfig(pre, post, float(interval), subsidence, stable, float(buf), tilt, float(lod_t), quality)
 
 
 def _date(value, key, where) -> dt.date:

@@ -16,7 +16,7 @@ from ..errors import GridError
 from ..grid import RunGrid
 from ..io.rasters import GridReader, RasterSource, read_on_grid
 from ..io.vectors import WindowRasterizer
-from ..science import coregistration, survey
+from ..science import coregistration, error_scale, survey
 from .inputs import Inputs, _param_source
 
 #: Pixel budget of the co-registration sample (evenly spread full-resolution windows). 2 Mpx
@@ -44,6 +44,10 @@ class SurveyAlignment:  # noqa: D101
     lod: float
     sample_decimation: int
     stable_sample: tuple = field(default=(), repr=False, compare=False)  # (x, y, residual) after alignment [m]
+    #: the choice of a survey error spread varying in space (:func:`_error_scale`) and the per-pixel sd
+    #: at each stable_sample point when one was chosen [m]
+    error_scale: dict | None = field(default=None, repr=False, compare=False)
+    stable_scale: np.ndarray | None = field(default=None, repr=False, compare=False)
 
     def to_dict(self) -> dict:
         return {
@@ -55,7 +59,30 @@ class SurveyAlignment:  # noqa: D101
             "stable_median_before_m": self.median_before, "stable_median_after_m": self.median_after,
             "stable_sample_pixels": self.n_stable_sample, "level_of_detection_m": self.lod,
             "sample_decimation": self.sample_decimation,
+            "survey_error_spread": _spread_words(self.error_scale),
         }
+
+
+def _spread_words(choice: dict | None) -> str:
+    """Which survey error spread the run used, in words (QA)."""
+    if choice is None:
+        return "constant (too few stable-ground samples to test a spread that varies)"
+    vt, loc = choice["variables_test"], choice["local"]
+    if not choice["chosen"]:
+        return (f"constant over the scene: {', '.join(vt['variables'])} tested, {vt['reason']}; "
+                f"{loc.get('reason', 'local spread not tested')}" + _shift_words(choice))
+    c = choice["coefficients"]
+    terms = " + ".join([f"{c['const']:.3g} m2"] + [f"{c[k]:.3g} x {k}^2" for k in choice["variables"]])
+    parts = [f"sd^2 = {terms} ({vt['reason']})" if choice["variables"] else f"no variable explains it ({vt['reason']})"]
+    parts.append(f"times a map of the local spread ({loc['reason']})" if loc["chosen"] else loc.get("reason", ""))
+    words = "varies in space (Hugonnet et al. 2022): " + "; ".join(p for p in parts if p)
+    return words + _shift_words(choice)
+
+
+def _shift_words(choice: dict) -> str:
+    sh = choice.get("shift") or {}
+    return (f"; zones also carry a residual shift times their mean slope ({sh['reason']})" if sh.get("chosen")
+            else "")
 
 
 def _stable_mask(inputs: Inputs, grid: RunGrid, window: Window) -> np.ndarray:
@@ -140,18 +167,34 @@ def coregister(inputs: Inputs, random_state: int = 0) -> SurveyAlignment:
 
     # stable-ground statistics at full resolution on the same windows
     before, after, xs, ys = [], [], [], []
+    cov = {"slope": []}
+    grads = ([], [])
+    quality = None
+    if cfg.survey.quality is not None:
+        quality = GridReader(RasterSource(str(cfg.survey.quality), "depth.survey.quality"), grid)
+        cov["quality"] = []
     al_src = RasterSource(str(cfg.survey.post), "depth.survey.post", src_transform=post_t)
-    with GridReader(al_src, grid) as ra:
-        for s in samples:
-            w = s.window
-            b = s.pre - s.post_raw
-            a = s.pre - (ra.read(w) + s.sub + est.shift_z)
-            ok = s.stable & np.isfinite(a) & np.isfinite(b)
-            before.append(b[ok])
-            after.append(a[ok])
-            x, y = grid.pixel_centres(w)
-            xs.append(np.broadcast_to(x, a.shape)[ok])
-            ys.append(np.broadcast_to(y, a.shape)[ok])
+    try:
+        with GridReader(al_src, grid) as ra:
+            for s in samples:
+                w = s.window
+                b = s.pre - s.post_raw
+                a = s.pre - (ra.read(w) + s.sub + est.shift_z)
+                ok = s.stable & np.isfinite(a) & np.isfinite(b)
+                before.append(b[ok])
+                after.append(a[ok])
+                x, y = grid.pixel_centres(w)
+                xs.append(np.broadcast_to(x, a.shape)[ok])
+                ys.append(np.broadcast_to(y, a.shape)[ok])
+                gx, gy = error_scale.surface_gradient(s.pre, *pixel_sides_m(grid, w))
+                grads[0].append(gx[ok])
+                grads[1].append(gy[ok])
+                cov["slope"].append(np.hypot(gx, gy)[ok])
+                if quality is not None:
+                    cov["quality"].append(quality.read(w)[ok])
+    finally:
+        if quality is not None:
+            quality.close()
     before = np.concatenate(before)
     after = np.concatenate(after)
     tilt = None
@@ -162,6 +205,9 @@ def coregister(inputs: Inputs, random_state: int = 0) -> SurveyAlignment:
     s_after = float(survey.nmad(after))
     xs_all, ys_all = np.concatenate(xs), np.concatenate(ys)
     keep = np.random.default_rng(random_state).permutation(after.size)[:STABLE_SAMPLE_MAX]
+    choice, scale = _error_scale(xs_all[keep], ys_all[keep], after[keep],
+                                 {k: np.concatenate(v)[keep] for k, v in cov.items()},
+                                 tuple(np.concatenate(g)[keep] for g in grads))
     return SurveyAlignment(
         shift_x=est.shift_x, shift_y=est.shift_y, shift_z=est.shift_z, tilt=tilt, post_transform=post_t,
         nmad_before=float(survey.nmad(before)), nmad_after=s_after,
@@ -169,7 +215,51 @@ def coregister(inputs: Inputs, random_state: int = 0) -> SurveyAlignment:
         median_after=float(np.median(after)) if after.size else float("nan"),
         n_stable_sample=int(after.size), lod=float(survey.level_of_detection(s_after, cfg.survey.lod_t)),
         sample_decimation=factor, stable_sample=(xs_all[keep], ys_all[keep], after[keep]),
+        error_scale=choice, stable_scale=scale,
     )
+
+
+def pixel_sides_m(grid: RunGrid, window: Window) -> tuple[float, float]:
+    """Width and height of the pixels of ``window`` [m]: the side of the mean pixel area (geodesic for
+    lon/lat grids) split in the ratio of the grid's resolution."""
+    side = math.sqrt(float(np.mean(grid.pixel_area(window))))
+    aspect = math.sqrt(grid.res[0] / grid.res[1])
+    return side * aspect, side / aspect
+
+
+def _error_scale(x, y, residual, variables: dict, gradient=None):
+    """The survey error spread on the stable sample (science.error_scale), after removing a
+    least-squares plane (a trend is not a spread): first a per-pixel sd from the explanatory
+    variables (slope, quality raster), then a map of the local spread of the differences over that sd
+    (or over one constant sd). Returns ``(choice, sd at each sample point or None)``; ``choice`` holds
+    both tests (``variables_test``, ``local``), whether either was chosen (``chosen``), the
+    ``coefficients`` and ``variables`` of the sd applied (a constant NMAD^2 when the variables were not
+    chosen) and the ``fill`` of missing variables (their median on stable ground); and, with the
+    pre-fire survey's ``gradient`` (dz/dx, dz/dy) at the points, the test of a residual shift that
+    varies across the scene (``shift``, science.error_scale.choose_local_shift)."""
+    if residual.size < 200:
+        return None, None
+    coef = coregistration.fit_plane(x, y, residual)
+    r = residual - coregistration.plane(x, y, coef)
+    var_test = error_scale.choose_error_scale(r, variables)
+    fill = {k: float(np.nanmedian(v)) if np.isfinite(v).any() else 0.0 for k, v in variables.items()}
+    if var_test["chosen"]:
+        used, coefficients = list(variables), dict(var_test["coefficients"])
+        filled = {k: np.where(np.isfinite(v), v, fill[k]) for k, v in variables.items()}
+        sd = error_scale.error_scale_at(coefficients, filled)
+    else:
+        used, coefficients = [], {"const": float(survey.nmad(r)) ** 2}
+        sd = np.full(r.size, math.sqrt(coefficients["const"]))
+    local = error_scale.choose_local_scale(x, y, r / sd) if np.all(sd > 0) else {"chosen": False, "reason": "no spread"}
+    choice = {"chosen": bool(var_test["chosen"] or local["chosen"]), "coefficients": coefficients, "variables": used,
+              "fill": fill, "variables_test": var_test, "local": local,
+              "shift": error_scale.choose_local_shift(x, y, r, *gradient) if gradient is not None else
+              {"chosen": False, "reason": "not tested"}}
+    if not choice["chosen"]:
+        return choice, None
+    if local["chosen"]:
+        sd = sd * error_scale.local_scale_at(local, x, y)
+    return choice, sd
 
 
 def _mosaic(samples: list, grid: RunGrid, whole: bool):

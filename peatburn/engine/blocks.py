@@ -96,7 +96,7 @@ def _state(plan: RunPlan):
         cache.clear()
         readers = {}
         for name in ("pre", "post", "subsidence_rate", "thickness", "bulk_density", "carbon_fraction",
-                     "water_table", "biomass", "extent"):
+                     "water_table", "biomass", "extent", "quality"):
             src = getattr(plan, name)
             if isinstance(src, RasterSource):
                 readers[name] = GridReader(src, plan.grid)
@@ -295,6 +295,8 @@ class BlockData:
     edge: np.ndarray | None = None  # distance to the scar edge [m] (only when the depth model tapers)
     biomass: object = None  # [t/ha]
     in_extent: np.ndarray | None = None  # inside the organic-soil extent (None: no extent given)
+    scale_sd: np.ndarray | None = None  # per-pixel survey error sd [m] (only with a spread that varies)
+    shift_grad: tuple | None = None  # residual shift sd x (dz/dx, dz/dy) [m] (only with a residual shift map)
     zone_bins: list = field(default_factory=list)  # per layer: per pass 1-D bins
 
 
@@ -325,7 +327,48 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
         scar=st["scars"].rasterize(grid, window)[burned] if plan.station_days is not None and m is not None else None,
         edge=edge_distance(st, plan, window, EDGE_REACH * _taper_m(m))[burned] if _taper_m(m) > 0 else None,
         zone_bins=[[b[burned] for b in z.bin_rasters(grid, window)] for z in st["zones"]],
+        **(survey_error_terms(st, plan, window, burned) if plan.error_scale is not None and pre is not None else {}),
     )
+
+
+def survey_error_terms(st, plan: RunPlan, window: Window, sel: np.ndarray) -> dict:
+    """The survey error terms that vary in space at the pixels ``sel`` (science.error_scale), as BlockData
+    fields: ``scale_sd``, the per-pixel sd [m] (with a spread that varies), and ``shift_grad``, the local
+    residual shift sd times the pre-fire gradient (dz/dx, dz/dy) [m] (with a residual shift map). The
+    gradient is taken on the window and a one-pixel rim (block edges get central differences like the
+    inside); a missing variable takes its stable-ground median, a missing gradient 0."""
+    from ..science import error_scale
+    from .alignment import pixel_sides_m
+
+    grid, es = plan.grid, plan.error_scale
+    r0, c0 = int(window.row_off), int(window.col_off)
+    h, w = int(window.height), int(window.width)
+    top, left = max(r0 - 1, 0), max(c0 - 1, 0)
+    bottom, right = min(r0 + h + 1, grid.height), min(c0 + w + 1, grid.width)
+    z = st["readers"]["pre"].read(Window(left, top, right - left, bottom - top))
+    inner = (slice(r0 - top, r0 - top + h), slice(c0 - left, c0 - left + w))
+    gx, gy = (g[inner][sel] for g in error_scale.surface_gradient(z, *pixel_sides_m(grid, window)))
+    n = int(np.count_nonzero(sel))
+    out = {}
+    xy = None
+    if es.get("local") is not None or es.get("shift") is not None:
+        x, y = grid.pixel_centres(window)
+        xx, yy = np.broadcast_arrays(x, y)
+        xy = (xx[sel], yy[sel])
+    if es.get("spread", True):
+        variables = {"slope": np.hypot(gx, gy)}
+        if "quality" in es["variables"]:
+            variables["quality"] = st["readers"]["quality"].read(window)[sel]
+        variables = {k: v for k, v in variables.items() if k in es["variables"]}
+        filled = {k: np.where(np.isfinite(v), v, es["fill"][k]) for k, v in variables.items()}
+        sd = error_scale.error_scale_at(es["coefficients"], filled)
+        if es.get("local") is not None:  # times the map of the local spread
+            sd = sd * error_scale.local_scale_at(es["local"], *xy)
+        out["scale_sd"] = np.broadcast_to(sd, (n,))
+    if es.get("shift") is not None:
+        s = error_scale.local_shift_at(es["shift"], *xy)
+        out["shift_grad"] = (s * np.where(np.isfinite(gx), gx, 0.0), s * np.where(np.isfinite(gy), gy, 0.0))
+    return out
 
 
 def _earlier_burns(st, plan: RunPlan, window: Window, burned: np.ndarray) -> list:
@@ -500,6 +543,11 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
             put(f"area_m2_{name}", m, area)
             put(f"peat_kg_{name}", m, mass)
             put(f"carbon_kg_{name}", m, carbon)
+    if data.scale_sd is not None:  # A sd^2 over the surveyed pixels: a zone's RMS survey error sd
+        put("sd2_area_survey", m_survey, area * data.scale_sd**2)
+    if data.shift_grad is not None:  # A s grad z over the surveyed pixels: a residual shift's zone error
+        put("shift_gx_area_survey", m_survey, area * data.shift_grad[0])
+        put("shift_gy_area_survey", m_survey, area * data.shift_grad[1])
     if const_peat:  # rho x K x area and rho x K x cf x area over the surveyed pixels
         scaled("rho_area_survey", "area_m2_survey", k_rho)
         scaled("rho_f_area_survey", "area_m2_survey", k_rho * float(data.cf))

@@ -218,6 +218,8 @@ def _raster_params(cfg: RunConfig) -> dict[str, RasterRef]:
     out = {}
     if cfg.survey is not None and isinstance(cfg.survey.subsidence_rate, RasterRef):
         out["depth.survey.subsidence_rate"] = cfg.survey.subsidence_rate
+    if cfg.survey is not None and cfg.survey.quality is not None:
+        out["depth.survey.quality"] = RasterRef(cfg.survey.quality)
     if cfg.water_table is not None and cfg.water_table.raster is not None:
         out["depth.water_table.depth"] = cfg.water_table.raster
     for i, (ref, _) in enumerate(cfg.water_table.dated_rasters if cfg.water_table is not None else ()):

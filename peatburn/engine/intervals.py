@@ -33,9 +33,14 @@ def survey_error_model(alignment, pixel_area_m2: float, range_override: float | 
     from ..science import zone_error
 
     x, y, r = alignment.stable_sample
-    return zone_error.model_from_stable_sample(x, y, r, pixel_area_m2=pixel_area_m2,
-                                               stable_area_m2=alignment.n_stable_sample * pixel_area_m2,
-                                               sigma=float(alignment.nmad_after), range_m=range_override)
+    scale = getattr(alignment, "stable_scale", None)
+    out = zone_error.model_from_stable_sample(x, y, r, pixel_area_m2=pixel_area_m2,
+                                              stable_area_m2=alignment.n_stable_sample * pixel_area_m2,
+                                              sigma=float(alignment.nmad_after), range_m=range_override,
+                                              scale=scale)
+    # which spread was used: constant, or varying with the explanatory variables (science.error_scale)
+    out["error_scale"] = getattr(alignment, "error_scale", None)
+    return out
 
 
 def subsidence_map_sd(cfg) -> float:
@@ -145,6 +150,8 @@ def build_params(cfg, factors, alignment, models, sums, grid, fill_cv: float = 0
                    for s in sources]
     params = unc.sources_to_params(sources, gwp=factors.gwp.gwp)
     params["gas_form"] = form
+    if survey and survey.get("scale_ref_m"):  # each zone at the RMS of its pixels' sd (zone sum sd2_area_survey)
+        params["survey_scale_ref_m"] = survey["scale_ref_m"]
     return params, sources, survey or {}
 
 
@@ -259,20 +266,31 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
     (peatburn.engine.series) redraw each year's total from them."""
     params, sources, survey = build_params(cfg, factors, alignment, models, sums, grid, fill_cv)
     draws, seed = cfg.uncertainty.draws, cfg.uncertainty.seed
+    calibration, widen = None, {}
+    if alignment is not None and survey and len(alignment.stable_sample[2]):
+        from .survey_calibration import patch_check, scope_label, typical_areas
+
+        pix = float(np.mean(grid.pixel_area(grid.windows(cfg.block_size)[0])))
+        calibration = patch_check(alignment, survey, pix, typical_areas(sums, "area_m2_survey", SCAR_LAYER),
+                                  seed=seed)
+        by_scope = {c["scope"]: c["zone_sd_scale"] for c in calibration}
+        # a layer whose patches show the model too narrow draws its zone-level survey error widened to them
+        widen = {name: by_scope.get(scope_label(name, SCAR_LAYER), 1.0) for name, _, _ in sums.layers}
     frp = factors.frp_route
     row_i = 0
     per_zone = {}
     for li, (name, ids, acc) in enumerate(sums.layers):
         if name == SCAR_LAYER:
             if fire_rows:
-                _fill_fires(fire_rows, acc, flame.layers[li][1] if flame else None, params, draws, seed, frp,
-                            factors.vegetation_carbon_fraction)
+                _fill_fires(fire_rows, acc, flame.layers[li][1] if flame else None, _widened(params, widen, name),
+                            draws, seed, frp, factors.vegetation_carbon_fraction)
             continue
         idx = np.arange(1, len(ids) + 2)  # zones, then the outside bin
         fl = flame.layers[li][1] if flame else None
         ms = _model_sums(acc, idx, fl, frp, factors.vegetation_carbon_fraction)
-        iv = unc.intervals(ms, params, draws=draws, seed=seed, workers=_draw_threads(draws), quantities=_WITH_COLUMN)
-        con = unc.contributions(ms, params, quantity="carbon_kg")
+        lp = _widened(params, widen, name)
+        iv = unc.intervals(ms, lp, draws=draws, seed=seed, workers=_draw_threads(draws), quantities=_WITH_COLUMN)
+        con = unc.contributions(ms, lp, quantity="carbon_kg")
         for k in range(len(idx)):
             _fill(rows[row_i + k], iv, k)
         per_zone[name] = {(ids[k] if k < len(ids) else OUTSIDE): {s: _f(v[k]) for s, v in con.items()}
@@ -282,6 +300,8 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
     ms = _model_sums(tot, np.array([0]), {k: np.array([flame.total[k]]) for k in ("dry_matter_kg", "fre_ssq_kg2")
                                           if k in flame.total} if flame else None,
                      frp, factors.vegetation_carbon_fraction)
+    # the run total: the widest widening of any layer (conservative)
+    params = _widened(params, {"": max(widen.values(), default=1.0)}, "")
     if keep is not None:
         keep.update(sums=ms, params=params)
     iv = unc.intervals(ms, params, draws=draws, seed=seed, quantities=_WITH_COLUMN)
@@ -290,13 +310,6 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
     means = unc.draw_means(ms, params, draws=draws, seed=seed, quantities=_WITH_COLUMN)
     ipcc = ipcc_percentages(ms, params, iv, rows[row_i], means)
     con = unc.contributions(ms, params, quantity="carbon_kg")
-    calibration = None
-    if alignment is not None and survey and len(alignment.stable_sample[2]):
-        from .survey_calibration import patch_check, typical_areas
-
-        pix = float(np.mean(grid.pixel_area(grid.windows(cfg.block_size)[0])))
-        calibration = patch_check(alignment, survey, pix, typical_areas(sums, "area_m2_survey", SCAR_LAYER),
-                                  seed=seed)
     return {
         "method": "Monte Carlo at zone level: sums reduced once per zone in the block pass, draws of the run-wide "
                   "and zone-level sources (docs/uncertainty.md); 95 % interval = 2.5 and 97.5 percentiles",
@@ -321,6 +334,12 @@ def add_intervals(rows, sums, flame, factors, cfg, alignment, models, grid, fire
                 "uncertainty.subsidence_rate_sd, default 0.01 m/yr with a rate map, 0 with one constant rate). "
                 "Pixels whose bulk density or carbon fraction was filled get a wider spread (peat_property_fill).",
     }
+
+
+def _widened(params: dict, widen: dict, name: str) -> dict:
+    """The draw parameters of a layer whose zone-level survey sd the patch check widens (else unchanged)."""
+    k = widen.get(name, 1.0)
+    return params if k <= 1.0 else {**params, "survey_random_scale": k}
 
 
 def ipcc_percentages(ms: dict, params: dict, iv: dict, row: dict, means: dict | None = None) -> dict:

@@ -59,6 +59,10 @@ class RunPlan:
     # earlier years of a series: (burn depth, depth method) RasterSources per year (docs/method.md 7.7)
     earlier_burns: tuple = ()
     earlier_tier1_fuel: tuple = ()  # the Tier 1 fuel consumption [t/ha] each earlier year used
+    #: a survey error spread varying in space, when chosen on stable ground (science.error_scale):
+    #: ``{"coefficients", "fill", "variables"}``; the blocks sum A sd^2 over the surveyed pixels
+    error_scale: dict | None = None
+    quality: RasterSource | None = None  # depth.survey.quality, read only with error_scale
     token: str = field(default_factory=lambda: uuid.uuid4().hex)
 
 
@@ -179,7 +183,20 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
                              RasterSource(str(m), f"series.earlier_burns[{i}].method", resampling="nearest"))
                             for i, (d, m) in enumerate(cfg.earlier_burns)),
         earlier_tier1_fuel=tuple(float(v) for v in getattr(cfg, "earlier_tier1_fuel_t_ha", ())),
+        error_scale=_error_scale(alignment),
+        quality=RasterSource(str(sv.quality), "depth.survey.quality")
+        if sv and sv.quality is not None and "quality" in (_error_scale(alignment) or {}).get("variables", ()) else None,
     )
+
+
+def _error_scale(alignment) -> dict | None:
+    """The per-pixel sd model the blocks apply, when the co-registration chose one."""
+    ch = getattr(alignment, "error_scale", None)
+    if not ch or not (ch.get("chosen") or ch.get("shift", {}).get("chosen")):
+        return None
+    return {"coefficients": dict(ch["coefficients"]), "fill": dict(ch["fill"]), "variables": list(ch["variables"]),
+            "local": ch["local"] if ch["local"].get("chosen") else None, "spread": bool(ch["chosen"]),
+            "shift": ch["shift"] if ch["shift"].get("chosen") else None}
 
 
 def _extent_source(inputs: Inputs):

@@ -31,6 +31,10 @@ SUM_KEYS = (
     *(f"{k}_{m}" for m in METHODS for k in ("area_m2", "peat_kg", "carbon_kg")),
     # for zone-level Monte Carlo: mass per metre of depth over survey / water-table pixels
     "rho_area_survey", "rho_f_area_survey",
+    # A sd^2 over survey pixels when the survey error's spread varies in space (science.error_scale)
+    "sd2_area_survey",
+    # A s dz/dx and A s dz/dy over survey pixels: a residual shift of local sd s times the zone's mean gradient
+    "shift_gx_area_survey", "shift_gy_area_survey",
     # over water-table pixels where the model is not clipped (0 < a + b wt < thickness): there the
     # depth responds linearly to the coefficients (peatburn.science.uncertainty)
     "wt_area", "wt_area_wt", "wt_rho_area", "wt_rho_area_wt", "wt_rho_f_area", "wt_rho_f_area_wt",

@@ -6,6 +6,8 @@ Patches of a zone's area are laid on the stable-ground sample the co-registratio
 of that size carries, measured; the model predicts ``sqrt(zone_sd^2 + bias_sd^2)``
 (:func:`peatburn.science.zone_error.coregistered_zone_sd`). Their ratio near 1 means calibrated
 (Rolstad et al. 2009 Sect. 4; Hugonnet et al. 2022, the patches method; recalled, unchecked).
+When the run chose a survey error spread that varies in space (science.error_scale), the patches are
+laid on the residuals standardised by the modelled per-pixel sd, so the check tests the same model.
 """
 
 from __future__ import annotations
@@ -42,6 +44,11 @@ def patch_check(alignment, survey: dict, pixel_area_m2: float, areas: dict, seed
         Seed of the patch positions.
     """
     x, y, r = alignment.stable_sample
+    scale = getattr(alignment, "stable_scale", None)
+    if survey.get("scale_ref_m") and scale is not None:
+        # a spread varying in space: the residuals standardised by their modelled sd (at the reference sd
+        # the model is stated at), so that each patch is compared with the same model the zones get
+        r, _ = zone_error.standardise(x, y, r, scale, survey.get("trend_coefficients"))
     n_all = max(int(alignment.n_stable_sample), 1)
     frac = min(max(len(r) / n_all, 1e-12), 1.0)
     comps = [(c["partial_sill_m2"], c["range_m"]) for c in survey["components"]]
@@ -56,10 +63,26 @@ def patch_check(alignment, survey: dict, pixel_area_m2: float, areas: dict, seed
                                            sample_fraction=frac, n_patches=N_PATCHES, seed=seed)
         ratio = rms / model if n and model > 0 else float("nan")
         ratio_se = se / model if n and model > 0 else float("nan")
+        scale = zone_sd_scale(rms, float(zsd), bsd, ratio, ratio_se)
+        sentence = _sentence(scope, area, n, rms, model, ratio, ratio_se)
+        if scale > 1.0:
+            sentence += (f" The intervals of this layer use the patches' spread: its zone-level survey sd is widened "
+                         f"{scale:.2f}-fold.")
         out.append({"scope": scope, "area_ha": area / 1e4, "patches": int(n), "patch_rms_m": rms,
-                    "model_sd_m": model, "ratio": ratio, "ratio_se": ratio_se,
-                    "sentence": _sentence(scope, area, n, rms, model, ratio, ratio_se)})
+                    "model_sd_m": model, "ratio": ratio, "ratio_se": ratio_se, "zone_sd_scale": scale,
+                    "sentence": sentence})
     return out
+
+
+def zone_sd_scale(rms: float, zone_sd: float, bias_sd: float, ratio: float, ratio_se: float) -> float:
+    """Factor on the zone-level survey sd that makes the model match the patches, when the patches show
+    it too narrow beyond the check's own scatter (``ratio - 2 se > 1``); else 1. Never below 1: the
+    variogram model stays the estimate, the patches only widen it where they show error it misses
+    (a long-range component the F test left out; the patches method of Hugonnet et al. 2022 as an
+    estimate of an area's error, recalled, unchecked). ``k^2 zone_sd^2 + bias_sd^2 = rms^2``."""
+    if not (math.isfinite(ratio) and math.isfinite(ratio_se) and ratio - 2.0 * ratio_se > 1.0 and zone_sd > 0):
+        return 1.0
+    return max(1.0, math.sqrt(max(rms * rms - bias_sd * bias_sd, 0.0)) / zone_sd)
 
 
 def _sentence(scope, area, n, rms, model, ratio, ratio_se) -> str:
@@ -86,11 +109,20 @@ def _sentence(scope, area, n, rms, model, ratio, ratio_se) -> str:
 def typical_areas(sums, area_key: str, scar_layer: str) -> dict:
     """Scope -> median surveyed area [m2] of the zones (with a surveyed area) of each zone layer
     and of the burn scars (fires)."""
+    return {scope_label(name, scar_layer): a for name, a in median_areas(sums, area_key).items()}
+
+
+def scope_label(name: str, scar_layer: str) -> str:
+    """The scope a layer's check is reported under."""
+    return "fires (median burn scar)" if name == scar_layer else f"zone layer {name} (median zone)"
+
+
+def median_areas(sums, area_key: str) -> dict:
+    """Layer name -> median surveyed area [m2] of its zones with a surveyed area."""
     out = {}
     for name, ids, acc in sums.layers:
         a = np.asarray(acc[area_key], dtype=float)[1:len(ids) + 1]
         a = a[a > 0]
         if a.size:
-            label = "fires (median burn scar)" if name == scar_layer else f"zone layer {name} (median zone)"
-            out[label] = float(np.median(a))
+            out[name] = float(np.median(a))
     return out

@@ -665,6 +665,7 @@ def _qa_rows(qa: dict) -> list[tuple[str, str]]:
          f"{fmt_num(qa.get('stable_median_before_m'))} → {fmt_num(qa.get('stable_median_after_m'))}"),
         ("stable-ground pixels sampled [count]", fmt_int(qa.get("stable_sample_pixels"))),
         ("level of detection, 95 % [m]", fmt_num(qa.get("level_of_detection_m"))),
+        ("survey error spread over the scene", str(qa.get("survey_error_spread", "–"))),
         ("surveyed burned area below the level of detection [%]",
          fmt_pct(qa.get("share_of_surveyed_area_below_lod"))),
         ("surveyed area where the burn depth was capped by the peat thickness [%]",

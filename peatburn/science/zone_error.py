@@ -56,7 +56,7 @@ from ..errors import PhysicalRangeError
 from .uncertainty.averaging import correlated_sum_sd
 
 __all__ = ["check_components", "components_from_fit", "zone_mean_sd", "stable_median_sd", "coregistered_zone_sd",
-           "model_from_stable_sample",
+           "model_from_stable_sample", "standardise",
            "VARIOGRAM_LAGS", "VARIOGRAM_PAIRS", "SECOND_RANGE_ALPHA"]
 
 #: Log-spaced lag bins from one pixel to a third of the stable ground's extent, and the pairs drawn
@@ -238,7 +238,24 @@ def coregistered_zone_sd(area_m2, stable_area_m2, nugget, components, pixel_area
     return zone, math.sqrt(max(med**2 - mean**2, 0.0))
 
 
-def model_from_stable_sample(x, y, residuals, *, pixel_area_m2, stable_area_m2, sigma=None, range_m=None, seed=0):
+def standardise(x, y, residuals, scale, trend_coefficients=None):
+    """Stable-ground residuals standardised by a per-pixel sd and brought back to metres at the
+    sample's RMS sd ``s_ref`` [m]: ``(r - plane) / scale * s_ref + plane`` (Hugonnet et al. 2022: the
+    variogram is fitted on the standardised field; recalled, unchecked). Returns ``(values, s_ref)``."""
+    from .coregistration import plane
+
+    r = np.asarray(residuals, dtype="float64")
+    s = np.asarray(scale, dtype="float64")
+    if s.shape != r.shape or not np.all(np.isfinite(s) & (s > 0)):
+        raise PhysicalRangeError("standardise: scale must be a finite sd > 0 m at every residual")
+    s_ref = float(np.sqrt(np.mean(s * s)))
+    p = 0.0 if trend_coefficients is None else plane(np.asarray(x, dtype="float64"), np.asarray(y, dtype="float64"),
+                                                      trend_coefficients)
+    return (r - p) / s * s_ref + p, s_ref
+
+
+def model_from_stable_sample(x, y, residuals, *, pixel_area_m2, stable_area_m2, sigma=None, range_m=None, seed=0,
+                             scale=None):
     """The survey error model from a sample of stable-ground residuals after co-registration.
 
     1. A least-squares plane is fitted to the residuals
@@ -252,6 +269,13 @@ def model_from_stable_sample(x, y, residuals, *, pixel_area_m2, stable_area_m2, 
        (:func:`peatburn.science.variogram.fit_spherical_ranges`), scaled by :func:`components_from_fit`.
     3. With ``range_m`` (the user's correlation range), one spherical component of sill sigma^2 and
        that range instead; with too few points (< 200), one of a pixel's range.
+    4. With ``scale`` (a per-pixel sd at each residual, :mod:`peatburn.science.error_scale`), steps 2-3
+       run on the residuals less the plane standardised by it and brought back to metres at the
+       sample's RMS sd ``s_ref`` (:func:`standardise`): the nugget and components are then those of a
+       pixel of sd ``s_ref``, and a zone whose pixels have an RMS sd ``s_z`` gets ``(s_z / s_ref)^2``
+       times their zone-mean variance (Hugonnet et al. 2022; the RMS is exact for the nugget and, for
+       correlations >= 0, not below the exact double sum when the sd varies little within a range:
+       s_i s_j <= (s_i^2 + s_j^2) / 2).
 
     Parameters
     ----------
@@ -272,7 +296,8 @@ def model_from_stable_sample(x, y, residuals, *, pixel_area_m2, stable_area_m2, 
         ``sigma_m``, ``nugget_m2``, ``components`` (list of ``{"partial_sill_m2", "range_m"}``),
         ``trend_sd_m``, ``bias_sd_m`` (run-wide part, :func:`coregistered_zone_sd`), ``stable_area_m2``,
         ``range_m`` and ``nugget_fraction`` (a one-range summary: the component of largest sill),
-        ``model`` (words), ``variogram`` (the raw fit or None).
+        ``model`` (words), ``variogram`` (the raw fit or None), ``trend_coefficients`` (the plane, or
+        None), ``scale_ref_m`` (``s_ref`` with ``scale``, else None).
 
     References
     ----------
@@ -287,12 +312,14 @@ def model_from_stable_sample(x, y, residuals, *, pixel_area_m2, stable_area_m2, 
     y = np.asarray(y, dtype="float64")
     r = np.asarray(residuals, dtype="float64")
     pix_side = math.sqrt(float(pixel_area_m2))
-    trend_sd, fit = 0.0, None
+    trend_sd, fit, coef, s_ref = 0.0, None, None, None
     if range_m is None and r.size >= 200:
         coef = fit_plane(x, y, r)
         p = plane(x, y, coef)
         trend_sd = float(np.std(p))
         r = r - p
+        if scale is not None:
+            r, s_ref = standardise(x, y, r, scale)
         sig = float(nmad(r))
         extent = float(max(np.ptp(x), np.ptp(y)))
         lags, gamma, counts = variogram.empirical_variogram(
@@ -301,7 +328,9 @@ def model_from_stable_sample(x, y, residuals, *, pixel_area_m2, stable_area_m2, 
         fit = variogram.fit_spherical_ranges(lags, gamma, counts, alpha=SECOND_RANGE_ALPHA)
         nugget, comps = components_from_fit(fit, sig)
     else:
-        sig = float(nmad(r)) if sigma is None else float(sigma)
+        if scale is not None:
+            r, s_ref = standardise(x, y, r, scale)
+        sig = float(nmad(r)) if sigma is None or scale is not None else float(sigma)
         nugget, comps = check_components(0.0, [(sig**2, range_m if range_m is not None else pix_side)])
     _, bias = coregistered_zone_sd(0.0, stable_area_m2, nugget, comps, pixel_area_m2)
     total = nugget + sum(c for c, _ in comps)
@@ -313,4 +342,5 @@ def model_from_stable_sample(x, y, residuals, *, pixel_area_m2, stable_area_m2, 
             "model": ("planar trend + nugget + one or two spherical components fitted on stable ground (Hugonnet et al. "
                       "2022); total sill the larger of NMAD^2 and the fitted sill" if fit is not None else
                       "one spherical component of sill sigma^2 and the given or a one-pixel range"),
-            "variogram": None if fit is None else [{k: float(v) for k, v in d.items()} for d in fit]}
+            "variogram": None if fit is None else [{k: float(v) for k, v in d.items()} for d in fit],
+            "trend_coefficients": None if coef is None else [float(c) for c in coef], "scale_ref_m": s_ref}

@@ -65,3 +65,14 @@ def test_run_records_the_check_in_totals_qa_and_report(tmp_path):
     src = {x["name"]: x for x in res.totals["uncertainty"]["sources"]}
     assert src["surface_change"]["parameters"]["sd_m"] == pytest.approx(0.02)
     assert res.totals["uncertainty"]["contributions"]["surface_change"] > 0
+
+
+def test_zone_sd_widened_only_where_the_patches_show_the_model_too_narrow():
+    """zone_sd_scale: k^2 zone_sd^2 + bias_sd^2 = patch RMS^2 when the ratio exceeds 1 by more than twice its
+    standard error (hand arithmetic: sqrt(0.03^2 - 0.01^2) / 0.01 = sqrt(8)); else 1, and never below 1."""
+    from peatburn.engine.survey_calibration import zone_sd_scale
+
+    model = math.hypot(0.01, 0.01)
+    assert zone_sd_scale(0.03, 0.01, 0.01, 0.03 / model, 0.1) == pytest.approx(math.sqrt(8.0))
+    assert zone_sd_scale(0.03, 0.01, 0.01, 0.03 / model, 1.0) == 1.0  # within the check's scatter
+    assert zone_sd_scale(0.005, 0.01, 0.01, 0.005 / model, 0.01) == 1.0  # too wide: left as it is

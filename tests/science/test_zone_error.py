@@ -89,3 +89,40 @@ def test_surface_change_term_adds_its_variance_over_the_surveyed_depth():
     assert np.allclose(comp["surface_change"], expected)
     with pytest.raises(PhysicalRangeError):
         unc.default_sources(survey_bias_sd_m=0.0, survey_sigma_m=0.0, survey_range_m=1.0, surface_change_sd_m=-1.0)
+
+
+def test_zone_at_its_own_rms_sd_when_the_spread_varies():
+    """With survey_scale_ref_m, a zone whose pixels' A sd^2 sum is k^2 times its area x s_ref^2 gets k
+    times the stationary zone sd (hand arithmetic: the model is stated at s_ref); a trend adds apart."""
+    from peatburn.science import uncertainty as unc
+
+    comps = [(0.004, 30.0)]
+    area = np.array([3600.0, 3600.0, 3600.0])
+    base = {"area_m2_survey": area, "rho_area_survey": area, "rho_f_area_survey": area, "carbon_kg": area,
+            "peat_kg": area, "volume_m3": area}
+    params = {"survey_nugget_m2": 0.002, "survey_components": comps, "pixel_area_m2": 4.0,
+              "survey_trend_sd_m": 0.01}
+    stationary = unc.variance_components(base, params, quantity="volume_m3")["survey_random"]
+    s_ref = 0.08
+    hetero = unc.variance_components({**base, "sd2_area_survey": area * s_ref**2 * np.array([1.0, 4.0, 0.25])},
+                                     {**params, "survey_scale_ref_m": s_ref}, quantity="volume_m3")["survey_random"]
+    v0 = float(ze.zone_mean_sd(3600.0, 0.002, comps, 4.0)) ** 2
+    expect = (np.array([1.0, 4.0, 0.25]) * v0 + 0.01**2) * 3600.0**2
+    assert np.allclose(hetero, expect, rtol=1e-9)
+    assert np.allclose(stationary, (v0 + 0.01**2) * 3600.0**2, rtol=1e-9)
+
+
+def test_residual_shift_sums_add_the_shift_times_the_mean_gradient():
+    """Zone sums A s dz/dx = Sx and A s dz/dy = Sy add (Sx^2 + Sy^2) / A^2 to the zone-level variance of the
+    survey error (hand arithmetic: a shift of sd s per axis times the zone's mean gradient)."""
+    from peatburn.science import uncertainty as unc
+
+    area = np.array([3600.0, 3600.0])
+    base = {"area_m2_survey": area, "rho_area_survey": area, "rho_f_area_survey": area, "carbon_kg": area,
+            "peat_kg": area, "volume_m3": area}
+    params = {"survey_nugget_m2": 0.002, "survey_components": [(0.004, 30.0)], "pixel_area_m2": 4.0}
+    v0 = float(ze.zone_mean_sd(3600.0, 0.002, [(0.004, 30.0)], 4.0)) ** 2
+    sx, sy = np.array([0.0, 3600 * 0.3 * 0.05]), np.array([0.0, -3600 * 0.3 * 0.02])
+    var = unc.variance_components({**base, "shift_gx_area_survey": sx, "shift_gy_area_survey": sy}, params,
+                                  quantity="volume_m3")["survey_random"]
+    assert np.allclose(var, (v0 + np.array([0.0, (0.3 * 0.05) ** 2 + (0.3 * 0.02) ** 2])) * 3600.0**2, rtol=1e-9)

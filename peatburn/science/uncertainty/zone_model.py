@@ -27,6 +27,11 @@ SUM_KEYS = {
     "carbon_kg": "sum d rho f A x 1000 [kg C]",
     "rho_area_survey": "sum rho A x 1000 over survey-depth pixels [kg/m]: peat mass per metre of depth",
     "rho_f_area_survey": "sum rho f A x 1000 over survey-depth pixels [kg C/m]",
+    "sd2_area_survey": "sum A sd^2 over survey-depth pixels [m4] (optional; a survey error spread that varies in "
+                       "space, with the parameter survey_scale_ref_m: science.error_scale)",
+    "shift_gx_area_survey": "sum A s dz/dx over survey-depth pixels [m3] (optional; s the local residual shift sd, "
+                            "science.error_scale.choose_local_shift)",
+    "shift_gy_area_survey": "sum A s dz/dy over survey-depth pixels [m3] (optional)",
     "wt_area": "sum A over unclipped water-table-depth pixels [m2]",
     "wt_area_wt": "sum A wt over water-table pixels [m3] (optional)",
     "wt_rho_area": "sum rho A x 1000 over water-table pixels [kg/m] (optional)",
@@ -68,6 +73,11 @@ _PARAM_KEYS = {
     "subsidence_rate_map_sd_m_per_yr", "tier1_fuel_cv", "peat_fill_cv", "gas_form",
     # multi-range survey error (issue 16; science.zone_error): replaces sigma / range / nugget share when given
     "survey_nugget_m2", "survey_components", "survey_trend_sd_m", "surface_change_sd_m",
+    # the per-pixel sd the multi-range model is stated at, when the spread varies in space (sd2_area_survey)
+    "survey_scale_ref_m",
+    # factor >= 1 on the zone-level survey sd where stable-ground patches show the model too narrow
+    # (engine.survey_calibration.zone_sd_scale)
+    "survey_random_scale",
     # issue 16 items 5 and 6: the burned-area map's accuracy; the FRE integration error
     "burned_area_cv", "fre_integration_cv",
 }
@@ -169,14 +179,29 @@ def _build(sums: Mapping, params: Mapping) -> _Model:
     if params.get("survey_components") is not None:
         from ..zone_error import zone_mean_sd  # here: zone_error imports this package
 
-        sz = zone_mean_sd(area, _nonneg(params, "survey_nugget_m2"), params["survey_components"],
-                          params.get("pixel_area_m2") or 1.0, _nonneg(params, "survey_trend_sd_m"))
+        s_ref = _nonneg(params, "survey_scale_ref_m")
+        if s_ref > 0:  # each zone at its own RMS sd: (s_z / s_ref)^2 x the zone-mean variance, + the trend
+            rel2 = ratio(get("sd2_area_survey"), area * s_ref**2)
+            sz = zone_mean_sd(area, _nonneg(params, "survey_nugget_m2"), params["survey_components"],
+                              params.get("pixel_area_m2") or 1.0)
+            sz = np.sqrt(sz**2 * np.where(area > 0, rel2, 1.0) + _nonneg(params, "survey_trend_sd_m") ** 2)
+        else:
+            sz = zone_mean_sd(area, _nonneg(params, "survey_nugget_m2"), params["survey_components"],
+                              params.get("pixel_area_m2") or 1.0, _nonneg(params, "survey_trend_sd_m"))
     elif sig > 0:
         rng_m = params.get("survey_range_m")
         if rng_m is None:
             raise ConfigError("uncertainty parameters: survey_range_m is needed with survey_sigma_m > 0")
         sz = correlated_sum_sd(sig, float(rng_m), area, _nonneg(params, "survey_nugget_fraction"),
                                pixel_area_m2=params.get("pixel_area_m2"))
+    if params.get("survey_random_scale") is not None:
+        sz = sz * _nonneg(params, "survey_random_scale")
+    if np.any(get("shift_gx_area_survey") != 0) or np.any(get("shift_gy_area_survey") != 0):
+        # a residual shift of unknown direction and local sd s per axis: the zone mean error is the shift
+        # times the zone's mean gradient, variance (sum A s dz/dx)^2 + (sum A s dz/dy)^2 over A^2 (Nuth &
+        # Kaab 2011; science.error_scale.choose_local_shift); independent of the pixel-scale term
+        shift_var = ratio(get("shift_gx_area_survey") ** 2 + get("shift_gy_area_survey") ** 2, area**2)
+        sz = np.sqrt(sz**2 + shift_var)
     # water table
     wt_area = get("wt_area")
     wt_rf, wt_rf_wt = get("wt_rho_f_area"), get("wt_rho_f_area_wt")
