@@ -3,8 +3,9 @@
 A synthetic season of tens of thousands of surveyed scars (edge-tapered, right-skewed depths, a few
 canal-edge artefacts), sampled as a run samples them (at most 200,000 pixel pairs). Times, in one
 run: the fit with its cluster bootstrap over scars (200 replicates, as a run does), the fit alone,
-and the 10-fold leave-scar-out cross-validation, for Theil-Sen and Huber screens. Printed figures
-only; no target is asserted.
+and the 10-fold leave-scar-out cross-validation, for Theil-Sen and Huber screens; and the forward
+selection of both covariates (edge taper and thin-peat factor, ``select_covariates``) with the
+Theil-Sen screen. Printed figures only; no target is asserted.
 
     python benchmarks/bench_depth_model.py [--scars 30000] [--pairs 200000]
 """
@@ -33,7 +34,7 @@ def season(n_scars: int, n_pairs: int, seed: int = 0):
     d = (0.05 + 0.5 * w) * (1 - np.exp(-edge / 25)) * effect * rng.gamma(2.0, 0.5, n)
     bad = rng.random(n) < 0.01
     d[bad] += rng.uniform(2, 4, int(bad.sum()))  # canal edges, spoil banks
-    return w, d, scar
+    return w, d, scar, edge, rng.uniform(0.3, 4.0, n_scars)[scar]
 
 
 def _time(fn):
@@ -47,7 +48,7 @@ def main(argv=None) -> dict:
     ap.add_argument("--scars", type=int, default=30_000)
     ap.add_argument("--pairs", type=int, default=200_000)
     a = ap.parse_args(argv)
-    w, d, scar = season(a.scars, a.pairs)
+    w, d, scar, edge, thick = season(a.scars, a.pairs)
     k = np.unique(scar).size
     print(f"[8] water-table depth model: {w.size} pairs from {k} scars")
     out = {}
@@ -60,6 +61,12 @@ def main(argv=None) -> dict:
               f"slope {m.slope:.3f} +- {m.slope_se:.3f}, screened {m.n_screened}, "
               f"CV bias {cv['bias']:+.1%}, RMSE {cv['rmse']:.1%} of a scar's depth sum")
         out[method] = {"fit_s": t_fit, "fit_boot_s": t_boot, "cv_s": t_cv}
+    sel, t_sel = _time(lambda: wt.select_covariates(w, d, scar, edge_distance_m=edge, thickness_m=thick, edge="cv",
+                                                    thickness="cv"))
+    print(f"  covariate selection (edge taper and thin-peat factor, forward, {len(sel['tried'])} cross-validations) "
+          f"{t_sel:6.2f} s (RATIO selection / CV {t_sel / out['theil-sen']['cv_s']:.1f}); chosen: "
+          f"{' + '.join(wt.covariate_labels(sel['edge_taper_m'], sel['thickness_taper_m'])) or 'none'}")
+    out["selection_s"] = t_sel
     return out
 
 

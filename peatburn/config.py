@@ -139,6 +139,9 @@ class WaterTableConfig:
 
     raster: RasterRef | None = None
     stations: Path | None = None
+    # several dated rasters: ((RasterRef, "YYYY-MM-DD"), ...) in date order; each scar takes the one nearest
+    # its fire start within date_window_days (engine.plan.rasters_by_fire_date)
+    dated_rasters: tuple = ()
     value_column: str = "water_table_m"
     crs: str | None = None
     date_column: str | None = None
@@ -156,6 +159,9 @@ class WaterTableConfig:
     # burn depth tapered to the scar edge: "cv" (the taper distance chosen by leave-scar-out
     # cross-validation, none if it does not help), a distance [m], or None (no taper, the default)
     edge_taper: object = None
+    # burn depth reduced on thin peat, x (1 - exp(-thickness / L_T)): "cv" (L_T chosen by leave-scar-out
+    # cross-validation with the edge taper, none if it does not help), a scale [m], or None (the default)
+    thickness_taper: object = None
     idw_power: float = 2.0
     idw_neighbours: int = 12
     idw_max_distance_m: float | None = None
@@ -260,6 +266,8 @@ class RunConfig:
         if wt is not None:
             if wt.raster is not None:
                 out["depth.water_table.depth"] = wt.raster.path
+            for i, (ref, _) in enumerate(wt.dated_rasters):
+                out[f"depth.water_table.depth[{i}]"] = ref.path
             if wt.stations is not None:
                 out["depth.water_table.depth"] = wt.stations
             if wt.model_file is not None:
@@ -305,7 +313,7 @@ _SCHEMA = {
     "depth": {*(m.section.removeprefix("depth.") for m in DEPTH_METHODS), "plots"},  # peatburn.depth_methods
     "depth.water_table": {"depth", "value_column", "crs", "date_column", "model", "intercept", "slope",
                           "fit_method", "idw_power", "idw_neighbours", "idw_max_distance_m", "units",
-                          "fit_target", "error", "date_window_days", "edge_taper"},
+                          "fit_target", "error", "date_window_days", "edge_taper", "thickness_taper"},
     "depth.plots": {"path", "value_column", "crs", "date_column"},
     "depth.tier1": {"fuel_consumption"},
     "flaming": {"method", "detections", "crs", "columns", "event_distance_m", "event_gap_hours", "coefficient", "peat_coefficient",
@@ -723,8 +731,11 @@ def _water_table(wt: dict, base: Path, where: str) -> WaterTableConfig:
     _check_keys(wt, "depth.water_table", where)
     src = _require(wt, "depth", "depth.water_table", where)
     raster = stations = None
+    dated = ()
     units = wt.get("units")
-    if isinstance(src, dict):
+    if isinstance(src, list) and src and all(isinstance(x, dict) for x in src):
+        dated = _dated_rasters(src, base, units, where)
+    elif isinstance(src, dict):
         raster = _value(src, base, "depth.water_table.depth", "water_table_depth", where)
     elif isinstance(src, str) and src.lower().endswith(_STATION_SUFFIXES):
         stations = _path(src, base, "depth.water_table.depth", where)
@@ -765,7 +776,8 @@ def _water_table(wt: dict, base: Path, where: str) -> WaterTableConfig:
             raise ConfigError(f"{where}: `depth.water_table.error` corrects the mean fit; drop it or set "
                               f"`fit_target = \"mean\"`")
     return WaterTableConfig(
-        raster=raster, stations=stations, value_column=str(wt.get("value_column", "water_table_m")),
+        raster=raster, stations=stations, dated_rasters=dated,
+        value_column=str(wt.get("value_column", "water_table_m")),
         crs=wt.get("crs"), date_column=wt.get("date_column"), model=model, intercept=intercept, slope=slope,
         model_file=model_file, fit_method=fit_method, fit_target=fit_target, error_m=error_m or None,
         idw_power=_opt_number(wt, "idw_power", "depth.water_table", where, 0.5, 6) or 2.0,
@@ -773,24 +785,60 @@ def _water_table(wt: dict, base: Path, where: str) -> WaterTableConfig:
         idw_max_distance_m=_opt_number(wt, "idw_max_distance_m", "depth.water_table", where, 0, None),
         date_window_days=_opt_number(wt, "date_window_days", "depth.water_table", where, 0, 366) if
         "date_window_days" in wt else 15.0,
-        edge_taper=_edge_taper(wt, where),
+        edge_taper=_taper(wt, "edge_taper", where, 1000.0, "a distance such as 20 or \"20 m\""),
+        thickness_taper=_taper(wt, "thickness_taper", where, 20.0, "a thickness scale such as 0.5 or \"50 cm\""),
     )
 
 
-def _edge_taper(wt: dict, where: str):
-    """``depth.water_table.edge_taper``: "cv", a distance [m] (number or quantity string), or absent."""
-    if "edge_taper" not in wt:
+def _dated_rasters(entries: list, base: Path, units, where: str) -> tuple:
+    """``depth.water_table.depth`` as a list of tables ``{path = ..., date = ...}``: the rasters with their
+    dates (ISO strings), sorted by date; each date must parse, no date twice (the files are checked when
+    the inputs are opened, like every raster)."""
+    import datetime as _dt
+
+    key = "depth.water_table.depth"
+    out = []
+    for i, e in enumerate(entries):
+        if set(e) != {"path", "date"}:
+            raise ConfigError(f"{where}: `{key}[{i}]` takes `path` (a raster) and `date` (e.g. 2031-08-15), "
+                              f"got {sorted(e)}")
+        d = e["date"]
+        if isinstance(d, _dt.datetime):
+            d = d.date()
+        if isinstance(d, str):
+            try:
+                d = _dt.date.fromisoformat(d.strip())
+            except ValueError:
+                raise ConfigError(f"{where}: `{key}[{i}].date` = {e['date']!r} is not a date; write it as "
+                                  f"2031-08-15 (or \"2031-08-15\")") from None
+        if not isinstance(d, _dt.date):
+            raise ConfigError(f"{where}: `{key}[{i}].date` must be a date such as 2031-08-15, got {e['date']!r}")
+        ref = RasterRef(_raster(e["path"], base, f"{key}[{i}].path", where), units,
+                        conversion_factor(units, "m", "depth.water_table.units") if units else 1.0)
+        out.append((ref, d.isoformat()))
+    dates = [d for _, d in out]
+    twice = sorted({d for d in dates if dates.count(d) > 1})
+    if twice:
+        raise ConfigError(f"{where}: `{key}` has more than one raster dated {', '.join(twice)}; give one raster "
+                          f"per date")
+    return tuple(sorted(out, key=lambda x: x[1]))
+
+
+def _taper(wt: dict, key: str, where: str, hi: float, example: str):
+    """``depth.water_table.<key>`` (edge_taper, thickness_taper): "cv", a length [m] (number or quantity
+    string) in (0, hi], or absent (None)."""
+    if key not in wt:
         return None
-    v = wt["edge_taper"]
+    v = wt[key]
     if v == "cv":
         return "cv"
     try:
-        m = to_magnitude(v, "m", "depth.water_table.edge_taper")
+        m = to_magnitude(v, "m", f"depth.water_table.{key}")
     except UnitError:
-        raise ConfigError(f"{where}: `depth.water_table.edge_taper` must be \"cv\" (chosen by cross-validation) "
-                          f"or a distance such as 20 or \"20 m\", got {v!r}") from None
-    if not (0 < m <= 1000):
-        raise PhysicalRangeError(f"{where}: `depth.water_table.edge_taper` = {v!r} must be between 0 and 1000 m")
+        raise ConfigError(f"{where}: `depth.water_table.{key}` must be \"cv\" (chosen by cross-validation) "
+                          f"or {example}, got {v!r}") from None
+    if not (0 < m <= hi):
+        raise PhysicalRangeError(f"{where}: `depth.water_table.{key}` = {v!r} must be between 0 and {hi:g} m")
     return float(m)
 
 

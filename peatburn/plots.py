@@ -13,7 +13,7 @@ import math
 import numpy as np
 import rasterio
 
-from .engine.depth_models import sample_points
+from .engine.depth_models import sample_points, water_table_at_points
 from .depth_methods import DEPTH_METHODS
 
 
@@ -48,13 +48,7 @@ def validate_plots(inputs, plan, out_dir) -> dict:
             continue
         out["by_method"][name] = _stats(validate_against_plots(depth[sel], obs[sel]), int(sel.sum()))
     if plan.models is not None:
-        wt = sample_points(plan, "water_table", x, y) if plan.water_table is not None else None
-        if wt is None and plan.stations is not None:
-            from .science.water_table import idw
-
-            power, k, dmax = plan.idw
-            sx, sy, sv = plan.stations
-            wt = idw(sx, sy, sv, x, y, power=power, k=k, max_distance=dmax)
+        wt = water_table_at_points(plan, x, y)
         if wt is not None:
             thick = sample_points(plan, "thickness", x, y)
             edge = None

@@ -124,3 +124,30 @@ def test_force_ranges_allows_unusual_but_not_impossible(tmp_path):
     p.write_text(p.read_text().replace("carbon_fraction = 0.55", "carbon_fraction = 1.5"))
     with pytest.raises(PhysicalRangeError, match="mass fraction"):
         load_config(p)
+
+
+def test_dated_water_table_rasters(tmp_path):
+    # depth.water_table.depth as a list of tables {path, date}: TOML dates or ISO strings, sorted by date;
+    # a bad date, a date given twice or another key is one line naming the key
+    from peatburn.config import config_from_dict
+    from peatburn.errors import ConfigError
+    import datetime
+
+    def cfg(depth):
+        return config_from_dict({"run": {"name": "x"}, "burned_area": {"path": "s.gpkg"},
+                                 "peat": {"bulk_density": 0.1, "carbon_fraction": 0.55},
+                                 "depth": {"water_table": {"depth": depth, "units": "cm"}}},
+                                base=tmp_path, source=tmp_path / "c.toml")
+
+    c = cfg([{"path": "b.tif", "date": "2031-09-15"}, {"path": "a.tif", "date": datetime.date(2031, 8, 1)}])
+    wt = c.water_table
+    assert [d for _, d in wt.dated_rasters] == ["2031-08-01", "2031-09-15"] and wt.raster is None
+    assert wt.dated_rasters[0][0].scale == pytest.approx(0.01)  # units apply to every raster (pint: 1 cm = 0.01 m)
+    assert c.input_paths()["depth.water_table.depth[1]"] == tmp_path / "b.tif"
+    for bad, match in (([{"path": "a.tif", "date": "15/09/2031"}], r"depth\[0\]\.date"),
+                       ([{"path": "a.tif", "date": "2031-08-01"}, {"path": "b.tif", "date": "2031-08-01"}],
+                        "more than one raster dated 2031-08-01"),
+                       ([{"path": "a.tif", "when": "2031-08-01"}], r"depth\[0\]` takes `path`")):
+        with pytest.raises(ConfigError, match=match) as e:
+            cfg(bad)
+        assert "\n" not in str(e.value)

@@ -150,3 +150,42 @@ def test_model_files_written_before_issue_15_still_load(tmp_path):
     path.write_text(json.dumps({"models": {"all": old}}))
     m = load_models(path).all
     assert m.slope == 1.0 and m.edge_taper_m == 0.0 and m.cv_n_scars == 0
+
+
+def test_run_chooses_covariates_by_cross_validation_and_reports_the_scores(tmp_path):
+    # Both covariates asked for on the invented demo region (peat thickness is a raster there): the
+    # model, totals.json's QA and the report carry the covariates chosen and the leave-scar-out score of
+    # every set tried; the prediction stays capped by the thickness (burn_depth.tif <= thickness).
+    import json
+
+    import rasterio
+
+    import peatburn
+    from peatburn.demo import make_demo_region
+
+    region = make_demo_region(tmp_path / "in", shape=(300, 375))
+    cfg = region.config_path.read_text().replace(
+        "[depth.water_table]", '[depth.water_table]\nedge_taper = "cv"\nthickness_taper = "cv"')
+    region.config_path.write_text(cfg.replace("draws = 2000", "draws = 0"))
+    res = peatburn.run(region.config_path, tmp_path / "out")
+    m = res.totals["water_table_model"]["all"]
+    scores = m["cv_scores"]
+    assert "none" in scores and any(k.startswith("thickness ") for k in scores)
+    assert any(k.startswith("edge ") for k in scores)
+    qa = res.totals["qa"]
+    assert qa["water_table_cv_scores"] == scores
+    chosen = " + ".join(qa["water_table_covariates"]) or "none"
+    assert chosen in scores and scores[chosen] == min(v for v in scores.values() if v == v)
+    assert any("covariates chosen by leave-scar-out" in n for n in res.totals["notes"])
+    html = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
+    assert "per covariate set tried" in html
+    from peatburn.engine.sums import METHOD_CODES
+
+    out = tmp_path / "out"
+    with rasterio.open(out / "burn_depth.tif") as d, rasterio.open(out / "depth_method.tif") as c, \
+            rasterio.open(region.folder / "peat_thickness.tif") as t:
+        depth, code, thick = d.read(1, masked=True).filled(0), c.read(1), t.read(1)
+    modelled = code == METHOD_CODES["water_table"]
+    assert depth.shape == thick.shape and modelled.any()
+    assert np.all(depth[modelled] <= thick[modelled] + 1e-5)
+    json.dumps(res.totals["qa"], allow_nan=True)

@@ -100,6 +100,8 @@ def _state(plan: RunPlan):
             src = getattr(plan, name)
             if isinstance(src, RasterSource):
                 readers[name] = GridReader(src, plan.grid)
+        for i, (src, _) in enumerate(plan.water_table_dated):
+            readers[f"water_table_{i}"] = GridReader(src, plan.grid)
         for i, (depth, method) in enumerate(plan.earlier_burns):
             readers[f"earlier_depth_{i}"] = GridReader(depth, plan.grid)
             readers[f"earlier_method_{i}"] = GridReader(method, plan.grid)
@@ -208,12 +210,38 @@ def water_table_depth(st, plan: RunPlan, window: Window, where: np.ndarray) -> n
     """Water-table depth at fire time on a window [m below surface]: raster, or IDW of stations at
     the pixels of ``where`` only (NaN elsewhere)."""
     shape = (int(window.height), int(window.width))
-    if plan.water_table is not None:
-        v = _param(st, plan, "water_table", window)
+    if plan.water_table is not None or plan.water_table_dated:
+        v = _water_table_raster(st, plan, window)
         return np.broadcast_to(v, shape).astype("float64") if np.ndim(v) == 0 else v
     out = np.full(shape, np.nan)
     scar = st["scars"].rasterize(plan.grid, window)[where] if plan.station_days is not None else None
     out[where] = _idw_at(plan, window, where, scar)
+    return out
+
+
+def _water_table_raster(st, plan: RunPlan, window: Window):
+    """The water-table raster (or constant) on a window [m]; with several dated rasters, each scar's
+    pixels from the raster chosen for it (``plan.raster_days``: the one nearest its fire start within
+    the window, the mean of all for an undated scar, NaN for a scar with none in the window) and NaN
+    outside the scars. None without a water-table raster."""
+    if not plan.water_table_dated:
+        return _param(st, plan, "water_table", window)
+    scar = st["scars"].rasterize(plan.grid, window)  # 1-based scar index, 0 outside
+    index = plan.raster_days[0]
+    pick = np.where(scar > 0, index[np.maximum(scar, 1) - 1], -2)
+    out = np.full(pick.shape, np.nan)
+    for g in np.unique(pick):
+        if g == -2:
+            continue
+        sel = pick == g
+        if g >= 0:
+            out[sel] = st["readers"][f"water_table_{g}"].read(window)[sel]
+        else:  # undated scar: the mean of the rasters (NaN only where every raster is)
+            stack = np.stack([st["readers"][f"water_table_{i}"].read(window)[sel]
+                              for i in range(len(plan.water_table_dated))])
+            n = np.isfinite(stack).sum(axis=0)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                out[sel] = np.where(n > 0, np.nansum(stack, axis=0) / np.maximum(n, 1), np.nan)
     return out
 
 
@@ -298,7 +326,7 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
         window, burned, area=np.broadcast_to(grid.pixel_area(window), shape)[burned],
         rho=at(_param(st, plan, "bulk_density", window)), cf=at(_param(st, plan, "carbon_fraction", window)),
         pre=pre, post=post, rate=rate, thick=thick,
-        wt=at(_param(st, plan, "water_table", window)) if m is not None else None,
+        wt=at(_water_table_raster(st, plan, window)) if m is not None else None,
         fire_count=fire_count, biomass=at(_param(st, plan, "biomass", window)),
         in_extent=_in_extent(st, plan, window, burned),
         scar=st["scars"].rasterize(grid, window)[burned] if plan.station_days is not None and m is not None else None,
@@ -419,11 +447,9 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         if m_wt.any():
             wt, m_out = _clamp_to_fit(plan.models, wt, m_wt)
             depth = np.where(m_wt, _model_depth(plan, wt, thick, data.fire_count, data.edge), depth)
-            taper = 1.0
-            if data.edge is not None:
-                from ..science.water_table import edge_taper
+            from ..science.water_table import covariate_factor
 
-                taper = edge_taper(data.edge, plan.models.all.edge_taper_m)
+            taper = covariate_factor(plan.models.all, data.edge, thick)  # edge taper x thin-peat factor (1: none)
             lin = (plan.models.all.intercept + plan.models.all.slope * np.where(m_wt, wt, 0.0)) * taper
             cap = np.inf if thick is None else np.where(np.isfinite(thick), thick, np.inf)
             m_lin = m_wt & (lin > 0) & (lin < cap)
@@ -508,8 +534,8 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
         put("wt_extrapolated_area_m2", m_out, area)
     if m_lin.any():
         wt_f = np.where(m_lin, wt, 0.0)
-        # depth = f (a + b wt) with the edge taper f (1 without): its derivatives carry f
-        f_a, f_rho_a, f_rho_f_a = (area, rho_a, rho_f_a) if data.edge is None else (
+        # depth = f (a + b wt) with the covariate factor f (1 without): its derivatives carry f
+        f_a, f_rho_a, f_rho_f_a = (area, rho_a, rho_f_a) if np.ndim(taper) == 0 and taper == 1.0 else (
             area * taper, rho_a * taper, rho_f_a * taper)
         put("wt_area", m_lin, f_a)
         put("wt_area_wt", m_lin, f_a * wt_f)

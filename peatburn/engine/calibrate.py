@@ -77,7 +77,9 @@ def write_scatter(path, calib: Calibration, max_points: int = 5000) -> Path:
     if wt.size:
         xs = np.linspace(np.nanmin(wt), np.nanmax(wt), 50)
         m = calib.models.all
-        ax.plot(xs, predict_depth(m, xs, edge_distance_m=np.full(xs.shape, np.inf)), color="#D55E00", lw=2,
+        # the line far from any scar edge, on peat of unknown thickness (no thin-peat factor, no cap)
+        ax.plot(xs, predict_depth(m, xs, thickness_m=np.full(xs.shape, np.nan), edge_distance_m=np.full(xs.shape, np.inf)),
+                color="#D55E00", lw=2,
                 label=f"depth = {m.intercept:.3f} + {m.slope:.3f} x water table")
     ax.set_xlabel("water-table depth at fire time [m below surface]")
     ax.set_ylabel("burn depth [m]")

@@ -95,6 +95,9 @@ def check(config, against=None, *, strict: bool = True) -> CheckReport:
     if cfg.water_table is not None:
         wt = cfg.water_table
         src = f"raster {wt.raster.path}" if wt.raster else f"stations {wt.stations} (IDW, power {wt.idw_power:g})"
+        if wt.dated_rasters:
+            src = (f"{len(wt.dated_rasters)} dated rasters ({wt.dated_rasters[0][1]} to {wt.dated_rasters[-1][1]}; "
+                   f"each scar takes the one nearest its fire start within {wt.date_window_days:g} days)")
         out.append(f"depth {code['water_table']}: water-table model ({wt.model}) from {src}")
     if cfg.tier1_only:
         out.append("depth: Tier 1 only (no survey, no water table): the IPCC 2013 Wetlands Supplement default on "

@@ -4,7 +4,7 @@ fits (one model, or first and repeat fires apart), and a model file written by `
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
@@ -113,21 +113,63 @@ def plot_samples(inputs: Inputs, plan: RunPlan):
     f = inputs.plots.frame
     x, y = f.geometry.x.to_numpy(), f.geometry.y.to_numpy()
     obs = f["value"].to_numpy(dtype=float)
-    wt = sample_points(plan, "water_table", x, y) if plan.water_table is not None else None
-    if wt is None and plan.stations is not None:
-        from ..science.water_table import idw
-
-        power, k, dmax = plan.idw
-        sx, sy, sv = plan.stations
-        wt = idw(sx, sy, sv, x, y, power=power, k=k, max_distance=dmax)
+    wt = water_table_at_points(plan, x, y)
     if wt is None:
         return np.array([]), np.array([])
     return wt, obs
 
 
+def dated_raster_note(plan: RunPlan) -> str:
+    """What the dated water-table rasters did, in one note: which raster the scars took, the window,
+    and the scars with none in it (no water-table depth) or without a start date (the mean)."""
+    pick, window, n_without, n_undated = plan.raster_days
+    dates = [d for _, d in plan.water_table_dated]
+    if not window > 0:
+        return (f"water table: {len(dates)} dated rasters ({dates[0]} to {dates[-1]}) pooled: every scar uses their "
+                f"mean (date_window_days = 0)")
+    used = ", ".join(f"{dates[i]}: {int(np.sum(pick == i))}" for i in range(len(dates)))
+    text = (f"water table: {len(dates)} dated rasters, each scar takes the one nearest its fire start within "
+            f"{window:g} days (scars per raster: {used})")
+    if n_without:
+        text += (f"; {n_without} scar(s) have no raster within {window:g} days of their fire start and get no "
+                 f"water-table depth (Tier 1 fills them; widen date_window_days to accept a farther raster)")
+    if n_undated:
+        text += f"; {n_undated} scar(s) have no fire start and use the mean of the rasters"
+    return text
+
+
+def water_table_at_points(plan: RunPlan, x, y) -> np.ndarray | None:
+    """Water-table depth at points (field plots) [m]: the raster's value; with several dated rasters the
+    one the scar holding the point took (``plan.raster_days``: nearest its fire start, the same raster as
+    the scar's pixels; the mean of the rasters for a point in no scar or in an undated scar, NaN for a
+    scar with none in the window); or IDW of the stations; None without a water table."""
+    if plan.water_table_dated:
+        import shapely
+
+        # the scar holding each point (the last polygon wins, as when the scars are rasterized)
+        pt, scar = shapely.STRtree(plan.scars).query(shapely.points(x, y), predicate="within")
+        holder = np.full(len(x), -1)
+        np.maximum.at(holder, pt, scar)
+        pick = np.where(holder >= 0, plan.raster_days[0][np.maximum(holder, 0)], -1)
+        values = [sample_points(plan, src, x, y) for src, _ in plan.water_table_dated]
+        with np.errstate(invalid="ignore"):
+            mean = np.nanmean(np.stack(values), axis=0) if values else np.full(len(x), np.nan)
+        return np.array([mean[i] if g == -1 else (np.nan if g == -2 else values[g][i]) for i, g in enumerate(pick)],
+                        dtype="float64")
+    if plan.water_table is not None:
+        return sample_points(plan, "water_table", x, y)
+    if plan.stations is not None:
+        from ..science.water_table import idw
+
+        power, k, dmax = plan.idw
+        sx, sy, sv = plan.stations
+        return idw(sx, sy, sv, x, y, power=power, k=k, max_distance=dmax)
+    return None
+
+
 def sample_points(plan: RunPlan, name: str, x, y) -> np.ndarray | None:
-    """Values of a plan raster at points (nearest pixel of the run grid), NaN outside."""
-    src = getattr(plan, name)
+    """Values of a plan raster (its name, or a RasterSource) at points (nearest pixel of the run grid), NaN outside."""
+    src = getattr(plan, name) if isinstance(name, str) else name
     if src is None:
         return None
     if isinstance(src, float):
@@ -160,6 +202,8 @@ def fit_models(inputs: Inputs, plan: RunPlan, notes: list, pairs: dict | None = 
         notes.append(f"water table: station readings chosen per scar, nearest its fire start within {window:g} days "
                      f"({len(subsets)} fire date(s))" + (f"; {n_without} scar(s) have no reading in that window and "
                                                          f"get no water-table depth" if n_without else ""))
+    if plan.raster_days is not None:
+        notes.append(dated_raster_note(plan))
     if cfg.model == "user":
         m = wtm.DepthModel(cfg.intercept, cfg.slope, float("nan"), float("nan"), float("nan"), 0, float("nan"),
                            float("nan"), "user-given coefficients", "user")
@@ -191,18 +235,8 @@ def fit_models(inputs: Inputs, plan: RunPlan, notes: list, pairs: dict | None = 
     # standard errors by a bootstrap over whole scars (pixels of one scar are not independent)
     clusters = cl if cl is not None and len(np.unique(cl)) >= 3 else None
 
-    taper = 0.0
-    if chosen_taper == "cv" and clusters is not None and ed is not None:
-        pick = wtm.select_edge_taper(wt, d, cl, ed, weight=wg, thickness_m=th, **kw)
-        taper = pick["taper_m"]
-        notes.append("water table: edge taper by leave-scar-out cross-validation (rms relative error of scar carbon "
-                     "per taper distance: " + ", ".join(f"{k:g} m {v:.1%}" for k, v in pick["rmse"].items())
-                     + f"): {'none' if not taper else f'{taper:g} m'}")
-    elif chosen_taper == "cv":
-        notes.append("water table: no edge taper: choosing one needs at least 3 surveyed scars")
-    elif chosen_taper and ed is not None:
-        taper = float(chosen_taper)
-    kw = {**kw, "edge_taper_m": taper}
+    taper, thin, scores = _covariates(cfg, wt, d, cl, ed, th, wg, clusters is not None, kw, notes)
+    kw = {**kw, "edge_taper_m": taper, "thickness_taper_m": thin}
 
     def fit(sel):
         """The model on the pairs ``sel``, with its leave-scar-out error when there are scars."""
@@ -214,7 +248,7 @@ def fit_models(inputs: Inputs, plan: RunPlan, notes: list, pairs: dict | None = 
             cv = wtm.scar_cross_validation(wt[sel], d[sel], c, weight=wg[sel], thickness_m=th[sel],
                                            edge_distance_m=e, **kw)
             m = wtm.with_cross_validation(m, cv)
-        return m
+        return replace(m, cv_scores=scores) if scores else m
 
     every = np.ones(wt.size, bool)
     models = DepthModels(fit(every))
@@ -240,6 +274,36 @@ def fit_models(inputs: Inputs, plan: RunPlan, notes: list, pairs: dict | None = 
                          f"{wtm.MIN_SCARS_PER_GROUP} surveyed scars (and {MIN_FIT_SAMPLES} pairs) of each "
                          f"({n_first} first-fire, {n_rep} repeat-fire scars)")
     return models
+
+
+def _covariates(cfg, wt, d, cl, ed, th, wg, have_scars: bool, kw: dict, notes: list):
+    """The edge taper and thin-peat scales of the run's model [m] (0: none) and the leave-scar-out
+    scores of the covariate sets tried (empty without a selection): fixed values from the
+    configuration, or chosen by :func:`peatburn.science.water_table.select_covariates`."""
+    from ..science import water_table as wtm
+
+    edge, thick = cfg.edge_taper, cfg.thickness_taper
+    if ed is None and edge is not None and edge != "cv":
+        edge = None
+    known_t = th is not None and np.isfinite(th).any() and np.nanmax(th) > np.nanmin(th)
+    if thick is not None and not known_t:
+        notes.append("water table: no thin-peat factor: it needs a peat thickness that varies over the surveyed "
+                     "scars (peat.thickness as a raster)")
+        thick = None
+    asked = [name for name, v in (("edge taper", edge), ("thin-peat factor", thick)) if v == "cv"]
+    fixed = (float(edge) if edge not in (None, "cv") else 0.0, float(thick) if thick not in (None, "cv") else 0.0)
+    if not asked:
+        return fixed[0], fixed[1], {}
+    if not have_scars:
+        notes.append(f"water table: no {' or '.join(asked)}: choosing one needs at least 3 surveyed scars")
+        return fixed[0], fixed[1], {}
+    pick = wtm.select_covariates(wt, d, cl, edge_distance_m=ed, thickness_m=th, edge=edge, thickness=thick,
+                                 weight=wg, **kw)
+    chosen = wtm.covariate_labels(pick["edge_taper_m"], pick["thickness_taper_m"])
+    notes.append(f"water table: covariates chosen by leave-scar-out cross-validation among {' and '.join(asked)} "
+                 "(rms relative error of scar carbon per covariate set: "
+                 + ", ".join(f"{k} {v:.1%}" for k, v in pick["scores"].items()) + f"): {' + '.join(chosen) or 'none'}")
+    return pick["edge_taper_m"], pick["thickness_taper_m"], pick["scores"]
 
 
 def load_models(path) -> DepthModels:

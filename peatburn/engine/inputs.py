@@ -160,8 +160,8 @@ def _note_rejected(notes: list, what: str, points) -> None:
 
 
 def _run_grid(cfg: RunConfig, rasters: dict, notes: list, mask=None) -> RunGrid:
-    keys = ("depth.survey.pre", "depth.water_table.depth", "peat.thickness", "peat.bulk_density",
-            "peat.carbon_fraction")
+    keys = ("depth.survey.pre", "depth.water_table.depth", "depth.water_table.depth[0]", "peat.thickness",
+            "peat.bulk_density", "peat.carbon_fraction")
     if mask is not None and not (cfg.crs and cfg.resolution) and not any(k in rasters for k in keys):
         # no other raster and no stated grid: the burned-area mask's own grid
         rasters = {**rasters, "burned_area.path": inspect_raster(cfg.burned_area, "burned_area.path")}
@@ -222,6 +222,8 @@ def _raster_params(cfg: RunConfig) -> dict[str, RasterRef]:
         out["depth.survey.quality"] = RasterRef(cfg.survey.quality)
     if cfg.water_table is not None and cfg.water_table.raster is not None:
         out["depth.water_table.depth"] = cfg.water_table.raster
+    for i, (ref, _) in enumerate(cfg.water_table.dated_rasters if cfg.water_table is not None else ()):
+        out[f"depth.water_table.depth[{i}]"] = ref  # dated rasters: each aligned onto the run grid
     if cfg.flaming is not None and isinstance(cfg.flaming.biomass, RasterRef):
         out["flaming.biomass"] = cfg.flaming.biomass
     for key in ("thickness", "bulk_density", "carbon_fraction"):

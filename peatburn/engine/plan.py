@@ -44,6 +44,11 @@ class RunPlan:
     # dated station readings: (group per scar, -1 undated; per group the (x, y, value) of the readings
     # nearest that group's fire start within the window; window [days]; scars with no reading)
     station_days: tuple | None = None
+    # several dated water-table rasters ((RasterSource, ISO date) in date order) and per scar the one it uses:
+    # (index per scar, -1 the mean of all (undated scar, or window 0), -2 none within the window; window [days];
+    # scars with none within the window; undated scars) (rasters_by_fire_date)
+    water_table_dated: tuple = ()
+    raster_days: tuple | None = None
     models: DepthModels | None = None
     tier1_fuel_t_ha: float = 0.0
     biomass: object = None  # RasterSource | float | None [t/ha]
@@ -96,6 +101,26 @@ def stations_by_fire_date(stations: tuple, reading_dates, scar_starts, window_da
     return group, subsets, float(window_days), n_without
 
 
+def rasters_by_fire_date(raster_dates, scar_starts, window_days: float) -> tuple:
+    """Per scar, the dated water-table raster nearest its fire start within ``window_days``
+    (:func:`peatburn.science.water_table.nearest_dated`).
+
+    Returns ``(index, window_days, n_without, n_undated)``: ``index`` per scar into the rasters, -1
+    for a scar without a start date (or with ``window_days`` 0: every scar), which uses the mean of
+    the rasters, -2 for a dated scar with no raster within the window (no water-table depth, as a
+    scar with no station reading in the window); and the counts of those two kinds of scars.
+    """
+    from peatburn.science.water_table import nearest_dated  # absolute: the engine moves (issue 23)
+
+    start = _days(scar_starts)
+    if not window_days > 0:
+        return np.full(start.size, -1, dtype=np.int64), float(window_days), 0, 0
+    idx = nearest_dated(_days(raster_dates), start, max_days=window_days)
+    dated = np.isfinite(start)
+    idx = np.where(dated & (idx < 0), -2, idx)
+    return idx, float(window_days), int(np.sum(idx == -2)), int(np.sum(~dated))
+
+
 def tier1_default_fuel() -> float:
     """IPCC 2013 Wetlands Supplement default fuel consumption for wildfire on tropical organic soil
     [t d.m./ha] (see :mod:`peatburn.science.tier1`)."""
@@ -123,6 +148,13 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
             and cfg.start_field in inputs.scars.frame.columns):
         station_days = stations_by_fire_date(stations, inputs.stations.frame["date"],
                                              inputs.scars.frame[cfg.start_field], wt.date_window_days)
+    dated, raster_days = (), None
+    if wt is not None and wt.dated_rasters:
+        dated = tuple((_param_source(ref, f"depth.water_table.depth[{i}]"), d)
+                      for i, (ref, d) in enumerate(wt.dated_rasters))
+        starts = (inputs.scars.frame[cfg.start_field] if cfg.start_field in inputs.scars.frame.columns
+                  else [None] * len(inputs.scars.frame))
+        raster_days = rasters_by_fire_date([d for _, d in wt.dated_rasters], starts, wt.date_window_days)
     return RunPlan(
         grid=inputs.grid,
         pre=RasterSource(str(sv.pre), "depth.survey.pre") if sv else None,
@@ -142,6 +174,7 @@ def build_plan(inputs: Inputs, alignment: SurveyAlignment | None, models: DepthM
         stations=stations,
         idw=(wt.idw_power, wt.idw_neighbours, wt.idw_max_distance_m) if wt is not None else (2.0, 12, None),
         station_days=station_days,
+        water_table_dated=dated, raster_days=raster_days,
         models=models,
         tier1_fuel_t_ha=cfg.tier1.fuel_consumption_t_ha or tier1_default_fuel(),
         biomass=_param_source(cfg.flaming.biomass, "flaming.biomass") if cfg.flaming else None,

@@ -761,6 +761,9 @@ def qa_summary(total: dict, alignment, models=None) -> dict:
         out.update({
             "water_table_fit": m.estimator or m.method,
             "water_table_cv_scars": m.cv_n_scars, "water_table_cv_bias": m.cv_bias, "water_table_cv_rmse": m.cv_rmse,
+            # covariates beside the water table and the leave-scar-out score of every set tried (issue 15)
+            "water_table_covariates": list(getattr(m, "covariates", ())),
+            "water_table_cv_scores": dict(getattr(m, "cv_scores", {}) or {}),
             "share_of_modelled_area_extrapolated":
                 total.get("wt_extrapolated_area_m2", 0.0) / modelled if modelled else math.nan,
         })

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import contextlib
 import csv
+import datetime
 import hashlib
 import json
 import math
@@ -171,6 +172,8 @@ def _jsonable(obj):
         return bool(obj)
     if isinstance(obj, Path):
         return str(obj)
+    if isinstance(obj, (datetime.date, datetime.time)):  # TOML dates and times in the configuration
+        return obj.isoformat()
     return obj
 
 

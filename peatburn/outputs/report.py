@@ -686,6 +686,13 @@ def _qa_rows(qa: dict) -> list[tuple[str, str]]:
         rows.append(("water-table model, leave-scar-out bias / RMSE of scar carbon [%]",
                      f"{_pct(qa.get('water_table_cv_bias'))} / {_pct(qa.get('water_table_cv_rmse')).lstrip('+')}"
                      f" ({fmt_int(qa.get('water_table_cv_scars'))} scars)"))
+    if qa.get("water_table_cv_scores"):
+        rows.append(("water-table model covariates chosen by leave-scar-out cross-validation",
+                     " + ".join(qa.get("water_table_covariates") or []) or "none (water table alone)"))
+        rows.append(("water-table model, rms relative error of scar carbon per covariate set tried [%]",
+                     ", ".join(f"{k} {_pct(v).lstrip('+')}" for k, v in qa["water_table_cv_scores"].items())))
+    elif qa.get("water_table_covariates"):
+        rows.append(("water-table model covariates (set in the configuration)", " + ".join(qa["water_table_covariates"])))
     if _finite(qa.get("share_of_modelled_area_extrapolated")) is not None:
         rows.append(("water-table-modelled area outside the fitted water-table range [%]",
                      fmt_pct(qa.get("share_of_modelled_area_extrapolated"))))

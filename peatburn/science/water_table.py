@@ -155,13 +155,18 @@ __all__ = [
     "scar_cross_validation",
     "with_cross_validation",
     "select_edge_taper",
+    "select_covariates",
     "edge_taper",
+    "thickness_taper",
+    "covariate_factor",
+    "covariate_labels",
     "extrapolated_share",
     "user_model",
     "check_water_table",
     "idw",
     "idw_cross_validation",
     "readings_near_date",
+    "nearest_dated",
     "validate_against_plots",
 ]
 
@@ -224,7 +229,7 @@ _DEFAULT_BOOT_SIZE = {"theil-sen": 600, "huber": 5000}
 # ----------------------------------------------------------------------------- the model
 
 _FLOAT_FIELDS = ("intercept", "slope", "intercept_se", "slope_se", "covariance", "r2", "rmse", "residual_nmad",
-                 "water_table_error_m", "cv_bias", "cv_rmse", "edge_taper_m")
+                 "water_table_error_m", "cv_bias", "cv_rmse", "edge_taper_m", "thickness_taper_m")
 
 
 @dataclass(frozen=True)
@@ -288,6 +293,13 @@ class DepthModel:
     edge_taper_m : float
         E-folding distance [m] of the edge taper ``1 - exp(-e / L)`` that multiplies the depth
         (:func:`edge_taper`); 0 for none.
+    thickness_taper_m : float
+        Scale [m] of the thin-peat factor ``1 - exp(-T / L_T)`` that multiplies the depth
+        (:func:`thickness_taper`); 0 for none.
+    cv_scores : dict
+        Leave-scar-out score (root mean square of the per-scar relative errors of carbon) of every
+        covariate set tried by :func:`select_covariates`, by label ("none", "edge 20 m",
+        "thickness 0.5 m", ...); empty when no selection was run.
     """
 
     intercept: float
@@ -316,6 +328,8 @@ class DepthModel:
     cv_rmse: float = math.nan
     cv_method: str = ""
     edge_taper_m: float = 0.0
+    thickness_taper_m: float = 0.0
+    cv_scores: dict = field(default_factory=dict)
 
     def __post_init__(self):
         # Accept what a JSON round trip gives back (None for NaN, lists for tuples), so
@@ -329,6 +343,8 @@ class DepthModel:
         object.__setattr__(self, "water_table_range",
                            tuple(math.nan if v is None else float(v) for v in rng))
         object.__setattr__(self, "notes", tuple(self.notes or ()))
+        object.__setattr__(self, "cv_scores", {str(k): math.nan if v is None else float(v)
+                                               for k, v in dict(self.cv_scores or {}).items()})
         object.__setattr__(self, "n", int(self.n or 0))
         for name in ("n_clusters", "n_screened", "n_censored", "cv_n_scars"):
             object.__setattr__(self, name, int(getattr(self, name) or 0))
@@ -357,6 +373,11 @@ class DepthModel:
     def predict(self, water_table_m, thickness_m=None, edge_distance_m=None) -> np.ndarray:
         """Burn depth [m]; see :func:`predict_depth`."""
         return predict_depth(self, water_table_m, thickness_m, edge_distance_m)
+
+    @property
+    def covariates(self) -> tuple[str, ...]:
+        """The covariates beside the water table, in words (empty: the water table alone)."""
+        return covariate_labels(self.edge_taper_m, self.thickness_taper_m)
 
 
 #: Default coefficients, used only when neither surveyed scars nor field plots allow a fit and
@@ -452,6 +473,8 @@ def predict_depth(model_or_a_b, water_table_m, thickness_m=None, edge_distance_m
     edge_distance_m : array_like, optional
         Distance from the scar edge [m]: required when the model has an edge taper
         (``edge_taper_m`` > 0), which multiplies ``a + b w`` by ``1 - exp(-e / L)``.
+        A model with a thin-peat factor (``thickness_taper_m`` > 0) multiplies it by
+        ``1 - exp(-T / L_T)`` too (:func:`covariate_factor`; ``thickness_m`` required).
 
     Returns
     -------
@@ -466,12 +489,7 @@ def predict_depth(model_or_a_b, water_table_m, thickness_m=None, edge_distance_m
     """
     a, b = _coefficients(model_or_a_b)
     w = np.asarray(water_table_m, dtype="float64")
-    taper = getattr(model_or_a_b, "edge_taper_m", 0.0)
-    f = 1.0
-    if taper > 0:
-        if edge_distance_m is None:
-            raise GridError("depth model: this model tapers the depth to the scar edge; give the edge distances")
-        f = edge_taper(edge_distance_m, taper)
+    f = covariate_factor(model_or_a_b, edge_distance_m, thickness_m)
     with np.errstate(invalid="ignore"):
         d = np.maximum((a + b * w) * f, 0.0)  # NaN propagates through np.maximum
         if thickness_m is not None:
@@ -723,7 +741,83 @@ def edge_taper(edge_distance_m, taper_m) -> np.ndarray:
         return np.where(np.isfinite(e), -np.expm1(-np.maximum(e, 0.0) / float(taper_m)), 1.0)
 
 
+def thickness_taper(thickness_m, taper_m) -> np.ndarray:
+    """Share of the full burn depth on peat of a given thickness: ``1 - exp(-T / L_T)`` [-].
+
+    The thin-peat covariate of the depth model. Peat near its mineral substrate is wetter and
+    richer in mineral matter. The probability that organic soil ignites depends on its moisture
+    and inorganic content (Frandsen 1997, Can. J. For. Res. 27:1471-1477, abstract checked; that it
+    falls as the inorganic content rises is recalled, unchecked), and the odds of sustained
+    smouldering fall by 19.3 % for each 5 % more moisture (Reardon, Hungerford & Ryan 2007, Int. J.
+    Wildland Fire 16:107-118, abstract checked, for root-mat soils; there a little more mineral
+    content *raised* the odds, so the mineral effect is not one-signed). On thin peat the wet base
+    layer is a larger share of the column, so the burn may stay further from the line than the
+    hard cap at ``T`` alone gives: a hypothesis the cross-validation tests, not a premise. The
+    saturating form (0 at no peat, 1 on thick peat, the scale ``L_T`` [m] chosen by leave-scar-out
+    cross-validation in :func:`select_covariates`) is a choice of this project, the same form as
+    :func:`edge_taper`, not a published curve. ``L_T = 0``: no factor (1 everywhere); NaN
+    (unknown) thickness gives 1; a negative thickness is read as 0.
+
+    Parameters
+    ----------
+    thickness_m : array_like
+        Peat thickness [m].
+    taper_m : float
+        Scale ``L_T`` [m].
+
+    Returns
+    -------
+    numpy.ndarray
+        Factor in [0, 1] [-].
+
+    References
+    ----------
+    Frandsen, W. H. (1997). Ignition probability of organic soils. Can. J. For. Res. 27:1471-1477.
+    Reardon, J., Hungerford, R. & Ryan, K. (2007). Factors affecting sustained smouldering in organic
+    soils from pocosin and pond pine woodland wetlands. Int. J. Wildland Fire 16:107-118.
+    """
+    return edge_taper(thickness_m, taper_m)
+
+
+def covariate_factor(model, edge_distance_m=None, thickness_m=None):
+    """The factor the covariates of ``model`` put on ``a + b w``: :func:`edge_taper` times
+    :func:`thickness_taper` (1.0 when the model has neither) [-].
+
+    Raises
+    ------
+    GridError
+        The model has an edge taper and no edge distances, or a thin-peat factor and no thickness.
+    """
+    return _factor(float(getattr(model, "edge_taper_m", 0.0) or 0.0),
+                   float(getattr(model, "thickness_taper_m", 0.0) or 0.0), edge_distance_m, thickness_m)
+
+
+def _factor(taper: float, thick: float, edge_distance_m, thickness_m):
+    f = 1.0
+    if taper > 0:
+        if edge_distance_m is None:
+            raise GridError("depth model: this model tapers the depth to the scar edge; give the edge distances")
+        f = edge_taper(edge_distance_m, taper)
+    if thick > 0:
+        if thickness_m is None:
+            raise GridError("depth model: this model has a thin-peat factor; give the peat thickness "
+                            "(peat.thickness)")
+        f = f * thickness_taper(thickness_m, thick)
+    return f
+
+
+def covariate_labels(edge_taper_m: float, thickness_taper_m: float) -> tuple[str, ...]:
+    out = []
+    if edge_taper_m and edge_taper_m > 0:
+        out.append(f"edge {edge_taper_m:g} m")
+    if thickness_taper_m and thickness_taper_m > 0:
+        out.append(f"thickness {thickness_taper_m:g} m")
+    return tuple(out)
+
+
 def _as_pairs(water_table_m, depth_m, cluster, thickness_m=None, edge_distance_m=None):
+    """Valid pairs: (w, d, scar labels, pairs censored at the thickness, edge distances, thickness) of the kept
+    pairs (None for what was not given)."""
     w = np.asarray(water_table_m, dtype="float64").ravel()
     d = np.asarray(depth_m, dtype="float64").ravel()
     if w.size != d.size:
@@ -731,6 +825,7 @@ def _as_pairs(water_table_m, depth_m, cluster, thickness_m=None, edge_distance_m
                         f"sample both on the same pixels")
     ok = np.isfinite(w) & np.isfinite(d)
     n_censored = 0
+    t = None
     if thickness_m is not None:
         t = np.asarray(thickness_m, dtype="float64").ravel() if np.ndim(thickness_m) \
             else np.full(w.size, float(thickness_m))
@@ -754,7 +849,7 @@ def _as_pairs(water_table_m, depth_m, cluster, thickness_m=None, edge_distance_m
         if e.size != w.size:
             raise GridError(f"water-table depth fit: {e.size} edge distances for {w.size} pixels; give one per pixel")
         e = e[ok]
-    return w[ok], d[ok], c, n_censored, e
+    return w[ok], d[ok], c, n_censored, e, (None if t is None else t[ok])
 
 
 def _bootstrap(spec, w, d, c, rng, *, n_boot, boot_size, start, f=None):
@@ -800,7 +895,7 @@ def _bootstrap(spec, w, d, c, rng, *, n_boot, boot_size, start, f=None):
     return reps, scale, desc, k
 
 
-def _describe(spec, taper_m: float = 0.0) -> str:
+def _describe(spec, taper_m: float = 0.0, thickness_taper_m: float = 0.0) -> str:
     robust = "Theil-Sen" if spec.method == "theil-sen" else "Huber"
     if spec.target == "median":
         return f"{robust} line (conditional median)"
@@ -811,13 +906,16 @@ def _describe(spec, taper_m: float = 0.0) -> str:
                 f"{spec.sigma_u:g} m) on pairs screened by a {robust} line at {spec.screen_k:g} NMAD")
     if taper_m > 0:
         text += f"; depth tapered to the scar edge, x (1 - exp(-distance / {taper_m:g} m))"
+    if thickness_taper_m > 0:
+        text += f"; thin-peat factor x (1 - exp(-thickness / {thickness_taper_m:g} m))"
     return text
 
 
 def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_samples: int = 200_000,
                     seed: int = 0, n_boot: int = 200, cluster=None, boot_size: int | None = None,
                     target: str = "mean", thickness_m=None, water_table_error_m: float | None = None,
-                    screen_k: float = SCREEN_K, edge_distance_m=None, edge_taper_m: float = 0.0) -> DepthModel:
+                    screen_k: float = SCREEN_K, edge_distance_m=None, edge_taper_m: float = 0.0,
+                    thickness_taper_m: float = 0.0) -> DepthModel:
     """Fit ``d = a + b w`` on pixels (or plots) where both burn depth and water table exist.
 
     Parameters
@@ -858,6 +956,10 @@ def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_sa
         E-folding distance of the edge taper [m] (:func:`edge_taper`): the model becomes
         ``d = (1 - exp(-e / L)) (a + b w)``, fitted by least squares on the screened pairs
         (``target="mean"`` only). 0: no taper. Choose it with :func:`select_edge_taper`.
+    thickness_taper_m : float
+        Scale of the thin-peat factor [m] (:func:`thickness_taper`; needs ``thickness_m``): the
+        factor ``1 - exp(-T / L_T)`` multiplies ``a + b w`` like the edge taper (both multiply
+        when both are given). 0: none. Choose it with :func:`select_covariates`.
 
     Returns
     -------
@@ -896,9 +998,14 @@ def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_sa
     if taper > 0 and (target == "median" or edge_distance_m is None):
         raise PhysicalRangeError("water-table depth fit: an edge taper needs the edge distance of every pair and "
                                  "the mean fit (target=\"mean\")")
+    thin = float(thickness_taper_m or 0.0)
+    if thin > 0 and (target == "median" or thickness_m is None):
+        raise PhysicalRangeError("water-table depth fit: a thin-peat factor needs the peat thickness of every pair "
+                                 "and the mean fit (target=\"mean\")")
     spec = _Spec(method, target, float(screen_k), sigma_u)
-    w, d, c, n_censored, e = _as_pairs(water_table_m, depth_m, cluster, thickness_m,
-                                       edge_distance_m if taper > 0 else None)
+    w, d, c, n_censored, e, t = _as_pairs(water_table_m, depth_m, cluster, thickness_m,
+                                          edge_distance_m if taper > 0 else None)
+    f_all = _factor(taper, thin, e, t) if taper > 0 or thin > 0 else None
     n_valid = w.size
     if n_valid < MIN_FIT_SAMPLES:
         raise GridError(
@@ -913,7 +1020,7 @@ def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_sa
         idx = np.sort(rng.choice(n_valid, int(max_samples), replace=False))
         w, d = w[idx], d[idx]
         c = None if c is None else c[idx]
-        e = None if e is None else e[idx]
+        f_all = None if f_all is None else f_all[idx]
         notes.append(f"fitted on a random sample of {int(max_samples)} of {n_valid} pairs (seed {seed})")
     lo, hi = float(w.min()), float(w.max())
     if not hi > lo:
@@ -922,7 +1029,7 @@ def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_sa
             f"fitted. Give user coefficients or rely on the defaults"
         )
     start = _theil_sen(w, d, rng) if method == "huber" else None
-    f = edge_taper(e, taper) if taper > 0 else None
+    f = f_all
     a, b, n_screened, rel = _estimate(spec, w, d, rng, start, None, f)
     if sigma_u > 0 and not rel >= MIN_RELIABILITY:
         raise GridError(
@@ -969,9 +1076,9 @@ def fit_depth_model(water_table_m, depth_m, *, method: str = "theil-sen", max_sa
         intercept=a, slope=b, intercept_se=se_a, slope_se=se_b, covariance=cov, n=int(w.size), r2=r2,
         rmse=rmse, method=method, confidence="fitted", se_method=se_method, water_table_range=(lo, hi),
         n_clusters=int(k), residual_nmad=nmad, notes=tuple(notes),
-        basis=f"{_describe(spec, taper)} on {w.size} pairs of burn depth and water-table depth",
-        target=target, estimator=_describe(spec, taper), n_screened=n_screened, n_censored=n_censored,
-        water_table_error_m=sigma_u if sigma_u > 0 else math.nan, edge_taper_m=taper,
+        basis=f"{_describe(spec, taper, thin)} on {w.size} pairs of burn depth and water-table depth",
+        target=target, estimator=_describe(spec, taper, thin), n_screened=n_screened, n_censored=n_censored,
+        water_table_error_m=sigma_u if sigma_u > 0 else math.nan, edge_taper_m=taper, thickness_taper_m=thin,
     )
 
 
@@ -1185,50 +1292,148 @@ EDGE_TAPER_CANDIDATES_M = (10.0, 20.0, 40.0, 80.0, 160.0)
 MIN_CV_GAIN = 0.05
 
 
+#: Thin-peat scales ``L_T`` [m] :func:`select_covariates` tries (project choice: from a quarter of a
+#: metre, where only very thin peat is affected, to 2 m, about the thickness of shallow peat margins).
+THICKNESS_TAPER_CANDIDATES_M = (0.25, 0.5, 1.0, 2.0)
+
+
 def select_edge_taper(water_table_m, depth_m, scar, edge_distance_m, *, candidates=EDGE_TAPER_CANDIDATES_M,
                       min_gain: float = MIN_CV_GAIN, **cv_kwargs) -> dict:
     """Choose the edge taper of the depth model by leave-scar-out cross-validation.
 
-    Each candidate ``L`` (and no taper) is cross-validated by :func:`scar_cross_validation` with
-    the same folds; the taper with the lowest root mean square of the per-scar *relative* errors
-    (``rel_rmse``: each scar counts once, so a size-dependent bias of small scars is seen, which
-    the RMSE of absolute sums, dominated by the large scars, hides) is taken only if it lowers that
-    of the model without taper by at least ``min_gain`` (relative). Not a default: without this
-    selection the model has no taper.
+    :func:`select_covariates` with the edge distance as the only covariate: each candidate ``L``
+    (and no taper) is cross-validated with the same folds and the best is taken only if it lowers
+    the score of no taper by at least ``min_gain`` (relative) and by more than one standard error of
+    the paired per-scar difference. Not a default.
+
+    Returns
+    -------
+    dict
+        ``taper_m`` (0 for none), ``rmse`` (candidate [m] -> leave-scar-out ``rel_rmse``) and
+        ``cv`` (the cross-validation of the chosen model).
+    """
+    sel = select_covariates(water_table_m, depth_m, scar, edge_distance_m=edge_distance_m, edge="cv",
+                            edge_candidates=candidates, min_gain=min_gain, **cv_kwargs)
+    rmse = {e: v for (e, _), v in sel["tried"].items()}
+    return {"taper_m": sel["edge_taper_m"], "rmse": rmse, "cv": sel["cv"]}
+
+
+def _squared_relative_errors(cv) -> dict:
+    """Per scar label, the squared relative error ((P - O) / O)^2 of a cross-validation (O > 0 only)."""
+    o, p = np.asarray(cv["observed"]), np.asarray(cv["predicted"])
+    keep = (o > 0) & np.isfinite(p)
+    return dict(zip(np.asarray(cv["scar"])[keep].tolist(), (((p[keep] - o[keep]) / o[keep]) ** 2).tolist()))
+
+
+def _beats_by_one_se(cand, cur) -> bool:
+    """True when ``cand`` lowers the mean squared relative error of the scars by more than one standard
+    error of the paired difference over the same scars (the one-standard-error rule of Hastie,
+    Tibshirani & Friedman 2009, section 7.10, recalled, unchecked, applied to each step): a gain
+    within the noise of a few scars with a tiny observed carbon (whose relative error is huge) is
+    not taken."""
+    a, b = _squared_relative_errors(cand), _squared_relative_errors(cur)
+    common = sorted(set(a) & set(b), key=str)
+    if len(common) < 3:
+        return False
+    diff = np.array([b[k] - a[k] for k in common])
+    return bool(diff.mean() > diff.std(ddof=1) / math.sqrt(diff.size))
+
+
+def select_covariates(water_table_m, depth_m, scar, *, edge_distance_m=None, thickness_m=None, edge=None,
+                      thickness=None, edge_candidates=EDGE_TAPER_CANDIDATES_M,
+                      thickness_candidates=THICKNESS_TAPER_CANDIDATES_M, min_gain: float = MIN_CV_GAIN,
+                      **cv_kwargs) -> dict:
+    """Choose the covariates of the depth model (edge taper, thin-peat factor) by leave-scar-out
+    cross-validation, by forward stepwise selection.
+
+    Every covariate set is scored by :func:`scar_cross_validation` with the same scar folds: the
+    root mean square of the per-scar *relative* errors of carbon (``rel_rmse``: each scar counts
+    once, so a bias of small scars or of scars on thin peat is seen, which the RMSE of absolute
+    sums, dominated by the large scars, hides). Starting from the fixed covariates (or none), each
+    step tries every candidate of every covariate still to choose and takes the best, only if it
+    lowers the current score by at least ``min_gain`` (relative; a covariate must earn its place)
+    **and** lowers the mean squared relative error by more than one standard error of the paired
+    per-scar difference (so that a gain made by a few scars with a tiny observed carbon, whose
+    relative errors are huge and noisy, is not taken); the selection stops at the first step that
+    does not. Forward stepwise selection is common
+    practice (Hastie, Tibshirani & Friedman 2009, section 3.3; recalled, unchecked); the gain
+    threshold is this project's. Not a default: a covariate is only tried when asked for.
 
     Parameters
     ----------
     water_table_m, depth_m, scar : array_like
         As in :func:`scar_cross_validation`.
-    edge_distance_m : array_like
+    edge_distance_m : array_like, optional
         Distance of each pair from its scar's edge [m].
-    candidates : sequence of float
-        Taper distances to try [m].
+    thickness_m : array_like or float, optional
+        Peat thickness per pair [m]; it also caps the predictions and censors the fit, whatever
+        the choice.
+    edge, thickness : "cv", float or None
+        ``"cv"``: choose among the candidates (or none); a number: that scale [m], always in;
+        None: not in the model.
+    edge_candidates, thickness_candidates : sequence of float
+        Scales to try [m] (:data:`EDGE_TAPER_CANDIDATES_M`, :data:`THICKNESS_TAPER_CANDIDATES_M`).
     min_gain : float
-        Smallest relative RMSE improvement for a taper to be taken.
+        Smallest relative improvement of the score for a step to be taken.
     **cv_kwargs
-        Passed to :func:`scar_cross_validation` (weight, thickness_m, method...).
+        Passed to :func:`scar_cross_validation` (weight, method, water_table_error_m...).
 
     Returns
     -------
     dict
-        ``taper_m`` (0 for none), ``rmse`` (candidate -> leave-scar-out ``rel_rmse``) and
-        ``cv`` (the cross-validation of the chosen model).
+        ``edge_taper_m``, ``thickness_taper_m`` (0 for none), ``tried`` ((edge, thickness) [m] ->
+        score), ``scores`` (label -> score, labels as :attr:`DepthModel.covariates` joined by
+        " + ", "none" for the water table alone) and ``cv`` (the cross-validation of the chosen set).
+
+    References
+    ----------
+    Roberts et al. (2017) (whole groups left out); Hastie, Tibshirani & Friedman (2009), sections
+    3.3 and 7.10 (recalled, unchecked).
     """
-    cvs = {0.0: scar_cross_validation(water_table_m, depth_m, scar, **cv_kwargs)}
-    for cand in candidates:
-        try:
-            cvs[float(cand)] = scar_cross_validation(water_table_m, depth_m, scar, edge_distance_m=edge_distance_m,
-                                                     edge_taper_m=float(cand), **cv_kwargs)
-        except GridError:
-            continue
-    rmse = {k: v["rel_rmse"] for k, v in cvs.items()}
-    base = rmse[0.0]
-    ok = {k: r for k, r in rmse.items() if k > 0 and math.isfinite(r)}
-    best = min(ok, key=ok.get) if ok else 0.0
-    if not (best > 0 and math.isfinite(base) and ok[best] <= (1.0 - min_gain) * base):
-        best = 0.0
-    return {"taper_m": best, "rmse": rmse, "cv": cvs[best]}
+    cvs: dict = {}
+
+    def score(key, first=False):
+        if key not in cvs:
+            le, lt = key
+            try:
+                cvs[key] = scar_cross_validation(
+                    water_table_m, depth_m, scar, thickness_m=thickness_m,
+                    edge_distance_m=edge_distance_m if le > 0 else None, edge_taper_m=le, thickness_taper_m=lt,
+                    **cv_kwargs)
+            except GridError:
+                if first:
+                    raise  # the starting set cannot be cross-validated (too few scars): say so
+                cvs[key] = None
+        cv = cvs[key]
+        return math.nan if cv is None else cv["rel_rmse"]
+
+    free = {}
+    if edge == "cv" and edge_distance_m is not None:
+        free[0] = tuple(float(c) for c in edge_candidates)
+    if thickness == "cv" and thickness_m is not None:
+        free[1] = tuple(float(c) for c in thickness_candidates)
+    current = [float(edge) if edge not in (None, "cv") else 0.0,
+               float(thickness) if thickness not in (None, "cv") else 0.0]
+    base = score(tuple(current), first=True)
+    while free and math.isfinite(base):
+        trials = {}
+        for pos, cands in free.items():
+            for c in cands:
+                key = tuple(c if i == pos else v for i, v in enumerate(current))
+                trials[(pos, key)] = score(key)
+        ok = {k: v for k, v in trials.items() if math.isfinite(v)}
+        if not ok:
+            break
+        pos, key = min(ok, key=ok.get)
+        if not (ok[(pos, key)] <= (1.0 - min_gain) * base
+                and _beats_by_one_se(cvs[key], cvs[tuple(current)])):
+            break
+        current, base = list(key), ok[(pos, key)]
+        del free[pos]
+    tried = {k: (math.nan if v is None else v["rel_rmse"]) for k, v in cvs.items()}
+    scores = {(" + ".join(covariate_labels(*k)) or "none"): v for k, v in tried.items()}
+    return {"edge_taper_m": current[0], "thickness_taper_m": current[1], "tried": tried, "scores": scores,
+            "cv": cvs[tuple(current)]}
 
 
 def with_cross_validation(model: DepthModel, cv: Mapping) -> DepthModel:
@@ -1430,6 +1635,38 @@ def readings_near_date(station, day, target_day, *, max_days: float) -> np.ndarr
             best[key] = i
     chosen[list(best.values())] = True
     return chosen
+
+
+def nearest_dated(day, target_day, *, max_days: float) -> np.ndarray:
+    """For each target time, the index of the dated item (e.g. a water-table raster) nearest to it
+    within ``max_days``; -1 where none is that near, or where the target is undated (NaN).
+
+    Parameters
+    ----------
+    day : array_like of float
+        Date of each item [days on a common scale, e.g. days since 1970-01-01].
+    target_day : array_like of float
+        Target times (fire starts) on the same scale [days]; NaN: undated.
+    max_days : float
+        Largest allowed |day - target_day| [days].
+
+    Returns
+    -------
+    numpy.ndarray of int
+        Index into ``day`` per target; the earlier item wins a tie (as in :func:`readings_near_date`).
+    """
+    t = np.asarray(day, dtype="float64").ravel()
+    x = np.asarray(target_day, dtype="float64").ravel()
+    out = np.full(x.size, -1, dtype=np.int64)
+    if t.size == 0:
+        return out
+    order = np.argsort(t, kind="stable")  # earlier first, so argmin takes the earlier of a tie
+    gap = np.abs(t[order][None, :] - x[:, None])
+    with np.errstate(invalid="ignore"):
+        best = np.argmin(np.where(np.isfinite(gap), gap, np.inf), axis=1)
+        near = np.isfinite(x) & (gap[np.arange(x.size), best] <= float(max_days))
+    out[near] = order[best[near]]
+    return out
 
 
 # ----------------------------------------------------------------------------- validation

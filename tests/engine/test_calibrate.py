@@ -50,3 +50,16 @@ def test_the_surveys_are_sampled_once(tmp_path, monkeypatch, extra, fitted):
     if fitted:
         # the pairs shown are the pairs fitted (n counts those the fit did not censor)
         assert c.models.all.n + c.models.all.n_censored == c.water_table.size
+
+
+def test_a_model_with_a_thin_peat_factor_is_written_drawn_and_read_back(tmp_path):
+    # a fixed thickness_taper on a scene whose thickness raster varies (4 m, and 0.25 m in a corner): the
+    # fitted model carries it, the scatter plot draws its line (no thickness there: factor 1), and the JSON
+    # that `run` reuses gives the same model back
+    s = _scene(tmp_path, "thickness_taper = 0.5\n")
+    c = cal.calibrate(load_config(s.config))
+    assert c.models.all.thickness_taper_m == 0.5 and "thin-peat factor" in c.models.all.estimator
+    png = cal.write_scatter(tmp_path / "fit.png", c)
+    assert png.stat().st_size > 0
+    cal.write_fit(tmp_path / "fit.json", c)
+    assert depth_models.load_models(tmp_path / "fit.json").all == c.models.all
