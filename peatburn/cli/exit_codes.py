@@ -18,6 +18,6 @@ BAD_INPUT = 2
 #: An error peatburn did not foresee (a bug): one line, the traceback with ``--debug``.
 INTERNAL = 3
 #: The command line is wrong (click's usage message): ``EX_USAGE`` of BSD ``sysexits.h``.
-USAGE = 64
+USAGE = 64  # EX_USAGE, BSD sysexits.h
 #: Interrupted (Ctrl-C, SIGINT): 128 + 2, the shells' convention.
 INTERRUPTED = 130

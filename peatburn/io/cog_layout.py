@@ -32,9 +32,9 @@ import xml.etree.ElementTree as ET
 import numpy as np
 
 #: Tile size of the output COGs [px] (GDAL's COG default).
-COG_TILE = 512
+COG_TILE = 512  # GDAL COG driver's default BLOCKSIZE
 #: Largest offset of a classic TIFF [bytes] (32-bit offsets, TIFF 6.0); past it the COG must be a BigTIFF.
-CLASSIC_TIFF_MAX = 2**32 - 1
+CLASSIC_TIFF_MAX = 2**32 - 1  # TIFF 6.0 (Adobe 1992): 32-bit offsets
 _TILE_OFFSETS, _TILE_BYTE_COUNTS = 324, 325
 _TYPES = {3: ("H", 2), 4: ("I", 4), 16: ("Q", 8)}  # SHORT, LONG, LONG8
 

@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 
 #: ASPRS standard point class of ground returns (LAS 1.4 R15, Table 17).
-GROUND_CLASS = 2
+GROUND_CLASS = 2  # ASPRS LAS 1.4 R15, Table 17: class 2 = ground
 
 
 def cell_sums(x, y, z, transform, shape) -> tuple[np.ndarray, np.ndarray]:

@@ -49,18 +49,18 @@ __all__ = ["surface_gradient", "surface_slope", "choose_local_shift", "local_shi
            "N_BINS", "CHOICE_ALPHA", "MIN_SPREAD_RATIO", "NMAD_SE_FACTOR"]
 
 #: Quantile bins per variable (with two variables, N_BINS x N_BINS cross bins).
-N_BINS = 10
+N_BINS = 10  # project choice
 #: Level of the chi-square test that binned NMADs differ from one value (assumption).
-CHOICE_ALPHA = 0.001
+CHOICE_ALPHA = 0.001  # assumption
 #: Least ratio of the fitted sd at the 90th to that at the 10th percentile of the stable pixels for
 #: the varying model to be chosen (assumption: below it the constant model is as good for intervals).
-MIN_SPREAD_RATIO = 1.2
+MIN_SPREAD_RATIO = 1.2  # assumption
 #: Standard error of the NMAD of n normal values, in units of sd / sqrt(n): sqrt(1 / (4 phi(q)^2
 #: q^2)) with q = 0.6745 the normal quartile, 1.167 (Rousseeuw & Croux 1993: Gaussian efficiency of
 #: the MAD 36.7 %; recalled, unchecked; the value follows from the asymptotic variance of a sample quantile).
-NMAD_SE_FACTOR = 1.167
+NMAD_SE_FACTOR = 1.167  # Rousseeuw & Croux 1993 (MAD efficiency 36.7 %; recalled, unchecked)
 #: Fewest stable pixels a bin needs to count.
-MIN_BIN_COUNT = 30
+MIN_BIN_COUNT = 30  # common practice
 
 
 def surface_gradient(z, dx_m, dy_m=None):

@@ -1294,7 +1294,7 @@ MIN_CV_GAIN = 0.05
 
 #: Thin-peat scales ``L_T`` [m] :func:`select_covariates` tries (project choice: from a quarter of a
 #: metre, where only very thin peat is affected, to 2 m, about the thickness of shallow peat margins).
-THICKNESS_TAPER_CANDIDATES_M = (0.25, 0.5, 1.0, 2.0)
+THICKNESS_TAPER_CANDIDATES_M = (0.25, 0.5, 1.0, 2.0)  # project choice
 
 
 def select_edge_taper(water_table_m, depth_m, scar, edge_distance_m, *, candidates=EDGE_TAPER_CANDIDATES_M,

@@ -40,12 +40,12 @@ import numpy as np
 #: Relative standard deviation of the FRE of a fire event observed once [-]: 1.0. Assumption (no
 #: checkable source): one snapshot of FRP fixes the power, not how long the fire burned, so its FRE
 #: is uncertain by about a factor of two. Four observations give 0.5, a hundred 0.1.
-DEFAULT_FRE_SINGLE_OBSERVATION_CV = 1.0
+DEFAULT_FRE_SINGLE_OBSERVATION_CV = 1.0  # assumption: no checkable source
 
 #: Detections less than this far apart in time [s] count as one observation of their event: a
 #: quarter hour, the repeat of a geostationary imager and longer than one polar-orbiter swath takes
 #: to pass (common practice).
-OBSERVATION_BIN_S = 900.0
+OBSERVATION_BIN_S = 900.0  # common practice
 
 
 def observation_count(event, t_s, bin_s: float = OBSERVATION_BIN_S) -> np.ndarray:
