@@ -16,7 +16,7 @@ from .options import handle_errors, overwrite_option
 @click.option("--fill", type=click.Choice(["tin", "idw", "none"]), default="tin", show_default=True,
               help="Fill the cells without ground return: linear on a Delaunay triangulation of the cells "
                    "with returns (tin), inverse-distance weighting of the 8 nearest (idw), or not at all.")
-@click.option("--max-gap", type=float, default=None,
+@click.option("--max-gap", type=click.FloatRange(min=0), default=None,
               help="Fill only cells within this distance [m] of a cell with ground returns "
                    "(centre to centre); farther cells stay empty.  [default: 4 x --res]")
 @click.option("--origin", "origin_tif", type=click.Path(dir_okay=False), default=None,

@@ -185,8 +185,10 @@ def idw_values(z, targets, k: int = IDW_NEIGHBOURS, power: float = IDW_POWER) ->
     References
     ----------
     Shepard, D. (1968). A two-dimensional interpolation function for irregularly-spaced data. Proceedings
-    of the 1968 23rd ACM National Conference, 517-524 (recalled, unchecked). Nearest neighbours:
-    scipy.spatial.cKDTree.
+    of the 1968 23rd ACM National Conference, 517-524 (venue and pages recalled, unchecked; the weighted
+    average with weights from the inverse distance is checked against the abstract of the report's
+    Harvard technical-report version, DTIC AD0668707, 1968; the power 2 recalled, unchecked). Nearest
+    neighbours: scipy.spatial.cKDTree.
     """
     from scipy.spatial import cKDTree
 
