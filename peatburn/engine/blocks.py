@@ -20,7 +20,7 @@ from ..io.vectors import WindowRasterizer
 from ..science import coregistration, peat, survey
 from .plan import RunPlan
 from .sums import METHOD_CODES, MINERAL_CODE, SCAR_LAYER, SUM_KEYS
-from .zones import ZoneLayerIndex, accumulate_stacked, coverage_count
+from .zones import ZoneLayerIndex, accumulate_stacked, compact_bins, coverage_count
 
 if TYPE_CHECKING:
     from .depth_models import DepthModels
@@ -30,7 +30,8 @@ class BlockResult:
     """One window's results, compact: the rasters only at the burned pixels (a worker sends this
     back to the writing process; most of a block is usually unburned).
 
-    ``zones`` holds per layer only the summed quantities that are not zero in this window.
+    ``zones`` holds per layer ``(present, sums)``: the bins the window touches (sorted, distinct) and,
+    for the summed quantities that are not zero in this window only, their sums at those bins.
     """
 
     window: Window
@@ -39,7 +40,7 @@ class BlockResult:
     cdens_b: np.ndarray  # carbon density at the burned pixels [kg C m-2] (float32)
     codes: np.ndarray  # METHOD_CODES at the burned pixels (uint8)
     total: dict  # key -> float
-    zones: list  # per layer: key -> array(n_bins)
+    zones: list  # per layer: (bins touched, key -> array at those bins)
 
     @property
     def shape(self) -> tuple[int, int]:
@@ -413,11 +414,10 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     """
     window, burned = data.window, data.burned
     shape = (int(window.height), int(window.width))
-    n_bins = [len(ids) + 2 for _, ids, _ in plan.zone_layers]
     if burned is None:
         none = np.zeros(0, "float32")
         return BlockResult(window, None, none, none, np.zeros(0, "uint8"), {k: 0.0 for k in SUM_KEYS},
-                           [{} for _ in n_bins])
+                           [(np.zeros(0, np.int64), {}) for _ in plan.zone_layers])
     n = int(np.count_nonzero(burned))
     area = data.area
     # holes in the peat properties are filled (Tier 1 is the last resort for the depth, never for them)
@@ -591,21 +591,23 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     if repeat.any():
         w_scar = np.empty_like(w)
         w_scar[rows] = w[rows] / np.maximum(cover, 1)
+    # per layer, only the bins this block touches (a national run's scar layer has a bin per scar)
+    compact = [compact_bins(bins) for bins in data.zone_bins]
     sums = [total_sums] + [
-        accumulate_stacked(bins, w_scar if name == SCAR_LAYER else w, nb, rows=rows)
-        for (name, _, _), bins, nb in zip(plan.zone_layers, data.zone_bins, n_bins)]
+        accumulate_stacked(local, w_scar if name == SCAR_LAYER else w, len(present) + 1, rows=rows)
+        for (name, _, _), (present, local) in zip(plan.zone_layers, compact)]
     if repeat.any():
         r_rep = _ROW["repeat_area_m2"]
         rep_w = np.where(repeat, area, 0.0)[None, :]
         total_sums[r_rep] = rep_w.sum()
-        for a, bins, nb in zip(sums[1:], data.zone_bins, n_bins):
-            a[r_rep] = accumulate_stacked(bins, rep_w, nb)[0]
+        for a, (present, local) in zip(sums[1:], compact):
+            a[r_rep] = accumulate_stacked(local, rep_w, len(present) + 1)[0]
         nonzero.append(r_rep)
     for r, (src, factor) in alias.items():  # in the order defined: a source is final before it is used
         for a in sums:
             a[r] = a[src] * factor
     total = dict(zip(SUM_KEYS, sums[0].tolist()))
-    zsums = [{SUM_KEYS[r]: a[r] for r in nonzero} for a in sums[1:]]
+    zsums = [(present, {SUM_KEYS[r]: a[r, 1:] for r in nonzero}) for a, (present, _) in zip(sums[1:], compact)]
     codes = np.zeros(n, "uint8")
     for name, m in masks.items():
         codes[m] = METHOD_CODES[name]

@@ -119,6 +119,21 @@ def accumulate(bins: list[np.ndarray], values: dict[str, np.ndarray], n_bins: in
     return dict(zip(keys, sums))
 
 
+def compact_bins(bins: list[np.ndarray]) -> tuple[np.ndarray, list[np.ndarray]]:
+    """The bins that occur in one block, and each pass's bins renumbered to them.
+
+    ``bins`` holds, per pass, the 1-D bin index (0 = no zone) of the same pixels. Returns ``present``,
+    the sorted distinct non-zero bins of all passes, and per pass the index into ``present`` plus one
+    (0 stays 0). Summing with :func:`accumulate_stacked` over ``len(present) + 1`` bins then costs in
+    proportion to the zones a block touches, not to the layer's size (the scars' own layer holds a
+    bin per scar: tens of thousands on a national run, a dozen per block).
+    """
+    nonzero = [b[b > 0] for b in bins]
+    present = np.unique(np.concatenate(nonzero)) if nonzero else np.zeros(0, np.int64)
+    local = [np.where(b > 0, np.searchsorted(present, b) + 1, 0) for b in bins]
+    return present, local
+
+
 def accumulate_stacked(bins: list[np.ndarray], weights: np.ndarray, n_bins: int,
                        rows=None) -> np.ndarray:
     """Per-bin sums of the rows of ``weights`` (k quantities x n pixels).
