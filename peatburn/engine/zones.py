@@ -71,19 +71,31 @@ class ZoneLayerIndex:
     def n_bins(self) -> int:
         return len(self.ids) + 2
 
-    def bin_rasters(self, grid: RunGrid, window) -> list[np.ndarray]:
-        """One int32 bin raster per pass, plus one giving ``n + 1`` where no pass has a zone.
+    def pass_rasters(self, grid: RunGrid, window) -> list[np.ndarray]:
+        """One int32 raster of the window per pass: the bin of the pass's zone at each pixel, 0 where none."""
+        return [p.rasterize(grid, window) for p in self.passes]
+
+    def bins_at(self, rasters: list[np.ndarray], shape: tuple[int, int],
+                where: np.ndarray | None = None) -> list[np.ndarray]:
+        """The bins of :meth:`pass_rasters` output for a window of ``shape`` (at the pixels ``where`` only,
+        1-D, when given), plus
+        one array giving ``n + 1`` where no pass has a zone.
 
         "Outside" is defined by the passes themselves, not by a rasterization of the union of the
         polygons: every pixel then falls in a zone or in the outside bin, so a layer's sums add up
         to the run's whatever GDAL decides for pixel centres on shared edges.
         """
-        out = [p.rasterize(grid, window) for p in self.passes]
-        inside = np.zeros(out[0].shape, bool) if out else np.zeros((int(window.height), int(window.width)), bool)
+        out = [r if where is None else r[where] for r in rasters]
+        inside = np.zeros(shape if where is None else (int(np.count_nonzero(where)),), bool)
         for b in out:
             inside |= b > 0
         out.append(np.where(inside, 0, len(self.ids) + 1).astype("int32"))
         return out
+
+    def bin_rasters(self, grid: RunGrid, window, where: np.ndarray | None = None) -> list[np.ndarray]:
+        """One int32 bin raster per pass, plus one giving ``n + 1`` where no pass has a zone; with
+        ``where`` (a boolean mask of the window) 1-D arrays at those pixels only (:meth:`bins_at`)."""
+        return self.bins_at(self.pass_rasters(grid, window), (int(window.height), int(window.width)), where)
 
 
 def coverage_count(bins: list[np.ndarray]) -> np.ndarray:
