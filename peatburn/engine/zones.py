@@ -142,8 +142,11 @@ def compact_bins(bins: list[np.ndarray]) -> tuple[np.ndarray, list[np.ndarray]]:
     """
     nonzero = [b[b > 0] for b in bins]
     present = np.unique(np.concatenate(nonzero)) if nonzero else np.zeros(0, np.int64)
-    local = [np.where(b > 0, np.searchsorted(present, b) + 1, 0) for b in bins]
-    return present, local
+    if present.size == 0:
+        return present, [np.zeros(np.shape(b), np.intp) for b in bins]
+    lookup = np.zeros(int(present[-1]) + 1, np.intp)  # bin -> its place in ``present`` + 1; 0 -> 0
+    lookup[present] = np.arange(1, present.size + 1)
+    return present, [lookup[b] for b in bins]
 
 
 def accumulate_stacked(bins: list[np.ndarray], weights: np.ndarray, n_bins: int,
