@@ -314,6 +314,8 @@ def _run_inputs(cfg: RunConfig, out_dir: Path | None, inputs, factors, *, progre
             pool.close()
     # the COG conversions (GDAL, outside the GIL) run while the tables and intervals are computed
     converting = _background(_finish_rasters, rasters)
+    if out_dir is not None:
+        _background(_import_report_tools)
     try:
         result = _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, factors, sums, notes,
                                  converting)
@@ -322,6 +324,14 @@ def _run_inputs(cfg: RunConfig, out_dir: Path | None, inputs, factors, *, progre
         return result
     finally:
         converting.wait()
+
+
+def _import_report_tools() -> None:
+    """Import the report's drawing modules (matplotlib: about 0.3 s) in a thread while the tables are
+    computed, where the main thread mostly waits for the COGs; the report then finds them loaded."""
+    import matplotlib.backends.backend_agg  # noqa: F401
+    import matplotlib.dates  # noqa: F401
+    import matplotlib.figure  # noqa: F401
 
 
 def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
