@@ -319,10 +319,11 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
     zones = st["zones"]
     scar_i = next((i for i, z in enumerate(zones) if z.name == SCAR_LAYER and len(z.ids) == len(plan.scars)), None)
     scar_passes = zones[scar_i].pass_rasters(grid, window) if scar_i is not None else None
-    if scar_passes:
-        burned = scar_passes[0] > 0
-        for b in scar_passes[1:]:
-            burned |= b > 0
+    if scar_passes is not None:
+        burned = np.zeros(shape, bool)
+        for b in scar_passes:
+            if b is not None:
+                burned |= b > 0
     else:
         burned = st["scars"].mask(grid, window)
     if not burned.any():  # most blocks of a national mosaic: no reads, no zone rasterization

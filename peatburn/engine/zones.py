@@ -71,21 +71,22 @@ class ZoneLayerIndex:
     def n_bins(self) -> int:
         return len(self.ids) + 2
 
-    def pass_rasters(self, grid: RunGrid, window) -> list[np.ndarray]:
-        """One int32 raster of the window per pass: the bin of the pass's zone at each pixel, 0 where none."""
-        return [p.rasterize(grid, window) for p in self.passes]
+    def pass_rasters(self, grid: RunGrid, window) -> list[np.ndarray | None]:
+        """One int32 raster of the window per pass: the bin of the pass's zone at each pixel, 0 where none;
+        None for a pass none of whose polygons meets the window (most passes of overlapping scars)."""
+        return [p.rasterize_or_none(grid, window) for p in self.passes]
 
     def bins_at(self, rasters: list[np.ndarray], shape: tuple[int, int],
                 where: np.ndarray | None = None) -> list[np.ndarray]:
         """The bins of :meth:`pass_rasters` output for a window of ``shape`` (at the pixels ``where`` only,
-        1-D, when given), plus
+        1-D, when given; a pass without polygons in the window left out), plus
         one array giving ``n + 1`` where no pass has a zone.
 
         "Outside" is defined by the passes themselves, not by a rasterization of the union of the
         polygons: every pixel then falls in a zone or in the outside bin, so a layer's sums add up
         to the run's whatever GDAL decides for pixel centres on shared edges.
         """
-        out = [r if where is None else r[where] for r in rasters]
+        out = [r if where is None else r[where] for r in rasters if r is not None]  # an empty pass adds nothing
         inside = np.zeros(shape if where is None else (int(np.count_nonzero(where)),), bool)
         for b in out:
             inside |= b > 0
