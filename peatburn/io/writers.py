@@ -37,9 +37,19 @@ TEMP_MARKER = "peatburn-tmp"
 #: The predictor is chosen before the first tile is written, from the scars' share of the grid
 #: (:func:`peatburn.engine.runner.burned_share`).
 PREDICTOR_MIN_SHARE = 0.1
+#: DEFLATE level of the output tiles (GDAL's ZLEVEL with libdeflate; GDAL's default is 6), for rasters of
+#: values (float) and of codes. Measured (docs/performance.md, benchmark 8; CPU of writing and finishing
+#: one raster, three alternated rounds): values at level 1 cost 18 % less CPU than at 6 with files 0.4-0.6 %
+#: larger, at 2 % burned (the half-scale national outputs) and at 50 % burned (a synthetic 67 Mpx raster)
+#: alike; level 2 is no faster than 1. A class raster (long runs of a few codes) is 25-55 % larger at
+#: levels 1-2 than at 6, and level 1 is not even faster there: codes stay at GDAL's default.
+DEFLATE_LEVEL = {"values": 1, "codes": 6}  # project choice, measured (above)
 #: Overview levels of at most this many pixels are held in memory while the block pass writes them
-#: (16 MiB of float32; the levels of a raster together hold at most a third more).
-MEMORY_LEVEL_PX = 2**22
+#: (32 MiB of float32; the levels of a raster together hold at most a third more): the third level of a
+#: 20,000 px grid (2,500 px square) is one, so a block's pieces of it are not written one by one through
+#: GDAL (about 40 us a write). Its edge tiles, written whole at the end, are padded past the raster's
+#: edge with zeros where pieces left nodata (GDAL's choice; the pixels of the raster are the same).
+MEMORY_LEVEL_PX = 2**23  # project choice
 _TEMP_NAME = re.compile(r"^\..+\." + TEMP_MARKER + r"\.[A-Za-z0-9_]{8}.*(\.part|\.tiled\.tif|\.part\.gpkg(-journal|-wal|-shm)?)$")
 
 
@@ -214,6 +224,7 @@ class BlockRasterWriter:
         self._paths = [self._temp(".tiled.tif")] + [self._temp(f".o{k + 1}.tiled.tif") for k in range(len(self._levels))]
         self._profile = dict(driver="GTiff", count=1, dtype=dtype, nodata=nodata, tiled=True, blockxsize=COG_TILE,
                              blockysize=COG_TILE, BIGTIFF="IF_SAFER", SPARSE_OK="TRUE", compress="deflate",
+                             zlevel=DEFLATE_LEVEL["codes" if self.categorical else "values"],
                              predictor=(3 if not self.categorical else 2) if self.predictor else 1)
         self._ds = None
         self._level_ds = []
@@ -305,8 +316,8 @@ class BlockRasterWriter:
         v = np.asarray(values)
         if np.dtype(self.dtype).kind == "f":
             v = np.where(np.isfinite(v), v, self.nodata)
-        flat[idx] = v
         try:
+            flat[idx] = v
             self._ds.write(a[None], [1], window=window)  # (the 3-d form: rasterio's 2-d one stacks a copy)
             v = flat[idx]  # the values as stored (the raster's dtype)
         finally:
