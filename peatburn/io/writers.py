@@ -45,11 +45,12 @@ PREDICTOR_MIN_SHARE = 0.1
 #: levels 1-2 than at 6, and level 1 is not even faster there: codes stay at GDAL's default.
 DEFLATE_LEVEL = {"values": 1, "codes": 6}  # project choice, measured (above)
 #: Overview levels of at most this many pixels are held in memory while the block pass writes them
-#: (32 MiB of float32; the levels of a raster together hold at most a third more): the third level of a
-#: 20,000 px grid (2,500 px square) is one, so a block's pieces of it are not written one by one through
-#: GDAL (about 40 us a write). Its edge tiles, written whole at the end, are padded past the raster's
-#: edge with zeros where pieces left nodata (GDAL's choice; the pixels of the raster are the same).
-MEMORY_LEVEL_PX = 2**23  # project choice
+#: (16 MiB of float32; the levels of a raster together hold at most a third more). Twice as many (the
+#: third level of a 20,000 px grid, 2,500 px square, in memory too) was measured with the levels halved
+#: from the valid pixels: no CPU saved within the noise, 70 MiB more peak memory in the national run,
+#: and edge tiles written whole are padded with zeros past the raster's edge (GDAL's choice), larger
+#: than the nodata padding of tiles written by pieces (docs/performance.md, benchmark 8).
+MEMORY_LEVEL_PX = 2**22  # project choice, measured (above)
 _TEMP_NAME = re.compile(r"^\..+\." + TEMP_MARKER + r"\.[A-Za-z0-9_]{8}.*(\.part|\.tiled\.tif|\.part\.gpkg(-journal|-wal|-shm)?)$")
 
 
