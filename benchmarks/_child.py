@@ -105,7 +105,8 @@ def task_run(config, out, workers=1, gdal_env=False, scheduler=None, block_cache
     # with workers the writes run in threads (writers.BlockWrites): then this is the main thread's wait
     _timed(writers.BlockWrites, "write_at", "block writes")
     _timed(writers.BlockWrites, "close", "block writes")
-    _timed(writers.BlockRasterWriter, "close", "COG conversion")
+    # the three COGs are assembled in parallel threads (runner._finish_rasters), beside the tables: its wall time
+    _timed(runner, "_finish_rasters", "COG conversion")
     _timed(provenance, "build", "provenance (hashes)")
     _timed(report, "write_report", "report")
     import peatburn.engine.intervals as intervals

@@ -4,7 +4,8 @@ against one decode of its water-table raster.
 The scene (invented; open ocean coordinates): a water-table raster of 20,000 x 20,000 px at 30 m
 (400 Mpx, float32, deflate, 512 px tiles; smooth field plus texture, nodata outside an irregular
 "peat" outline), 20,000 burn scars (irregular polygons of 3-150 ha, dated), 1,000 Voronoi zones,
-200 Monte Carlo draws, no survey; depth = intercept + slope x water table (user coefficients).
+200 Monte Carlo draws, no survey; depth = intercept + slope x water table (user coefficients); the
+tool's default block size (``--block-size`` sets another).
 ``--scale`` shrinks the side (0.5: 100 Mpx, 5,000 scars, 250 zones) for a quicker look.
 
     python benchmarks/bench_national.py [--scale 1.0] [--repeat 1]
@@ -89,7 +90,7 @@ def _write_scars(path: Path, n: int, count: int) -> None:
                      geometry=geoms, crs=f"EPSG:{c.EPSG}").to_file(path, layer="scars", driver="GPKG")
 
 
-def scene(scale: float = 1.0) -> Path:
+def scene(scale: float = 1.0, block_size: int | None = None) -> Path:
     n = int(round(SIDE * scale))
     scars = int(round(SCARS * scale * scale))
     zones = max(4, int(round(ZONES * scale * scale)))
@@ -110,12 +111,12 @@ def scene(scale: float = 1.0) -> Path:
     if time.perf_counter() - t > 1:
         print(f"  made the national scene ({n} x {n} px, {scars} scars, {zones} zones) in "
               f"{time.perf_counter() - t:.0f} s", file=sys.stderr)
-    cfg = folder / "config.toml"
+    cfg = folder / ("config.toml" if block_size is None else f"config_b{block_size}.toml")
+    block = "" if block_size is None else f"block_size = {block_size}\n"
     cfg.write_text(f"""[run]
 name = "national benchmark"
 year = 2031
-block_size = 512
-
+{block}
 [burned_area]
 path = "scars.gpkg"
 
@@ -148,9 +149,11 @@ def main(argv=None) -> dict:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--scale", type=float, default=1.0, help="side of the scene as a fraction of 20,000 px")
     ap.add_argument("--repeat", type=int, default=1)
+    ap.add_argument("--block-size", type=int, default=None, help="run.block_size (default: the tool's default)")
     a = ap.parse_args(argv)
-    print(f"[national] water-table run at scale {a.scale:g}")
-    cfg = scene(a.scale)
+    print(f"[national] water-table run at scale {a.scale:g}, block size "
+          f"{a.block_size if a.block_size else 'default'}")
+    cfg = scene(a.scale, a.block_size)
     c.warm(cfg)
     dec = c.best_of(a.repeat, "decode", path=str(cfg.parent / "water_table.tif"))
     run = c.best_of(a.repeat, "run", config=str(cfg), out=c.out_dir("national"))

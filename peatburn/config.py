@@ -82,6 +82,11 @@ MAX_DRAWS = 1_000_000
 #: of the block's arrays (64 MiB per float32 array, and a block holds dozens); larger blocks only
 #: raise the memory of a run (common practice: blocks of a few hundred to a few thousand pixels).
 MAX_BLOCK_SIZE = 4096
+#: Default ``run.block_size`` [px]. 1024: on the national benchmark (400 Mpx, 20,000 scars) a quarter of the
+#: blocks of 512 cut the run's CPU time by about a fifth (fewer per-block calls into GDAL, numpy and
+#: Python) for about 50 MiB more memory; 2048 gained little more for 230 MiB more (docs/performance.md,
+#: benchmark 8). Project choice, measured.
+DEFAULT_BLOCK_SIZE = 1024
 #: Smallest ``run.resolution`` [m]: 1 cm, finer than the elevation grids of airborne or drone
 #: surveys (common practice: decimetres to a metre); a finer pixel only multiplies the pixels.
 MIN_RESOLUTION_M = 0.01
@@ -220,7 +225,7 @@ class RunConfig:
     factors: FactorsConfig
     zones: tuple[ZoneLayerConfig, ...]
     uncertainty: UncertaintyConfig
-    block_size: int = 512
+    block_size: int = DEFAULT_BLOCK_SIZE
     water_table: WaterTableConfig | None = None
     plots: PlotsConfig | None = None
     tier1: Tier1Config = field(default_factory=Tier1Config)
@@ -476,10 +481,10 @@ def config_from_dict(raw: dict, base: Path, source: Path | None = None) -> RunCo
     force = run.get("force_ranges", False)
     if not isinstance(force, bool):
         raise ConfigError(f"{where}: `run.force_ranges` must be true or false, got {force!r}")
-    block_size = run.get("block_size", 512)
+    block_size = run.get("block_size", DEFAULT_BLOCK_SIZE)
     if not isinstance(block_size, int) or isinstance(block_size, bool) or not 16 <= block_size <= MAX_BLOCK_SIZE:
         raise ConfigError(f"{where}: `run.block_size` must be an integer from 16 to {MAX_BLOCK_SIZE} pixels, got "
-                          f"{block_size!r}; 512 (the default) suits most runs")
+                          f"{block_size!r}; {DEFAULT_BLOCK_SIZE} (the default) suits most runs")
 
     ba = _require(raw, "burned_area", "", where)
     if not isinstance(ba, dict):

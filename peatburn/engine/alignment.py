@@ -23,6 +23,10 @@ from .inputs import Inputs, _param_source
 #: recovers the benchmark scene's shift within 2 cm in 1.0 s, 4 Mpx within 1 cm in 1.5 s
 #: (benchmarks/, 67 Mpx scene; docs/performance.md).
 SAMPLE_PIXELS = 2_000_000
+#: Largest side of a sample window [px] (the co-registration's, the depth model's calibration pairs',
+#: the fill values'): a run's block size when smaller, so that a larger ``run.block_size`` (a speed
+#: setting) spreads the same sample as the block size of 512 did, and changes no result (project choice).
+SAMPLE_BLOCK = 512
 #: Stable-ground residuals kept for the variogram of the survey error.
 STABLE_SAMPLE_MAX = 50_000
 
@@ -326,9 +330,10 @@ def _shift_in_crs(dx: float, dy: float, grid: RunGrid, crs) -> tuple[float, floa
 
 
 def sample_windows(grid: RunGrid, block: int, max_pixels: int | None = None) -> list[Window]:
-    """Evenly spread block windows whose pixels add up to at most ``max_pixels``
-    (default :data:`SAMPLE_PIXELS`)."""
+    """Evenly spread windows of ``block`` px (at most :data:`SAMPLE_BLOCK`) whose pixels add up to at
+    most ``max_pixels`` (default :data:`SAMPLE_PIXELS`)."""
     max_pixels = SAMPLE_PIXELS if max_pixels is None else max_pixels
+    block = min(int(block), SAMPLE_BLOCK)
     wins = grid.windows(block)
     n = max(1, min(len(wins), max_pixels // (block * block)))
     idx = np.unique(np.linspace(0, len(wins) - 1, n).round().astype(int))

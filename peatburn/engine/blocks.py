@@ -20,7 +20,7 @@ from ..io.vectors import WindowRasterizer
 from ..science import coregistration, peat, survey
 from .plan import RunPlan
 from .sums import METHOD_CODES, MINERAL_CODE, SCAR_LAYER, SUM_KEYS
-from .zones import ZoneLayerIndex, accumulate_stacked, coverage_count
+from .zones import ZoneLayerIndex, accumulate_stacked, compact_bins, coverage_count
 
 if TYPE_CHECKING:
     from .depth_models import DepthModels
@@ -30,7 +30,8 @@ class BlockResult:
     """One window's results, compact: the rasters only at the burned pixels (a worker sends this
     back to the writing process; most of a block is usually unburned).
 
-    ``zones`` holds per layer only the summed quantities that are not zero in this window.
+    ``zones`` holds per layer ``(present, sums)``: the bins the window touches (sorted, distinct) and,
+    for the summed quantities that are not zero in this window only, their sums at those bins.
     """
 
     window: Window
@@ -39,7 +40,7 @@ class BlockResult:
     cdens_b: np.ndarray  # carbon density at the burned pixels [kg C m-2] (float32)
     codes: np.ndarray  # METHOD_CODES at the burned pixels (uint8)
     total: dict  # key -> float
-    zones: list  # per layer: key -> array(n_bins)
+    zones: list  # per layer: (bins touched, key -> array at those bins)
 
     @property
     def shape(self) -> tuple[int, int]:
@@ -126,6 +127,15 @@ def _param(st, plan, name, window):
     return st["readers"][name].read(window)
 
 
+def _param_at(st, plan, name, window, sel: np.ndarray):
+    """A run parameter at the pixels ``sel`` of ``window`` (1-D; a scalar for a constant, None when not
+    given): ``_at(_param(...), sel)`` without converting the rest of the window."""
+    src = getattr(plan, name)
+    if src is None or isinstance(src, float):
+        return src
+    return st["readers"][name].read_at(window, sel)
+
+
 def _at(x, sel: np.ndarray, shape):
     """``x`` (scalar, or an array broadcastable to ``shape``) at the pixels ``sel``; scalars stay scalars."""
     if x is None or np.ndim(x) == 0:
@@ -150,9 +160,9 @@ def survey_depth(st, plan: RunPlan, window: Window, where: np.ndarray | None = N
 def thickness_at(st, plan: RunPlan, window: Window, sel: np.ndarray):
     """Peat thickness at the pixels ``sel`` [m] (1-D, a scalar for a constant, None unknown); in a later
     year of a series, the peat the earlier years left (science.peat.thickness_left, docs/method.md 7.7)."""
-    thick = _at(_param(st, plan, "thickness", window), sel, sel.shape)
+    thick = _param_at(st, plan, "thickness", window, sel)
     if plan.earlier_burns and thick is not None:
-        rho = _at(_param(st, plan, "bulk_density", window), sel, sel.shape)
+        rho = _param_at(st, plan, "bulk_density", window, sel)
         rho = peat.fill_missing(np.broadcast_to(np.asarray(rho, "float64"), (int(np.count_nonzero(sel)),)),
                                 plan.rho_fill)[0]
         removed = [peat.earlier_removed_depth(d, code == METHOD_CODES["tier1"], _earlier_fuel(plan, i), rho)
@@ -180,13 +190,12 @@ def series_fire_count(st, plan: RunPlan, window: Window, sel: np.ndarray):
 def _survey_inputs(st, plan: RunPlan, window: Window, sel: np.ndarray):
     """Pre survey, post survey, subsidence rate and peat thickness at the pixels ``sel`` (1-D
     arrays, or scalars for constants; the surveys None without a survey)."""
-    shape = sel.shape
     thick = thickness_at(st, plan, window, sel)
     if plan.pre is None:
         return None, None, None, thick
-    pre = st["readers"]["pre"].read(window)[sel]
-    post = st["readers"]["post"].read(window)[sel]
-    rate = _at(_param(st, plan, "subsidence_rate", window), sel, shape)
+    pre = st["readers"]["pre"].read_at(window, sel)
+    post = st["readers"]["post"].read_at(window, sel)
+    rate = _param_at(st, plan, "subsidence_rate", window, sel)
     return pre, post, rate, thick
 
 
@@ -309,8 +318,14 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
     # where a pass of the layer puts a scar: the same polygons and GDAL rule as rasterizing all at once)
     zones = st["zones"]
     scar_i = next((i for i, z in enumerate(zones) if z.name == SCAR_LAYER and len(z.ids) == len(plan.scars)), None)
-    scar_bins = zones[scar_i].bin_rasters(grid, window) if scar_i is not None else None
-    burned = scar_bins[-1] == 0 if scar_bins is not None else st["scars"].mask(grid, window)
+    scar_passes = zones[scar_i].pass_rasters(grid, window) if scar_i is not None else None
+    if scar_passes is not None:
+        burned = np.zeros(shape, bool)
+        for b in scar_passes:
+            if b is not None:
+                burned |= b > 0
+    else:
+        burned = st["scars"].mask(grid, window)
     if not burned.any():  # most blocks of a national mosaic: no reads, no zone rasterization
         return BlockData(window, None)
 
@@ -324,14 +339,16 @@ def read_block(plan: RunPlan, window: Window) -> BlockData:
         fire_count = series_fire_count(st, plan, window, burned)
     return BlockData(
         window, burned, area=np.broadcast_to(grid.pixel_area(window), shape)[burned],
-        rho=at(_param(st, plan, "bulk_density", window)), cf=at(_param(st, plan, "carbon_fraction", window)),
+        rho=_param_at(st, plan, "bulk_density", window, burned),
+        cf=_param_at(st, plan, "carbon_fraction", window, burned),
         pre=pre, post=post, rate=rate, thick=thick,
-        wt=at(_water_table_raster(st, plan, window)) if m is not None else None,
-        fire_count=fire_count, biomass=at(_param(st, plan, "biomass", window)),
+        wt=(_param_at(st, plan, "water_table", window, burned) if not plan.water_table_dated
+            else at(_water_table_raster(st, plan, window))) if m is not None else None,
+        fire_count=fire_count, biomass=_param_at(st, plan, "biomass", window, burned),
         in_extent=_in_extent(st, plan, window, burned),
         scar=st["scars"].rasterize(grid, window)[burned] if plan.station_days is not None and m is not None else None,
         edge=edge_distance(st, plan, window, EDGE_REACH * _taper_m(m))[burned] if _taper_m(m) > 0 else None,
-        zone_bins=[[b[burned] for b in (scar_bins if i == scar_i else z.bin_rasters(grid, window))]
+        zone_bins=[z.bins_at(scar_passes, shape, burned) if i == scar_i else z.bin_rasters(grid, window, burned)
                    for i, z in enumerate(zones)],
         **(survey_error_terms(st, plan, window, burned) if plan.error_scale is not None and pre is not None else {}),
     )
@@ -413,11 +430,10 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     """
     window, burned = data.window, data.burned
     shape = (int(window.height), int(window.width))
-    n_bins = [len(ids) + 2 for _, ids, _ in plan.zone_layers]
     if burned is None:
         none = np.zeros(0, "float32")
         return BlockResult(window, None, none, none, np.zeros(0, "uint8"), {k: 0.0 for k in SUM_KEYS},
-                           [{} for _ in n_bins])
+                           [(np.zeros(0, np.int64), {}) for _ in plan.zone_layers])
     n = int(np.count_nonzero(burned))
     area = data.area
     # holes in the peat properties are filled (Tier 1 is the last resort for the depth, never for them)
@@ -591,21 +607,23 @@ def compute_block(plan: RunPlan, data: BlockData) -> BlockResult:
     if repeat.any():
         w_scar = np.empty_like(w)
         w_scar[rows] = w[rows] / np.maximum(cover, 1)
+    # per layer, only the bins this block touches (a national run's scar layer has a bin per scar)
+    compact = [compact_bins(bins) for bins in data.zone_bins]
     sums = [total_sums] + [
-        accumulate_stacked(bins, w_scar if name == SCAR_LAYER else w, nb, rows=rows)
-        for (name, _, _), bins, nb in zip(plan.zone_layers, data.zone_bins, n_bins)]
+        accumulate_stacked(local, w_scar if name == SCAR_LAYER else w, len(present) + 1, rows=rows)
+        for (name, _, _), (present, local) in zip(plan.zone_layers, compact)]
     if repeat.any():
         r_rep = _ROW["repeat_area_m2"]
         rep_w = np.where(repeat, area, 0.0)[None, :]
         total_sums[r_rep] = rep_w.sum()
-        for a, bins, nb in zip(sums[1:], data.zone_bins, n_bins):
-            a[r_rep] = accumulate_stacked(bins, rep_w, nb)[0]
+        for a, (present, local) in zip(sums[1:], compact):
+            a[r_rep] = accumulate_stacked(local, rep_w, len(present) + 1)[0]
         nonzero.append(r_rep)
     for r, (src, factor) in alias.items():  # in the order defined: a source is final before it is used
         for a in sums:
             a[r] = a[src] * factor
     total = dict(zip(SUM_KEYS, sums[0].tolist()))
-    zsums = [{SUM_KEYS[r]: a[r] for r in nonzero} for a in sums[1:]]
+    zsums = [(present, {SUM_KEYS[r]: a[r, 1:] for r in nonzero}) for a, (present, _) in zip(sums[1:], compact)]
     codes = np.zeros(n, "uint8")
     for name, m in masks.items():
         codes[m] = METHOD_CODES[name]

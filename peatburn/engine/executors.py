@@ -53,6 +53,8 @@ WORKER_GDAL_CACHE = 128 * 2**20
 #: conversion, which otherwise grows with the raster up to GDAL's default of 5 % of the RAM.
 MAIN_GDAL_CACHE = 64 * 2**20
 MAX_GDAL_CACHE = 256 * 2**20
+#: Block rows counted by :func:`run_cache_bytes` at most [px]: one row of 512 px input tiles.
+CACHE_ROWS = 512
 #: Seconds to wait for a dask scheduler to answer.
 CONNECT_TIMEOUT = 10
 #: Chunks in flight per worker (submitted, not yet handed to the caller).
@@ -86,11 +88,16 @@ def run_cache_bytes(width: int, block: int) -> int:
 
     Room for two rows of blocks of two float32 inputs: the co-registered survey's bilinear read
     reaches one row into the next row of tiles, which the next row of blocks reads again; with
-    less, those tiles are decoded twice. At least :data:`MAIN_GDAL_CACHE` (64 MiB, enough up to
-    8192 pixels wide with 512-pixel blocks), at most :data:`MAX_GDAL_CACHE`. Common practice
-    (size the cache to the working set), measured in docs/performance.md.
+    less, those tiles are decoded twice. Blocks count at most :data:`CACHE_ROWS` rows: what the next
+    row of blocks reads again is one row of input tiles (512 px for the COGs this tool writes and
+    most surveys), whatever the block size, and the cache also holds the output tiles not yet
+    written, so a larger one only raises the memory (measured: 1024 px blocks with a cache sized
+    for them peaked 235 MiB above 512 px blocks on the national benchmark). At least
+    :data:`MAIN_GDAL_CACHE` (64 MiB, enough up to 8192 pixels wide with 512-pixel blocks), at most
+    :data:`MAX_GDAL_CACHE`. Common practice (size the cache to the working set), measured in
+    docs/performance.md.
     """
-    need = 2 * 2 * int(width) * int(block) * 4
+    need = 2 * 2 * int(width) * min(int(block), CACHE_ROWS) * 4
     return int(min(max(need, MAIN_GDAL_CACHE), MAX_GDAL_CACHE))
 
 

@@ -314,6 +314,8 @@ def _run_inputs(cfg: RunConfig, out_dir: Path | None, inputs, factors, *, progre
             pool.close()
     # the COG conversions (GDAL, outside the GIL) run while the tables and intervals are computed
     converting = _background(_finish_rasters, rasters)
+    if out_dir is not None:
+        _background(_import_report_tools)
     try:
         result = _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, factors, sums, notes,
                                  converting)
@@ -322,6 +324,14 @@ def _run_inputs(cfg: RunConfig, out_dir: Path | None, inputs, factors, *, progre
         return result
     finally:
         converting.wait()
+
+
+def _import_report_tools() -> None:
+    """Import the report's drawing modules (matplotlib: about 0.3 s) in a thread while the tables are
+    computed, where the main thread mostly waits for the COGs; the report then finds them loaded."""
+    import matplotlib.backends.backend_agg  # noqa: F401
+    import matplotlib.dates  # noqa: F401
+    import matplotlib.figure  # noqa: F401
 
 
 def _block_pass(cfg, out_dir, inputs, progress, scheduler, pool):
@@ -448,7 +458,7 @@ def _background(fn, *args):
     """Run ``fn(*args)`` in a thread; ``.result()`` re-raises its error, ``.wait()`` only waits."""
     import concurrent.futures
 
-    pool = concurrent.futures.ThreadPoolExecutor(max_workers=1, thread_name_prefix="peatburn-cog")
+    pool = concurrent.futures.ThreadPoolExecutor(max_workers=1, thread_name_prefix=f"peatburn-{fn.__name__}")
     fut = pool.submit(fn, *args)
     pool.shutdown(wait=False)
 
@@ -463,16 +473,26 @@ def _background(fn, *args):
 
 
 def _finish_rasters(rasters, ok: bool = True) -> None:
-    """Close every raster writer (COG conversion when ``ok``); after a failure the rest are only
-    cleaned up, and the first error is raised."""
-    err = None
-    for w in rasters:
-        try:
-            w.close(ok=ok and err is None)
-        except BaseException as exc:  # noqa: BLE001 - re-raised below
-            err = err or exc
-    if err is not None:
-        raise err
+    """Close every raster writer: the COG of each assembled in its own thread when ``ok`` (mostly GDAL and
+    file work, which release the GIL), else only cleaned up; every writer is closed, and the first
+    error is raised."""
+    import concurrent.futures
+
+    if not ok or len(rasters) < 2:
+        errors = []
+        for w in rasters:
+            try:
+                w.close(ok=ok and not errors)
+            except BaseException as exc:  # noqa: BLE001 - re-raised below
+                errors.append(exc)
+        if errors:
+            raise errors[0]
+        return
+    with concurrent.futures.ThreadPoolExecutor(len(rasters), thread_name_prefix="peatburn-cog") as pool:
+        futures = [pool.submit(w.close) for w in rasters]
+    errors = [f.exception() for f in futures if f.exception() is not None]
+    if errors:
+        raise errors[0]
 
 
 def area_adjusted(cfg, sums: Sums, notes: list) -> Sums:
@@ -496,6 +516,8 @@ def _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, f
     grid = plan.grid
     from .above_ground import flaming_sums
 
+    # the inputs' SHA-256 for the provenance, in a thread (hashlib releases the GIL) while the tables are made
+    hashing = _background(provenance.input_records, cfg.input_paths())
     sums = area_adjusted(cfg, sums, notes)
     flame = flaming_sums(cfg, inputs, sums)
     if flame is not None:
@@ -597,7 +619,7 @@ def _compute_tables(cfg, out_dir, raster_dir, inputs, plan, alignment, models, f
     dossier_items = dossiers.plan(cfg, inputs, rows)  # issue 21: one page per burned zone of a layer asking
     dossier_files = ([it.file for it in dossier_items] + [f"{dossiers.FOLDER}/index.csv"]
                      if any(z.dossiers for z in cfg.zones) else [])
-    prov = provenance.build(cfg, grid, alignment, factors, models,
+    prov = provenance.build(cfg, grid, alignment, factors, models, records=hashing.result(),
                             extra={"qa": qa, "method_shares": {m: total[f"carbon_share_{m}"] for m in METHOD_CODES},
                                    "outputs": sorted(["zones.csv", "fires.csv", "totals.json", "inventory.csv", "inventory.json", "daily.csv",
                                                       "results.gpkg", "burn_depth.tif", "carbon_smouldering.tif",

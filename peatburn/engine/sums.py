@@ -61,6 +61,6 @@ class Sums:
     def add(self, r: BlockResult):
         for k in SUM_KEYS:
             self.total[k] += r.total[k]
-        for (_, _, acc), z in zip(self.layers, r.zones):
-            for k, v in z.items():  # only the quantities not zero in the block
-                acc[k] += v
+        for (_, _, acc), (present, z) in zip(self.layers, r.zones):
+            for k, v in z.items():  # only the quantities not zero in the block, at the bins it touches
+                acc[k][present] += v

@@ -71,19 +71,32 @@ class ZoneLayerIndex:
     def n_bins(self) -> int:
         return len(self.ids) + 2
 
-    def bin_rasters(self, grid: RunGrid, window) -> list[np.ndarray]:
-        """One int32 bin raster per pass, plus one giving ``n + 1`` where no pass has a zone.
+    def pass_rasters(self, grid: RunGrid, window) -> list[np.ndarray | None]:
+        """One int32 raster of the window per pass: the bin of the pass's zone at each pixel, 0 where none;
+        None for a pass none of whose polygons meets the window (most passes of overlapping scars)."""
+        return [p.rasterize_or_none(grid, window) for p in self.passes]
+
+    def bins_at(self, rasters: list[np.ndarray], shape: tuple[int, int],
+                where: np.ndarray | None = None) -> list[np.ndarray]:
+        """The bins of :meth:`pass_rasters` output for a window of ``shape`` (at the pixels ``where`` only,
+        1-D, when given; a pass without polygons in the window left out), plus
+        one array giving ``n + 1`` where no pass has a zone.
 
         "Outside" is defined by the passes themselves, not by a rasterization of the union of the
         polygons: every pixel then falls in a zone or in the outside bin, so a layer's sums add up
         to the run's whatever GDAL decides for pixel centres on shared edges.
         """
-        out = [p.rasterize(grid, window) for p in self.passes]
-        inside = np.zeros(out[0].shape, bool) if out else np.zeros((int(window.height), int(window.width)), bool)
+        out = [r if where is None else r[where] for r in rasters if r is not None]  # an empty pass adds nothing
+        inside = np.zeros(shape if where is None else (int(np.count_nonzero(where)),), bool)
         for b in out:
             inside |= b > 0
         out.append(np.where(inside, 0, len(self.ids) + 1).astype("int32"))
         return out
+
+    def bin_rasters(self, grid: RunGrid, window, where: np.ndarray | None = None) -> list[np.ndarray]:
+        """One int32 bin raster per pass, plus one giving ``n + 1`` where no pass has a zone; with
+        ``where`` (a boolean mask of the window) 1-D arrays at those pixels only (:meth:`bins_at`)."""
+        return self.bins_at(self.pass_rasters(grid, window), (int(window.height), int(window.width)), where)
 
 
 def coverage_count(bins: list[np.ndarray]) -> np.ndarray:
@@ -117,6 +130,24 @@ def accumulate(bins: list[np.ndarray], values: dict[str, np.ndarray], n_bins: in
         stack = np.where(np.isnan(stack), 0.0, stack)
     sums = accumulate_stacked([np.ravel(b) for b in bins], stack, n_bins)
     return dict(zip(keys, sums))
+
+
+def compact_bins(bins: list[np.ndarray]) -> tuple[np.ndarray, list[np.ndarray]]:
+    """The bins that occur in one block, and each pass's bins renumbered to them.
+
+    ``bins`` holds, per pass, the 1-D bin index (0 = no zone) of the same pixels. Returns ``present``,
+    the sorted distinct non-zero bins of all passes, and per pass the index into ``present`` plus one
+    (0 stays 0). Summing with :func:`accumulate_stacked` over ``len(present) + 1`` bins then costs in
+    proportion to the zones a block touches, not to the layer's size (the scars' own layer holds a
+    bin per scar: tens of thousands on a national run, a dozen per block).
+    """
+    nonzero = [b[b > 0] for b in bins]
+    present = np.unique(np.concatenate(nonzero)) if nonzero else np.zeros(0, np.int64)
+    if present.size == 0:
+        return present, [np.zeros(np.shape(b), np.intp) for b in bins]
+    lookup = np.zeros(int(present[-1]) + 1, np.intp)  # bin -> its place in ``present`` + 1; 0 -> 0
+    lookup[present] = np.arange(1, present.size + 1)
+    return present, [lookup[b] for b in bins]
 
 
 def accumulate_stacked(bins: list[np.ndarray], weights: np.ndarray, n_bins: int,

@@ -234,6 +234,29 @@ class GridReader:
             out *= self.source.scale
         return out
 
+    def read_at(self, window: Window, where: np.ndarray) -> np.ndarray:
+        """:meth:`read` of ``window`` at the pixels of the boolean mask ``where`` only (1-D) [documented unit].
+
+        A read on the file's own lattice, inside the file, converts and checks for nodata only the
+        pixels asked for (a national run asks for the few burned pixels of each block); any other read
+        is :meth:`read` then the selection (the same values either way).
+        """
+        if self._translation is None and self._vrt is None and not self._mask_band:
+            r0, c0 = self._offset
+            row, col = int(window.row_off) + r0, int(window.col_off) + c0
+            h, w = int(window.height), int(window.width)
+            if row >= 0 and col >= 0 and row + h <= self._ds.height and col + w <= self._ds.width:
+                arr = self._ds.read(self.source.band, window=Window(col, row, w, h))[where]
+                out = arr.astype("float64")
+                if self._nodata is not None and not math.isnan(self._nodata):
+                    nd = np.asarray(self._nodata).astype(arr.dtype)
+                    if float(nd) == float(self._nodata):  # as _read_direct
+                        out[arr == nd] = np.nan
+                if self.source.scale != 1.0:
+                    out *= self.source.scale
+                return out
+        return self.read(window)[where]
+
     def _read_translated(self, window: Window) -> np.ndarray:
         """Bilinear resampling of a source whose lattice is the grid's moved by a fraction of a pixel
         (a co-registered survey): the window and one more row and column read directly, then four

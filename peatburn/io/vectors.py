@@ -102,10 +102,15 @@ class WindowRasterizer:
         self.tree = shapely.STRtree(self.geometries)
 
     def rasterize(self, grid: RunGrid, window: Window, fill: int = 0, dtype="int32") -> np.ndarray:
+        out = self.rasterize_or_none(grid, window, fill, dtype)
+        return np.full((int(window.height), int(window.width)), fill, dtype=dtype) if out is None else out
+
+    def rasterize_or_none(self, grid: RunGrid, window: Window, fill: int = 0, dtype="int32") -> np.ndarray | None:
+        """:meth:`rasterize`, or None when no polygon meets the window (nothing to allocate or scan)."""
         shape = (int(window.height), int(window.width))
         idx = self.tree.query(window_bounds_polygon(grid, window))
         if len(idx) == 0:
-            return np.full(shape, fill, dtype=dtype)
+            return None
         idx = np.sort(idx)
         shapes = ((self.geometries[i], int(self.values[i])) for i in idx)
         return rasterize(shapes, out_shape=shape, transform=grid.window_transform(window), fill=fill,

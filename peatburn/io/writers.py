@@ -37,9 +37,20 @@ TEMP_MARKER = "peatburn-tmp"
 #: The predictor is chosen before the first tile is written, from the scars' share of the grid
 #: (:func:`peatburn.engine.runner.burned_share`).
 PREDICTOR_MIN_SHARE = 0.1
+#: DEFLATE level of the output tiles (GDAL's ZLEVEL with libdeflate; GDAL's default is 6), for rasters of
+#: values (float) and of codes. Measured (docs/performance.md, benchmark 8; CPU of writing and finishing
+#: one raster, three alternated rounds): values at level 1 cost 18 % less CPU than at 6 with files 0.4-0.6 %
+#: larger, at 2 % burned (the half-scale national outputs) and at 50 % burned (a synthetic 67 Mpx raster)
+#: alike; level 2 is no faster than 1. A class raster (long runs of a few codes) is 25-55 % larger at
+#: levels 1-2 than at 6, and level 1 is not even faster there: codes stay at GDAL's default.
+DEFLATE_LEVEL = {"values": 1, "codes": 6}  # project choice, measured (above)
 #: Overview levels of at most this many pixels are held in memory while the block pass writes them
-#: (16 MiB of float32; the levels of a raster together hold at most a third more).
-MEMORY_LEVEL_PX = 2**22
+#: (16 MiB of float32; the levels of a raster together hold at most a third more). Twice as many (the
+#: third level of a 20,000 px grid, 2,500 px square, in memory too) was measured with the levels halved
+#: from the valid pixels: no CPU saved within the noise, 70 MiB more peak memory in the national run,
+#: and edge tiles written whole are padded with zeros past the raster's edge (GDAL's choice), larger
+#: than the nodata padding of tiles written by pieces (docs/performance.md, benchmark 8).
+MEMORY_LEVEL_PX = 2**22  # project choice, measured (above)
 _TEMP_NAME = re.compile(r"^\..+\." + TEMP_MARKER + r"\.[A-Za-z0-9_]{8}.*(\.part|\.tiled\.tif|\.part\.gpkg(-journal|-wal|-shm)?)$")
 
 
@@ -214,9 +225,11 @@ class BlockRasterWriter:
         self._paths = [self._temp(".tiled.tif")] + [self._temp(f".o{k + 1}.tiled.tif") for k in range(len(self._levels))]
         self._profile = dict(driver="GTiff", count=1, dtype=dtype, nodata=nodata, tiled=True, blockxsize=COG_TILE,
                              blockysize=COG_TILE, BIGTIFF="IF_SAFER", SPARSE_OK="TRUE", compress="deflate",
+                             zlevel=DEFLATE_LEVEL["codes" if self.categorical else "values"],
                              predictor=(3 if not self.categorical else 2) if self.predictor else 1)
         self._ds = None
         self._level_ds = []
+        self._blank = {}
         #: the small levels, held in memory and written whole at close (a GDAL write costs about 60 us,
         #: more than the halving of a block's piece of a small level)
         self._level_mem = {k: np.full(hw, nodata, dtype=dtype) for k, hw in enumerate(self._levels, start=1)
@@ -250,57 +263,71 @@ class BlockRasterWriter:
                              transform=self.grid.transform * Affine.scale(2**k), **self._profile)
 
     def _halve_into_levels(self, window, flat_index, values) -> None:
-        """Write the window's piece of each overview level (:func:`peatburn.numerics.pyramids.halve`,
-        each level from the one below), up to the first level whose pixels the window does not hold whole."""
+        """Write the window's piece of each overview level (:func:`peatburn.numerics.pyramids.halve_cells`,
+        each level from the valid pixels of the one below), up to the first level whose pixels the window
+        does not hold whole. A level held in memory gets the valid pixels alone; a dense piece is formed
+        only for a level written through GDAL."""
         from rasterio.windows import Window
 
-        from ..numerics.pyramids import halve, halve_dense
+        from ..numerics.pyramids import halve_cells, scatter
 
         r0, c0, h, w = int(window.row_off), int(window.col_off), int(window.height), int(window.width)
         H, W = self.grid.height, self.grid.width
-        piece = None
+        cells, vals = flat_index, values
         for k in range(1, self._stale):
             if r0 % 2 or c0 % 2 or (h % 2 and r0 + h != H) or (w % 2 and c0 + w != W):
                 self._stale = k  # rebuilt at close from level k - 1
                 return
-            if piece is None:
-                piece = halve((h, w), flat_index, values, categorical=self.categorical, nodata=self.nodata)
-            else:
-                piece = halve_dense(piece, categorical=self.categorical, nodata=self.nodata)
+            cells, vals = halve_cells((h, w), cells, vals, categorical=self.categorical, nodata=self.nodata)
             r0, c0, H, W = r0 // 2, c0 // 2, (H + 1) // 2, (W + 1) // 2
-            h, w = piece.shape
-            if k in self._level_mem:
-                self._level_mem[k][r0:r0 + h, c0:c0 + w] = piece
-            else:
-                self._level_ds[k - 1].write(piece.astype(self.dtype, copy=False), 1, window=Window(c0, r0, w, h))
+            h, w = (h + 1) // 2, (w + 1) // 2
+            mem = self._level_mem.get(k)
+            if mem is not None:
+                mem[r0:r0 + h, c0:c0 + w] = self.nodata
+                mem[r0 + cells // w, c0 + cells % w] = vals
+            elif cells.size:  # an empty piece is not written: the level's file stays sparse there
+                piece = scatter((1, h, w), cells, vals, nodata=self.nodata, dtype=self.dtype)
+                self._level_ds[k - 1].write(piece, [1], window=Window(c0, r0, w, h))
 
     def write(self, window, array: np.ndarray):
         if np.dtype(self.dtype).kind == "f":
             a = np.where(np.isfinite(array), array, self.nodata).astype(self.dtype)
         else:
             a = np.asarray(array).astype(self.dtype)
-        self._ds.write(a, 1, window=window)
+        self._ds.write(a[None], [1], window=window)
         idx = np.flatnonzero(a != self.nodata)
         self._halve_into_levels(window, idx, a.ravel()[idx])
 
-    def write_at(self, window, mask: np.ndarray | None, values: np.ndarray):
+    def write_at(self, window, mask: np.ndarray | None, values: np.ndarray, flat_index: np.ndarray | None = None):
         """Write a window holding ``values`` at the pixels of ``mask`` and nodata elsewhere (NaN
         values are nodata too); ``mask`` None (or all False) writes nothing: the file is sparse
         (GDAL's SPARSE_OK), a block never written reads as nodata and costs neither compression nor
-        space, in the temporary file and in the COG (most blocks of a national run hold no scar)."""
-        if mask is None or not mask.any():
+        space, in the temporary file and in the COG (most blocks of a national run hold no scar).
+        ``flat_index``, if given, is ``numpy.flatnonzero(mask)`` (computed once for several rasters)."""
+        if mask is None:
+            return
+        idx = np.flatnonzero(mask) if flat_index is None else flat_index
+        if not idx.size:
             return
         shape = (int(window.height), int(window.width))
-        a = np.full(shape, self.nodata, dtype=self.dtype)
+        a = self._blank.get(shape)
+        if a is None:  # one array per window shape, reset after each write (a fresh one costs page faults)
+            a = self._blank[shape] = np.full(shape, self.nodata, dtype=self.dtype)
+        flat = a.reshape(-1)
         v = np.asarray(values)
         if np.dtype(self.dtype).kind == "f":
             v = np.where(np.isfinite(v), v, self.nodata)
-        a[mask] = v
-        self._ds.write(a, 1, window=window)
-        idx = np.flatnonzero(mask)
-        v = a.ravel()[idx]
+        try:
+            flat[idx] = v
+            self._ds.write(a[None], [1], window=window)  # (the 3-d form: rasterio's 2-d one stacks a copy)
+            v = flat[idx]  # the values as stored (the raster's dtype)
+        finally:
+            flat[idx] = self.nodata
         keep = v != self.nodata
-        self._halve_into_levels(window, idx[keep], v[keep])
+        if keep.all():
+            self._halve_into_levels(window, idx, v)
+        else:
+            self._halve_into_levels(window, idx[keep], v[keep])
 
     def _build_levels(self) -> None:
         """Close the levels; rebuild the stale ones (a window did not halve onto them), each from the
@@ -450,13 +477,18 @@ class BlockWrites:
         """``writer.write_at(window, mask, v)`` for each writer and its array of ``values``. With
         threads the writes are queued (``mask`` and the arrays must not change afterwards), and
         this waits while ``depth`` blocks are queued."""
+        if mask is None:
+            return
+        idx = np.flatnonzero(mask)  # once for all the writers
+        if not idx.size:
+            return
         if self._threads is None:
             for w, v in zip(self._writers, values):
-                w.write_at(window, mask, v)
+                w.write_at(window, mask, v, flat_index=idx)
             return
         while len(self._pending) >= self.depth:
             self._wait(self._pending.popleft())
-        self._pending.append([t.submit(w.write_at, window, mask, v)
+        self._pending.append([t.submit(w.write_at, window, mask, v, flat_index=idx)
                               for t, w, v in zip(self._threads, self._writers, values)])
 
     @staticmethod

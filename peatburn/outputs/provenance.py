@@ -65,8 +65,9 @@ def input_records(paths: dict) -> dict:
     return out
 
 
-def build(cfg, grid, alignment, factors, models=None, extra: dict | None = None) -> dict:
-    """The provenance.json content of a run."""
+def build(cfg, grid, alignment, factors, models=None, extra: dict | None = None, records: dict | None = None) -> dict:
+    """The provenance.json content of a run; ``records``: :func:`input_records` of ``cfg.input_paths()``
+    when the caller already has them (a run hashes its inputs while it finishes its tables)."""
     params = {"block_size": {"value": cfg.block_size, "unit": "px"}}
     if cfg.survey is not None:
         params.update({
@@ -88,7 +89,8 @@ def build(cfg, grid, alignment, factors, models=None, extra: dict | None = None)
         "versions": versions(),
         "config_file": str(cfg.source) if cfg.source else None,
         "config": cfg.raw,
-        "inputs": _recorded(input_records(cfg.input_paths()), getattr(cfg, "recorded_as", ())),
+        "inputs": _recorded(input_records(cfg.input_paths()) if records is None else records,
+                            getattr(cfg, "recorded_as", ())),
         "grid": grid.to_dict(),
         "parameters": params,
         "emission_factors": {"smouldering": _set(factors.smouldering), "flaming": _set(factors.flaming),

@@ -362,3 +362,6 @@ def test_run_cache_holds_two_block_rows_of_two_inputs_within_bounds():
     assert executors.run_cache_bytes(12_000, 512) == 2 * 2 * 12_000 * 512 * 4  # between the bounds
     assert executors.run_cache_bytes(300, 64) == 64 * 2**20  # floor
     assert executors.run_cache_bytes(100_000, 512) == 256 * 2**20  # cap
+    # blocks taller than a row of 512 px input tiles count as 512 rows (what the next row of blocks reads again)
+    assert executors.run_cache_bytes(12_000, 1024) == executors.run_cache_bytes(12_000, 512) == 2 * 2 * 12_000 * 512 * 4
+    assert executors.run_cache_bytes(20_000, 256) == 2 * 2 * 20_000 * 256 * 4  # smaller blocks: their rows

@@ -82,3 +82,26 @@ def test_coverage_count_of_overlapping_polygons():
     passes = [np.array([1, 1, 0]), np.array([0, 2, 2])]
     outside = np.array([0, 0, 0])
     assert coverage_count(passes + [outside]).tolist() == [1, 2, 1]
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.integers(1, 4), st.integers(0, 300), st.integers(1, 50_000), st.integers(0, 2**31 - 1))
+def test_compact_bins_sum_like_a_dense_bincount(passes, n, n_bins, seed):
+    """Sums over the bins a block touches (compact_bins) equal numpy's bincount over every bin of the
+    layer, for any bins per pass, zeros ("no zone") included."""
+    from peatburn.engine.zones import accumulate_stacked, compact_bins
+
+    rng = np.random.default_rng(seed)
+    bins = [np.where(rng.random(n) < 0.3, 0, rng.integers(1, n_bins + 1, n)) for _ in range(passes)]
+    w = rng.normal(size=(3, n))
+    present, local = compact_bins(bins)
+    got = np.zeros((3, n_bins + 1))
+    got[:, present] = accumulate_stacked(local, w, present.size + 1)[:, 1:]
+    want = np.zeros((3, n_bins + 1))
+    for b in bins:
+        for i in range(3):
+            want[i] += np.bincount(b, weights=w[i], minlength=n_bins + 1)
+    want[:, 0] = 0.0  # bin 0 collects nothing
+    np.testing.assert_allclose(got, want, rtol=1e-12, atol=1e-12)
+    every = np.concatenate(bins)
+    assert np.array_equal(present, np.unique(every[every > 0]))

@@ -179,3 +179,43 @@ def test_tiles_past_the_classic_tiff_limit_make_a_bigtiff(tmp_path, monkeypatch)
         kw = {} if level is None else {"overview_level": level}
         with rasterio.open(classic, **kw) as a, rasterio.open(big, **kw) as b:
             np.testing.assert_array_equal(a.read(1), b.read(1))
+
+
+@pytest.mark.parametrize("codes", [False, True])
+def test_levels_held_in_memory_or_written_by_pieces_give_the_same_pixels(tmp_path, monkeypatch, codes):
+    """The writer holds the small overview levels in memory (the valid pixels scattered into them) and
+    writes the large ones piece by piece through GDAL; with every level one way or the other, every level
+    reads back the same (values with NaN among them, written by ``write_at``; odd sizes)."""
+    from peatburn.io import writers
+
+    grid = _grid(1530, 1111)
+    rng = np.random.default_rng(11)
+    if codes:
+        full = np.where(rng.random(grid.shape) < 0.2, rng.integers(1, 4, grid.shape), 0).astype("uint8")
+        kw = dict(dtype="uint8", nodata=0)
+    else:
+        full = _scene(grid, 0.2, seed=4, quad=3)
+        full[::7, ::5] = np.nan  # NaN values inside the mask: nodata, left out of the levels
+        kw = {}
+    paths = []
+    for px in (0, 2**30):  # no level in memory / every level in memory
+        monkeypatch.setattr(writers, "MEMORY_LEVEL_PX", px)
+        p = tmp_path / f"m{px}.tif"
+        with BlockRasterWriter(p, grid, block_size=512, **kw) as w:
+            for win in grid.windows(512, group=2):
+                r0, c0 = int(win.row_off), int(win.col_off)
+                sub = full[r0:r0 + int(win.height), c0:c0 + int(win.width)]
+                mask = np.ones(sub.shape, bool) if not codes else sub > 0  # values: NaN inside the mask
+                w.write_at(win, mask, sub[mask])
+        paths.append(p)
+    with rasterio.open(paths[0]) as ds:
+        levels = [None] + list(range(len(ds.overviews(1))))
+        assert len(levels) == 3
+    for level in levels:
+        kw = {} if level is None else {"overview_level": level}
+        with rasterio.open(paths[0], **kw) as a, rasterio.open(paths[1], **kw) as b:
+            x, y = a.read(1), b.read(1)
+        np.testing.assert_array_equal(x, y)
+        if level is None:
+            want = full if codes else np.where(np.isfinite(full), full, -9999.0)
+            np.testing.assert_array_equal(x, want)

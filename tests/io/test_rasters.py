@@ -40,6 +40,28 @@ def test_aligned_read_equals_file(tmp_path):
     np.testing.assert_array_equal(got, exp)
 
 
+@pytest.mark.parametrize("origin, nodata", [((1000, 2000), -9999.0), ((1010, 1990), -9999.0), ((1000, 2000), None)])
+def test_read_at_equals_the_file_at_the_pixels(tmp_path, origin, nodata):
+    """read_at (the pixels of a mask only) gives the file's values there, read with rasterio's own
+    masked read (the reference), NaN for nodata and outside the file; windows inside the file, and
+    crossing its edge (the file offset by 5 px), scale applied."""
+    arr = np.arange(40 * 44, dtype="float32").reshape(40, 44)
+    arr[7, 9] = -9999
+    _write(tmp_path / "a.tif", arr, from_origin(*origin, 2, 2), nodata=nodata)
+    with rasterio.open(tmp_path / "a.tif") as ds:
+        ref = ds.read(1, masked=True).astype("float64").filled(np.nan) * 0.5
+    grid = RunGrid(CRS.from_epsg(32749), from_origin(1000, 2000, 2, 2), 44, 40)
+    r_off, c_off = round((2000 - origin[1]) / 2), round((origin[0] - 1000) / 2)
+    want = np.full((40, 44), np.nan)
+    want[r_off:, c_off:] = ref[:40 - r_off, :44 - c_off]
+    rng = np.random.default_rng(1)
+    with GridReader(RasterSource(str(tmp_path / "a.tif"), "a", scale=0.5), grid) as r:
+        for w in grid.windows(16):
+            sl = (slice(int(w.row_off), int(w.row_off + w.height)), slice(int(w.col_off), int(w.col_off + w.width)))
+            where = rng.random((int(w.height), int(w.width))) < 0.4
+            np.testing.assert_array_equal(r.read_at(w, where), want[sl][where])
+
+
 def test_offset_and_partial_cover_read(tmp_path):
     arr = np.ones((10, 10), "float32")
     _write(tmp_path / "small.tif", arr, from_origin(1010, 1990, 2, 2))  # 5 px right, 5 px down of grid origin

@@ -436,6 +436,25 @@ def default_sources(*, survey_bias_sd_m, survey_sigma_m, survey_range_m, interva
     return src
 
 
+#: Sources whose parameters the draws take as they are: source name -> {params key: the source's parameter}.
+_COPIED = {
+    "survey_bias": {"survey_bias_sd_m": "sd_m"},
+    "subsidence_rate": {"subsidence_rate_sd_m_per_yr": "sd_m_per_yr", "interval_years": "interval_years"},
+    "subsidence_rate_map": {"subsidence_rate_map_sd_m_per_yr": "sd_m_per_yr", "interval_years": "interval_years"},
+    "water_table_coefficients": {"wt_coef_cov": "cov"},
+    "bulk_density": {"bulk_density_cv": "cv"},
+    "carbon_fraction": {"carbon_fraction_cv": "cv"},
+    "fre_coefficient": {"fre_coefficient_cv": "cv"},
+    "biomass": {"biomass_cv": "cv"},
+    "combustion_factor": {"combustion_factor_cv": "cv"},
+    "tier1_fuel": {"tier1_fuel_cv": "cv"},
+    "surface_change": {"surface_change_sd_m": "sd_m"},
+    "burned_area": {"burned_area_cv": "cv"},
+    "fre_integration": {"fre_integration_cv": "single_observation_cv"},
+    "peat_property_fill": {"peat_fill_cv": "cv"},
+}
+
+
 def sources_to_params(sources, *, gwp=None) -> dict:
     """Turn a list of :class:`Source` into the numeric ``params`` of the draw functions.
 
@@ -459,8 +478,8 @@ def sources_to_params(sources, *, gwp=None) -> dict:
     p: dict = {}
     for s in sources:
         q = s.parameters
-        if s.name == "survey_bias":
-            p["survey_bias_sd_m"] = q["sd_m"]
+        if s.name in _COPIED:
+            p.update({key: q[field] for key, field in _COPIED[s.name].items()})
         elif s.name == "survey_random" and "components" in q:
             p.update(survey_sigma_m=q["sigma_m"], survey_nugget_m2=q["nugget_m2"], pixel_area_m2=q.get("pixel_area_m2"),
                      survey_components=[(c["partial_sill_m2"], c["range_m"]) for c in q["components"]],
@@ -468,38 +487,11 @@ def sources_to_params(sources, *, gwp=None) -> dict:
         elif s.name == "survey_random":
             p.update(survey_sigma_m=q["sigma_m"], survey_range_m=q["range_m"],
                      survey_nugget_fraction=q.get("nugget_fraction", 0.0), pixel_area_m2=q.get("pixel_area_m2"))
-        elif s.name == "subsidence_rate":
-            p.update(subsidence_rate_sd_m_per_yr=q["sd_m_per_yr"], interval_years=q["interval_years"])
-        elif s.name == "water_table_coefficients":
-            p["wt_coef_cov"] = q["cov"]
         elif s.name == "water_table_residual":
             p.update(wt_residual_sd_m=q["sd_m"], wt_residual_range_m=q.get("range_m"))
-        elif s.name == "bulk_density":
-            p["bulk_density_cv"] = q["cv"]
-        elif s.name == "carbon_fraction":
-            p["carbon_fraction_cv"] = q["cv"]
-        elif s.name == "emission_factors_smouldering":
-            p["ef_smouldering"] = {g: (v["ef_g_per_kg"], v["sd_g_per_kg"]) for g, v in q["gases"].items()}
-        elif s.name == "emission_factors_flaming":
-            p["ef_flaming"] = {g: (v["ef_g_per_kg"], v["sd_g_per_kg"]) for g, v in q["gases"].items()}
-        elif s.name == "fre_coefficient":
-            p["fre_coefficient_cv"] = q["cv"]
-        elif s.name == "biomass":
-            p["biomass_cv"] = q["cv"]
-        elif s.name == "combustion_factor":
-            p["combustion_factor_cv"] = q["cv"]
-        elif s.name == "subsidence_rate_map":
-            p.update(subsidence_rate_map_sd_m_per_yr=q["sd_m_per_yr"], interval_years=q["interval_years"])
-        elif s.name == "tier1_fuel":
-            p["tier1_fuel_cv"] = q["cv"]
-        elif s.name == "surface_change":
-            p["surface_change_sd_m"] = q["sd_m"]
-        elif s.name == "burned_area":
-            p["burned_area_cv"] = q["cv"]
-        elif s.name == "fre_integration":
-            p["fre_integration_cv"] = q["single_observation_cv"]
-        elif s.name == "peat_property_fill":
-            p["peat_fill_cv"] = q["cv"]
+        elif s.name in ("emission_factors_smouldering", "emission_factors_flaming"):
+            key = "ef_" + s.name.rsplit("_", 1)[1]
+            p[key] = {g: (v["ef_g_per_kg"], v["sd_g_per_kg"]) for g, v in q["gases"].items()}
         else:
             raise ConfigError(f"unknown uncertainty source {s.name!r}; known: {', '.join(SOURCE_NAMES)}")
     if gwp is not None:
