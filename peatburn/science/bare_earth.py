@@ -168,10 +168,8 @@ def idw_values(z, targets, k: int = IDW_NEIGHBOURS, power: float = IDW_POWER) ->
 
     Parameters
     ----------
-    z : float array (rows, cols) [m]
-        Elevations, NaN where a cell has none.
-    targets : bool array (rows, cols)
-        Cells to interpolate (without a value).
+    z, targets
+        As in :func:`tin_values`: elevations [m] (NaN where none) and the cells to interpolate.
     k : int
         Neighbours used (fewer when fewer cells hold a value).
     power : float [-]
