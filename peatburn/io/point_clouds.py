@@ -1,8 +1,11 @@
 """Classified lidar point clouds (LAS/LAZ) to a bare-earth GeoTIFF for the survey route.
 
 The points are read with laspy (LAZ through its lazrs backend: ``pip install 'peatburn[lidar]'``) in
-chunks, so the memory used is the grid's (12 bytes a cell), not the cloud's. Only ground returns (ASPRS
-class 2) count; the cell value is their mean elevation (:mod:`peatburn.science.bare_earth`). The grid
+chunks, so the memory used is the grid's (about 25 bytes a cell), not the cloud's. Only ground returns
+(ASPRS class 2) count; the cell value is their mean elevation (:mod:`peatburn.science.bare_earth`), and
+the cells with none within ``max_gap`` of one are filled (TIN or IDW, block by block) unless
+``fill="none"``; an optional uint8 GeoTIFF (``origin``) tells the measured cells (1) from the filled
+ones (2). The grid
 covers the files' header extent, snapped outward to multiples of the cell size, in the files' CRS (or
 the one given). The result is a cloud-optimised GeoTIFF that a configuration names as ``pre`` or
 ``post`` of ``[depth.survey]`` like any other elevation raster; a survey delivered as many tiles can be
@@ -18,9 +21,9 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import GridError, InputFileError, MissingInputError
-from ..science.bare_earth import GROUND_CLASS, cell_mean, cell_sums
+from ..science.bare_earth import GROUND_CLASS, cell_mean, cell_sums, fill_gaps
 
-#: Largest grid gridded at once [cells] (1.2 GB of sums and counts): beyond, grid the tiles one by one.
+#: Largest grid gridded at once [cells] (2.5 GB of sums, counts and elevations): beyond, grid the tiles one by one.
 MAX_CELLS = 100_000_000
 CHUNK_POINTS = 2_000_000
 
@@ -79,11 +82,21 @@ def ground_grid(paths, res: float, crs=None):
     return crs, Affine(res, 0.0, x0, 0.0, -res, y1), height, width
 
 
-def ground_raster(paths, out, *, res: float, crs=None) -> dict:
-    """Grid the ground returns (class 2) of the LAS/LAZ ``paths`` at ``res`` metres into the GeoTIFF
-    ``out`` (their mean elevation per cell; no value where a cell holds no ground return).
+#: Codes of the ``origin`` raster of :func:`ground_raster` (0: no value, the raster's nodata).
+ORIGIN_RETURNS, ORIGIN_FILLED = 1, 2
 
-    Returns a summary: points read, ground points, cells with a value, grid shape.
+
+def ground_raster(paths, out, *, res: float, crs=None, fill: str = "tin", max_gap: float | None = None,
+                  origin=None) -> dict:
+    """Grid the ground returns (class 2) of the LAS/LAZ ``paths`` at ``res`` metres into the GeoTIFF
+    ``out``: their mean elevation per cell; a cell without ground return within ``max_gap`` metres of
+    one (default :data:`~peatburn.science.bare_earth.MAX_GAP_CELLS` cells) is filled by ``fill``
+    ("tin", "idw" or "none", :func:`~peatburn.science.bare_earth.fill_gaps`); other cells have no value.
+    ``origin``: also write a uint8 GeoTIFF there, :data:`ORIGIN_RETURNS` where the cell holds ground
+    returns, :data:`ORIGIN_FILLED` where it was filled, 0 (nodata) where it has no value.
+
+    Returns a summary: points read, ground points, cells with ground returns, cells filled, cells with a
+    value, grid shape.
     """
     from ..grid import RunGrid
     from .writers import BlockRasterWriter
@@ -107,10 +120,28 @@ def ground_raster(paths, out, *, res: float, crs=None) -> dict:
         raise InputFileError(f"no point of {', '.join(str(p) for p in paths)} is classified as ground (ASPRS "
                              f"class {GROUND_CLASS}); classify the ground returns first")
     z = cell_mean(sums, counts)
+    measured = counts > 0
+    del sums, counts
+    try:
+        z, filled = fill_gaps(z, res, fill, max_gap)
+    except ValueError as exc:
+        raise GridError(f"{exc} (--fill, --max-gap)") from None
     grid = RunGrid(crs, transform, width, height)
-    with BlockRasterWriter(out, grid, description="bare-earth elevation (mean of ground returns)", units="m") as w:
+    what = "mean of ground returns" + ("" if fill == "none" else f", gaps filled by {fill.upper()}")
+    with BlockRasterWriter(out, grid, description=f"bare-earth elevation ({what})", units="m") as w:
         for win in grid.windows(512):
-            r0, c0 = int(win.row_off), int(win.col_off)
-            w.write(win, z[r0:r0 + int(win.height), c0:c0 + int(win.width)])
-    return {"points": total, "ground_points": ground, "cells_with_value": int((counts > 0).sum()),
-            "width": width, "height": height}
+            w.write(win, z[_window_slices(win)])
+    if origin is not None:
+        code = np.where(measured, ORIGIN_RETURNS, np.where(filled, ORIGIN_FILLED, 0)).astype(np.uint8)
+        with BlockRasterWriter(origin, grid, description=f"origin of {Path(out).name}: 1 ground returns, 2 filled",
+                               dtype="uint8", nodata=0) as w:
+            for win in grid.windows(512):
+                w.write(win, code[_window_slices(win)])
+    n_measured, n_filled = int(measured.sum()), int(filled.sum())
+    return {"points": total, "ground_points": ground, "cells_with_returns": n_measured, "cells_filled": n_filled,
+            "cells_with_value": n_measured + n_filled, "width": width, "height": height}
+
+
+def _window_slices(win):
+    r0, c0 = int(win.row_off), int(win.col_off)
+    return slice(r0, r0 + int(win.height)), slice(c0, c0 + int(win.width))
