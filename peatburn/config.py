@@ -84,8 +84,9 @@ MAX_DRAWS = 1_000_000
 MAX_BLOCK_SIZE = 4096
 #: Default ``run.block_size`` [px]. 1024: on the national benchmark (400 Mpx, 20,000 scars) a quarter of the
 #: blocks of 512 cut the run's CPU time by about a fifth (fewer per-block calls into GDAL, numpy and
-#: Python) for about 50 MiB more memory; 2048 gained little more for 230 MiB more (docs/performance.md,
-#: benchmark 8). Project choice, measured.
+#: Python), with no more memory once the GDAL cache stopped growing with the block (peak 661 against
+#: 752 MiB); 2048 saved little more CPU and peaked at 1.0 GiB (docs/performance.md, benchmark 8).
+#: Project choice, measured.
 DEFAULT_BLOCK_SIZE = 1024
 #: Smallest ``run.resolution`` [m]: 1 cm, finer than the elevation grids of airborne or drone
 #: surveys (common practice: decimetres to a metre); a finer pixel only multiplies the pixels.
