@@ -87,7 +87,7 @@ MAX_BLOCK_SIZE = 4096
 #: Python), with no more memory once the GDAL cache stopped growing with the block (peak 661 against
 #: 752 MiB); 2048 saved little more CPU and peaked at 1.0 GiB (docs/performance.md, benchmark 8).
 #: Project choice, measured.
-DEFAULT_BLOCK_SIZE = 1024
+DEFAULT_BLOCK_SIZE = 1024  # project choice, measured (above)
 #: Smallest ``run.resolution`` [m]: 1 cm, finer than the elevation grids of airborne or drone
 #: surveys (common practice: decimetres to a metre); a finer pixel only multiplies the pixels.
 MIN_RESOLUTION_M = 0.01

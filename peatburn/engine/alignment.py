@@ -26,7 +26,7 @@ SAMPLE_PIXELS = 2_000_000
 #: Largest side of a sample window [px] (the co-registration's, the depth model's calibration pairs',
 #: the fill values'): a run's block size when smaller, so that a larger ``run.block_size`` (a speed
 #: setting) spreads the same sample as the block size of 512 did, and changes no result (project choice).
-SAMPLE_BLOCK = 512
+SAMPLE_BLOCK = 512  # project choice (the default block size until the fifth session of issue 19)
 #: Stable-ground residuals kept for the variogram of the survey error.
 STABLE_SAMPLE_MAX = 50_000
 

@@ -54,7 +54,7 @@ WORKER_GDAL_CACHE = 128 * 2**20
 MAIN_GDAL_CACHE = 64 * 2**20
 MAX_GDAL_CACHE = 256 * 2**20
 #: Block rows counted by :func:`run_cache_bytes` at most [px]: one row of 512 px input tiles.
-CACHE_ROWS = 512
+CACHE_ROWS = 512  # common practice: the cache sized to the working set (above)
 #: Seconds to wait for a dask scheduler to answer.
 CONNECT_TIMEOUT = 10
 #: Chunks in flight per worker (submitted, not yet handed to the caller).

@@ -74,9 +74,9 @@ def cell_mean(sums, counts) -> np.ndarray:
 FILL_METHODS = ("tin", "idw", "none")
 #: Default largest distance filled, in cells [-]: gaps up to about eight cells across are filled, wider
 #: holes (water, dense vegetation, no return) stay empty (project choice).
-MAX_GAP_CELLS = 4.0
+MAX_GAP_CELLS = 4.0  # project choice
 #: Neighbours and power of the inverse-distance weighting (Shepard 1968 uses power 2; project choice: 8).
-IDW_NEIGHBOURS = 8
+IDW_NEIGHBOURS = 8  # project choice
 IDW_POWER = 2.0  # Shepard (1968), recalled, unchecked: weights 1 / d**2
 #: Cells filled at once (block side) and so the size of one triangulation: memory stays bounded on a large grid.
 FILL_BLOCK = 256  # measured (TIN): 256 and 512 take the same time; 1024 takes 1.7 times as long, 3 times the memory
