@@ -21,7 +21,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import GridError, InputFileError, MissingInputError
-from ..science.bare_earth import GROUND_CLASS, cell_mean, cell_sums, fill_gaps
+from ..science.bare_earth import GROUND_CLASS, add_cell_sums, cell_mean, fill_gaps
 
 #: Largest grid gridded at once [cells] (2.5 GB of sums, counts and elevations): beyond, grid the tiles one by one.
 MAX_CELLS = 100_000_000
@@ -112,10 +112,8 @@ def ground_raster(paths, out, *, res: float, crs=None, fill: str = "tin", max_ga
                 total += len(pts)
                 keep = np.asarray(pts.classification) == GROUND_CLASS
                 ground += int(keep.sum())
-                s, c = cell_sums(np.asarray(pts.x)[keep], np.asarray(pts.y)[keep], np.asarray(pts.z)[keep],
-                                 transform, (height, width))
-                sums += s
-                counts += c
+                add_cell_sums(sums, counts, np.asarray(pts.x)[keep], np.asarray(pts.y)[keep],
+                              np.asarray(pts.z)[keep], transform)
     if ground == 0:
         raise InputFileError(f"no point of {', '.join(str(p) for p in paths)} is classified as ground (ASPRS "
                              f"class {GROUND_CLASS}); classify the ground returns first")
@@ -130,18 +128,13 @@ def ground_raster(paths, out, *, res: float, crs=None, fill: str = "tin", max_ga
     what = "mean of ground returns" + ("" if fill == "none" else f", gaps filled by {fill.upper()}")
     with BlockRasterWriter(out, grid, description=f"bare-earth elevation ({what})", units="m") as w:
         for win in grid.windows(512):
-            w.write(win, z[_window_slices(win)])
+            w.write(win, z[win.toslices()])
     if origin is not None:
         code = np.where(measured, ORIGIN_RETURNS, np.where(filled, ORIGIN_FILLED, 0)).astype(np.uint8)
         with BlockRasterWriter(origin, grid, description=f"origin of {Path(out).name}: 1 ground returns, 2 filled",
                                dtype="uint8", nodata=0) as w:
             for win in grid.windows(512):
-                w.write(win, code[_window_slices(win)])
+                w.write(win, code[win.toslices()])
     n_measured, n_filled = int(measured.sum()), int(filled.sum())
     return {"points": total, "ground_points": ground, "cells_with_returns": n_measured, "cells_filled": n_filled,
             "cells_with_value": n_measured + n_filled, "width": width, "height": height}
-
-
-def _window_slices(win):
-    r0, c0 = int(win.row_off), int(win.col_off)
-    return slice(r0, r0 + int(win.height)), slice(c0, c0 + int(win.width))

@@ -47,16 +47,32 @@ def cell_sums(x, y, z, transform, shape) -> tuple[np.ndarray, np.ndarray]:
     counts : int64 array of ``shape`` [-]
         Points outside the grid are left out.
     """
-    rows, cols = int(shape[0]), int(shape[1])
+    sums = np.zeros((int(shape[0]), int(shape[1])))
+    counts = np.zeros(sums.shape, dtype=np.int64)
+    add_cell_sums(sums, counts, x, y, z, transform)
+    return sums, counts
+
+
+def add_cell_sums(sums, counts, x, y, z, transform) -> None:
+    """Add the elevations [m] and the count of the points ``x, y`` [m, the grid's CRS] to ``sums`` and
+    ``counts`` (float64 and int64 arrays of the grid, changed in place), as :func:`cell_sums` of these
+    points would.
+
+    Only the span of cells between the first and the last one the points fall in is counted (a chunk
+    of a LAS file covers a strip of a flight line), so adding a chunk costs in proportion to the cells it
+    reaches, not to the grid. Points outside the grid are left out.
+    """
+    rows, cols = sums.shape
     x, y, z = (np.asarray(v, dtype=np.float64).ravel() for v in (x, y, z))
     c = np.floor((x - transform.c) / transform.a).astype(np.int64)
     r = np.floor((y - transform.f) / transform.e).astype(np.int64)
     inside = (c >= 0) & (c < cols) & (r >= 0) & (r < rows)
     idx = r[inside] * cols + c[inside]
-    n = rows * cols
-    sums = np.bincount(idx, weights=z[inside], minlength=n).reshape(rows, cols)
-    counts = np.bincount(idx, minlength=n).reshape(rows, cols)
-    return sums, counts
+    if idx.size == 0:
+        return
+    lo, hi = int(idx.min()), int(idx.max()) + 1
+    sums.reshape(-1)[lo:hi] += np.bincount(idx - lo, weights=z[inside], minlength=hi - lo)
+    counts.reshape(-1)[lo:hi] += np.bincount(idx - lo, minlength=hi - lo)
 
 
 def cell_mean(sums, counts) -> np.ndarray:

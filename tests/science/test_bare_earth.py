@@ -115,3 +115,31 @@ def test_none_degenerate_and_bad_arguments():
         fill_gaps(z, res=1.0, method="kriging")
     with pytest.raises(ValueError, match="zero or more"):
         fill_gaps(z, res=1.0, max_gap=-1.0)
+
+
+def test_cell_sums_added_chunk_by_chunk_equal_scipy_binned_statistic():
+    """Points added in chunks (add_cell_sums, each chunk over the span of cells it reaches) give the
+    per-cell sums and counts of scipy.stats.binned_statistic_2d over all points at once (the reference);
+    points outside the grid are left out."""
+    from affine import Affine
+    from scipy.stats import binned_statistic_2d
+
+    from peatburn.science.bare_earth import add_cell_sums
+
+    rng = np.random.default_rng(5)
+    rows, cols, res = 30, 41, 2.0
+    t = Affine(res, 0.0, 1000.0, 0.0, -res, 5000.0)
+    x = rng.uniform(990.0, 1000.0 + cols * res + 10.0, 5000)  # some points beyond the grid's sides
+    y = rng.uniform(5000.0 - rows * res - 10.0, 5010.0, 5000)
+    x = np.sort(x)  # chunks that reach only part of the grid, as strips of a flight line do
+    z = rng.normal(20.0, 3.0, x.size)
+    sums, counts = np.zeros((rows, cols)), np.zeros((rows, cols), np.int64)
+    for part in np.array_split(np.arange(x.size), 7):
+        add_cell_sums(sums, counts, x[part], y[part], z[part], t)
+    col_edges = 1000.0 + res * np.arange(cols + 1)
+    row_edges = 5000.0 - res * np.arange(rows + 1)[::-1]  # ascending y; row 0 is the top
+    ref_sum = binned_statistic_2d(y, x, z, "sum", bins=[row_edges, col_edges]).statistic[::-1]
+    ref_n = binned_statistic_2d(y, x, z, "count", bins=[row_edges, col_edges]).statistic[::-1]
+    np.testing.assert_array_equal(counts, ref_n)
+    np.testing.assert_allclose(sums, ref_sum, rtol=1e-12, atol=1e-9)
+    assert 0 < counts.sum() < x.size
